@@ -1,0 +1,9 @@
+// Placeholder until the command lands; replaced by its owner.
+#include "cli/commands.hpp"
+#include "core/error.hpp"
+
+namespace periodfit::cli {
+Runner add_analyze(CLI::App&) {
+  return [] () -> int { throw Error("the analyze command is not built yet"); };
+}
+}  // namespace periodfit::cli

@@ -1,0 +1,9 @@
+// Placeholder until the command lands; replaced by its owner.
+#include "cli/commands.hpp"
+#include "core/error.hpp"
+
+namespace periodfit::cli {
+Runner add_info(CLI::App&) {
+  return [] () -> int { throw Error("the info command is not built yet"); };
+}
+}  // namespace periodfit::cli

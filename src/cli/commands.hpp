@@ -1,0 +1,20 @@
+#pragma once
+/// The command table's entries. Each cmd_<name>.cpp defines one `add_<name>` that declares the
+/// subcommand's options on `app` (bound to a library Options struct, defaults shown in --help)
+/// and returns the function that runs it and gives the exit code. Commands include no FFTW or
+/// Eigen headers: they parse, call one library function, and print.
+#include <CLI/CLI.hpp>
+#include <functional>
+
+namespace periodfit::cli {
+
+using Runner = std::function<int()>;
+
+Runner add_info(CLI::App& app);
+Runner add_analyze(CLI::App& app);
+Runner add_identify(CLI::App& app);
+Runner add_predict(CLI::App& app);
+Runner add_excite(CLI::App& app);
+Runner add_batch(CLI::App& app);
+
+}  // namespace periodfit::cli

@@ -1,0 +1,88 @@
+// periodfit: the command-line driver. Parses the command line, dispatches to one command, and
+// turns every library error into one `periodfit: error: …` line and exit code 2.
+#include <cstdio>
+#include <exception>
+#include <map>
+#include <string>
+
+#include "cli/commands.hpp"
+#include "core/error.hpp"
+#include "core/exit_code.hpp"
+
+namespace {
+
+struct Command {
+  const char* name;
+  const char* summary;
+  periodfit::cli::Runner (*add)(CLI::App&);
+};
+
+// The one command table: name, one-line description, and the function that declares it.
+constexpr Command kCommands[] = {
+    {"info", "describe captures: channels, units, rate, duration, statistics, metadata",
+     periodfit::cli::add_info},
+    {"analyze", "lock onto the fundamental; harmonics with uncertainties, THD, SINAD, ENOB",
+     periodfit::cli::add_analyze},
+    {"identify", "DUT frequency response with error bars and a fitted pole/zero model",
+     periodfit::cli::add_identify},
+    {"predict", "steady-state output of a model or FRF for a periodic input (superposition)",
+     periodfit::cli::add_predict},
+    {"excite", "write excitation signals (multisines, standard waveforms) as WAV or CSV",
+     periodfit::cli::add_excite},
+    {"batch", "run a characterisation over folders of captures; limits, summary, HTML report",
+     periodfit::cli::add_batch},
+};
+
+constexpr const char* kExitCodes =
+    "Exit codes: 0 success (batch: all passed), 1 batch: a limit failed, "
+    "2 error: bad usage, unreadable or invalid input.";
+
+void print_error(const std::string& message) {
+  std::fprintf(stderr, "periodfit: error: %s\n", message.c_str());
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  using periodfit::ExitCode;
+  using periodfit::to_int;
+  CLI::App app{"periodfit: measurement post-processor for sampled periodic waveforms", "periodfit"};
+  app.footer(kExitCodes);
+  app.require_subcommand(1);
+  app.set_version_flag("--version", std::string("periodfit ") + PERIODFIT_VERSION);
+  std::map<const CLI::App*, periodfit::cli::Runner> runners;
+  for (const auto& command : kCommands) {
+    CLI::App* sub = app.add_subcommand(command.name, command.summary);
+    sub->footer(kExitCodes);
+    runners[sub] = command.add(*sub);
+  }
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForAllHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    std::string message = e.what();
+    while (!message.empty() && (message.back() == '\n' || message.back() == '.')) message.pop_back();
+    for (auto& c : message)
+      if (c == '\n') c = ' ';
+    print_error(message + " (see periodfit --help)");
+    return to_int(ExitCode::error);
+  }
+  try {
+    for (const auto& [sub, run] : runners)
+      if (sub->parsed()) return run();
+    print_error("no command given (see periodfit --help)");
+    return to_int(ExitCode::error);
+  } catch (const periodfit::Error& e) {
+    print_error(e.what());
+  } catch (const std::bad_alloc&) {
+    print_error("out of memory");
+  } catch (const std::exception& e) {
+    print_error(std::string("internal error: ") + e.what());
+  }
+  return to_int(ExitCode::error);
+}

@@ -1,0 +1,39 @@
+#pragma once
+/// A capture: what an importer read from one file. Samples are doubles in the channel's unit
+/// (after calibration); time is uniform, t_k = t0_s + k / sample_rate_hz, where t = 0 is the
+/// file's time origin (the time column's zero, else the first sample, so t0_s = 0).
+#include <cstddef>
+#include <string>
+#include <string_view>
+#include <utility>
+#include <vector>
+
+namespace periodfit {
+
+struct Channel {
+  std::string name;             ///< header name, or ch0, ch1, … when the file has none
+  std::string unit;             ///< "V", "A", "FS" (audio full scale), or "" when unknown
+  std::vector<double> samples;  ///< one value per sample instant
+};
+
+struct Capture {
+  std::string source;           ///< path or test name the data came from
+  std::string format;           ///< "csv", "wav", "flac", … (what the importer recognised)
+  double sample_rate_hz = 0;    ///< samples per second, > 0 once imported
+  double t0_s = 0;              ///< time of the first sample relative to the file's origin
+  std::vector<Channel> channels;  ///< data channels; a CSV time column is not a channel
+  std::vector<std::pair<std::string, std::string>> metadata;  ///< preamble key/values, in order
+
+  std::size_t sample_count() const { return channels.empty() ? 0 : channels.front().samples.size(); }
+  double duration_s() const { return sample_rate_hz > 0 ? double(sample_count()) / sample_rate_hz : 0; }
+  std::vector<std::string> channel_names() const;
+
+  /// Index of a channel selected by name (exact, then case-insensitive) or by its 0-based
+  /// position among the data channels ("0", "1", …). Throws UnknownNameError listing the
+  /// channels that exist.
+  std::size_t channel_index(std::string_view selector) const;
+  const Channel& channel(std::string_view selector) const { return channels[channel_index(selector)]; }
+  Channel& channel(std::string_view selector) { return channels[channel_index(selector)]; }
+};
+
+}  // namespace periodfit

@@ -1,0 +1,28 @@
+#pragma once
+/// Reading any capture the tool accepts: CSV text exported by oscilloscopes and loggers, and
+/// audio files through libsndfile. The format is recognised from the content (audio magic
+/// numbers), not only the extension, so misnamed files still load.
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "core/capture.hpp"
+
+namespace periodfit::io {
+
+/// Calibration and overrides applied after import; channels are named or 0-based indices.
+struct ReadOptions {
+  double rate_hz = 0;  ///< 0 = from the file (time column, preamble, audio header); else overrides
+  std::vector<std::pair<std::string, double>> scales;       ///< CH=FACTOR, samples × FACTOR
+  std::vector<std::pair<std::string, std::string>> units;   ///< CH=UNIT, replaces the unit
+};
+
+/// Reads `path` (CSV or audio), applies `options`, and returns the capture. Throws IoError for
+/// OS failures and InputError (with line and column where they apply) for bad content.
+Capture read_capture(const std::string& path, const ReadOptions& options = {});
+
+/// Applies rate override, scales and units to an imported capture; unknown channel names throw
+/// UnknownNameError. Shared by every importer.
+void apply_read_options(Capture& capture, const ReadOptions& options);
+
+}  // namespace periodfit::io

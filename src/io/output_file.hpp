@@ -1,0 +1,17 @@
+#pragma once
+/// Writing result files so that a reader never sees half of one: content goes to a temporary
+/// file in the destination folder, is flushed, and is renamed over the destination (rename is
+/// atomic on POSIX file systems). A failure leaves the destination untouched and no temporary
+/// behind, and throws IoError naming the path and the OS reason.
+#include <string>
+#include <string_view>
+
+namespace periodfit::io {
+
+/// Writes `content` to `path` atomically. `path == "-"` writes to standard output instead.
+void write_file_atomic(const std::string& path, std::string_view content);
+
+/// Whole file as bytes; IoError names the path and reason (missing, a directory, permission).
+std::string read_file(const std::string& path);
+
+}  // namespace periodfit::io
