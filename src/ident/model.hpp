@@ -1,0 +1,29 @@
+#pragma once
+/// CONTRACT HEADER (shared by ident, predict and batch). Owner: ident. Fields may be added.
+///
+/// A rational transfer function with dead time, H(s) = B(s)/A(s)·e^{−sT}, B(s) = Σ b_i s^i
+/// (i = 0…M), A(s) = Σ a_i s^i (i = 0…N) with a_N = 1 (monic). Coefficients are in ascending
+/// powers of s with s in rad/s (SI), whatever scaling the fit used internally.
+#include <complex>
+#include <string>
+#include <vector>
+
+namespace periodfit::ident {
+
+struct RationalModel {
+  std::vector<double> num;   ///< b_0 … b_M
+  std::vector<double> den;   ///< a_0 … a_N, a_N == 1
+  double delay_s = 0;        ///< T
+  /// Covariance of the free parameters in the order [b_0…b_M, a_0…a_{N−1}, T (only when
+  /// delay_estimated)]; empty when unknown (e.g. a model typed on the command line).
+  std::vector<std::vector<double>> covariance;
+  bool delay_estimated = false;
+
+  std::size_t parameter_count() const { return num.size() + (den.empty() ? 0 : den.size() - 1) + (delay_estimated ? 1 : 0); }
+  /// H(jω) at angular frequency `omega_rad_s`.
+  std::complex<double> response(double omega_rad_s) const;
+  /// ∂H(jω)/∂θ for each free parameter, in covariance order.
+  std::vector<std::complex<double>> response_gradient(double omega_rad_s) const;
+};
+
+}  // namespace periodfit::ident
