@@ -1,0 +1,58 @@
+#pragma once
+/// The model file: our own JSON document holding a fitted H(s) = B(s)/A(s)·e^{−sT} with its
+/// parameter covariance, so `predict` (and people) can reuse a model without refitting. Schema
+/// and versioning rules: docs/model-file.md. Format name "periodfit-model", version 1.
+///
+/// Usage:
+///   ModelFile f = model_file_from_fit(fit, "bench_07.csv");
+///   write_model_file("dut.model.json", f);
+///   ModelFile g = read_model_file("dut.model.json");   // InputError names what is wrong
+#include <complex>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "ident/model.hpp"
+#include "ident/rational_fit.hpp"
+
+namespace periodfit::ident {
+
+inline constexpr std::string_view kModelFileFormat = "periodfit-model";
+inline constexpr int kModelFileVersion = 1;
+
+struct ModelFile {
+  RationalModel model;                       ///< num, den (monic), delay, covariance, delay_estimated
+  std::vector<std::string> parameter_names;  ///< covariance order ("b0"…, "a0"…, "T")
+  std::vector<std::complex<double>> poles;   ///< rad/s (informative: recomputable from den)
+  std::vector<std::complex<double>> zeros;   ///< rad/s
+  std::string source;        ///< what the model was fitted to (file names), may be empty
+  std::string created_by;    ///< "periodfit <version>"
+  double f0_hz = 0;          ///< fundamental of the measurement (0 = unknown)
+  bool has_fit = false;      ///< the fit summary below is meaningful
+  double cost = 0;           ///< weighted LS cost at the optimum
+  int dof = 0;
+  bool adequate = false;
+  std::string method;
+  std::vector<FrfPoint> frf; ///< the measured FRF points, optional (empty = not stored)
+};
+
+/// The file content for a fit result (model, covariance, names, roots, fit summary). `source`
+/// names the input; `frf` (optional) stores the measured points too.
+ModelFile model_file_from_fit(const RationalFitResult& fit, std::string source, double f0_hz = 0,
+                              std::vector<FrfPoint> frf = {});
+
+/// JSON text (keys in the documented order, doubles shortest round-trip), ending in a newline.
+std::string format_model_file(const ModelFile& file);
+
+/// Writes format_model_file atomically (path "-" = stdout).
+void write_model_file(const std::string& path, const ModelFile& file);
+
+/// Parses a model file; `name` is used in messages. Throws InputError (`name: message`) naming
+/// the key that is missing, of the wrong type, or inconsistent (den not monic, covariance of the
+/// wrong size or not symmetric, unknown format or a newer version).
+ModelFile parse_model_file(std::string_view text, std::string_view name);
+
+/// read_file + parse_model_file (IoError for OS failures).
+ModelFile read_model_file(const std::string& path);
+
+}  // namespace periodfit::ident

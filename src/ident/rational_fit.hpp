@@ -1,0 +1,166 @@
+#pragma once
+/// Fitting a rational model with dead time, H(s) = B(s)/A(s)·e^{−sT}, to measured frequency-
+/// response points {ω_k, H_k, Cov(Re H_k, Im H_k)}.
+///
+/// Noise model: each H_k carries independent (over k) Gaussian errors with the given 2×2
+/// covariance C_k of (Re, Im) (frequency-domain maximum likelihood with known noise: Pintelon &
+/// Schoukens, System Identification: A Frequency Domain Approach, 2nd ed., ch. 9). The cost is
+///   V(θ) = Σ_k e_kᵀ C_k⁻¹ e_k,   e_k = [Re, Im](H_k − Ĥ(jω_k; θ)),
+/// which at the optimum of a correct model follows χ² with dof = 2K − n_θ degrees of freedom
+/// (K points, n_θ free parameters). For circular noise (C_k = σ_k²/2·I, σ_k² = E|ΔH_k|²) it is
+/// V = Σ 2|H_k − Ĥ_k|²/σ_k². The model is adequate when V lies in the central `confidence` band
+/// of that χ² (Boost.Math quantiles).
+///
+/// Method (all in scaled frequency x = ω/ω_ref, ω_ref = sqrt(ω_min·ω_max), so the monomial
+/// columns stay O(1); every linear solve is a column-equilibrated Householder QR):
+///  1. Levy (1959): linearised equation error Σ |B(jx) − H A(jx)|²/σ² with A monic.
+///  2. Sanathanan–Koerner (1963): the same, weighted by 1/|A_prev(jx)|, iterated to a fixed point.
+///  3. Weighted nonlinear least squares (the Levenberg–Marquardt engine, ident/least_squares.hpp)
+///     of V(θ) with the analytic Jacobian; parameters b_0…b_M, a_0…a_{N−1} (a_N = 1) and T.
+/// With `estimate_delay`, T starts from the best of a grid of delays over one period of the
+/// lowest frequency (the FRF cannot tell T from T + 2π/ω_min when all ω_k are harmonics), each
+/// grid point scored by an SK fit of H·e^{jωT}.
+/// Covariance of θ = (JᵀJ)⁻¹ of the whitened residuals (known noise, not rescaled by V/dof).
+/// Roots are companion-matrix eigenvalues (in scaled frequency, then ×ω_ref); their 1σ come from
+/// ∂p/∂a_i = −p^i/A'(p) (∂z/∂b_i = −z^i/B'(z)) applied to the covariance; time constants,
+/// natural frequencies, damping ratios and Q are propagated from the roots to first order.
+///
+/// Misuse warning: the χ² verdict assumes the covariances are right. Covariances estimated from
+/// P periods are themselves uncertain (P − 1 degrees of freedom), which widens the true spread of
+/// V; with few periods read the verdict loosely. Root uncertainties are first order and are not
+/// defined at repeated roots (flagged `uncertainty_defined = false`). Delays beyond one period of
+/// the lowest frequency cannot be identified.
+///
+/// Usage:
+///   std::vector<FrfPoint> pts = …;                        // ω in rad/s, H_k, Cov(Re, Im)
+///   RationalFitOptions o; o.num_order = 0; o.den_order = 2;
+///   RationalFitResult fit = fit_rational(pts, o);         // throws AnalysisError if singular
+///   fit.model.den; fit.poles[0].natural_frequency_rad_s; fit.adequate;
+#include <complex>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "ident/least_squares.hpp"
+#include "ident/model.hpp"
+
+namespace periodfit::ident {
+
+/// One measured frequency-response point.
+struct FrfPoint {
+  double omega_rad_s = 0;         ///< angular frequency, > 0
+  std::complex<double> h;         ///< H(jω)
+  double var_re = 0;              ///< Var(Re H)
+  double var_im = 0;              ///< Var(Im H)
+  double cov_re_im = 0;           ///< Cov(Re H, Im H)
+  /// A point with circular noise of total variance E|ΔH|² = `variance` (half in Re, half in Im).
+  static FrfPoint circular(double omega_rad_s, std::complex<double> h, double variance) {
+    return {omega_rad_s, h, variance / 2, variance / 2, 0};
+  }
+};
+
+/// Model order M/N: numerator degree M, denominator degree N.
+struct ModelOrder {
+  int num = 0;  ///< M ≥ 0
+  int den = 1;  ///< N ≥ 1
+};
+
+/// Parses "M/N" (e.g. "1/2"); throws OptionError naming `field` otherwise. "auto" is not an order:
+/// callers check for it first.
+ModelOrder parse_model_order(std::string_view text, std::string_view field = "order");
+
+enum class InformationCriterion {
+  aic,  ///< Akaike: V + 2·n_θ
+  mdl,  ///< Rissanen's minimum description length: V + n_θ·ln(2K)
+};
+
+struct RationalFitOptions {
+  ModelOrder order;                 ///< used when auto_order is false
+  bool auto_order = false;          ///< true = search orders (see auto_max_den_order)
+  int auto_max_den_order = 4;       ///< auto: try N = 1…this, M = 0…N, by increasing n_θ
+  /// auto: when no tried order passes the χ² test, the order minimising this criterion wins.
+  InformationCriterion fallback_criterion = InformationCriterion::mdl;
+  bool estimate_delay = false;      ///< true = T is a free parameter
+  double delay_s = 0;               ///< fixed T when !estimate_delay (≥ 0)
+  double confidence = 0.95;         ///< χ² band for the adequacy verdict, in (0, 1)
+  int max_sk_iterations = 30;       ///< Sanathanan–Koerner iterations (0 = Levy start only)
+  double sk_tolerance = 1e-10;      ///< SK stop: relative change of the coefficients
+  int delay_grid_points = 0;        ///< delay start grid size; 0 = 8 per turn of the top harmonic (≤ 2000)
+  LeastSquaresOptions least_squares;  ///< the final weighted nonlinear fit
+  void validate() const;            ///< OptionError naming the field
+};
+
+/// A pole or zero with its uncertainty and the quantities engineers read from it.
+struct Root {
+  std::complex<double> value;       ///< rad/s
+  double re_u = 0;                  ///< 1σ of Re
+  double im_u = 0;                  ///< 1σ of Im
+  bool is_real = true;              ///< Im exactly 0 (real Schur block of the companion matrix)
+  bool uncertainty_defined = true;  ///< false at a (numerically) repeated root
+  /// Real root p ≠ 0: time constant τ = −1/p (s; negative for an unstable root). 0 otherwise.
+  double time_constant_s = 0;
+  double time_constant_u_s = 0;
+  /// Complex root p = σ ± jω_d (values shared by both members of the pair); 0 for real roots.
+  double natural_frequency_rad_s = 0;  ///< ω_n = |p|
+  double natural_frequency_u_rad_s = 0;
+  double damping_ratio = 0;            ///< ζ = −σ/|p|
+  double damping_ratio_u = 0;
+  double q_factor = 0;                 ///< Q = 1/(2ζ)
+  double q_factor_u = 0;
+};
+
+/// How one tried order scored (for auto order and for reports).
+struct OrderTrial {
+  ModelOrder order;
+  int parameters = 0;       ///< n_θ
+  double cost = 0;          ///< V at the optimum
+  int dof = 0;              ///< 2K − n_θ
+  double chi2_upper = 0;    ///< upper edge of the χ² band for dof
+  double aic = 0;
+  double mdl = 0;
+  bool passed = false;      ///< cost ≤ chi2_upper
+  bool failed = false;      ///< the fit was singular or did not converge (cost meaningless)
+  std::string note;         ///< why it failed, when it did
+};
+
+struct RationalFitResult {
+  RationalModel model;                 ///< SI, ascending powers of s, den monic, covariance filled
+  std::vector<std::string> parameter_names;  ///< "b0"…"bM", "a0"…"a{N-1}", "T": covariance order
+  std::vector<double> parameter_u;     ///< 1σ of each parameter (sqrt of the covariance diagonal)
+  std::vector<Root> poles;             ///< roots of A, sorted by |p| then Im
+  std::vector<Root> zeros;             ///< roots of B
+  bool dc_gain_defined = false;        ///< false when a_0 = 0 (integrator): dc gain infinite
+  double dc_gain = 0;                  ///< b_0/a_0
+  double dc_gain_u = 0;
+  double delay_s = 0;                  ///< T (estimated or the fixed one)
+  double delay_u_s = 0;                ///< 0 when T was fixed
+  double cost = 0;                     ///< V at the optimum (see header)
+  int dof = 0;                         ///< 2K − n_θ
+  double chi2_lower = 0;               ///< central `confidence` band of χ²(dof)
+  double chi2_upper = 0;
+  bool adequate = false;               ///< chi2_lower ≤ cost ≤ chi2_upper
+  bool unstable = false;               ///< some pole has Re p ≥ 0
+  double condition_number = 0;         ///< of the column-scaled Jacobian at the optimum (scaled ω)
+  int rank = 0;                        ///< numerical rank of that Jacobian
+  double omega_ref_rad_s = 0;          ///< frequency scale used internally
+  ModelOrder order;                    ///< order fitted
+  std::string order_decided_by;        ///< "requested", "chi2", "aic" or "mdl"
+  std::vector<OrderTrial> order_trials;  ///< auto: every order tried, in the order tried
+  LeastSquaresStatus status = LeastSquaresStatus::failed;  ///< of the final nonlinear fit
+  std::string method;                  ///< e.g. "levy+sk(12)+ml-lm(7)"
+  int sk_iterations = 0;
+  int iterations = 0;                  ///< LM iterations of the final fit
+  std::vector<std::complex<double>> fitted;  ///< Ĥ(jω_k) at the input points
+};
+
+/// Fits the model (see the header). Throws AnalysisError when there are too few points for the
+/// order (the message says how many are needed), when the fit is singular (rank-deficient
+/// linear start or Jacobian), and OptionError for invalid options or points (ω ≤ 0, non-finite
+/// values, a covariance that is not positive definite).
+RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const RationalFitOptions& options = {});
+
+/// Minimum number of FRF points for `order` (2 real equations per point, n_θ parameters, at
+/// least one degree of freedom left for the χ² verdict).
+int required_points(ModelOrder order, bool estimate_delay);
+
+}  // namespace periodfit::ident
