@@ -1,0 +1,226 @@
+#include "ident/frf.hpp"
+
+#include <algorithm>
+#include <boost/math/distributions/normal.hpp>
+#include <boost/math/distributions/students_t.hpp>
+#include <cmath>
+#include <numbers>
+
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+
+namespace periodfit::ident {
+
+namespace {
+
+constexpr double kDegPerRad = 180.0 / std::numbers::pi;
+
+/// Relative mismatch of f0 between the two spectra that still counts as "the same grid".
+constexpr double kSameF0Relative = 1e-12;
+
+void check_same_grid(const dsp::PeriodSpectra& u, const dsp::PeriodSpectra& y) {
+  const auto complete = [](const dsp::PeriodSpectra& s) {
+    const auto h = static_cast<std::size_t>(s.max_harmonic) + 1;
+    if (s.periods < 1 || s.max_harmonic < 1 || s.mean.size() != h) return false;
+    if (s.per_period.size() != static_cast<std::size_t>(s.periods)) return false;
+    for (const auto& p : s.per_period)
+      if (p.size() != h) return false;
+    return s.noise_bin_variance.empty() || s.noise_bin_variance.size() == h;
+  };
+  if (!complete(u) || !complete(y))
+    throw AnalysisError("FRF: the input or output spectrum is incomplete (no harmonics or periods)");
+  if (u.periods != y.periods || u.max_harmonic != y.max_harmonic ||
+      u.samples_per_period != y.samples_per_period ||
+      std::abs(u.f0_hz - y.f0_hz) > kSameF0Relative * std::abs(u.f0_hz))
+    throw AnalysisError("FRF: input and output are not on the same period grid (f0 " +
+                        io::format_shortest(u.f0_hz) + " vs " + io::format_shortest(y.f0_hz) +
+                        " Hz, " + std::to_string(u.periods) + " vs " +
+                        std::to_string(y.periods) + " periods, " +
+                        std::to_string(u.max_harmonic) + " vs " +
+                        std::to_string(y.max_harmonic) + " harmonics)");
+}
+
+/// Per-harmonic sample statistics of the averaged phasors over P periods.
+struct PeriodMoments {
+  double var_u = 0;  ///< variance of Ū (sample variance of one period / P)
+  double var_y = 0;
+  double var_re = 0, var_im = 0, cov_re_im = 0;  ///< of the linearised δH, divided by P
+};
+
+PeriodMoments period_moments(const dsp::PeriodSpectra& u, const std::vector<std::complex<double>>& y_mean,
+                             const std::vector<std::vector<std::complex<double>>>& y_periods,
+                             std::size_t n, std::complex<double> h) {
+  const auto periods = static_cast<std::size_t>(u.periods);
+  const double scale = 1.0 / (double(periods - 1) * double(periods));
+  PeriodMoments m;
+  const std::complex<double> u_mean = u.mean[n];
+  for (std::size_t p = 0; p < periods; ++p) {
+    const std::complex<double> du = u.per_period[p][n] - u_mean;
+    const std::complex<double> dy = y_periods[p][n] - y_mean[n];
+    m.var_u += std::norm(du);
+    m.var_y += std::norm(dy);
+    if (u_mean != 0.0) {
+      // δH_p = (δY − H·δU)/Ū: first-order deviation of Y/U (Pintelon & Schoukens §2.4).
+      const std::complex<double> dh = (dy - h * du) / u_mean;
+      m.var_re += dh.real() * dh.real();
+      m.var_im += dh.imag() * dh.imag();
+      m.cov_re_im += dh.real() * dh.imag();
+    }
+  }
+  m.var_u *= scale;
+  m.var_y *= scale;
+  m.var_re *= scale;
+  m.var_im *= scale;
+  m.cov_re_im *= scale;
+  return m;
+}
+
+}  // namespace
+
+void FrfOptions::validate() const {
+  if (!std::isfinite(min_snr_db) || min_snr_db < 0)
+    throw OptionError("min_snr_db", io::format_shortest(min_snr_db), "must be finite and >= 0");
+  if (!(confidence > 0 && confidence < 1))
+    throw OptionError("confidence", io::format_shortest(confidence), "must be in (0, 1)");
+  if (min_periods_for_sample_variance < 2)
+    throw OptionError("min_periods_for_sample_variance",
+                      std::to_string(min_periods_for_sample_variance), "must be >= 2");
+  if (!std::isfinite(skew_s))
+    throw OptionError("skew_s", io::format_shortest(skew_s), "must be finite");
+}
+
+std::vector<FrfPoint> fit_points(const FrfResult& frf) {
+  std::vector<FrfPoint> points;
+  points.reserve(frf.points.size());
+  for (const auto& p : frf.points)
+    points.push_back({2 * std::numbers::pi * p.freq_hz, p.h, p.var_re, p.var_im, p.cov_re_im});
+  return points;
+}
+
+double coverage_factor(double confidence, int dof) {
+  const double tail = 0.5 * (1 + confidence);
+  if (dof <= 0 || dof > kNormalQuantileDof)
+    return boost::math::quantile(boost::math::normal_distribution<double>(), tail);
+  return boost::math::quantile(boost::math::students_t_distribution<double>(double(dof)), tail);
+}
+
+FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra& output,
+                      const FrfOptions& options) {
+  options.validate();
+  check_same_grid(input, output);
+  const auto harmonics = static_cast<std::size_t>(input.max_harmonic);
+  const bool per_period = input.periods >= options.min_periods_for_sample_variance;
+  const bool have_bins = input.noise_bin_dof > 0 && output.noise_bin_dof > 0 &&
+                         input.noise_bin_variance.size() == harmonics + 1 &&
+                         output.noise_bin_variance.size() == harmonics + 1;
+  if (!per_period && !have_bins)
+    throw AnalysisError("FRF: no noise estimate: " + std::to_string(input.periods) +
+                        " period(s) and no noise bins between the harmonics; at least " +
+                        std::to_string(options.min_periods_for_sample_variance) +
+                        " whole periods are needed");
+
+  FrfResult r;
+  r.method = per_period ? "per-period-covariance" : "noise-bins";
+  r.f0_hz = input.f0_hz;
+  r.periods = input.periods;
+  r.max_harmonic = input.max_harmonic;
+  r.dof = per_period ? input.periods - 1 : std::min(input.noise_bin_dof, output.noise_bin_dof);
+  r.output_noise_dof = per_period ? 2 * (input.periods - 1) : output.noise_bin_dof;
+  r.confidence = options.confidence;
+  r.coverage_factor = coverage_factor(options.confidence, r.dof);
+  r.quantile = r.dof > kNormalQuantileDof ? "normal" : "student-t";
+  if (!per_period) r.flags.push_back("few-periods");
+
+  // Deskew: the recorded output lags by skew_s, so Y_true = Y_rec·e^{+jnω0·skew}. Rotating the
+  // per-period phasors too keeps their spread about the rotated mean unchanged.
+  const double w0 = 2 * std::numbers::pi * input.f0_hz;
+  std::vector<std::complex<double>> y_mean = output.mean;
+  std::vector<std::vector<std::complex<double>>> y_periods = output.per_period;
+  if (options.skew_s != 0) {
+    for (std::size_t n = 0; n <= harmonics; ++n) {
+      const std::complex<double> rot = std::polar(1.0, double(n) * w0 * options.skew_s);
+      y_mean[n] *= rot;
+      for (auto& p : y_periods) p[n] *= rot;
+    }
+  }
+
+  // The numerical floor scales with the largest phasor, dc included: a constant record's
+  // harmonics are rounding relative to its dc value.
+  double max_u = 0, max_y = 0;
+  for (std::size_t n = 0; n <= harmonics; ++n) {
+    max_u = std::max(max_u, std::abs(input.mean[n]));
+    max_y = std::max(max_y, std::abs(y_mean[n]));
+  }
+  const double input_numerical_floor = std::pow(kNumericalFloorRelative * max_u, 2);
+  const double output_numerical_floor = std::pow(kNumericalFloorRelative * max_y, 2);
+  const double min_ratio = std::pow(10.0, options.min_snr_db / 10);
+
+  r.input_noise_floor.assign(harmonics + 1, 0.0);
+  r.output_noise_floor.assign(harmonics + 1, 0.0);
+  for (std::size_t n = 1; n <= harmonics; ++n) {
+    const std::complex<double> u = input.mean[n];
+    const std::complex<double> y = y_mean[n];
+    const std::complex<double> h = u != 0.0 ? y / u : std::complex<double>(0);
+    double var_u = 0, var_y = 0;
+    PeriodMoments m;
+    if (per_period) {
+      m = period_moments(input, y_mean, y_periods, n, h);
+      var_u = m.var_u;
+      var_y = m.var_y;
+    } else {
+      var_u = input.noise_bin_variance[n];
+      var_y = output.noise_bin_variance[n];
+    }
+    r.input_noise_floor[n] = std::max(var_u, input_numerical_floor);
+    r.output_noise_floor[n] = std::max(var_y, output_numerical_floor);
+    const double snr = std::norm(u) / r.input_noise_floor[n];
+    if (!(snr > min_ratio)) {
+      r.unexcited.push_back(int(n));
+      continue;
+    }
+    FrfHarmonic pt;
+    pt.n = int(n);
+    pt.freq_hz = double(n) * input.f0_hz;
+    pt.u = u;
+    pt.y = y;
+    pt.h = h;
+    pt.re = h.real();
+    pt.im = h.imag();
+    pt.mag = std::abs(h);
+    pt.mag_db = 20 * std::log10(pt.mag);
+    pt.phase_deg = std::arg(h) * kDegPerRad;
+    pt.input_snr_db = 10 * std::log10(snr);
+    if (per_period) {
+      pt.var_re = m.var_re;
+      pt.var_im = m.var_im;
+      pt.cov_re_im = m.cov_re_im;
+    } else {
+      // Uncorrelated circular noise on Ū and Ȳ: σ²_H = |H|²(σ²_Y/|Y|² + σ²_U/|U|²)
+      // = (σ²_Y + |H|²σ²_U)/|U|², split equally between Re and Im.
+      const double var_h = (var_y + std::norm(h) * var_u) / std::norm(u);
+      pt.var_re = pt.var_im = 0.5 * var_h;
+      pt.cov_re_im = 0;
+    }
+    pt.var_h = pt.var_re + pt.var_im;
+    // Radial and tangential projections of the 2×2 covariance give |H| and phase variances.
+    const double c = pt.mag > 0 ? pt.re / pt.mag : 1.0;
+    const double s = pt.mag > 0 ? pt.im / pt.mag : 0.0;
+    const double var_mag = c * c * pt.var_re + s * s * pt.var_im + 2 * c * s * pt.cov_re_im;
+    const double var_tan = s * s * pt.var_re + c * c * pt.var_im - 2 * c * s * pt.cov_re_im;
+    pt.mag_u = std::sqrt(std::max(var_mag, 0.0));
+    pt.phase_u_deg = pt.mag > 0 ? std::sqrt(std::max(var_tan, 0.0)) / pt.mag * kDegPerRad : 0.0;
+    pt.mag_db_u = pt.mag > 0 ? 20 / std::numbers::ln10 * pt.mag_u / pt.mag : 0.0;
+    pt.mag_lo = pt.mag - r.coverage_factor * pt.mag_u;
+    pt.mag_hi = pt.mag + r.coverage_factor * pt.mag_u;
+    pt.phase_lo_deg = pt.phase_deg - r.coverage_factor * pt.phase_u_deg;
+    pt.phase_hi_deg = pt.phase_deg + r.coverage_factor * pt.phase_u_deg;
+    r.points.push_back(pt);
+  }
+  if (r.points.empty())
+    throw AnalysisError("FRF: no excited harmonic: no input harmonic 1…" +
+                        std::to_string(input.max_harmonic) + " exceeds the input noise floor by " +
+                        io::format_shortest(options.min_snr_db) + " dB");
+  return r;
+}
+
+}  // namespace periodfit::ident
