@@ -90,6 +90,7 @@ struct LeastSquaresResult {
   /// n×n row-major (JᵀJ)⁻¹: the covariance when residuals are whitened with known noise.
   std::vector<double> covariance_unscaled;
   /// n×n row-major s²(JᵀJ)⁻¹, s² = cost/dof: the covariance when the noise level is estimated.
+  /// Empty (and standard_errors too) when dof = 0: no noise estimate exists.
   std::vector<double> covariance;
   std::vector<double> standard_errors;  ///< sqrt of the diagonal of `covariance`
   std::vector<double> residuals;        ///< r at `parameters`

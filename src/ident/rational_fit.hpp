@@ -155,8 +155,10 @@ struct RationalFitResult {
 
 /// Fits the model (see the header). Throws AnalysisError when there are too few points for the
 /// order (the message says how many are needed), when the fit is singular (rank-deficient
-/// linear start or Jacobian), and OptionError for invalid options or points (ω ≤ 0, non-finite
-/// values, a covariance that is not positive definite).
+/// linear start or Jacobian) or a point is invalid (ω ≤ 0, non-finite values, a covariance that
+/// is not positive definite; the message names the point), and OptionError for invalid options.
+/// Auto order: orders are tried by increasing n_θ (then lower N), M ≤ N ≤ auto_max_den_order;
+/// the first whose cost ≤ chi2_upper wins ("chi2"), else the lowest fallback criterion.
 RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const RationalFitOptions& options = {});
 
 /// Minimum number of FRF points for `order` (2 real equations per point, n_θ parameters, at
