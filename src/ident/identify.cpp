@@ -1,0 +1,415 @@
+#include "ident/identify.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+#include "report/table.hpp"
+
+namespace periodfit::ident {
+
+namespace {
+
+/// Highest harmonic by default: the lock stage's limit (below 0.45·fs, at most 50).
+constexpr int kDefaultMaxHarmonic = 50;
+constexpr double kNyquistFraction = 0.45;
+/// Two captures count as one time base when their rates agree to this relative tolerance
+/// (rates parsed from text may differ in the last digit).
+constexpr double kSameRateRelative = 1e-9;
+
+using json = nlohmann::ordered_json;
+
+/// JSON number, or null when the value is not finite (never a silent NaN in a file).
+json number(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
+
+std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
+
+std::string list_harmonics(const std::vector<int>& n) {
+  std::string s;
+  for (std::size_t i = 0; i < n.size(); ++i) s += (i ? ", " : "") + std::to_string(n[i]);
+  return s;
+}
+
+std::string sig(double v, int digits = 6) { return std::isfinite(v) ? io::format_significant(v, digits) : "-"; }
+
+struct Selected {
+  const Capture* capture;
+  const Channel* channel;
+};
+
+IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
+  options.validate();
+  const Capture& ci = *in.capture;
+  if (!(ci.sample_rate_hz > 0))
+    throw AnalysisError(ci.source + ": sample rate unknown (give --rate)");
+  IdentifyResult r;
+  r.input_source = ci.source;
+  r.output_source = out.capture->source;
+  r.input_channel = in.channel->name;
+  r.output_channel = out.channel->name;
+  r.input_unit = in.channel->unit;
+  r.output_unit = out.channel->unit;
+  r.sample_rate_hz = ci.sample_rate_hz;
+  r.skew_s = options.frf.skew_s;
+  const double fs = ci.sample_rate_hz;
+
+  dsp::LockOptions lock;
+  lock.f0_hz = options.f0_hz;
+  lock.f0_hint_hz = options.f0_hint_hz;
+  lock.max_harmonic = options.max_harmonic;
+  r.fundamental = dsp::estimate_fundamental(in.channel->samples, fs, lock);
+  const double f0 = r.fundamental.f0_hz;
+  if (!(f0 > 0) || !std::isfinite(f0))
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
+                        "\" has no periodic component");
+  const int nyquist_harmonics = int(std::floor(kNyquistFraction * fs / f0));
+  if (nyquist_harmonics < 1)
+    throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
+                        " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
+  const int harmonics = std::min(options.max_harmonic > 0 ? options.max_harmonic : kDefaultMaxHarmonic,
+                                 nyquist_harmonics);
+  int m = options.samples_per_period;
+  if (m == 0) {
+    m = std::max(2 * harmonics + 2, int(std::ceil(fs / f0)));
+    m += m % 2;
+  }
+  r.samples_per_period = m;
+  const dsp::PeriodGrid grid_u = dsp::resample_to_periods(in.channel->samples, fs, ci.t0_s, f0, m);
+  const dsp::PeriodGrid grid_y =
+      dsp::resample_to_periods(out.channel->samples, fs, out.capture->t0_s, f0, m);
+  const dsp::PeriodSpectra su = dsp::period_spectra(grid_u, harmonics);
+  const dsp::PeriodSpectra sy = dsp::period_spectra(grid_y, harmonics);
+  try {
+    r.frf = compute_frf(su, sy, options.frf);
+  } catch (const AnalysisError& e) {
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
+  }
+  r.linearity = check_linearity(r.frf, sy, options.linearity);
+  for (const auto& f : r.frf.flags) r.flags.push_back(f);
+  if (r.linearity.nonlinear) r.flags.push_back("nonlinear");
+
+  if (!options.order.empty()) {
+    RationalFitOptions fit = options.fit;
+    fit.auto_order = options.order == "auto";
+    if (!fit.auto_order) fit.order = parse_model_order(options.order, "order");
+    fit.estimate_delay = options.estimate_delay;
+    const ModelOrder smallest = fit.auto_order ? ModelOrder{0, 1} : fit.order;
+    const int needed = required_points(smallest, fit.estimate_delay);
+    const auto have = int(r.frf.points.size());
+    if (have < needed) {
+      std::vector<int> ns;
+      for (const auto& p : r.frf.points) ns.push_back(p.n);
+      throw AnalysisError("model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
+                          (fit.estimate_delay ? " with delay" : "") + " needs at least " +
+                          std::to_string(needed) + " excited harmonics; the input excites " +
+                          std::to_string(have) + " (n = " + list_harmonics(ns) + ")");
+    }
+    r.model = fit_rational(fit_points(r.frf), fit);
+    r.model_confidence = fit.confidence;
+    if (!r.model->adequate) {
+      r.flags.push_back("model-inadequate");
+      r.status = "model-inadequate";
+    }
+    if (r.model->unstable) r.flags.push_back("unstable-pole");
+    if (r.model->status == LeastSquaresStatus::max_iterations ||
+        r.model->status == LeastSquaresStatus::failed) {
+      r.flags.push_back("model-not-converged");
+      r.status = "model-not-converged";
+    }
+  }
+  return r;
+}
+
+json root_json(const Root& p) {
+  json j;
+  j["re"] = number(p.value.real());
+  j["im"] = number(p.value.imag());
+  j["re_u"] = number(p.re_u);
+  j["im_u"] = number(p.im_u);
+  j["uncertainty_defined"] = p.uncertainty_defined;
+  if (p.is_real) {
+    j["time_constant_s"] = number(p.time_constant_s);
+    j["time_constant_u_s"] = number(p.time_constant_u_s);
+  } else {
+    j["natural_frequency_rad_s"] = number(p.natural_frequency_rad_s);
+    j["natural_frequency_u_rad_s"] = number(p.natural_frequency_u_rad_s);
+    j["damping_ratio"] = number(p.damping_ratio);
+    j["damping_ratio_u"] = number(p.damping_ratio_u);
+    j["q_factor"] = number(p.q_factor);
+    j["q_factor_u"] = number(p.q_factor_u);
+  }
+  return j;
+}
+
+json line_json(const DistortionLine& l) {
+  return json{{"n", l.n},
+              {"freq_hz", number(l.freq_hz)},
+              {"amplitude", number(l.amplitude)},
+              {"level_dbc", number(l.level_dbc)},
+              {"above_floor_db", number(l.above_floor_db)}};
+}
+
+json optional_number(const std::optional<double>& v) { return v ? number(*v) : json(nullptr); }
+
+std::string h_unit(const IdentifyResult& r) {
+  if (r.input_unit.empty() && r.output_unit.empty()) return "";
+  return (r.output_unit.empty() ? "1" : r.output_unit) + "/" + (r.input_unit.empty() ? "1" : r.input_unit);
+}
+
+/// Value of free parameter i in covariance order [b_0…b_M, a_0…a_{N−1}, T].
+double parameter_value(const RationalFitResult& f, std::size_t i) {
+  const std::size_t nb = f.model.num.size(), na = f.model.den.size() - 1;
+  if (i < nb) return f.model.num[i];
+  if (i < nb + na) return f.model.den[i - nb];
+  return f.delay_s;
+}
+
+std::string pm(double v, double u, int digits = 6) { return sig(v, digits) + " ± " + sig(u, 2); }
+
+}  // namespace
+
+void IdentifyOptions::validate() const {
+  if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
+  if (output_channel.empty()) throw OptionError("output_channel", "\"\"", "must name a channel");
+  if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
+    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
+  if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
+    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
+  if (max_harmonic < 0)
+    throw OptionError("max_harmonic", std::to_string(max_harmonic), "must be >= 0 (0 = automatic)");
+  if (samples_per_period != 0 && samples_per_period < 2 * std::max(max_harmonic, 1) + 2)
+    throw OptionError("samples_per_period", std::to_string(samples_per_period),
+                      "must be 0 (automatic) or >= 2·max_harmonic + 2");
+  frf.validate();
+  linearity.validate();
+  if (!order.empty() && order != "auto") (void)parse_model_order(order, "order");
+}
+
+IdentifyResult identify(const Capture& capture, const IdentifyOptions& options) {
+  options.validate();
+  const std::size_t iu = capture.channel_index(options.input_channel);
+  const std::size_t iy = capture.channel_index(options.output_channel);
+  if (iu == iy)
+    throw AnalysisError(capture.source + ": input and output are the same channel \"" +
+                        capture.channels[iu].name + "\"");
+  return run({&capture, &capture.channels[iu]}, {&capture, &capture.channels[iy]}, options);
+}
+
+IdentifyResult identify(const Capture& input_capture, const Capture& output_capture,
+                        const IdentifyOptions& options) {
+  options.validate();
+  const double a = input_capture.sample_rate_hz, b = output_capture.sample_rate_hz;
+  if (std::abs(a - b) > kSameRateRelative * std::max(std::abs(a), std::abs(b)))
+    throw AnalysisError("input and output captures differ in sample rate: " + io::format_shortest(a) +
+                        " Hz (" + input_capture.source + ") vs " + io::format_shortest(b) + " Hz (" +
+                        output_capture.source + ")");
+  if (input_capture.sample_count() != output_capture.sample_count())
+    throw AnalysisError("input and output captures differ in length: " +
+                        std::to_string(input_capture.sample_count()) + " samples (" +
+                        input_capture.source + ") vs " + std::to_string(output_capture.sample_count()) +
+                        " samples (" + output_capture.source + ")");
+  const Channel& u = input_capture.channel(options.input_channel);
+  const Channel& y = output_capture.channel(options.output_channel);
+  return run({&input_capture, &u}, {&output_capture, &y}, options);
+}
+
+nlohmann::ordered_json identify_json(const IdentifyResult& r) {
+  json j;
+  j["f0_hz"] = number(r.fundamental.f0_hz);
+  j["f0_u_hz"] = number(r.fundamental.f0_u_hz);
+  j["f0_method"] = r.fundamental.method;
+  j["status"] = r.status;
+  j["input"] = json{{"source", r.input_source}, {"channel", r.input_channel}, {"unit", r.input_unit}};
+  j["output"] = json{{"source", r.output_source}, {"channel", r.output_channel}, {"unit", r.output_unit}};
+  j["h_unit"] = h_unit(r);
+  j["sample_rate_hz"] = number(r.sample_rate_hz);
+  j["periods"] = r.frf.periods;
+  j["samples_per_period"] = r.samples_per_period;
+  j["max_harmonic"] = r.frf.max_harmonic;
+  j["skew_s"] = number(r.skew_s);
+  j["frf_method"] = r.frf.method;
+  j["frf_dof"] = r.frf.dof;
+  j["confidence"] = number(r.frf.confidence);
+  j["coverage_factor"] = number(r.frf.coverage_factor);
+  j["quantile"] = r.frf.quantile;
+  json frf = json::array();
+  for (const auto& p : r.frf.points) {
+    frf.push_back(json{{"n", p.n},
+                       {"freq_hz", number(p.freq_hz)},
+                       {"re", number(p.re)},
+                       {"im", number(p.im)},
+                       {"mag", number(p.mag)},
+                       {"mag_db", number(p.mag_db)},
+                       {"phase_deg", number(p.phase_deg)},
+                       {"mag_u", number(p.mag_u)},
+                       {"phase_u_deg", number(p.phase_u_deg)},
+                       {"mag_db_u", number(p.mag_db_u)},
+                       {"mag_lo", number(p.mag_lo)},
+                       {"mag_hi", number(p.mag_hi)},
+                       {"phase_lo_deg", number(p.phase_lo_deg)},
+                       {"phase_hi_deg", number(p.phase_hi_deg)},
+                       {"var_re", number(p.var_re)},
+                       {"var_im", number(p.var_im)},
+                       {"cov_re_im", number(p.cov_re_im)},
+                       {"input_snr_db", number(p.input_snr_db)}});
+  }
+  j["frf"] = frf;
+  json lin;
+  lin["status"] = r.linearity.status;
+  lin["nonlinear"] = r.linearity.nonlinear;
+  lin["method"] = r.linearity.method;
+  lin["tested"] = r.linearity.tested;
+  lin["dof"] = r.linearity.dof;
+  lin["threshold_db"] = number(r.linearity.threshold_db);
+  lin["level_db"] = optional_number(r.linearity.level_db);
+  lin["odd_level_db"] = optional_number(r.linearity.odd_level_db);
+  lin["even_level_db"] = optional_number(r.linearity.even_level_db);
+  lin["odd"] = json::array();
+  for (const auto& l : r.linearity.odd) lin["odd"].push_back(line_json(l));
+  lin["even"] = json::array();
+  for (const auto& l : r.linearity.even) lin["even"].push_back(line_json(l));
+  j["linearity"] = lin;
+  if (r.model) {
+    const RationalFitResult& f = *r.model;
+    json m;
+    m["order"] = order_text(f.order);
+    m["order_decided_by"] = f.order_decided_by;
+    m["num"] = json::array();
+    for (double v : f.model.num) m["num"].push_back(number(v));
+    m["den"] = json::array();
+    for (double v : f.model.den) m["den"].push_back(number(v));
+    m["delay_s"] = number(f.delay_s);
+    m["delay_u_s"] = number(f.delay_u_s);
+    m["delay_estimated"] = f.model.delay_estimated;
+    m["poles"] = json::array();
+    for (const auto& p : f.poles) m["poles"].push_back(root_json(p));
+    m["zeros"] = json::array();
+    for (const auto& z : f.zeros) m["zeros"].push_back(root_json(z));
+    m["dc_gain"] = f.dc_gain_defined ? number(f.dc_gain) : json(nullptr);
+    m["dc_gain_u"] = f.dc_gain_defined ? number(f.dc_gain_u) : json(nullptr);
+    m["cost"] = number(f.cost);
+    m["dof"] = f.dof;
+    m["chi2_lower"] = number(f.chi2_lower);
+    m["chi2_upper"] = number(f.chi2_upper);
+    m["adequate"] = f.adequate;
+    m["unstable"] = f.unstable;
+    m["parameters"] = json::array();
+    for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
+      const double value = parameter_value(f, i);
+      m["parameters"].push_back(json{{"name", f.parameter_names[i]},
+                                     {"value", number(value)},
+                                     {"u", i < f.parameter_u.size() ? number(f.parameter_u[i]) : json(nullptr)}});
+    }
+    m["covariance"] = json::array();
+    for (const auto& row : f.model.covariance) {
+      json jr = json::array();
+      for (double v : row) jr.push_back(number(v));
+      m["covariance"].push_back(jr);
+    }
+    m["condition_number"] = number(f.condition_number);
+    m["method"] = f.method;
+    m["fit_status"] = to_string(f.status);
+    if (!f.order_trials.empty()) {
+      m["order_trials"] = json::array();
+      for (const auto& t : f.order_trials)
+        m["order_trials"].push_back(json{{"order", order_text(t.order)},
+                                         {"parameters", t.parameters},
+                                         {"cost", t.failed ? json(nullptr) : number(t.cost)},
+                                         {"dof", t.dof},
+                                         {"chi2_upper", number(t.chi2_upper)},
+                                         {"passed", t.passed},
+                                         {"failed", t.failed},
+                                         {"note", t.note}});
+    }
+    j["model"] = m;
+  } else {
+    j["model"] = nullptr;
+  }
+  j["flags"] = r.flags;
+  return j;
+}
+
+std::string format_identify_report(const IdentifyResult& r) {
+  using report::Table;
+  std::string out;
+  const std::string unit = h_unit(r);
+  std::vector<std::pair<std::string, std::string>> head{
+      {"input", r.input_source + " \"" + r.input_channel + "\"" + (r.input_unit.empty() ? "" : " [" + r.input_unit + "]")},
+      {"output", r.output_source + " \"" + r.output_channel + "\"" + (r.output_unit.empty() ? "" : " [" + r.output_unit + "]")},
+      {"f0", sig(r.fundamental.f0_hz, 9) + " Hz" +
+                 (r.fundamental.f0_u_hz > 0 ? " ± " + sig(r.fundamental.f0_u_hz, 2) + " Hz" : "") + " (" +
+                 r.fundamental.method + ")"},
+      {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
+                   " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
+      {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
+                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals k = " +
+                  io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
+  if (r.skew_s != 0) head.push_back({"skew", io::format_shortest(r.skew_s) + " s (output lag removed)"});
+  out += report::render_key_values(head);
+  out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
+  Table t({{"n"}, {"freq_Hz"}, {"|H|"}, {"u(|H|)"}, {"|H|_dB"}, {"phase_deg"}, {"u(phase)"},
+           {"|H| interval", Table::Align::left}, {"phase interval", Table::Align::left}, {"SNR_in_dB"}});
+  for (const auto& p : r.frf.points)
+    t.add_row({std::to_string(p.n), sig(p.freq_hz, 7), sig(p.mag), sig(p.mag_u, 2), io::format_fixed(p.mag_db, 3),
+               io::format_fixed(p.phase_deg, 3), sig(p.phase_u_deg, 2),
+               "[" + sig(p.mag_lo) + ", " + sig(p.mag_hi) + "]",
+               "[" + io::format_fixed(p.phase_lo_deg, 3) + ", " + io::format_fixed(p.phase_hi_deg, 3) + "]",
+               io::format_fixed(p.input_snr_db, 1)});
+  out += t.render(2);
+
+  out += "\nlinearity: " + r.linearity.status;
+  if (r.linearity.status != "untested")
+    out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
+           io::format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
+  out += "\n";
+  const auto lines = [&](const char* parity, const std::vector<DistortionLine>& ls,
+                         const std::optional<double>& level) {
+    if (ls.empty()) return;
+    std::vector<int> ns;
+    for (const auto& l : ls) ns.push_back(l.n);
+    out += std::string("  ") + parity + " harmonics " + list_harmonics(ns) + ": " +
+           io::format_fixed(level.value_or(0), 1) + " dB relative to the excited output power\n";
+  };
+  lines("even", r.linearity.even, r.linearity.even_level_db);
+  lines("odd", r.linearity.odd, r.linearity.odd_level_db);
+
+  if (r.model) {
+    const RationalFitResult& f = *r.model;
+    out += "\nmodel " + order_text(f.order) + " (" + f.order_decided_by + "), " + f.method + "\n";
+    Table pt({{"parameter", Table::Align::left}, {"value"}, {"u"}});
+    for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
+      const double value = parameter_value(f, i);
+      pt.add_row({f.parameter_names[i], sig(value, 8), i < f.parameter_u.size() ? sig(f.parameter_u[i], 2) : "-"});
+    }
+    out += pt.render(2);
+    out += "  a" + std::to_string(f.model.den.size() - 1) + " = 1 (monic); s in rad/s\n";
+    out += "  dc gain   " + (f.dc_gain_defined ? pm(f.dc_gain, f.dc_gain_u, 7) : std::string("infinite (pole at 0)")) + "\n";
+    out += "  delay     " + (f.model.delay_estimated ? pm(f.delay_s, f.delay_u_s) + " s" : sig(f.delay_s) + " s (not estimated)") + "\n";
+    const auto roots = [&](const char* title, const std::vector<Root>& rs) {
+      if (rs.empty()) return;
+      out += std::string("\n") + title + "\n";
+      Table rt({{"re_rad_s"}, {"u(re)"}, {"im_rad_s"}, {"u(im)"}, {"tau_s"}, {"wn_rad_s"}, {"zeta"}, {"Q"}});
+      for (const auto& p : rs)
+        rt.add_row({sig(p.value.real(), 7), sig(p.re_u, 2), sig(p.value.imag(), 7), sig(p.im_u, 2),
+                    p.is_real && p.time_constant_s != 0 ? pm(p.time_constant_s, p.time_constant_u_s) : "-",
+                    p.is_real ? "-" : pm(p.natural_frequency_rad_s, p.natural_frequency_u_rad_s),
+                    p.is_real ? "-" : pm(p.damping_ratio, p.damping_ratio_u),
+                    p.is_real ? "-" : pm(p.q_factor, p.q_factor_u)});
+      out += rt.render(2);
+    };
+    roots("poles", f.poles);
+    roots("zeros", f.zeros);
+    out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " +
+           io::format_fixed(100 * r.model_confidence, 0) + " % chi-square band [" + sig(f.chi2_lower) +
+           ", " + sig(f.chi2_upper) + "]: " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
+  }
+  std::string flags;
+  for (std::size_t i = 0; i < r.flags.size(); ++i) flags += (i ? ", " : "") + r.flags[i];
+  out += "\nflags: " + (flags.empty() ? std::string("none") : flags);
+  out += "\n";
+  return out;
+}
+
+}  // namespace periodfit::ident

@@ -1,0 +1,89 @@
+#pragma once
+/// Identifying a DUT from a capture of its input and output under periodic excitation: lock
+/// both channels on the input's fundamental and one period grid, FRF with uncertainty at the
+/// excited harmonics (ident/frf.hpp), linearity check at the others (ident/linearity.hpp), and,
+/// when an order is asked for, the rational model B(s)/A(s)·e^{−sT} (ident/rational_fit.hpp).
+///
+/// Channels. Either one capture holding both channels, or two captures recorded on a common
+/// time base (same sample clock): their sample rates and lengths must be equal, each keeps its
+/// own t0_s. The fundamental is estimated on the input channel (or forced with f0_hz) and both
+/// channels are resampled with the same (rate, start, f0, samples per period), so their periods
+/// coincide sample for sample.
+///
+/// Deskew. skew_s is the extra delay of the output's acquisition path relative to the input's
+/// (a probe, a cable, an ADC pipeline): the recorded output is y(t − skew). It is removed as the
+/// phase correction Y_n·e^{+j·n·ω0·skew} on the output phasors (FrfOptions::skew_s), which is
+/// exact for a band-limited periodic signal and costs nothing, rather than by resampling the
+/// output at shifted instants.
+///
+/// Misuse: a DUT whose output is not locked to its input (a free-running oscillator, another
+/// clock) gives a meaningless FRF; the linearity check then reports lines everywhere. Two
+/// captures from different instruments without a shared clock drift apart and are refused
+/// only when their rates or lengths differ.
+///
+/// Usage:
+///   IdentifyOptions o; o.input_channel = "v_in"; o.output_channel = "v_out"; o.order = "0/2";
+///   const IdentifyResult r = identify(io::read_capture("bench.csv"), o);
+///   io::write_file_atomic("-", identify_json(r).dump(2) + "\n");
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "core/capture.hpp"
+#include "dsp/period_lock.hpp"
+#include "ident/frf.hpp"
+#include "ident/linearity.hpp"
+#include "ident/rational_fit.hpp"
+
+namespace periodfit::ident {
+
+struct IdentifyOptions {
+  std::string input_channel = "0";   ///< DUT input: channel name or 0-based index
+  std::string output_channel = "1";  ///< DUT output: name or index (in the output capture when two)
+  double f0_hz = 0;                  ///< > 0: use exactly this fundamental; 0 = estimate on the input
+  double f0_hint_hz = 0;             ///< > 0: search the fundamental near this value
+  int max_harmonic = 0;              ///< highest harmonic examined; 0 = all below 0.45·fs, at most 50
+  /// Samples per period of the resampling grid; 0 = the capture's own (fs/f0, rounded up to an
+  /// even number, at least 2·max_harmonic + 2).
+  int samples_per_period = 0;
+  FrfOptions frf;                    ///< min_snr_db, confidence, skew_s, …
+  LinearityOptions linearity;
+  std::string order;                 ///< "" = no model; "M/N"; "auto"
+  bool estimate_delay = false;       ///< fit the dead time T as well (else T = 0)
+  RationalFitOptions fit;            ///< fit settings; order/auto/delay fields are set from above
+
+  void validate() const;  ///< throws OptionError naming the field
+};
+
+struct IdentifyResult {
+  std::string status = "ok";      ///< "ok", or "model-inadequate" / "model-not-converged"
+  std::string input_source, output_source;
+  std::string input_channel, output_channel;  ///< channel names as in the captures
+  std::string input_unit, output_unit;
+  double sample_rate_hz = 0;
+  dsp::Fundamental fundamental;   ///< how f0 was found
+  int samples_per_period = 0;     ///< M of the grid
+  double skew_s = 0;
+  FrfResult frf;
+  LinearityResult linearity;
+  std::optional<RationalFitResult> model;  ///< present when an order was asked for
+  double model_confidence = 0.95;  ///< level of the χ² adequacy band
+  std::vector<std::string> flags;  ///< "nonlinear", "model-inadequate", "unstable-pole", "few-periods"
+};
+
+/// Both channels from one capture.
+IdentifyResult identify(const Capture& capture, const IdentifyOptions& options = {});
+
+/// Input from `input_capture`, output from `output_capture` (common time base). Throws
+/// AnalysisError when their sample rates or lengths differ.
+IdentifyResult identify(const Capture& input_capture, const Capture& output_capture,
+                        const IdentifyOptions& options = {});
+
+/// The identify JSON document (docs/identify-json.md), keys in the documented order.
+nlohmann::ordered_json identify_json(const IdentifyResult& result);
+
+/// The report for people: a header, the FRF table, the model summary and the flags.
+std::string format_identify_report(const IdentifyResult& result);
+
+}  // namespace periodfit::ident
