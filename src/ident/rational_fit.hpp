@@ -151,6 +151,11 @@ struct RationalFitResult {
   int sk_iterations = 0;
   int iterations = 0;                  ///< LM iterations of the final fit
   std::vector<std::complex<double>> fitted;  ///< Ĥ(jω_k) at the input points
+  /// The final nonlinear fit reached an optimum (else `status` says why not; numbers are the best found).
+  bool converged() const {
+    return status == LeastSquaresStatus::converged_cost || status == LeastSquaresStatus::converged_step ||
+           status == LeastSquaresStatus::converged_gradient;
+  }
 };
 
 /// Fits the model (see the header). Throws AnalysisError when there are too few points for the
