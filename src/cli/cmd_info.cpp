@@ -1,9 +1,45 @@
-// Placeholder until the command lands; replaced by its owner.
+// periodfit info FILE…: the layout and statistics of captures, as aligned text and/or JSON.
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
-#include "core/error.hpp"
+#include "core/exit_code.hpp"
+#include "io/capture_reader.hpp"
+#include "io/info.hpp"
+#include "io/output_file.hpp"
 
 namespace periodfit::cli {
-Runner add_info(CLI::App&) {
-  return [] () -> int { throw Error("the info command is not built yet"); };
+
+namespace {
+struct InfoArgs {
+  std::vector<std::string> files;
+  std::string json_path;  ///< "" = no JSON; "-" = JSON on stdout instead of the text
+  io::ReadOptions read;
+};
+}  // namespace
+
+Runner add_info(CLI::App& app) {
+  auto args = std::make_shared<InfoArgs>();
+  app.add_option("FILE", args->files, "captures to describe (CSV or audio)")->required()->type_name("FILE");
+  app.add_option("--json", args->json_path, "also write the info as JSON to PATH ('-' = stdout, instead of the text)")
+      ->type_name("PATH");
+  add_capture_options(app, args->read);
+  return [args]() -> int {
+    // Every file is read before anything is shown, so an error leaves no partial result.
+    std::vector<io::CaptureInfo> infos;
+    for (const auto& path : args->files) infos.push_back(io::describe(io::read_capture(path, args->read)));
+    if (!args->json_path.empty())
+      io::write_file_atomic(args->json_path, io::info_json(infos).dump(2) + "\n");
+    if (args->json_path != "-") {
+      std::string text;
+      for (std::size_t i = 0; i < infos.size(); ++i) text += (i ? "\n" : "") + io::info_text(infos[i]);
+      std::fwrite(text.data(), 1, text.size(), stdout);
+    }
+    return to_int(ExitCode::ok);
+  };
 }
+
 }  // namespace periodfit::cli

@@ -1,0 +1,61 @@
+#include "cli/capture_options.hpp"
+
+#include <charconv>
+#include <cmath>
+
+namespace periodfit::cli {
+
+std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option) {
+  const std::size_t at = text.rfind('=');
+  if (at == std::string_view::npos)
+    throw CLI::ValidationError(std::string(option), "expected CH=VALUE, found \"" + std::string(text) + "\"");
+  const std::string channel(text.substr(0, at));
+  const std::string value(text.substr(at + 1));
+  if (channel.empty())
+    throw CLI::ValidationError(std::string(option), "no channel before '=' in \"" + std::string(text) + "\"");
+  if (value.empty())
+    throw CLI::ValidationError(std::string(option), "no value after '=' in \"" + std::string(text) + "\"");
+  return {channel, value};
+}
+
+void add_capture_options(CLI::App& app, io::ReadOptions& options) {
+  app.add_option("--rate", options.rate_hz,
+                 "sample rate in Hz; overrides the file's (time column, preamble, audio header); "
+                 "0 = from the file")
+      ->capture_default_str()
+      ->type_name("HZ");
+  app.add_option_function<std::vector<std::string>>(
+         "--scale",
+         [&options](const std::vector<std::string>& items) {
+           for (const auto& item : items) {
+             auto [channel, text] = split_assignment(item, "--scale");
+             double factor = 0;
+             const char* end = text.data() + text.size();
+             const auto [ptr, ec] = std::from_chars(text.data(), end, factor);
+             if (ec != std::errc{} || ptr != end || !std::isfinite(factor) || factor == 0)
+               throw CLI::ValidationError("--scale", "expected a finite non-zero factor after '=' in \"" +
+                                                         item + "\"");
+             options.scales.emplace_back(std::move(channel), factor);
+           }
+         },
+         "multiply channel CH (name or 0-based index) by FACTOR, e.g. volts per full scale or a "
+         "probe's attenuation; repeatable")
+      ->type_name("CH=FACTOR")
+      ->take_all()
+      ->allow_extra_args(false);
+  app.add_option_function<std::vector<std::string>>(
+         "--unit",
+         [&options](const std::vector<std::string>& items) {
+           for (const auto& item : items) options.units.push_back(split_assignment(item, "--unit"));
+         },
+         "set the unit of channel CH (name or 0-based index), e.g. v_out=V; repeatable")
+      ->type_name("CH=UNIT")
+      ->take_all()
+      ->allow_extra_args(false);
+  app.add_option("--time-column", options.time_column,
+                 "CSV: the time column's name or 0-based position among all columns, or 'none'; "
+                 "default: detected")
+      ->type_name("NAME");
+}
+
+}  // namespace periodfit::cli

@@ -1,0 +1,25 @@
+#pragma once
+/// The options every command that reads captures shares: --rate, --scale CH=FACTOR,
+/// --unit CH=UNIT and --time-column, bound to io::ReadOptions. Call once per subcommand:
+///
+///   io::ReadOptions read;
+///   cli::add_capture_options(app, read);
+///   ... after parsing: io::read_capture(path, read)
+#include <CLI/CLI.hpp>
+#include <string>
+#include <string_view>
+#include <utility>
+
+#include "io/capture_reader.hpp"
+
+namespace periodfit::cli {
+
+/// Declares the capture options on `app`, writing into `options` as they are parsed. A
+/// malformed CH=VALUE is a CLI::ValidationError (a usage error, exit code 2).
+void add_capture_options(CLI::App& app, io::ReadOptions& options);
+
+/// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
+/// CLI::ValidationError naming `option` and what was wrong.
+std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option);
+
+}  // namespace periodfit::cli

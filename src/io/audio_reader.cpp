@@ -1,0 +1,304 @@
+#include "io/audio_reader.hpp"
+
+#include <fcntl.h>
+#include <sndfile.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <cerrno>
+#include <cstdint>
+#include <cstring>
+#include <functional>
+#include <memory>
+#include <optional>
+
+#include "core/error.hpp"
+
+namespace periodfit::io {
+
+namespace {
+
+// Frames decoded per libsndfile call; the interleaved buffer is this × channels doubles.
+constexpr sf_count_t kBlockFrames = 16384;
+
+std::string lower_extension(std::string_view path) {
+  const std::size_t slash = path.find_last_of('/');
+  const std::size_t dot = path.find_last_of('.');
+  if (dot == std::string_view::npos || (slash != std::string_view::npos && dot < slash)) return "";
+  std::string ext(path.substr(dot + 1));
+  for (auto& c : ext) c = static_cast<char>(c >= 'A' && c <= 'Z' ? c - 'A' + 'a' : c);
+  return ext;
+}
+
+// ---- container walk: is the file as long as its header says? ----------------------------
+
+/// Reads exactly n bytes at offset; false past the end.
+using ReadAt = std::function<bool(std::uint64_t offset, void* out, std::size_t n)>;
+
+std::uint64_t le(const unsigned char* p, int n) {
+  std::uint64_t v = 0;
+  for (int i = n - 1; i >= 0; --i) v = (v << 8) | p[i];
+  return v;
+}
+std::uint64_t be(const unsigned char* p, int n) {
+  std::uint64_t v = 0;
+  for (int i = 0; i < n; ++i) v = (v << 8) | p[i];
+  return v;
+}
+
+std::string cut_in_header(std::uint64_t size) {
+  return "truncated audio file: cut in the header (the file ends at byte " + std::to_string(size) +
+         ", before the sample data)";
+}
+std::string cut_in_data(std::uint64_t declared, std::uint64_t held) {
+  return "truncated audio file: cut in the data (the header declares " + std::to_string(declared) +
+         " bytes of samples, the file holds " + std::to_string(held) + ")";
+}
+
+constexpr unsigned char kW64Riff[16] = {'r', 'i', 'f', 'f', 0x2E, 0x91, 0xCF, 0x11,
+                                        0xA5, 0xD6, 0x28, 0xDB, 0x04, 0xC1, 0x00, 0x00};
+constexpr unsigned char kW64Data[16] = {'d', 'a', 't', 'a', 0xF3, 0xAC, 0xD3, 0x11,
+                                        0x8C, 0xD1, 0x00, 0xC0, 0x4F, 0x8E, 0xDB, 0x8A};
+
+// RIFF/RIFX/RF64/BW64 (WAV), FORM (AIFF/AIFC) and W64: walks the chunks up to the sample
+// data and compares the declared data size with what the file holds. nullopt = consistent or
+// a container this walk does not know (libsndfile then judges it alone).
+std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& read) {
+  unsigned char head[16] = {};
+  if (size < 16 || !read(0, head, 16)) {
+    if (size >= 4 && read(0, head, 4)) {
+      const std::string_view tag(reinterpret_cast<const char*>(head), 4);
+      if (tag == "RIFF" || tag == "RIFX" || tag == "RF64" || tag == "BW64" || tag == "FORM" ||
+          tag == "riff")
+        return cut_in_header(size);
+    }
+    return std::nullopt;
+  }
+  const std::string_view tag(reinterpret_cast<const char*>(head), 4);
+  unsigned char ch[24];
+  if (std::memcmp(head, kW64Riff, 16) == 0) {
+    std::uint64_t pos = 40;
+    for (;;) {
+      if (pos + 24 > size || !read(pos, ch, 24)) return cut_in_header(size);
+      const std::uint64_t chunk = le(ch + 16, 8);
+      if (std::memcmp(ch, kW64Data, 16) == 0) {
+        const std::uint64_t declared = chunk >= 24 ? chunk - 24 : 0;
+        const std::uint64_t held = size - (pos + 24);
+        if (declared > held) return cut_in_data(declared, held);
+        return std::nullopt;
+      }
+      if (chunk < 24) return std::nullopt;  // corrupt: let libsndfile say so
+      pos += (chunk + 7) / 8 * 8;
+    }
+  }
+  const bool riff = tag == "RIFF" || tag == "RIFX" || tag == "RF64" || tag == "BW64";
+  const bool aiff = tag == "FORM";
+  if (!riff && !aiff) return std::nullopt;
+  const bool big = tag == "RIFX" || aiff;
+  const bool wide = tag == "RF64" || tag == "BW64";
+  const auto u32 = [big](const unsigned char* p) { return big ? be(p, 4) : le(p, 4); };
+  std::uint64_t data64 = 0;
+  std::uint64_t pos = 12;
+  for (;;) {
+    if (pos + 8 > size || !read(pos, ch, 8)) return cut_in_header(size);
+    const std::string_view id(reinterpret_cast<const char*>(ch), 4);
+    const std::uint64_t chunk = u32(ch + 4);
+    if (wide && id == "ds64") {
+      unsigned char ds[16];
+      if (pos + 24 > size || !read(pos + 8, ds, 16)) return cut_in_header(size);
+      data64 = le(ds + 8, 8);
+    }
+    if (riff && id == "data") {
+      std::uint64_t declared = chunk;
+      if (wide && chunk == 0xFFFFFFFFu) declared = data64;
+      if (declared == 0 || (!wide && declared == 0xFFFFFFFFu)) return std::nullopt;  // streamed
+      const std::uint64_t held = size - (pos + 8);
+      if (declared > held) return cut_in_data(declared, held);
+      return std::nullopt;
+    }
+    if (aiff && id == "SSND") {
+      const std::uint64_t held = size - (pos + 8);
+      if (chunk > held) return cut_in_data(chunk >= 8 ? chunk - 8 : 0, held >= 8 ? held - 8 : 0);
+      return std::nullopt;
+    }
+    const std::uint64_t next = pos + 8 + chunk + (chunk & 1);
+    if (next > size) return cut_in_header(size);
+    pos = next;
+  }
+}
+
+// ---- decoding ----------------------------------------------------------------------------
+
+std::string format_name(int format) {
+  switch (format & SF_FORMAT_TYPEMASK) {
+    case SF_FORMAT_WAV:
+    case SF_FORMAT_WAVEX: return "wav";
+    case SF_FORMAT_RF64: return "rf64";
+    case SF_FORMAT_W64: return "w64";
+    case SF_FORMAT_AIFF: return "aiff";
+    case SF_FORMAT_FLAC: return "flac";
+    case SF_FORMAT_OGG: return "ogg";
+    case SF_FORMAT_AU: return "au";
+    case SF_FORMAT_CAF: return "caf";
+    default: return "audio";
+  }
+}
+
+std::string encoding_name(int format) {
+  SF_FORMAT_INFO info{};
+  info.format = format & SF_FORMAT_SUBMASK;
+  if (sf_command(nullptr, SFC_GET_FORMAT_INFO, &info, sizeof info) == 0 && info.name) return info.name;
+  return "unknown";
+}
+
+std::string sndfile_reason(SNDFILE* file) {
+  std::string reason = sf_strerror(file);
+  while (!reason.empty() && (reason.back() == '.' || reason.back() == '\n' || reason.back() == ' '))
+    reason.pop_back();
+  return reason;
+}
+
+struct Closer {
+  void operator()(SNDFILE* f) const { sf_close(f); }
+};
+using SndFile = std::unique_ptr<SNDFILE, Closer>;
+
+Capture decode(SNDFILE* file, const SF_INFO& info, const std::string& name) {
+  Capture capture;
+  capture.source = name;
+  capture.format = format_name(info.format);
+  capture.sample_rate_hz = info.samplerate;
+  capture.t0_s = 0;
+  capture.metadata.emplace_back("encoding", encoding_name(info.format));
+  const std::pair<int, const char*> tags[] = {
+      {SF_STR_TITLE, "title"},     {SF_STR_ARTIST, "artist"}, {SF_STR_COMMENT, "comment"},
+      {SF_STR_DATE, "date"},       {SF_STR_SOFTWARE, "software"}, {SF_STR_COPYRIGHT, "copyright"}};
+  for (const auto& [id, key] : tags)
+    if (const char* value = sf_get_string(file, id); value && *value) capture.metadata.emplace_back(key, value);
+  if (info.channels <= 0 || info.samplerate <= 0)
+    throw InputError(name, 0, 0, "corrupt audio header (" + std::to_string(info.channels) +
+                                     " channels at " + std::to_string(info.samplerate) + " Hz)");
+  if (info.frames <= 0) throw InputError(name, 0, 0, "no samples (the audio file holds 0 frames)");
+  const auto channels = static_cast<std::size_t>(info.channels);
+  capture.channels.resize(channels);
+  for (std::size_t c = 0; c < channels; ++c) {
+    capture.channels[c].name = "ch" + std::to_string(c);
+    capture.channels[c].unit = "FS";
+    capture.channels[c].samples.reserve(static_cast<std::size_t>(info.frames));
+  }
+  // Full scale ±1 for integer PCM (divide by 2^(N-1)); libsndfile's default, made explicit.
+  sf_command(file, SFC_SET_NORM_DOUBLE, nullptr, SF_TRUE);
+  std::vector<double> block(static_cast<std::size_t>(kBlockFrames) * channels);
+  sf_count_t total = 0;
+  for (;;) {
+    const sf_count_t n = sf_readf_double(file, block.data(), kBlockFrames);
+    if (n <= 0) break;
+    for (std::size_t c = 0; c < channels; ++c) {
+      auto& out = capture.channels[c].samples;
+      for (sf_count_t k = 0; k < n; ++k) out.push_back(block[static_cast<std::size_t>(k) * channels + c]);
+    }
+    total += n;
+  }
+  if (sf_error(file) != SF_ERR_NO_ERROR)
+    throw InputError(name, 0, 0, "corrupt audio data (libsndfile: " + sndfile_reason(file) + ")");
+  if (total < info.frames)
+    throw InputError(name, 0, 0,
+                     "truncated or corrupt audio file: the header declares " + std::to_string(info.frames) +
+                         " frames, " + std::to_string(total) + " could be decoded");
+  for (const auto& ch : capture.channels)
+    for (double v : ch.samples)
+      if (!std::isfinite(v))
+        throw InputError(name, 0, 0, "a sample in channel " + ch.name + " is not a finite number");
+  return capture;
+}
+
+// libsndfile virtual I/O over bytes in memory.
+struct Memory {
+  std::string_view bytes;
+  sf_count_t position = 0;
+};
+sf_count_t memory_length(void* user) { return static_cast<sf_count_t>(static_cast<Memory*>(user)->bytes.size()); }
+sf_count_t memory_seek(sf_count_t offset, int whence, void* user) {
+  auto* m = static_cast<Memory*>(user);
+  const auto size = static_cast<sf_count_t>(m->bytes.size());
+  sf_count_t target = offset;
+  if (whence == SEEK_CUR) target = m->position + offset;
+  if (whence == SEEK_END) target = size + offset;
+  m->position = std::clamp<sf_count_t>(target, 0, size);
+  return m->position;
+}
+sf_count_t memory_read(void* out, sf_count_t count, void* user) {
+  auto* m = static_cast<Memory*>(user);
+  const auto size = static_cast<sf_count_t>(m->bytes.size());
+  const sf_count_t n = std::max<sf_count_t>(0, std::min(count, size - m->position));
+  std::memcpy(out, m->bytes.data() + m->position, static_cast<std::size_t>(n));
+  m->position += n;
+  return n;
+}
+sf_count_t memory_write(const void*, sf_count_t, void*) { return 0; }
+sf_count_t memory_tell(void* user) { return static_cast<Memory*>(user)->position; }
+
+[[noreturn]] void open_failed(const std::string& name) {
+  throw InputError(name, 0, 0, "not a readable audio file (libsndfile: " + sndfile_reason(nullptr) + ")");
+}
+
+}  // namespace
+
+bool looks_like_audio(std::string_view head, std::string_view path) {
+  static constexpr std::string_view kMagic[] = {"RIFF", "RIFX", "RF64", "BW64", "FORM",
+                                                "fLaC", "OggS", ".snd", "caff"};
+  for (auto m : kMagic)
+    if (head.substr(0, 4) == m) return true;
+  if (head.size() >= 16 && std::memcmp(head.data(), kW64Riff, 16) == 0) return true;
+  static constexpr std::string_view kExtensions[] = {"wav", "wave", "flac", "aif", "aiff", "aifc",
+                                                     "w64", "rf64", "ogg", "au", "caf"};
+  const std::string ext = lower_extension(path);
+  return std::find(std::begin(kExtensions), std::end(kExtensions), ext) != std::end(kExtensions);
+}
+
+Capture read_audio(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) throw IoError(path, "cannot open", errno);
+  struct stat st {};
+  if (::fstat(fd, &st) != 0 || S_ISDIR(st.st_mode)) {
+    const int e = S_ISDIR(st.st_mode) ? EISDIR : errno;
+    ::close(fd);
+    throw IoError(path, "cannot read", e);
+  }
+  const auto size = static_cast<std::uint64_t>(st.st_size);
+  const ReadAt read_at = [fd](std::uint64_t offset, void* out, std::size_t n) {
+    if (n == 0) return false;
+    const ssize_t got = ::pread(fd, out, n, static_cast<off_t>(offset));
+    return got == static_cast<ssize_t>(n);
+  };
+  if (auto problem = container_problem(size, read_at)) {
+    ::close(fd);
+    throw InputError(path, 0, 0, *problem);
+  }
+  SF_INFO info{};
+  // close_desc = true: libsndfile owns the descriptor from here on.
+  SndFile file(sf_open_fd(fd, SFM_READ, &info, SF_TRUE));
+  if (!file) open_failed(path);
+  return decode(file.get(), info, path);
+}
+
+Capture parse_audio(std::string_view bytes, std::string_view name) {
+  const std::string source(name);
+  const ReadAt read_at = [bytes](std::uint64_t offset, void* out, std::size_t n) {
+    if (n == 0 || offset + n > bytes.size()) return false;
+    std::memcpy(out, bytes.data() + offset, n);
+    return true;
+  };
+  if (auto problem = container_problem(bytes.size(), read_at)) throw InputError(source, 0, 0, *problem);
+  SF_VIRTUAL_IO io{memory_length, memory_seek, memory_read, memory_write, memory_tell};
+  Memory memory{bytes, 0};
+  SF_INFO info{};
+  SndFile file(sf_open_virtual(&io, SFM_READ, &info, &memory));
+  if (!file) open_failed(source);
+  return decode(file.get(), info, source);
+}
+
+}  // namespace periodfit::io

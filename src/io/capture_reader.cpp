@@ -1,0 +1,96 @@
+#include "io/capture_reader.hpp"
+
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <cmath>
+
+#include "core/error.hpp"
+#include "io/audio_reader.hpp"
+#include "io/csv_reader.hpp"
+#include "io/number_format.hpp"
+
+namespace periodfit::io {
+
+namespace {
+
+// The first bytes of the file, to recognise audio by its magic number; also turns a missing
+// path, a directory or a permission problem into one IoError before any parser runs.
+std::string file_head(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) throw IoError(path, "cannot open", errno);
+  struct stat info {};
+  if (::fstat(fd, &info) != 0 || S_ISDIR(info.st_mode)) {
+    const int e = S_ISDIR(info.st_mode) ? EISDIR : errno;
+    ::close(fd);
+    throw IoError(path, "cannot read", e);
+  }
+  char head[16];
+  ssize_t n = 0;
+  do {
+    n = ::read(fd, head, sizeof head);
+  } while (n < 0 && errno == EINTR);
+  const int e = errno;
+  ::close(fd);
+  if (n < 0) throw IoError(path, "cannot read", e);
+  return std::string(head, static_cast<std::size_t>(n));
+}
+
+void validate(const ReadOptions& options) {
+  if (!std::isfinite(options.rate_hz) || options.rate_hz < 0)
+    throw OptionError("rate_hz", format_shortest(options.rate_hz),
+                      "must be > 0, or 0 to take the rate from the file");
+  for (std::size_t i = 0; i < options.scales.size(); ++i) {
+    const auto& [channel, factor] = options.scales[i];
+    if (!std::isfinite(factor) || factor == 0)
+      throw OptionError("scale " + channel, format_shortest(factor), "must be a finite, non-zero factor");
+    for (std::size_t j = 0; j < i; ++j)
+      if (options.scales[j].first == channel)
+        throw OptionError("scale " + channel, format_shortest(factor), "the channel is scaled twice");
+  }
+  for (std::size_t i = 0; i < options.units.size(); ++i)
+    for (std::size_t j = 0; j < i; ++j)
+      if (options.units[j].first == options.units[i].first)
+        throw OptionError("unit " + options.units[i].first, options.units[i].second,
+                          "the channel is given a unit twice");
+}
+
+}  // namespace
+
+void apply_read_options(Capture& capture, const ReadOptions& options) {
+  validate(options);
+  if (options.rate_hz > 0) capture.sample_rate_hz = options.rate_hz;
+  // Resolve every selector before changing anything, so a bad name leaves the capture as is.
+  std::vector<std::size_t> scaled, united;
+  for (const auto& [channel, factor] : options.scales) scaled.push_back(capture.channel_index(channel));
+  for (const auto& [channel, unit] : options.units) united.push_back(capture.channel_index(channel));
+  for (std::size_t i = 0; i < scaled.size(); ++i)
+    for (double& v : capture.channels[scaled[i]].samples) v *= options.scales[i].second;
+  for (std::size_t i = 0; i < united.size(); ++i) capture.channels[united[i]].unit = options.units[i].second;
+}
+
+Capture read_capture(const std::string& path, const ReadOptions& options) {
+  validate(options);
+  const std::string head = file_head(path);
+  Capture capture;
+  if (looks_like_audio(head, path)) {
+    if (!options.time_column.empty() && options.time_column != "none")
+      throw OptionError("time_column", options.time_column, "audio files have no time column");
+    capture = read_audio(path);
+  } else {
+    CsvOptions csv;
+    csv.rate_hz = options.rate_hz;
+    csv.time_column = options.time_column;
+    capture = read_csv(path, csv);
+  }
+  try {
+    apply_read_options(capture, options);
+  } catch (const UnknownNameError& e) {
+    throw InputError(path, 0, 0, e.what());
+  }
+  return capture;
+}
+
+}  // namespace periodfit::io

@@ -1,0 +1,1051 @@
+#include "io/csv_reader.hpp"
+
+#include <fcntl.h>
+#include <sys/mman.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <array>
+#include <cctype>
+#include <cerrno>
+#include <charconv>
+#include <cmath>
+#include <cstring>
+#include <functional>
+#include <optional>
+#include <tuple>
+
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+#include "io/output_file.hpp"
+
+namespace periodfit::io {
+
+namespace {
+
+// The issue's rule for a time column: spacing uniform within 1e-4 relative. The rounding of
+// the printed values is allowed on top (see TimeCheck).
+constexpr double kTimeUniformRel = 1e-4;
+// Detection looks at the first lines only; a preamble longer than this is not recognised.
+constexpr std::size_t kSampleLines = 2000;
+constexpr std::size_t kSampleBytes = 1 << 20;
+// A data line is where the data start when most of the next few lines agree with it.
+constexpr std::size_t kConfirmLines = 8;
+// Without a header, a first column is time only if it increases uniformly over these rows.
+constexpr std::size_t kTimeHeuristicRows = 64;
+// Mapped pages behind the parse are released in steps of this size (bounded RSS).
+constexpr std::size_t kReleaseBytes = std::size_t{8} << 20;
+
+using Release = std::function<void(std::size_t)>;
+
+bool is_blank(char c) { return c == ' ' || c == '\t'; }
+bool is_digit(char c) { return c >= '0' && c <= '9'; }
+
+std::string_view trim(std::string_view s) {
+  while (!s.empty() && (is_blank(s.front()) || s.front() == '\r')) s.remove_prefix(1);
+  while (!s.empty() && (is_blank(s.back()) || s.back() == '\r')) s.remove_suffix(1);
+  return s;
+}
+
+std::string lower(std::string_view s) {
+  std::string out(s);
+  for (auto& c : out) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  return out;
+}
+
+std::string quoted(std::string_view s) { return "\"" + std::string(s) + "\""; }
+
+// ---- numbers ---------------------------------------------------------------------------
+
+enum class NumberStatus { ok, not_number, out_of_range, not_finite };
+
+// Parses a number starting at p (no leading blanks). Returns its end, or nullptr when no
+// number starts here. The decimal comma is handled by copying the one field into a small
+// buffer with ',' replaced, never the whole text.
+inline const char* scan_number(const char* p, const char* end, char decimal, double& value,
+                               NumberStatus& status) {
+  status = NumberStatus::ok;
+  if (p != end && *p == '+') {
+    ++p;
+    if (p == end || !(is_digit(*p) || *p == decimal)) return nullptr;
+  }
+  const char* stop = nullptr;
+  std::errc ec{};
+  if (decimal == '.') {
+    const auto r = std::from_chars(p, end, value);
+    stop = r.ptr;
+    ec = r.ec;
+  } else {
+    char buffer[96];
+    std::size_t n = 0;
+    const char* q = p;
+    while (q != end && n < sizeof buffer) {
+      const char c = *q;
+      if (c == ',') {
+        buffer[n++] = '.';
+      } else if (std::isalnum(static_cast<unsigned char>(c)) || c == '-' || c == '+') {
+        buffer[n++] = c;
+      } else {
+        break;  // a '.' is no decimal mark in a decimal-comma file
+      }
+      ++q;
+    }
+    const auto r = std::from_chars(buffer, buffer + n, value);
+    stop = p + (r.ptr - buffer);
+    ec = r.ec;
+  }
+  if (ec == std::errc::invalid_argument) return nullptr;
+  if (ec == std::errc::result_out_of_range) status = NumberStatus::out_of_range;
+  else if (!std::isfinite(value)) status = NumberStatus::not_finite;
+  return stop;
+}
+
+// Whole-field parse: the field must be exactly one number.
+NumberStatus parse_field(std::string_view text, char decimal, double& value) {
+  text = trim(text);
+  if (text.empty()) return NumberStatus::not_number;
+  NumberStatus status;
+  const char* end = text.data() + text.size();
+  const char* stop = scan_number(text.data(), end, decimal, value, status);
+  if (stop != end) return NumberStatus::not_number;
+  return status;
+}
+
+// The step between neighbouring values the printed text can express: "1.2340e-05" → 1e-9.
+// A literal integer ("0", "12") is taken as exact.
+double printed_resolution(std::string_view s, char decimal) {
+  const std::size_t epos = s.find_first_of("eE");
+  const std::string_view mantissa = s.substr(0, epos);
+  int exponent = 0;
+  if (epos != std::string_view::npos) {
+    std::string_view e = s.substr(epos + 1);
+    if (!e.empty() && e.front() == '+') e.remove_prefix(1);
+    std::from_chars(e.data(), e.data() + e.size(), exponent);
+  }
+  const std::size_t dot = mantissa.find(decimal);
+  if (dot == std::string_view::npos && epos == std::string_view::npos) return 0;
+  const int fraction = dot == std::string_view::npos ? 0 : static_cast<int>(mantissa.size() - dot - 1);
+  static thread_local int cached_power = 1 << 30;
+  static thread_local double cached_value = 0;
+  if (exponent - fraction != cached_power) {
+    cached_power = exponent - fraction;
+    cached_value = std::pow(10.0, cached_power);
+  }
+  return cached_value;
+}
+
+// ---- units ------------------------------------------------------------------------------
+
+struct UnitWord {
+  const char* text;
+  const char* normal;  ///< how the unit is stored
+  double time_factor;  ///< seconds per unit for time units, else 0
+};
+constexpr UnitWord kUnitWords[] = {
+    {"s", "s", 1},          {"ms", "ms", 1e-3},      {"us", "us", 1e-6},
+    {"\xC2\xB5s", "\xC2\xB5s", 1e-6},                {"ns", "ns", 1e-9},
+    {"ps", "ps", 1e-12},    {"sec", "s", 1},         {"second", "s", 1},
+    {"seconds", "s", 1},    {"V", "V", 0},           {"mV", "mV", 0},
+    {"uV", "uV", 0},        {"\xC2\xB5V", "\xC2\xB5V", 0},   {"kV", "kV", 0},
+    {"Volt", "V", 0},       {"Volts", "V", 0},       {"volt", "V", 0},
+    {"volts", "V", 0},      {"A", "A", 0},           {"mA", "mA", 0},
+    {"uA", "uA", 0},        {"\xC2\xB5""A", "\xC2\xB5""A", 0},  {"Amp", "A", 0},
+    {"Amps", "A", 0},       {"Ampere", "A", 0},      {"Amperes", "A", 0},
+    {"Hz", "Hz", 0},        {"kHz", "kHz", 0},       {"W", "W", 0},
+    {"mW", "mW", 0},        {"Ohm", "Ohm", 0},       {"\xCE\xA9", "\xCE\xA9", 0},
+    {"FS", "FS", 0},        {"Pa", "Pa", 0},         {"kPa", "kPa", 0},
+    {"K", "K", 0},          {"degC", "degC", 0},     {"\xC2\xB0""C", "\xC2\xB0""C", 0},
+    {"%", "%", 0},          {"dB", "dB", 0},         {"dBV", "dBV", 0},
+    {"g", "g", 0},          {"m/s2", "m/s2", 0},     {"m/s^2", "m/s^2", 0},
+    {"N", "N", 0},
+};
+
+const UnitWord* find_unit(std::string_view s) {
+  for (const auto& u : kUnitWords)
+    if (s == u.text) return &u;
+  return nullptr;
+}
+
+struct NameUnit {
+  std::string name;
+  std::string unit;
+};
+
+// "v_out (V)", "v_out [V]", "v_out/V" → {v_out, V}; a '/' splits only before a known unit.
+NameUnit split_name_unit(std::string_view text) {
+  text = trim(text);
+  if (text.size() >= 2 && (text.back() == ')' || text.back() == ']')) {
+    const char open = text.back() == ')' ? '(' : '[';
+    const std::size_t at = text.rfind(open);
+    if (at != std::string_view::npos) {
+      const auto name = trim(text.substr(0, at));
+      const auto unit = trim(text.substr(at + 1, text.size() - at - 2));
+      if (!name.empty()) return {std::string(name), std::string(unit)};
+      return {std::string(unit), ""};
+    }
+  }
+  if (const std::size_t at = text.rfind('/'); at != std::string_view::npos && at > 0) {
+    const auto unit = trim(text.substr(at + 1));
+    if (find_unit(unit)) return {std::string(trim(text.substr(0, at))), std::string(unit)};
+  }
+  return {std::string(text), ""};
+}
+
+std::string normal_unit(std::string_view unit) {
+  if (const auto* u = find_unit(unit)) return u->normal;
+  return std::string(unit);
+}
+
+double time_factor(std::string_view unit) {
+  if (unit.empty()) return 1;
+  const auto* u = find_unit(unit);
+  return u ? u->time_factor : 0;
+}
+
+bool is_time_name(std::string_view name) {
+  const std::string n = lower(name);
+  return n == "t" || n == "time" || n == "time_s" || n == "t_s" || n == "times" ||
+         n == "seconds" || n == "second" || n == "sec" || n == "s";
+}
+
+// ---- lines and fields --------------------------------------------------------------------
+
+struct Line {
+  std::size_t number = 0;  ///< 1-based
+  std::size_t offset = 0;  ///< of its first byte in the text
+  std::string_view text;   ///< without the line end
+};
+
+class LineCursor {
+ public:
+  LineCursor(std::string_view text, std::size_t pos, std::size_t number)
+      : text_(text), pos_(pos), number_(number) {}
+  bool next(Line& line) {
+    if (pos_ >= text_.size()) return false;
+    const char* begin = text_.data() + pos_;
+    const void* nl = std::memchr(begin, '\n', text_.size() - pos_);
+    const std::size_t end =
+        nl ? static_cast<std::size_t>(static_cast<const char*>(nl) - text_.data()) : text_.size();
+    std::size_t stop = end;
+    if (stop > pos_ && text_[stop - 1] == '\r') --stop;
+    line.number = ++number_;
+    line.offset = pos_;
+    line.text = text_.substr(pos_, stop - pos_);
+    pos_ = end + 1;
+    return true;
+  }
+  std::size_t position() const { return pos_; }
+
+ private:
+  std::string_view text_;
+  std::size_t pos_;
+  std::size_t number_;
+};
+
+enum class LineKind { blank, comment, content };
+
+LineKind classify(std::string_view text) {
+  for (char c : text) {
+    if (is_blank(c) || c == '\r') continue;
+    return c == '#' ? LineKind::comment : LineKind::content;
+  }
+  return LineKind::blank;
+}
+
+struct Dialect {
+  char delimiter;  ///< ' ' = runs of spaces and tabs
+  char decimal;
+};
+constexpr Dialect kDialects[] = {{',', '.'},  {';', ','},  {';', '.'},
+                                 {'\t', '.'}, {'\t', ','}, {' ', '.'}};
+
+struct Field {
+  std::string text;
+  std::size_t column = 0;  ///< 1-based byte column of the field's first character
+  bool quoted = false;
+};
+
+bool skippable(char c, const Dialect& d) { return c == ' ' || (c == '\t' && d.delimiter != '\t'); }
+
+// Splits one line into fields. False for a quote that is not closed or is followed by text.
+bool split_fields(std::string_view s, const Dialect& d, std::vector<Field>& out) {
+  out.clear();
+  std::size_t i = 0;
+  const std::size_t n = s.size();
+  const bool runs = d.delimiter == ' ';
+  for (;;) {
+    while (i < n && (runs ? is_blank(s[i]) : skippable(s[i], d))) ++i;
+    if (runs && i == n) break;
+    Field f;
+    f.column = i + 1;
+    if (i < n && s[i] == '"') {
+      f.quoted = true;
+      ++i;
+      bool closed = false;
+      while (i < n) {
+        if (s[i] == '"') {
+          if (i + 1 < n && s[i + 1] == '"') {
+            f.text += '"';
+            i += 2;
+            continue;
+          }
+          ++i;
+          closed = true;
+          break;
+        }
+        f.text += s[i++];
+      }
+      if (!closed) return false;
+      while (i < n && (runs ? is_blank(s[i]) : skippable(s[i], d))) ++i;
+      if (i < n && !runs && s[i] != d.delimiter) return false;
+    } else {
+      std::size_t j = i;
+      if (runs) {
+        while (j < n && !is_blank(s[j])) ++j;
+      } else {
+        while (j < n && s[j] != d.delimiter) ++j;
+      }
+      f.text = std::string(trim(s.substr(i, j - i)));
+      i = j;
+    }
+    out.push_back(std::move(f));
+    if (runs) continue;
+    if (i >= n) break;
+    ++i;  // the delimiter
+  }
+  return true;
+}
+
+std::size_t stripped_count(const std::vector<Field>& fields) {
+  std::size_t n = fields.size();
+  while (n > 0 && fields[n - 1].text.empty() && !fields[n - 1].quoted) --n;
+  return n;
+}
+
+// ---- the time column's uniform spacing, checked while streaming -------------------------
+
+// Model: t_k = t_0 + k·Δt. Row k is compared with the mean step of the rows before it,
+// Δ̄ = (t_{k-1} − t_0)/(k−1): |t_k − t_{k−1} − Δ̄| must stay within kTimeUniformRel·Δ̄ plus the
+// rounding of the printed values (half a printed unit for each of t_k, t_{k−1}, and the
+// part of Δ̄'s uncertainty that comes from t_0 and t_{k−1}). A one-sample gap is therefore
+// found wherever the printed times resolve a step.
+class TimeCheck {
+ public:
+  enum class Verdict { ok, not_increasing, not_uniform };
+
+  Verdict add(double t, double resolution) {
+    if (count_ == 0) {
+      first_ = t;
+      first_res_ = resolution;
+    } else {
+      const double step = t - last_;
+      if (!(step > 0)) return Verdict::not_increasing;
+      if (count_ >= 2) {
+        const double mean = (last_ - first_) / static_cast<double>(count_ - 1);
+        const double allowed = kTimeUniformRel * mean + 0.5 * (resolution + last_res_) +
+                               0.5 * (first_res_ + last_res_) / static_cast<double>(count_ - 1);
+        last_mean_ = mean;
+        if (std::fabs(step - mean) > allowed) return Verdict::not_uniform;
+      } else {
+        last_mean_ = step;
+      }
+    }
+    last_ = t;
+    last_res_ = resolution;
+    ++count_;
+    return Verdict::ok;
+  }
+  std::size_t count() const { return count_; }
+  double first() const { return first_; }
+  double last() const { return last_; }
+  double mean_step() const { return last_mean_; }
+  double rate_hz() const { return static_cast<double>(count_ - 1) / (last_ - first_); }
+  /// Relative uncertainty of rate_hz() from the rounding of the first and last value.
+  double rate_rounding() const { return 0.5 * (first_res_ + last_res_) / (last_ - first_); }
+
+ private:
+  std::size_t count_ = 0;
+  double first_ = 0, first_res_ = 0, last_ = 0, last_res_ = 0, last_mean_ = 0;
+};
+
+// ---- preamble -----------------------------------------------------------------------------
+
+struct StatedRate {
+  double rate_hz = 0;
+  double rel_rounding = 0;  ///< from the printed digits of the stated value
+  std::size_t line = 0;
+  std::string text;         ///< as written, for messages
+};
+
+std::vector<std::string> key_tokens(std::string_view key) {
+  std::vector<std::string> tokens;
+  std::string current;
+  for (char c : key) {
+    if (std::isalnum(static_cast<unsigned char>(c))) {
+      current += static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    } else if (!current.empty()) {
+      tokens.push_back(current);
+      current.clear();
+    }
+  }
+  if (!current.empty()) tokens.push_back(current);
+  return tokens;
+}
+
+enum class RateKey { none, interval, rate };
+
+RateKey rate_key(std::string_view key) {
+  for (const auto& t : key_tokens(key)) {
+    if (t.find("interval") != std::string::npos || t.find("increment") != std::string::npos)
+      return RateKey::interval;
+    if (t == "rate" || t == "fs" || t == "samplerate" || t == "samplingrate" || t == "srate")
+      return RateKey::rate;
+  }
+  return RateKey::none;
+}
+
+struct RateUnit {
+  const char* text;
+  double factor;
+  bool is_rate;
+};
+constexpr RateUnit kRateUnits[] = {
+    {"s", 1, false},       {"sec", 1, false},     {"ms", 1e-3, false},   {"us", 1e-6, false},
+    {"\xC2\xB5s", 1e-6, false},                    {"ns", 1e-9, false},   {"ps", 1e-12, false},
+    {"hz", 1, true},       {"khz", 1e3, true},    {"mhz", 1e6, true},    {"ghz", 1e9, true},
+    {"s/s", 1, true},      {"ks/s", 1e3, true},   {"ms/s", 1e6, true},   {"gs/s", 1e9, true},
+    {"sa/s", 1, true},     {"ksa/s", 1e3, true},  {"msa/s", 1e6, true},  {"gsa/s", 1e9, true},
+    {"sps", 1, true},      {"ksps", 1e3, true},   {"msps", 1e6, true},
+};
+
+// "1e-06", "1 us", "10kHz", "2 MSa/s": the rate, or nullopt when the value is not one.
+// Units are matched case-insensitively except that "MHz"/"mHz" style ambiguity is resolved
+// toward the common instrument reading (M = mega for rates, m = milli for intervals).
+std::optional<StatedRate> parse_stated_rate(RateKey key, std::string_view value, char decimal,
+                                            std::size_t line, std::string_view name) {
+  value = trim(value);
+  double number = 0;
+  NumberStatus status;
+  const char* end = value.data() + value.size();
+  const char* stop = scan_number(value.data(), end, decimal, number, status);
+  if (!stop || status != NumberStatus::ok) return std::nullopt;
+  const std::string_view number_text(value.data(), static_cast<std::size_t>(stop - value.data()));
+  const std::string unit = lower(trim(std::string_view(stop, static_cast<std::size_t>(end - stop))));
+  bool is_rate = key == RateKey::rate;
+  double factor = 1;
+  if (!unit.empty()) {
+    const RateUnit* found = nullptr;
+    for (const auto& u : kRateUnits)
+      if (unit == u.text) found = &u;
+    if (!found) return std::nullopt;
+    is_rate = found->is_rate;
+    factor = found->factor;
+  }
+  if (!(number > 0))
+    throw InputError(std::string(name), line, 0,
+                     "a sample " + std::string(is_rate ? "rate" : "interval") +
+                         " must be > 0, found " + quoted(value));
+  StatedRate r;
+  r.rate_hz = is_rate ? number * factor : 1.0 / (number * factor);
+  r.rel_rounding = 0.5 * printed_resolution(number_text, decimal) / number;
+  r.line = line;
+  r.text = std::string(value);
+  return r;
+}
+
+// One preamble line → a metadata entry (key, value); free text gets the key "text".
+std::pair<std::string, std::string> metadata_entry(std::string_view text, const Dialect& d,
+                                                   bool comment) {
+  text = trim(text);
+  if (comment) {
+    text.remove_prefix(1);  // '#'
+    text = trim(text);
+  }
+  if (!comment && d.delimiter != ' ') {
+    std::vector<Field> fields;
+    if (split_fields(text, d, fields)) {
+      const std::size_t n = stripped_count(fields);
+      if (n >= 2 && !fields[0].text.empty()) {
+        std::string value;
+        for (std::size_t i = 1; i < n; ++i) {
+          if (fields[i].text.empty()) continue;
+          if (!value.empty()) value += ' ';
+          value += fields[i].text;
+        }
+        return {fields[0].text, value};
+      }
+      if (n == 1) text = trim(fields[0].text);
+    }
+  }
+  const std::size_t sep = text.find_first_of(":=");
+  if (sep != std::string_view::npos && sep > 0) {
+    const auto key = trim(text.substr(0, sep));
+    if (!key.empty() && key.size() <= 64)
+      return {std::string(key), std::string(trim(text.substr(sep + 1)))};
+  }
+  return {"text", std::string(text)};
+}
+
+// ---- detection ----------------------------------------------------------------------------
+
+struct SampleLine {
+  Line line;
+  bool comment = false;
+};
+
+struct LineShape {
+  bool ok = false;          ///< the fields split cleanly
+  bool numeric = false;     ///< every field (up to the trailing empties) is a number or empty
+  std::size_t raw = 0;      ///< fields including trailing empties
+  std::size_t count = 0;    ///< fields without trailing empties
+};
+
+struct Layout {
+  Dialect dialect{',', '.'};
+  std::size_t data = 0;            ///< index into content lines of the first data line
+  std::optional<std::size_t> header;
+  std::optional<std::size_t> units;
+  std::size_t columns = 0;
+};
+
+LineShape shape_of(std::string_view text, const Dialect& d, std::vector<Field>& fields) {
+  LineShape s;
+  s.ok = split_fields(text, d, fields);
+  if (!s.ok) return s;
+  s.raw = fields.size();
+  s.count = stripped_count(fields);
+  if (s.count == 0) return s;
+  bool any = false;
+  for (std::size_t i = 0; i < s.count; ++i) {
+    if (fields[i].text.empty()) continue;
+    double v;
+    if (parse_field(fields[i].text, d.decimal, v) == NumberStatus::not_number) return s;
+    any = true;
+  }
+  s.numeric = any;
+  return s;
+}
+
+bool is_units_row(const std::vector<Field>& fields, std::size_t count) {
+  bool any = false;
+  for (std::size_t i = 0; i < count; ++i) {
+    std::string_view t = trim(fields[i].text);
+    if (t.empty()) continue;
+    if (t.size() >= 2 && ((t.front() == '(' && t.back() == ')') || (t.front() == '[' && t.back() == ']')))
+      t = t.substr(1, t.size() - 2);
+    if (!find_unit(t)) return false;
+    any = true;
+  }
+  return any;
+}
+
+struct Candidate {
+  Layout layout;
+  bool header_match = false;
+  std::size_t numeric_lines = 0;
+};
+
+std::optional<Candidate> try_dialect(const std::vector<const Line*>& content, const Dialect& d) {
+  std::vector<Field> fields;
+  std::vector<LineShape> shapes;
+  shapes.reserve(content.size());
+  for (const Line* line : content) shapes.push_back(shape_of(line->text, d, fields));
+  std::optional<std::size_t> start;
+  for (std::size_t i = 0; i < shapes.size() && !start; ++i) {
+    if (!shapes[i].numeric) continue;
+    std::size_t following = 0, agree = 0;
+    for (std::size_t j = i + 1; j < shapes.size() && following < kConfirmLines; ++j, ++following)
+      if (shapes[j].numeric && shapes[j].count == shapes[i].count) ++agree;
+    if (following == 0 || 2 * agree >= following) start = i;
+  }
+  if (!start) return std::nullopt;
+  Candidate c;
+  c.layout.dialect = d;
+  c.layout.data = *start;
+  c.layout.columns = shapes[*start].count;
+  for (const auto& s : shapes)
+    if (s.numeric && s.count == c.layout.columns) ++c.numeric_lines;
+  const auto header_fits = [&](std::size_t h) {
+    const auto& s = shapes[h];
+    return s.ok && !s.numeric && s.count >= c.layout.columns && s.count <= shapes[*start].raw;
+  };
+  if (*start >= 1 && header_fits(*start - 1)) {
+    std::size_t h = *start - 1;
+    // A units row ("second,Volt,Volt") right after the header.
+    if (h >= 1 && header_fits(h - 1) && shapes[h - 1].count == shapes[h].count) {
+      split_fields(content[h]->text, d, fields);
+      if (is_units_row(fields, shapes[h].count)) {
+        c.layout.units = h;
+        h = h - 1;
+      }
+    }
+    // A "Sample Interval,1e-06" line is preamble even when its field count fits.
+    split_fields(content[h]->text, d, fields);
+    const bool preamble_rate = fields.size() >= 2 && rate_key(fields[0].text) != RateKey::none &&
+                               shapes[h].count == 2 && [&] {
+                                 double v;
+                                 const auto t = trim(fields[1].text);
+                                 NumberStatus st;
+                                 return !t.empty() &&
+                                        scan_number(t.data(), t.data() + t.size(), d.decimal, v, st) != nullptr;
+                               }();
+    if (!preamble_rate) {
+      c.layout.header = h;
+      c.layout.columns = std::max(c.layout.columns, shapes[h].count);
+      c.header_match = true;
+    } else {
+      c.layout.units.reset();
+    }
+  }
+  return c;
+}
+
+// ---- the parse ----------------------------------------------------------------------------
+
+struct Column {
+  std::string name;
+  std::string unit;
+  int channel = -1;  ///< index into Capture::channels, -1 for the time column
+};
+
+class Parser {
+ public:
+  Parser(std::string_view text, std::string_view name, const CsvOptions& options, const Release& release)
+      : text_(text), name_(name), options_(options), release_(release) {}
+
+  Capture run();
+
+ private:
+  [[noreturn]] void fail(std::size_t line, std::size_t column, const std::string& message) const {
+    throw InputError(name_, line, column, message);
+  }
+  void choose_time_column(const std::vector<const Line*>& content, bool has_header);
+  void parse_rows(std::size_t offset, std::size_t first_line);
+  void slow_row(const Line& line);
+  void store(std::size_t column, double value, const char* begin, const char* end, const Line& line);
+  std::string column_label(std::size_t j) const { return quoted(columns_[j].name); }
+
+  std::string_view text_;
+  std::string name_;
+  const CsvOptions& options_;
+  const Release& release_;
+  Layout layout_;
+  std::vector<Column> columns_;
+  std::optional<std::size_t> time_column_;
+  double time_factor_ = 1;
+  bool check_time_ = false;
+  TimeCheck time_;
+  std::size_t header_line_ = 0;
+  std::size_t first_data_line_ = 0;
+  Capture capture_;
+  std::vector<double*> sinks_;
+};
+
+void Parser::choose_time_column(const std::vector<const Line*>& content, bool has_header) {
+  const std::string& requested = options_.time_column;
+  if (requested == "none") return;
+  if (!requested.empty()) {
+    std::vector<std::string> names;
+    for (const auto& c : columns_) names.push_back(c.name);
+    for (std::size_t j = 0; j < columns_.size() && !time_column_; ++j)
+      if (columns_[j].name == requested) time_column_ = j;
+    for (std::size_t j = 0; j < columns_.size() && !time_column_; ++j)
+      if (lower(columns_[j].name) == lower(requested)) time_column_ = j;
+    std::size_t index = 0;
+    const char* end = requested.data() + requested.size();
+    if (!time_column_) {
+      if (auto [p, ec] = std::from_chars(requested.data(), end, index);
+          ec == std::errc{} && p == end && index < columns_.size())
+        time_column_ = index;
+    }
+    if (!time_column_) throw UnknownNameError("column", requested, names);
+    time_factor_ = time_factor(columns_[*time_column_].unit);
+    if (time_factor_ == 0)
+      throw InputError(name_, header_line_, 0,
+                       "time column " + quoted(columns_[*time_column_].name) + " has unit " +
+                           quoted(columns_[*time_column_].unit) + " (expected s, ms, us, ns or ps)");
+    return;
+  }
+  if (columns_.size() < 2) return;  // a lone column is data
+  if (has_header) {
+    for (std::size_t j = 0; j < columns_.size(); ++j) {
+      const double factor = time_factor(columns_[j].unit);
+      const bool by_unit = !columns_[j].unit.empty() && factor > 0;
+      const bool by_name = is_time_name(columns_[j].name) && factor > 0;
+      if (by_unit || by_name) {
+        time_column_ = j;
+        time_factor_ = factor;
+        return;
+      }
+    }
+    return;
+  }
+  // No header: the first column is time if it increases uniformly over the first rows.
+  TimeCheck check;
+  std::vector<Field> fields;
+  for (std::size_t i = layout_.data; i < content.size() && check.count() < kTimeHeuristicRows; ++i) {
+    if (!split_fields(content[i]->text, layout_.dialect, fields) || fields.empty()) return;
+    double t;
+    if (parse_field(fields[0].text, layout_.dialect.decimal, t) != NumberStatus::ok) return;
+    if (check.add(t, printed_resolution(trim(fields[0].text), layout_.dialect.decimal)) !=
+        TimeCheck::Verdict::ok)
+      return;
+  }
+  if (check.count() >= 2) time_column_ = 0;
+}
+
+Capture Parser::run() {
+  if (!std::isfinite(options_.rate_hz) || options_.rate_hz < 0)
+    throw OptionError("rate_hz", format_shortest(options_.rate_hz),
+                      "must be > 0, or 0 to take the rate from the file");
+  capture_.source = name_;
+  capture_.format = "csv";
+  std::size_t start = 0;
+  if (text_.substr(0, 3) == "\xEF\xBB\xBF") start = 3;
+  if (text_.find_first_not_of(" \t\r\n", start) == std::string_view::npos) fail(0, 0, "the file is empty");
+
+  // Sample the first lines for detection.
+  std::vector<SampleLine> sample;
+  {
+    LineCursor cursor(text_, start, 0);
+    Line line;
+    std::size_t content_lines = 0;
+    while (content_lines < kSampleLines && cursor.position() - start < kSampleBytes && cursor.next(line)) {
+      const LineKind kind = classify(line.text);
+      if (kind == LineKind::blank) continue;
+      sample.push_back({line, kind == LineKind::comment});
+      if (kind == LineKind::content) ++content_lines;
+    }
+  }
+  std::vector<const Line*> content;
+  for (const auto& s : sample)
+    if (!s.comment) content.push_back(&s.line);
+  if (content.empty()) fail(0, 0, "no data rows (the file holds only comments)");
+  if (text_.find('\n') == std::string_view::npos && text_.find('\r') != std::string_view::npos)
+    fail(0, 0, "lines end in a lone carriage return (CR); convert the line ends to LF or CRLF");
+
+  std::optional<Candidate> best;
+  for (const auto& d : kDialects) {
+    auto c = try_dialect(content, d);
+    if (!c) continue;
+    const auto key = [](const Candidate& x) {
+      return std::tuple(x.header_match, x.layout.columns, x.numeric_lines);
+    };
+    if (!best || key(*c) > key(*best)) best = std::move(c);
+  }
+  if (!best) {
+    const Line& last = *content.back();
+    if (content.size() == 1) fail(0, 0, "no data rows below the header on line " + std::to_string(last.number));
+    fail(0, 0,
+         "no data rows: no line holds only numbers separated by commas, semicolons, tabs or "
+         "spaces (the last line, " + std::to_string(last.number) + ", reads " + quoted(trim(last.text)) + ")");
+  }
+  layout_ = best->layout;
+  const Dialect& d = layout_.dialect;
+
+  // Columns: names and units from the header (and units row), else ch0, ch1, ….
+  columns_.resize(layout_.columns);
+  std::vector<Field> fields, header_fields;
+  if (layout_.header) {
+    const Line& h = *content[*layout_.header];
+    header_line_ = h.number;
+    split_fields(h.text, d, header_fields);
+    for (std::size_t j = 0; j < columns_.size(); ++j) {
+      auto nu = split_name_unit(header_fields[j].text);
+      columns_[j].name = nu.name;
+      columns_[j].unit = normal_unit(nu.unit);
+    }
+    if (layout_.units) {
+      split_fields(content[*layout_.units]->text, d, fields);
+      for (std::size_t j = 0; j < columns_.size() && j < fields.size(); ++j) {
+        std::string_view u = trim(fields[j].text);
+        if (u.size() >= 2 && (u.front() == '(' || u.front() == '[')) u = u.substr(1, u.size() - 2);
+        if (columns_[j].unit.empty()) columns_[j].unit = normal_unit(u);
+      }
+    }
+  }
+  choose_time_column(content, layout_.header.has_value());
+  {
+    std::size_t channel = 0;
+    for (std::size_t j = 0; j < columns_.size(); ++j) {
+      if (time_column_ && j == *time_column_) continue;
+      if (columns_[j].name.empty()) columns_[j].name = "ch" + std::to_string(channel);
+      columns_[j].channel = static_cast<int>(channel++);
+    }
+    if (time_column_ && columns_[*time_column_].name.empty()) columns_[*time_column_].name = "time";
+    for (std::size_t a = 0; a < columns_.size(); ++a)
+      for (std::size_t b = a + 1; b < columns_.size(); ++b)
+        if (columns_[a].name == columns_[b].name)
+          fail(header_line_, header_fields.size() > b ? header_fields[b].column : 0,
+               "column name " + quoted(columns_[b].name) + " appears twice");
+    if (channel == 0) fail(header_line_, 0, "no data columns besides the time column");
+  }
+
+  // Metadata: every preamble line and comment above the data, in file order.
+  const std::size_t data_line = content[layout_.data]->number;
+  const std::size_t header_number = layout_.header ? content[*layout_.header]->number : data_line;
+  const std::size_t units_number = layout_.units ? content[*layout_.units]->number : 0;
+  std::optional<StatedRate> stated;
+  for (const auto& s : sample) {
+    if (s.line.number >= data_line) break;
+    if (s.line.number == header_number || s.line.number == units_number) continue;
+    if (!s.comment && s.line.number > header_number) continue;
+    auto entry = metadata_entry(s.line.text, d, s.comment);
+    if (!stated && entry.first != "text") {
+      if (const RateKey key = rate_key(entry.first); key != RateKey::none)
+        stated = parse_stated_rate(key, entry.second, d.decimal, s.line.number, name_);
+    }
+    capture_.metadata.push_back(std::move(entry));
+  }
+
+  // Channels, reserved to the number of lines left (an upper bound on the rows), so the
+  // sample vectors never reallocate.
+  const std::size_t data_offset = content[layout_.data]->offset;
+  std::size_t rows_bound = 1;
+  for (std::size_t at = data_offset; at < text_.size();) {
+    const std::size_t stop = std::min(text_.size(), (at / kReleaseBytes + 1) * kReleaseBytes);
+    rows_bound += static_cast<std::size_t>(std::count(text_.data() + at, text_.data() + stop, '\n'));
+    at = stop;
+    if (release_ && stop < text_.size()) release_(stop);
+  }
+  if (release_) release_(0);  // nothing before the data is needed again
+  std::size_t channels = 0;
+  for (const auto& c : columns_)
+    if (c.channel >= 0) ++channels;
+  capture_.channels.resize(channels);
+  for (const auto& c : columns_) {
+    if (c.channel < 0) continue;
+    auto& ch = capture_.channels[static_cast<std::size_t>(c.channel)];
+    ch.name = c.name;
+    ch.unit = c.unit;
+    ch.samples.reserve(rows_bound);
+  }
+  check_time_ = time_column_.has_value() && options_.rate_hz == 0;
+  first_data_line_ = data_line;
+  parse_rows(data_offset, data_line - 1);
+
+  // Rate and t0.
+  if (time_column_) capture_.t0_s = time_.first();
+  if (options_.rate_hz > 0) {
+    capture_.sample_rate_hz = options_.rate_hz;
+  } else if (time_column_ && time_.count() >= 2) {
+    capture_.sample_rate_hz = time_.rate_hz();
+    if (stated) {
+      const double tolerance = kTimeUniformRel + stated->rel_rounding + time_.rate_rounding();
+      if (std::fabs(stated->rate_hz - capture_.sample_rate_hz) > tolerance * capture_.sample_rate_hz)
+        fail(stated->line, 0,
+             "the stated sample rate " + quoted(stated->text) + " (" +
+                 format_significant(stated->rate_hz) + " Hz) disagrees with the time column (" +
+                 format_significant(capture_.sample_rate_hz) + " Hz); give --rate HZ to choose");
+    }
+  } else if (stated) {
+    capture_.sample_rate_hz = stated->rate_hz;
+  } else {
+    fail(0, 0,
+         std::string("no sample rate: ") +
+             (time_column_ ? "the time column has a single row"
+                           : "no time column and no sample interval or rate in the preamble") +
+             "; give it with --rate HZ");
+  }
+  return std::move(capture_);
+}
+
+void Parser::store(std::size_t j, double value, const char* begin, const char* end, const Line& line) {
+  const Column& c = columns_[j];
+  if (c.channel >= 0) {
+    capture_.channels[static_cast<std::size_t>(c.channel)].samples.push_back(value);
+    return;
+  }
+  const double t = value * time_factor_;
+  if (!check_time_) {
+    if (time_.count() == 0) time_.add(t, 0);
+    return;
+  }
+  const double resolution =
+      printed_resolution(std::string_view(begin, static_cast<std::size_t>(end - begin)),
+                         layout_.dialect.decimal) * time_factor_;
+  const double previous = time_.last();
+  const double mean = time_.mean_step();
+  switch (time_.add(t, resolution)) {
+    case TimeCheck::Verdict::ok:
+      return;
+    case TimeCheck::Verdict::not_increasing:
+      fail(line.number, static_cast<std::size_t>(begin - line.text.data()) + 1,
+           "time does not increase: " + quoted(std::string_view(begin, static_cast<std::size_t>(end - begin))) +
+               " follows " + format_significant(previous / time_factor_, 9) + " in column " +
+               column_label(j) + " (give --rate HZ to ignore the time column)");
+    case TimeCheck::Verdict::not_uniform:
+      fail(line.number, static_cast<std::size_t>(begin - line.text.data()) + 1,
+           "time is not uniform: " + quoted(std::string_view(begin, static_cast<std::size_t>(end - begin))) +
+               " comes " + format_significant(t - previous) + " s after the previous row, expected " +
+               format_significant(mean) + " s (within 1e-4 relative); give --rate HZ to ignore the "
+               "time column");
+  }
+}
+
+void Parser::parse_rows(std::size_t offset, std::size_t first_line) {
+  LineCursor cursor(text_, offset, first_line);
+  Line line;
+  const Dialect d = layout_.dialect;
+  const bool runs = d.delimiter == ' ';
+  const std::size_t n = columns_.size();
+  std::size_t next_release = (offset / kReleaseBytes + 1) * kReleaseBytes;
+  std::vector<double> values(n);
+  std::vector<std::pair<const char*, const char*>> spans(n);
+  while (cursor.next(line)) {
+    if (release_ && line.offset >= next_release) {
+      release_(line.offset);
+      next_release = (line.offset / kReleaseBytes + 1) * kReleaseBytes;
+    }
+    const char* p = line.text.data();
+    const char* e = p + line.text.size();
+    while (p != e && is_blank(*p)) ++p;
+    if (p == e || *p == '#') continue;  // blank and comment lines
+    p = line.text.data();
+    bool fast = true;
+    for (std::size_t j = 0; j < n && fast; ++j) {
+      while (p != e && (runs ? is_blank(*p) : skippable(*p, d))) ++p;
+      NumberStatus status;
+      const char* q = scan_number(p, e, d.decimal, values[j], status);
+      if (!q || status != NumberStatus::ok) {
+        fast = false;
+        break;
+      }
+      spans[j] = {p, q};
+      p = q;
+      while (p != e && (runs ? is_blank(*p) : skippable(*p, d))) ++p;
+      if (j + 1 < n) {
+        if (runs ? (p == q || p == e) : (p == e || *p != d.delimiter)) fast = false;
+        else if (!runs) ++p;
+      } else {
+        while (p != e && (*p == d.delimiter || is_blank(*p))) ++p;  // trailing empty columns
+        if (p != e) fast = false;
+      }
+    }
+    if (!fast) {
+      slow_row(line);
+      continue;
+    }
+    for (std::size_t j = 0; j < n; ++j) store(j, values[j], spans[j].first, spans[j].second, line);
+  }
+  if (capture_.channels.front().samples.empty())
+    fail(first_data_line_, 0, "no data rows");
+}
+
+// The careful path: quoted fields, and the exact message for whatever is wrong in the row.
+void Parser::slow_row(const Line& line) {
+  const Dialect& d = layout_.dialect;
+  std::vector<Field> fields;
+  if (!split_fields(line.text, d, fields))
+    fail(line.number, 0, "a quoted field is not closed, or text follows its closing quote");
+  const std::size_t n = columns_.size();
+  const std::size_t count = stripped_count(fields);
+  std::vector<double> values(n);
+  for (std::size_t j = 0; j < std::min(n, fields.size()); ++j) {
+    const Field& f = fields[j];
+    if (f.text.empty())
+      fail(line.number, f.column, "empty cell in column " + column_label(j) + " (expected a number)");
+    switch (parse_field(f.text, d.decimal, values[j])) {
+      case NumberStatus::ok:
+        break;
+      case NumberStatus::not_number:
+        fail(line.number, f.column,
+             "expected a number in column " + column_label(j) + ", found " + quoted(f.text));
+      case NumberStatus::out_of_range:
+        fail(line.number, f.column,
+             "number out of the range of a double in column " + column_label(j) + ": " + quoted(f.text));
+      case NumberStatus::not_finite:
+        fail(line.number, f.column,
+             "expected a finite number in column " + column_label(j) + ", found " + quoted(f.text));
+    }
+  }
+  const std::string expected_from =
+      layout_.header ? "the header on line " + std::to_string(header_line_)
+                     : "the first data row on line " + std::to_string(first_data_line_);
+  if (fields.size() < n)
+    fail(line.number, 0,
+         "row has " + std::to_string(fields.size()) + " field" + (fields.size() == 1 ? "" : "s") + ", expected " +
+             std::to_string(n) + " as in " + expected_from);
+  if (count > n)
+    fail(line.number, fields[n].column,
+         "row has " + std::to_string(count) + " fields, expected " + std::to_string(n) + " as in " +
+             expected_from);
+  for (std::size_t j = 0; j < n; ++j) {
+    const std::string_view text = trim(fields[j].text);
+    store(j, values[j], text.data(), text.data() + text.size(), line);
+  }
+}
+
+// A read-only mapping of a regular file; pages behind the parse are given back.
+class MappedFile {
+ public:
+  MappedFile(const MappedFile&) = delete;
+  MappedFile& operator=(const MappedFile&) = delete;
+  MappedFile(void* base, std::size_t size) : base_(base), size_(size) {}
+  ~MappedFile() {
+    if (base_) ::munmap(base_, size_);
+  }
+  std::string_view text() const { return {static_cast<const char*>(base_), size_}; }
+  void release_before(std::size_t offset) {
+    const auto page = static_cast<std::size_t>(::sysconf(_SC_PAGESIZE));
+    const std::size_t end = offset / page * page;
+    if (end > released_) {
+      ::madvise(static_cast<char*>(base_) + released_, end - released_, MADV_DONTNEED);
+      released_ = end;
+    }
+  }
+  void release_all() {
+    ::madvise(base_, size_, MADV_DONTNEED);
+    released_ = 0;
+  }
+
+ private:
+  void* base_;
+  std::size_t size_;
+  std::size_t released_ = 0;
+};
+
+}  // namespace
+
+Capture parse_csv(std::string_view text, std::string_view name, const CsvOptions& options) {
+  const Release none;
+  return Parser(text, name, options, none).run();
+}
+
+Capture read_csv(const std::string& path, const CsvOptions& options) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) throw IoError(path, "cannot open", errno);
+  struct stat info {};
+  if (::fstat(fd, &info) != 0) {
+    const int e = errno;
+    ::close(fd);
+    throw IoError(path, "cannot read", e);
+  }
+  if (S_ISDIR(info.st_mode)) {
+    ::close(fd);
+    throw IoError(path, "cannot read", EISDIR);
+  }
+  if (!S_ISREG(info.st_mode) || info.st_size == 0) {
+    // Pipes and devices have no size to map; an empty file has nothing to map.
+    ::close(fd);
+    const std::string bytes = read_file(path);
+    return parse_csv(bytes, path, options);
+  }
+  const auto size = static_cast<std::size_t>(info.st_size);
+  void* base = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, fd, 0);
+  const int map_errno = errno;
+  ::close(fd);
+  if (base == MAP_FAILED) throw IoError(path, "cannot read", map_errno);
+  MappedFile file(base, size);
+  ::madvise(base, size, MADV_SEQUENTIAL);
+  // Detection reads the start again after the row count, so only the pages after the sample
+  // are given back during the count; the parse then releases everything behind it.
+  const Release release = [&file](std::size_t offset) {
+    if (offset == 0) file.release_all();
+    else file.release_before(offset);
+  };
+  return Parser(file.text(), path, options, release).run();
+}
+
+}  // namespace periodfit::io
