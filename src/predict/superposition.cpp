@@ -1,0 +1,608 @@
+#include "predict/superposition.hpp"
+
+#include <fftw3.h>
+
+#include <Eigen/Eigenvalues>
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <mutex>
+#include <numbers>
+
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+
+namespace periodfit::predict {
+
+namespace {
+
+constexpr double kPi = std::numbers::pi;
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+/// A pole counts as unstable when Re p > −this × max(1, |p|max): rounding of the companion
+/// eigenvalues is ~1e-15 relative, so 1e-12 only catches true imaginary-axis poles.
+constexpr double kMarginalPoleRelative = 1e-12;
+/// rate/f0 within this relative distance of an integer M counts as M samples per period.
+constexpr double kIntegerRateRelative = 1e-9;
+/// Ripple grid: at least this many points per period of the highest output harmonic.
+constexpr int kDensePointsPerHighestHarmonic = 8;
+constexpr int kDenseMaxPoints = 1 << 22;
+/// Tail look-ahead: harmonics N+1 … min(4N, N + kTailMaxExtra).
+constexpr int kTailFactor = 4;
+constexpr int kTailMaxExtra = 1'000'000;
+
+std::string num(double v) { return io::format_shortest(v); }
+
+std::mutex& fftw_planner_mutex() {
+  static std::mutex m;  // FFTW's planner is not thread-safe
+  return m;
+}
+
+/// One period of y_k = Y_0 + Σ_n Re(Y_n·e^{j2πnk/M}), k = 0…M−1: harmonic n lands on bin
+/// n mod M (and its conjugate on −n mod M), so the values are exact for any N.
+std::vector<double> folded_period(const std::vector<std::complex<double>>& y, int m) {
+  const auto size = static_cast<std::size_t>(m);
+  std::vector<std::complex<double>> bins(size, 0.0), out(size);
+  if (!y.empty()) bins[0] += y[0].real();
+  for (std::size_t n = 1; n < y.size(); ++n) {
+    const std::size_t b = n % size;
+    bins[b] += y[n] / 2.0;
+    bins[(size - b) % size] += std::conj(y[n]) / 2.0;
+  }
+  fftw_plan plan;
+  {
+    std::lock_guard lock(fftw_planner_mutex());
+    plan = fftw_plan_dft_1d(m, reinterpret_cast<fftw_complex*>(bins.data()),
+                            reinterpret_cast<fftw_complex*>(out.data()), FFTW_BACKWARD, FFTW_ESTIMATE);
+  }
+  fftw_execute(plan);
+  {
+    std::lock_guard lock(fftw_planner_mutex());
+    fftw_destroy_plan(plan);
+  }
+  std::vector<double> v(size);
+  for (std::size_t k = 0; k < size; ++k) v[k] = out[k].real();
+  return v;
+}
+
+/// θ = 2π·frac(f0·t), reduced before multiplying by n so large t keeps its accuracy.
+double angle(double f0_hz, double t_s) {
+  const double c = f0_hz * t_s;
+  return 2 * kPi * (c - std::floor(c));
+}
+
+/// y(θ) and its first two derivatives with respect to t.
+struct Point {
+  double y = 0, dy = 0, d2y = 0;
+};
+Point evaluate(const std::vector<std::complex<double>>& y, double omega0, double theta) {
+  Point p;
+  p.y = y.empty() ? 0 : y[0].real();
+  for (std::size_t n = 1; n < y.size(); ++n) {
+    if (y[n] == 0.0) continue;
+    const double dn = static_cast<double>(n);
+    const std::complex<double> z = y[n] * std::polar(1.0, dn * theta);
+    p.y += z.real();
+    p.dy += -dn * omega0 * z.imag();
+    p.d2y += -dn * dn * omega0 * omega0 * z.real();
+  }
+  return p;
+}
+
+double phase_deg(std::complex<double> z) {
+  const double d = std::arg(z) * 180 / kPi;
+  return d <= -180 ? d + 360 : d;
+}
+
+/// Per-harmonic system data: gain, where it came from, and what carries its uncertainty.
+struct Term {
+  int n = 0;
+  std::complex<double> x, h, y;
+  bool measured = false;
+  std::vector<std::complex<double>> g;  ///< model: ∂Y/∂θ = X·∂H/∂θ
+  double var_re = 0, var_im = 0, cov = 0;  ///< measured: covariance of (Re H, Im H)
+};
+
+/// ∂Q with respect to the real pairs (Re Y_n, Im Y_n), n ≥ 1 (indexed like terms), plus ∂Q/∂Y_0.
+struct Sensitivity {
+  double dc = 0;
+  std::vector<double> re, im;
+};
+
+double propagate(const Sensitivity& s, const std::vector<Term>& terms,
+                 const std::vector<std::complex<double>>& dc_g,
+                 const std::vector<std::vector<double>>& cov) {
+  double var = 0;
+  const std::size_t p = cov.size();
+  if (p > 0) {
+    std::vector<double> grad(p, 0.0);
+    for (std::size_t k = 0; k < p && k < dc_g.size(); ++k) grad[k] += s.dc * dc_g[k].real();
+    for (std::size_t i = 0; i < terms.size(); ++i) {
+      if (terms[i].measured) continue;
+      for (std::size_t k = 0; k < p; ++k)
+        grad[k] += s.re[i] * terms[i].g[k].real() + s.im[i] * terms[i].g[k].imag();
+    }
+    for (std::size_t k = 0; k < p; ++k)
+      for (std::size_t l = 0; l < p; ++l) var += grad[k] * cov[k][l] * grad[l];
+  }
+  for (std::size_t i = 0; i < terms.size(); ++i) {
+    const Term& t = terms[i];
+    if (!t.measured) continue;
+    // δY = X·δH: ∂Q/∂Re H, ∂Q/∂Im H from ∂Q/∂Re Y, ∂Q/∂Im Y.
+    const double dr = s.re[i] * t.x.real() + s.im[i] * t.x.imag();
+    const double di = -s.re[i] * t.x.imag() + s.im[i] * t.x.real();
+    var += dr * dr * t.var_re + di * di * t.var_im + 2 * dr * di * t.cov;
+  }
+  return std::max(0.0, var);
+}
+
+/// Sensitivity of y(t) at angle θ: y = Y_0 + Σ Re Y_n cos nθ − Im Y_n sin nθ.
+Sensitivity sample_sensitivity(const std::vector<Term>& terms, double theta) {
+  Sensitivity s;
+  s.dc = 1;
+  s.re.resize(terms.size());
+  s.im.resize(terms.size());
+  for (std::size_t i = 0; i < terms.size(); ++i) {
+    const double a = terms[i].n * theta;
+    s.re[i] = std::cos(a);
+    s.im[i] = -std::sin(a);
+  }
+  return s;
+}
+
+}  // namespace
+
+ident::RationalModel model_from_coefficients(std::vector<double> num_c, std::vector<double> den_c,
+                                             double delay_s) {
+  const auto list = [](const std::vector<double>& v) {
+    std::string s;
+    for (std::size_t i = 0; i < v.size(); ++i) s += (i ? "," : "") + num(v[i]);
+    return s.empty() ? std::string("(empty)") : s;
+  };
+  if (num_c.empty()) throw OptionError("num", "(empty)", "needs at least one coefficient b0");
+  if (den_c.empty()) throw OptionError("den", "(empty)", "needs at least one coefficient a0");
+  for (double v : num_c)
+    if (!std::isfinite(v)) throw OptionError("num", list(num_c), "coefficients must be finite");
+  for (double v : den_c)
+    if (!std::isfinite(v)) throw OptionError("den", list(den_c), "coefficients must be finite");
+  const double lead = den_c.back();
+  if (lead == 0)
+    throw OptionError("den", list(den_c),
+                      "the highest-power coefficient a" + std::to_string(den_c.size() - 1) +
+                          " must be nonzero; drop trailing zeros to lower the order");
+  if (!(std::isfinite(delay_s) && delay_s >= 0)) throw OptionError("delay_s", num(delay_s), "must be >= 0");
+  ident::RationalModel m;
+  for (double& v : num_c) v /= lead;
+  for (double& v : den_c) v /= lead;
+  den_c.back() = 1;
+  m.num = std::move(num_c);
+  m.den = std::move(den_c);
+  m.delay_s = delay_s;
+  return m;
+}
+
+std::vector<std::complex<double>> model_poles(const ident::RationalModel& model) {
+  const std::size_t order = model.den.empty() ? 0 : model.den.size() - 1;
+  if (order == 0) return {};
+  const double lead = model.den.back();
+  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(order), static_cast<Eigen::Index>(order));
+  for (std::size_t i = 0; i < order; ++i) {
+    c(0, static_cast<Eigen::Index>(i)) = -model.den[order - 1 - i] / lead;
+    if (i + 1 < order) c(static_cast<Eigen::Index>(i + 1), static_cast<Eigen::Index>(i)) = 1;
+  }
+  Eigen::EigenSolver<Eigen::MatrixXd> solver(c, false);
+  std::vector<std::complex<double>> poles;
+  for (Eigen::Index i = 0; i < solver.eigenvalues().size(); ++i) poles.push_back(solver.eigenvalues()[i]);
+  return poles;
+}
+
+void PredictOptions::validate() const {
+  truncation.validate();
+  if (periods < 1) throw OptionError("periods", std::to_string(periods), "must be >= 1");
+  if (!(std::isfinite(rate_hz) && rate_hz >= 0))
+    throw OptionError("rate_hz", num(rate_hz), "must be > 0, or 0 for the default");
+  if (default_samples_per_period < 2)
+    throw OptionError("default_samples_per_period", std::to_string(default_samples_per_period), "must be >= 2");
+  if (dense_min_points < 16 || dense_min_points > kDenseMaxPoints)
+    throw OptionError("dense_min_points", std::to_string(dense_min_points),
+                      "must be in [16, " + std::to_string(kDenseMaxPoints) + "]");
+  if (!(frf_match_rel_tolerance > 0 && frf_match_rel_tolerance < 0.1))
+    throw OptionError("frf_match_rel_tolerance", num(frf_match_rel_tolerance), "must be in (0, 0.1)");
+  if (!(max_direct_terms > 0)) throw OptionError("max_direct_terms", num(max_direct_terms), "must be > 0");
+}
+
+PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const PredictSystem& system,
+                                   const PredictOptions& options) {
+  options.validate();
+  const double f0 = input.series.f0_hz;
+  if (!(std::isfinite(f0) && f0 > 0)) throw OptionError("f0_hz", num(f0), "must be > 0");
+  const double omega0 = 2 * kPi * f0;
+  const ident::RationalModel* model =
+      system.model && !system.model->den.empty() ? &*system.model : nullptr;
+  if (!model && system.measured.empty())
+    throw AnalysisError("no system to predict through: give a model or measured FRF points");
+
+  std::size_t params = 0;
+  if (model) {
+    const auto poles = model_poles(*model);
+    double scale = 1;
+    for (const auto& q : poles) scale = std::max(scale, std::abs(q));
+    for (const auto& p : poles) {
+      if (p.real() > -kMarginalPoleRelative * scale)
+        throw AnalysisError("the model has a pole at " + num(p.real()) + (p.imag() < 0 ? "" : "+") +
+                            num(p.imag()) +
+                            "j rad/s, not in the open left half-plane: it has no periodic steady state");
+    }
+    if (!model->covariance.empty()) {
+      params = model->parameter_count();
+      bool square = model->covariance.size() == params;
+      for (const auto& row : model->covariance) square = square && row.size() == params;
+      if (!square)
+        throw AnalysisError("the model covariance is not " + std::to_string(params) + "×" +
+                            std::to_string(params) + " (one row and column per free parameter)");
+    }
+  }
+  std::vector<ident::FrfPoint> measured = system.measured;
+  std::sort(measured.begin(), measured.end(),
+            [](const auto& a, const auto& b) { return a.omega_rad_s < b.omega_rad_s; });
+  const bool use_measured = !measured.empty() && (system.prefer_measured || !model);
+  const auto find_measured = [&](double omega) -> const ident::FrfPoint* {
+    const double tol = options.frf_match_rel_tolerance * omega;
+    auto it = std::lower_bound(measured.begin(), measured.end(), omega - tol,
+                               [](const auto& p, double w) { return p.omega_rad_s < w; });
+    if (it != measured.end() && std::abs(it->omega_rad_s - omega) <= tol) return &*it;
+    return nullptr;
+  };
+  const auto measured_span = [&] {
+    return std::to_string(measured.size()) + " points from " + num(measured.front().omega_rad_s / (2 * kPi)) +
+           " Hz to " + num(measured.back().omega_rad_s / (2 * kPi)) + " Hz";
+  };
+
+  PredictResult r;
+  r.f0_hz = f0;
+  r.harmonics = input.harmonics;
+  r.harmonic_count_method = input.method;
+  r.input_left_out_fraction = input.left_out_fraction;
+  r.output_tail_estimate = kNaN;
+
+  // dc term: measured points have ω > 0, so a dc input needs the model.
+  const double x0 = input.series.dc();
+  double h0 = 0;
+  std::vector<std::complex<double>> dc_g;
+  if (x0 != 0) {
+    if (!model)
+      throw AnalysisError("the measured FRF holds no point at 0 Hz but the input has a dc of " + num(x0) +
+                          " (it holds " + measured_span() + "); give a model or remove the dc");
+    h0 = model->response(0).real();
+    if (params > 0)
+      for (const auto& g : model->response_gradient(0)) dc_g.push_back(g * x0);
+  }
+
+  std::vector<Term> terms;
+  bool any_measured = false, any_model = false;
+  const auto& xs = input.series.phasors;
+  for (std::size_t n = 1; n < xs.size(); ++n) {
+    if (xs[n] == 0.0) continue;  // the series has no term here: no gain needed
+    Term t;
+    t.n = static_cast<int>(n);
+    t.x = xs[n];
+    const double omega = omega0 * static_cast<double>(n);
+    const ident::FrfPoint* p = use_measured ? find_measured(omega) : nullptr;
+    if (p) {
+      t.measured = true;
+      t.h = p->h;
+      t.var_re = p->var_re;
+      t.var_im = p->var_im;
+      t.cov = p->cov_re_im;
+      any_measured = true;
+    } else if (model) {
+      t.h = model->response(omega);
+      if (params > 0) {
+        t.g = model->response_gradient(omega);
+        for (auto& g : t.g) g *= t.x;
+      }
+      any_model = true;
+    } else {
+      throw AnalysisError("the measured FRF holds no point at " + num(omega / (2 * kPi)) + " Hz (harmonic " +
+                          std::to_string(n) + " of the input) and there is no model to fill it (it holds " +
+                          measured_span() + "); give a model or limit the harmonic count");
+    }
+    t.y = t.h * t.x;
+    terms.push_back(std::move(t));
+  }
+  if (x0 != 0) any_model = true;
+  r.method = any_measured && any_model ? "superposition (measured FRF + model)"
+             : any_measured            ? "superposition (measured FRF)"
+                                       : "superposition (model)";
+  bool measured_var = false;
+  for (const auto& t : terms) measured_var = measured_var || (t.measured && (t.var_re > 0 || t.var_im > 0));
+  r.has_uncertainty = (params > 0 && any_model) || measured_var;
+  const std::vector<std::vector<double>> no_cov;
+  const auto& cov = params > 0 ? model->covariance : no_cov;
+
+  // Output phasors, indexed by harmonic number.
+  std::vector<std::complex<double>> y(xs.size(), 0.0);
+  y[0] = h0 * x0;
+  for (const auto& t : terms) y[static_cast<std::size_t>(t.n)] = t.y;
+  r.dc = y[0].real();
+
+  // Harmonic table with amplitude and phase uncertainties.
+  for (std::size_t i = 0; i < terms.size(); ++i) {
+    const Term& t = terms[i];
+    PredictedHarmonic h;
+    h.n = t.n;
+    h.freq_hz = f0 * t.n;
+    h.input = t.x;
+    h.gain = t.h;
+    h.output = t.y;
+    h.amplitude = std::abs(t.y);
+    h.phase_deg = phase_deg(t.y);
+    h.source = t.measured ? "measured" : "model";
+    if (r.has_uncertainty && h.amplitude > 0) {
+      Sensitivity sa, sp;
+      sa.re.assign(terms.size(), 0.0);
+      sa.im.assign(terms.size(), 0.0);
+      sp = sa;
+      // |Y|: ∂/∂(Re, Im) = (Re Y, Im Y)/|Y|;  ∠Y: (−Im Y, Re Y)/|Y|².
+      sa.re[i] = t.y.real() / h.amplitude;
+      sa.im[i] = t.y.imag() / h.amplitude;
+      sp.re[i] = -t.y.imag() / std::norm(t.y);
+      sp.im[i] = t.y.real() / std::norm(t.y);
+      h.amplitude_u = std::sqrt(propagate(sa, terms, dc_g, cov));
+      h.phase_u_deg = std::sqrt(propagate(sp, terms, dc_g, cov)) * 180 / kPi;
+    }
+    r.harmonics_out.push_back(std::move(h));
+  }
+
+  // dc, RMS, THD and their uncertainties.
+  double ac = 0, distortion = 0;
+  std::complex<double> y1 = 0;
+  for (const auto& t : terms) {
+    ac += std::norm(t.y) / 2;
+    if (t.n == 1) y1 = t.y;
+    else distortion += std::norm(t.y);
+  }
+  r.rms = std::sqrt(r.dc * r.dc + ac);
+  r.thd_defined = std::abs(y1) > 0;
+  r.thd = r.thd_defined ? std::sqrt(distortion) / std::abs(y1) : 0;
+  if (!r.thd_defined) {
+    r.flags.push_back("no-fundamental");
+  }
+  if (r.has_uncertainty) {
+    Sensitivity s;
+    s.re.assign(terms.size(), 0.0);
+    s.im.assign(terms.size(), 0.0);
+    s.dc = 1;
+    r.dc_u = std::sqrt(propagate(s, terms, dc_g, cov));
+    if (r.rms > 0) {
+      s.dc = r.dc / r.rms;
+      for (std::size_t i = 0; i < terms.size(); ++i) {
+        s.re[i] = terms[i].y.real() / (2 * r.rms);
+        s.im[i] = terms[i].y.imag() / (2 * r.rms);
+      }
+      r.rms_u = std::sqrt(propagate(s, terms, dc_g, cov));
+    }
+    if (r.thd_defined && distortion > 0) {
+      // THD = sqrt(D)/|Y1|: ∂/∂Y_n = THD·Y_n/D (n ≥ 2), ∂/∂Y_1 = −THD·Y_1/|Y_1|².
+      s.dc = 0;
+      for (std::size_t i = 0; i < terms.size(); ++i) {
+        const double f = terms[i].n == 1 ? -r.thd / std::norm(y1) : r.thd / distortion;
+        s.re[i] = f * terms[i].y.real();
+        s.im[i] = f * terms[i].y.imag();
+      }
+      r.thd_u = std::sqrt(propagate(s, terms, dc_g, cov));
+    }
+  }
+
+  // Extremes over one period: dense folded grid, then Newton on y'(t) = 0.
+  std::size_t highest = 0;
+  for (const auto& t : terms) highest = std::max(highest, static_cast<std::size_t>(t.n));
+  const int dense = static_cast<int>(std::min<std::size_t>(
+      kDenseMaxPoints,
+      std::max<std::size_t>(static_cast<std::size_t>(options.dense_min_points),
+                            kDensePointsPerHighestHarmonic * highest)));
+  r.dense_points = dense;
+  {
+    const std::vector<double> grid = folded_period(y, dense);
+    const auto [lo, hi] = std::minmax_element(grid.begin(), grid.end());
+    const double step = 2 * kPi / dense;
+    const auto refine = [&](std::size_t k, double sign) {
+      double theta = step * static_cast<double>(k);
+      Point p = evaluate(y, 1.0, theta);
+      for (int it = 0; it < 8; ++it) {
+        if (sign * p.d2y >= 0) break;  // not a local extremum in the sense sought
+        double delta = -p.dy / p.d2y;
+        delta = std::clamp(delta, -step, step);
+        const Point q = evaluate(y, 1.0, theta + delta);
+        if (sign * q.y <= sign * p.y) break;
+        theta += delta;
+        p = q;
+        if (std::abs(delta) < 1e-15 * 2 * kPi) break;
+      }
+      return std::pair{theta, p.y};
+    };
+    const auto [theta_max, vmax] = refine(static_cast<std::size_t>(hi - grid.begin()), 1);
+    const auto [theta_min, vmin] = refine(static_cast<std::size_t>(lo - grid.begin()), -1);
+    r.max = vmax;
+    r.min = vmin;
+    r.ripple_pp = vmax - vmin;
+    if (r.has_uncertainty) {
+      Sensitivity a = sample_sensitivity(terms, theta_max), b = sample_sensitivity(terms, theta_min);
+      a.dc = 0;
+      for (std::size_t i = 0; i < terms.size(); ++i) a.re[i] -= b.re[i], a.im[i] -= b.im[i];
+      r.ripple_pp_u = std::sqrt(propagate(a, terms, dc_g, cov));
+    }
+  }
+
+  // Samples.
+  const double rate = options.rate_hz > 0 ? options.rate_hz : options.default_samples_per_period * f0;
+  r.rate_hz = rate;
+  const double per_period = rate / f0;
+  const double m_round = std::round(per_period);
+  const bool folded = m_round >= 1 && std::abs(per_period - m_round) <= kIntegerRateRelative * per_period &&
+                      m_round * options.periods <= 1e9;
+  std::size_t count = 0;
+  if (folded) {
+    const auto m = static_cast<std::size_t>(m_round);
+    count = m * static_cast<std::size_t>(options.periods);
+    r.sampling_method = "folded-dft";
+    const std::vector<double> period = folded_period(y, static_cast<int>(m));
+    r.value.resize(count);
+    for (std::size_t k = 0; k < count; ++k) r.value[k] = period[k % m];
+    if (r.has_uncertainty) {
+      std::vector<std::vector<double>> jac;
+      for (std::size_t p = 0; p < params && any_model; ++p) {
+        std::vector<std::complex<double>> g(xs.size(), 0.0);
+        if (p < dc_g.size()) g[0] = dc_g[p];
+        for (const auto& t : terms)
+          if (!t.measured) g[static_cast<std::size_t>(t.n)] = t.g[p];
+        jac.push_back(folded_period(g, static_cast<int>(m)));
+      }
+      std::vector<double> var(m, 0.0);
+      for (std::size_t k = 0; k < m; ++k) {
+        for (std::size_t p = 0; p < jac.size(); ++p)
+          for (std::size_t q = 0; q < jac.size(); ++q) var[k] += jac[p][k] * cov[p][q] * jac[q][k];
+        if (measured_var) {
+          for (const auto& t : terms) {
+            if (!t.measured) continue;
+            const std::complex<double> z =
+                t.x * std::polar(1.0, 2 * kPi * static_cast<double>((static_cast<std::size_t>(t.n) * k) % m) /
+                                          static_cast<double>(m));
+            var[k] += z.real() * z.real() * t.var_re + z.imag() * z.imag() * t.var_im -
+                      2 * z.real() * z.imag() * t.cov;
+          }
+        }
+      }
+      r.value_u.resize(count);
+      for (std::size_t k = 0; k < count; ++k) r.value_u[k] = std::sqrt(std::max(0.0, var[k % m]));
+    }
+  } else {
+    count = static_cast<std::size_t>(std::ceil(options.periods * per_period - 1e-9));
+    const double work = static_cast<double>(count) * static_cast<double>(terms.size() + 1) *
+                        static_cast<double>(1 + (r.has_uncertainty ? params + 1 : 0));
+    if (work > options.max_direct_terms)
+      throw AnalysisError("evaluating " + std::to_string(count) + " samples of " + std::to_string(terms.size()) +
+                          " harmonics directly is too slow; choose a rate that is a whole multiple of f0 (" +
+                          num(f0) + " Hz) or fewer harmonics");
+    r.sampling_method = "direct";
+    r.value.resize(count);
+    if (r.has_uncertainty) r.value_u.resize(count);
+    const dsp::FourierSeries ys{f0, y};
+    for (std::size_t k = 0; k < count; ++k) {
+      const double t = static_cast<double>(k) / rate;
+      r.value[k] = ys.value(t);
+      if (r.has_uncertainty) r.value_u[k] = std::sqrt(propagate(sample_sensitivity(terms, angle(f0, t)), terms, dc_g, cov));
+    }
+  }
+  r.time_s.resize(count);
+  for (std::size_t k = 0; k < count; ++k) r.time_s[k] = static_cast<double>(k) / rate;
+  return r;
+}
+
+PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSystem& system,
+                                   const PredictOptions& options) {
+  options.validate();
+  const dsp::SeriesTruncation input = dsp::truncate_series(wave, options.truncation);
+  PredictResult r = predict_steady_state(input, system, options);
+  const ident::RationalModel* model =
+      system.model && !system.model->den.empty() ? &*system.model : nullptr;
+  if (input.method == "complete") {
+    r.output_tail_estimate = 0;
+    r.tail_checked_to = input.harmonics;
+  } else if (model) {
+    const int n_end = input.harmonics + std::min(kTailMaxExtra, (kTailFactor - 1) * input.harmonics);
+    double tail = 0;
+    const double omega0 = 2 * kPi * wave.f0_hz;
+    for (int n = input.harmonics + 1; n <= n_end; ++n) {
+      const std::complex<double> x = dsp::wave_harmonic(wave, n);
+      if (x != 0.0) tail += std::abs(model->response(omega0 * n) * x);
+    }
+    r.output_tail_estimate = tail;
+    r.tail_checked_to = n_end;
+  }
+  const double peak = std::max(std::abs(r.max), std::abs(r.min));
+  if (std::isfinite(r.output_tail_estimate) && r.output_tail_estimate > kVisibleTailFraction * peak) {
+    r.status = "truncation-visible";
+    r.flags.push_back("truncation-visible");
+    if (dsp::wave_has_jumps(wave)) r.flags.push_back("gibbs");
+    r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) + " sum to up to " +
+                         io::format_significant(r.output_tail_estimate, 3) + " (" +
+                         io::format_significant(100 * r.output_tail_estimate / peak, 3) +
+                         " % of the output peak): samples, min, max and ripple can be off by that much; "
+                         "raise the harmonic count" +
+                         (dsp::wave_has_jumps(wave) ? " (the input has jumps: a system that passes high "
+                                                      "frequencies shows Gibbs overshoot at any count)"
+                                                    : ""));
+  }
+  return r;
+}
+
+std::string format_predict_csv(const PredictResult& r) {
+  const bool u = !r.value_u.empty();
+  std::string out = u ? "time_s,value,value_u\n" : "time_s,value\n";
+  out.reserve(r.value.size() * 48);
+  for (std::size_t k = 0; k < r.value.size(); ++k) {
+    out += io::format_shortest(r.time_s[k]);
+    out += ',';
+    out += io::format_shortest(r.value[k]);
+    if (u) {
+      out += ',';
+      out += io::format_shortest(r.value_u[k]);
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+nlohmann::ordered_json predict_json(const PredictResult& r, std::size_t list_harmonics) {
+  using nlohmann::ordered_json;
+  const auto finite_or_null = [](double v) { return std::isfinite(v) ? ordered_json(v) : ordered_json(nullptr); };
+  const auto u = [&](double v) { return r.has_uncertainty ? finite_or_null(v) : ordered_json(nullptr); };
+  ordered_json j;
+  j["status"] = r.status;
+  j["method"] = r.method;
+  j["f0_hz"] = r.f0_hz;
+  j["harmonics_used"] = r.harmonics;
+  j["harmonic_count_method"] = r.harmonic_count_method;
+  j["input_left_out_fraction"] = finite_or_null(r.input_left_out_fraction);
+  j["output_tail_estimate"] = finite_or_null(r.output_tail_estimate);
+  j["tail_checked_to"] = r.tail_checked_to;
+  j["has_uncertainty"] = r.has_uncertainty;
+  j["dc"] = r.dc;
+  j["dc_u"] = u(r.dc_u);
+  j["rms"] = r.rms;
+  j["rms_u"] = u(r.rms_u);
+  j["min"] = r.min;
+  j["max"] = r.max;
+  j["ripple_pp"] = r.ripple_pp;
+  j["ripple_pp_u"] = u(r.ripple_pp_u);
+  j["thd"] = r.thd_defined ? ordered_json(r.thd) : ordered_json(nullptr);
+  j["thd_u"] = r.thd_defined ? u(r.thd_u) : ordered_json(nullptr);
+  const std::size_t listed =
+      list_harmonics == 0 ? r.harmonics_out.size() : std::min(list_harmonics, r.harmonics_out.size());
+  j["harmonics_listed"] = listed;
+  ordered_json hs = ordered_json::array();
+  for (std::size_t i = 0; i < listed; ++i) {
+    const auto& h = r.harmonics_out[i];
+    ordered_json e;
+    e["n"] = h.n;
+    e["freq_hz"] = h.freq_hz;
+    e["amplitude"] = h.amplitude;
+    e["phase_deg"] = h.phase_deg;
+    e["amplitude_u"] = u(h.amplitude_u);
+    e["phase_u_deg"] = u(h.phase_u_deg);
+    e["input_amplitude"] = std::abs(h.input);
+    e["input_phase_deg"] = phase_deg(h.input);
+    e["gain_magnitude"] = std::abs(h.gain);
+    e["gain_phase_deg"] = phase_deg(h.gain);
+    e["source"] = h.source;
+    hs.push_back(std::move(e));
+  }
+  j["harmonics"] = std::move(hs);
+  j["samples"] = {{"rate_hz", r.rate_hz}, {"count", r.value.size()}, {"method", r.sampling_method},
+                  {"dense_points", r.dense_points}};
+  j["flags"] = r.flags;
+  j["warnings"] = r.warnings;
+  return j;
+}
+
+}  // namespace periodfit::predict

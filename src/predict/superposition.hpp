@@ -1,0 +1,147 @@
+#pragma once
+/// Steady-state output of a linear time-invariant system for a periodic input, by superposition.
+///
+/// Model. The input is a (partial) Fourier series x(t) = X_0 + Σ_{n=1}^{N} Re(X_n·e^{jnω0t});
+/// the system is stable and linear, so after the transient has died out the output is
+///   y(t) = H(0)·X_0 + Σ_{n=1}^{N} Re(H(jnω0)·X_n·e^{jnω0t}),   Y_n = H(jnω0)·X_n
+/// (sinusoidal steady state of each term, summed: any circuits/signals text, e.g. Oppenheim &
+/// Willsky, Signals and Systems, 2nd ed., §3.8 "Fourier series and LTI systems").
+/// H comes from a rational model B(s)/A(s)·e^{−sT} (ident/model.hpp) or from measured FRF points,
+/// which are used only at the harmonics they hold: a harmonic (or a dc) the FRF lacks is an
+/// AnalysisError unless a model can fill it. A model with a pole in the closed right half-plane
+/// (or on the imaginary axis) has no periodic steady state and is refused.
+///
+/// Derived numbers: dc = Y_0; RMS = sqrt(Y_0² + Σ|Y_n|²/2) (Parseval); THD =
+/// sqrt(Σ_{n≥2}|Y_n|²)/|Y_1| (IEEE Std 1241-2010 §4.6.1 ratio to the fundamental; undefined
+/// when Y_1 = 0, e.g. a full-wave rectified input); peak-to-peak ripple = max − min of y over one
+/// period, from a dense grid (folded inverse FFT, exact at the grid points) refined by Newton
+/// steps on y'(t) = 0.
+///
+/// Uncertainty (first-order propagation, GUM JCGM 100:2008 §5.1.2): with model parameter
+/// covariance C and ∂H(jω)/∂θ from RationalModel::response_gradient, every output quantity Q
+/// (a sample y(t), a harmonic's amplitude and phase, dc, RMS, THD, ripple) has
+/// u²(Q) = ∇Qᵀ·C·∇Q, ∇Q = ∂Q/∂θ through Y_n = H_n·X_n. Measured FRF points carry their own
+/// 2×2 covariance of (Re H, Im H), taken independent between frequencies and from the model.
+/// The input series is taken as exact (no input uncertainty is propagated).
+///
+/// Samples: t_k = k/rate_hz over `periods` whole periods. When rate/f0 is an integer M the
+/// samples come from one folded inverse DFT of length M (harmonic n added to bin n mod M), which
+/// gives the partial sum exactly at those instants; otherwise the sum is evaluated directly.
+///
+/// Misuse: the input series is truncated at N harmonics. For inputs with jumps and a system that
+/// passes high frequencies (not strictly proper) the samples show Gibbs overshoot whatever N;
+/// `output_tail_estimate` (Σ|Y_n| over the next harmonics) says how far the samples can be off,
+/// and the status becomes "truncation-visible" when that exceeds kVisibleTailFraction of the
+/// output's peak.
+///
+/// Usage:
+///   PredictSystem sys; sys.model = model_from_coefficients({1}, {1e3, 1}, 0);   // 1/(1 + s/1000)·…
+///   dsp::WaveSpec w{.kind = dsp::WaveKind::half_wave, .amplitude_v = 10, .f0_hz = 50};
+///   PredictResult r = predict_steady_state(w, sys);   // r.dc, r.harmonics_out[0].amplitude, r.value
+#include <complex>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+
+#include "dsp/waveforms.hpp"
+#include "ident/model.hpp"
+#include "ident/rational_fit.hpp"
+
+namespace periodfit::predict {
+
+/// Tail above which the truncation is reported as visible in the samples: 1e-4 of the output
+/// peak, the accuracy the superposition tests demand.
+inline constexpr double kVisibleTailFraction = 1e-4;
+
+/// A validated rational model from coefficients in ascending powers of s (SI, s in rad/s):
+/// den is normalised to monic (every coefficient divided by the highest). Throws OptionError for
+/// empty lists, non-finite values, a zero highest den coefficient, or a negative delay.
+ident::RationalModel model_from_coefficients(std::vector<double> num, std::vector<double> den,
+                                             double delay_s = 0);
+
+/// Poles of a model (roots of den, rad/s), from the companion matrix eigenvalues.
+std::vector<std::complex<double>> model_poles(const ident::RationalModel& model);
+
+/// The system to predict through.
+struct PredictSystem {
+  std::optional<ident::RationalModel> model;   ///< H(s); empty = measured points only
+  std::vector<ident::FrfPoint> measured;       ///< measured H(jω) points (may be empty)
+  /// true: use a measured point wherever one lies at the harmonic, the model elsewhere;
+  /// false: the model everywhere (measured points are ignored when a model exists).
+  bool prefer_measured = false;
+};
+
+struct PredictOptions {
+  dsp::TruncationOptions truncation;  ///< harmonic count N (0 = automatic energy bound)
+  int periods = 1;                    ///< samples cover this many whole periods, >= 1
+  double rate_hz = 0;                 ///< sample rate; 0 = default_samples_per_period × f0
+  int default_samples_per_period = 1000;  ///< used when rate_hz = 0, >= 2
+  int dense_min_points = 8192;        ///< ripple grid: at least this many points per period
+  /// A measured point serves harmonic n when |ω − nω0| ≤ this × nω0.
+  double frf_match_rel_tolerance = 1e-6;
+  /// Refuse (AnalysisError) direct-summation jobs above this many harmonic·sample terms.
+  double max_direct_terms = 4e9;
+
+  /// Throws OptionError naming the field, value and constraint.
+  void validate() const;
+};
+
+/// One output harmonic n ≥ 1 (only harmonics the input holds, X_n ≠ 0).
+struct PredictedHarmonic {
+  int n = 0;
+  double freq_hz = 0;
+  std::complex<double> input;    ///< X_n
+  std::complex<double> gain;     ///< H(jnω0)
+  std::complex<double> output;   ///< Y_n
+  double amplitude = 0;          ///< |Y_n|, peak
+  double phase_deg = 0;          ///< ∠Y_n, degrees in (−180, 180]
+  double amplitude_u = 0;        ///< standard uncertainty of |Y_n| (0 when unknown)
+  double phase_u_deg = 0;        ///< standard uncertainty of ∠Y_n, degrees
+  std::string source;            ///< "model" or "measured"
+};
+
+struct PredictResult {
+  std::string status = "ok";     ///< "ok" or "truncation-visible" (see the header comment)
+  std::string method;            ///< "superposition (model)", "… (measured FRF)", "… (measured FRF + model)"
+  double f0_hz = 0;
+  int harmonics = 0;             ///< N, input harmonics used
+  std::string harmonic_count_method;  ///< "given", "automatic", "complete", "measured"
+  /// Input ac energy left out by the truncation / total (NaN when unknown, e.g. a capture).
+  double input_left_out_fraction = 0;
+  /// Σ|H(jnω0)·X_n| for N < n ≤ tail_checked_to (NaN when unknown: no model or no closed form).
+  double output_tail_estimate = 0;
+  int tail_checked_to = 0;
+  bool has_uncertainty = false;  ///< a covariance (model or measured) was propagated
+  double dc = 0, dc_u = 0;
+  double rms = 0, rms_u = 0;
+  double min = 0, max = 0;       ///< extremes over one period
+  double ripple_pp = 0, ripple_pp_u = 0;  ///< max − min
+  bool thd_defined = false;      ///< false when Y_1 = 0
+  double thd = 0, thd_u = 0;     ///< ratio (not %)
+  std::vector<PredictedHarmonic> harmonics_out;
+  double rate_hz = 0;            ///< sample rate of time_s/value
+  std::string sampling_method;   ///< "folded-dft" or "direct"
+  int dense_points = 0;          ///< grid points per period used for min/max
+  std::vector<double> time_s, value, value_u;  ///< samples (value_u empty without uncertainty)
+  std::vector<std::string> flags;     ///< "gibbs", "truncation-visible", "no-fundamental"
+  std::vector<std::string> warnings;  ///< sentences for people (the CLI prints them to stderr)
+};
+
+/// Predicts through `system` for an input given as a series (N = its harmonic count).
+PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const PredictSystem& system,
+                                   const PredictOptions& options = {});
+
+/// Truncates `wave` with options.truncation, predicts, and estimates the output tail from the
+/// closed-form harmonics beyond N.
+PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSystem& system,
+                                   const PredictOptions& options = {});
+
+/// `time_s,value[,value_u]` lines (docs/predict-json.md), doubles shortest round-trip.
+std::string format_predict_csv(const PredictResult& result);
+
+/// The JSON document of docs/predict-json.md (keys in that order).
+nlohmann::ordered_json predict_json(const PredictResult& result, std::size_t list_harmonics = 0);
+
+}  // namespace periodfit::predict
