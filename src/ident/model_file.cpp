@@ -1,0 +1,273 @@
+#include "ident/model_file.hpp"
+
+#include <nlohmann/json.hpp>
+
+#include <cmath>
+#include <numbers>
+
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+#include "io/output_file.hpp"
+
+namespace periodfit::ident {
+
+namespace {
+
+using json = nlohmann::ordered_json;
+
+json roots_json(const std::vector<std::complex<double>>& roots) {
+  json a = json::array();
+  for (const auto& r : roots) a.push_back(json{{"re", r.real()}, {"im", r.imag()}});
+  return a;
+}
+
+/// Reads the document, naming the key path in every message (`model.den[2]`).
+class Reader {
+ public:
+  explicit Reader(std::string name) : name_(std::move(name)) {}
+
+  [[noreturn]] void fail(const std::string& message) const { throw InputError(name_, 0, 0, message); }
+
+  const json& member(const json& obj, const std::string& key, const std::string& path) const {
+    const auto it = obj.find(key);
+    if (it == obj.end()) fail("missing key \"" + path + "\"");
+    return *it;
+  }
+
+  double number(const json& v, const std::string& path) const {
+    if (!v.is_number()) fail("\"" + path + "\" must be a number, found " + type_of(v));
+    const double d = v.get<double>();
+    if (!std::isfinite(d)) fail("\"" + path + "\" must be finite");
+    return d;
+  }
+
+  std::vector<double> numbers(const json& v, const std::string& path) const {
+    if (!v.is_array() || v.empty()) fail("\"" + path + "\" must be a non-empty array of numbers, found " + type_of(v));
+    std::vector<double> out;
+    for (std::size_t i = 0; i < v.size(); ++i) out.push_back(number(v[i], path + "[" + std::to_string(i) + "]"));
+    return out;
+  }
+
+  std::string text(const json& v, const std::string& path) const {
+    if (!v.is_string()) fail("\"" + path + "\" must be a string, found " + type_of(v));
+    return v.get<std::string>();
+  }
+
+  bool boolean(const json& v, const std::string& path) const {
+    if (!v.is_boolean()) fail("\"" + path + "\" must be true or false, found " + type_of(v));
+    return v.get<bool>();
+  }
+
+  const json& object(const json& v, const std::string& path) const {
+    if (!v.is_object()) fail("\"" + path + "\" must be an object, found " + type_of(v));
+    return v;
+  }
+
+  const json& array(const json& v, const std::string& path) const {
+    if (!v.is_array()) fail("\"" + path + "\" must be an array, found " + type_of(v));
+    return v;
+  }
+
+  std::vector<std::complex<double>> roots(const json& v, const std::string& path) const {
+    std::vector<std::complex<double>> out;
+    for (std::size_t i = 0; i < array(v, path).size(); ++i) {
+      const std::string p = path + "[" + std::to_string(i) + "]";
+      const json& r = object(v[i], p);
+      out.emplace_back(number(member(r, "re", p + ".re"), p + ".re"), number(member(r, "im", p + ".im"), p + ".im"));
+    }
+    return out;
+  }
+
+  static std::string type_of(const json& v) {
+    if (v.is_null()) return "null";
+    if (v.is_boolean()) return "a boolean";
+    if (v.is_number()) return "a number";
+    if (v.is_string()) return "a string";
+    if (v.is_array()) return "an array";
+    return "an object";
+  }
+
+ private:
+  std::string name_;
+};
+
+}  // namespace
+
+ModelFile model_file_from_fit(const RationalFitResult& fit, std::string source, double f0_hz,
+                              std::vector<FrfPoint> frf) {
+  ModelFile f;
+  f.model = fit.model;
+  f.parameter_names = fit.parameter_names;
+  for (const Root& p : fit.poles) f.poles.push_back(p.value);
+  for (const Root& z : fit.zeros) f.zeros.push_back(z.value);
+  f.source = std::move(source);
+  f.created_by = std::string("periodfit ") + PERIODFIT_VERSION;
+  f.f0_hz = f0_hz;
+  f.has_fit = true;
+  f.cost = fit.cost;
+  f.dof = fit.dof;
+  f.adequate = fit.adequate;
+  f.method = fit.method;
+  f.frf = std::move(frf);
+  return f;
+}
+
+std::string format_model_file(const ModelFile& file) {
+  const RationalModel& m = file.model;
+  json model;
+  model["num"] = m.num;
+  model["den"] = m.den;
+  model["delay_s"] = m.delay_s;
+  model["delay_estimated"] = m.delay_estimated;
+  model["parameters"] = file.parameter_names;
+  model["covariance"] = m.covariance;
+  model["poles"] = roots_json(file.poles);
+  model["zeros"] = roots_json(file.zeros);
+  json doc;
+  doc["format"] = kModelFileFormat;
+  doc["version"] = kModelFileVersion;
+  doc["created_by"] = file.created_by;
+  doc["source"] = file.source;
+  doc["f0_hz"] = file.f0_hz;
+  doc["model"] = std::move(model);
+  if (file.has_fit)
+    doc["fit"] = json{{"cost", file.cost}, {"dof", file.dof}, {"adequate", file.adequate}, {"method", file.method}};
+  if (!file.frf.empty()) {
+    json pts = json::array();
+    for (const FrfPoint& p : file.frf)
+      pts.push_back(json{{"freq_hz", p.omega_rad_s / (2 * std::numbers::pi)},
+                         {"re", p.h.real()},
+                         {"im", p.h.imag()},
+                         {"var_re", p.var_re},
+                         {"var_im", p.var_im},
+                         {"cov_re_im", p.cov_re_im}});
+    doc["frf"] = std::move(pts);
+  }
+  return doc.dump(2) + "\n";
+}
+
+void write_model_file(const std::string& path, const ModelFile& file) {
+  io::write_file_atomic(path, format_model_file(file));
+}
+
+ModelFile parse_model_file(std::string_view text, std::string_view name) {
+  const Reader rd{std::string(name)};
+  json doc;
+  try {
+    doc = json::parse(text);
+  } catch (const json::parse_error& e) {
+    // Position from the byte offset, message from nlohmann's text after its "parse error …: ".
+    std::size_t line = 1, column = 1;
+    for (std::size_t i = 0; i + 1 < e.byte && i < text.size(); ++i) {
+      if (text[i] == '\n') {
+        ++line;
+        column = 1;
+      } else {
+        ++column;
+      }
+    }
+    std::string why = e.what();
+    const auto colon = why.find(": ");
+    if (colon != std::string::npos) why = why.substr(colon + 2);
+    throw InputError(std::string(name), line, column, "not valid JSON: " + why);
+  }
+  if (!doc.is_object()) rd.fail("expected a JSON object at the top level, found " + Reader::type_of(doc));
+  const std::string format = rd.text(rd.member(doc, "format", "format"), "format");
+  if (format != kModelFileFormat)
+    rd.fail("\"format\" is \"" + format + "\", expected \"" + std::string(kModelFileFormat) + "\"");
+  const json& version = rd.member(doc, "version", "version");
+  if (!version.is_number_integer()) rd.fail("\"version\" must be an integer, found " + Reader::type_of(version));
+  const auto v = version.get<long long>();
+  if (v < 1) rd.fail("\"version\" must be >= 1, found " + std::to_string(v));
+  if (v > kModelFileVersion)
+    rd.fail("version " + std::to_string(v) + " is newer than this program reads (up to " +
+            std::to_string(kModelFileVersion) + ")");
+
+  ModelFile f;
+  if (doc.contains("created_by")) f.created_by = rd.text(doc["created_by"], "created_by");
+  if (doc.contains("source")) f.source = rd.text(doc["source"], "source");
+  if (doc.contains("f0_hz")) {
+    f.f0_hz = rd.number(doc["f0_hz"], "f0_hz");
+    if (f.f0_hz < 0) rd.fail("\"f0_hz\" must be >= 0, found " + io::format_shortest(f.f0_hz));
+  }
+  const json& model = rd.object(rd.member(doc, "model", "model"), "model");
+  RationalModel& m = f.model;
+  m.num = rd.numbers(rd.member(model, "num", "model.num"), "model.num");
+  m.den = rd.numbers(rd.member(model, "den", "model.den"), "model.den");
+  if (m.den.size() < 2) rd.fail("\"model.den\" must have at least 2 coefficients (a0, a1), found 1");
+  if (m.den.back() != 1)
+    rd.fail("\"model.den\" must be monic (last coefficient 1), found " + io::format_shortest(m.den.back()));
+  if (model.contains("delay_s")) {
+    m.delay_s = rd.number(model["delay_s"], "model.delay_s");
+    if (m.delay_s < 0) rd.fail("\"model.delay_s\" must be >= 0, found " + io::format_shortest(m.delay_s));
+  }
+  if (model.contains("delay_estimated")) m.delay_estimated = rd.boolean(model["delay_estimated"], "model.delay_estimated");
+  const std::size_t n = m.parameter_count();
+  if (model.contains("parameters")) {
+    const json& names = rd.array(model["parameters"], "model.parameters");
+    for (std::size_t i = 0; i < names.size(); ++i)
+      f.parameter_names.push_back(rd.text(names[i], "model.parameters[" + std::to_string(i) + "]"));
+    if (f.parameter_names.size() != n)
+      rd.fail("\"model.parameters\" has " + std::to_string(f.parameter_names.size()) + " names, expected " +
+              std::to_string(n) + " (num, then den without its monic 1" + (m.delay_estimated ? ", then T)" : ")"));
+  }
+  if (model.contains("covariance") && !model["covariance"].empty()) {
+    const json& cov = rd.array(model["covariance"], "model.covariance");
+    if (cov.size() != n)
+      rd.fail("\"model.covariance\" has " + std::to_string(cov.size()) + " rows, expected " + std::to_string(n) +
+              " (one per free parameter)");
+    for (std::size_t i = 0; i < n; ++i) {
+      const std::string p = "model.covariance[" + std::to_string(i) + "]";
+      std::vector<double> row = rd.numbers(cov[i], p);
+      if (row.size() != n)
+        rd.fail("\"" + p + "\" has " + std::to_string(row.size()) + " entries, expected " + std::to_string(n));
+      m.covariance.push_back(std::move(row));
+    }
+    for (std::size_t i = 0; i < n; ++i) {
+      if (m.covariance[i][i] < 0)
+        rd.fail("\"model.covariance\" has a negative variance at [" + std::to_string(i) + "][" + std::to_string(i) +
+                "]");
+      for (std::size_t j = 0; j < i; ++j) {
+        const double tol = 1e-12 * std::sqrt(m.covariance[i][i] * m.covariance[j][j]);
+        if (std::abs(m.covariance[i][j] - m.covariance[j][i]) > tol)
+          rd.fail("\"model.covariance\" is not symmetric at [" + std::to_string(i) + "][" + std::to_string(j) + "]");
+      }
+    }
+  }
+  if (model.contains("poles")) f.poles = rd.roots(model["poles"], "model.poles");
+  if (model.contains("zeros")) f.zeros = rd.roots(model["zeros"], "model.zeros");
+
+  if (doc.contains("fit")) {
+    const json& fit = rd.object(doc["fit"], "fit");
+    f.has_fit = true;
+    f.cost = rd.number(rd.member(fit, "cost", "fit.cost"), "fit.cost");
+    const json& dof = rd.member(fit, "dof", "fit.dof");
+    if (!dof.is_number_integer()) rd.fail("\"fit.dof\" must be an integer, found " + Reader::type_of(dof));
+    f.dof = dof.get<int>();
+    f.adequate = rd.boolean(rd.member(fit, "adequate", "fit.adequate"), "fit.adequate");
+    if (fit.contains("method")) f.method = rd.text(fit["method"], "fit.method");
+  }
+  if (doc.contains("frf")) {
+    const json& pts = rd.array(doc["frf"], "frf");
+    for (std::size_t i = 0; i < pts.size(); ++i) {
+      const std::string p = "frf[" + std::to_string(i) + "]";
+      const json& o = rd.object(pts[i], p);
+      auto get = [&](const char* key) { return rd.number(rd.member(o, key, p + "." + key), p + "." + key); };
+      FrfPoint pt;
+      const double f_hz = get("freq_hz");
+      if (f_hz <= 0) rd.fail("\"" + p + ".freq_hz\" must be > 0, found " + io::format_shortest(f_hz));
+      pt.omega_rad_s = 2 * std::numbers::pi * f_hz;
+      pt.h = {get("re"), get("im")};
+      pt.var_re = get("var_re");
+      pt.var_im = get("var_im");
+      pt.cov_re_im = get("cov_re_im");
+      if (pt.var_re < 0 || pt.var_im < 0) rd.fail("\"" + p + "\" has a negative variance");
+      f.frf.push_back(pt);
+    }
+  }
+  return f;
+}
+
+ModelFile read_model_file(const std::string& path) { return parse_model_file(io::read_file(path), path); }
+
+}  // namespace periodfit::ident
