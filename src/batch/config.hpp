@@ -1,0 +1,70 @@
+#pragma once
+/// The batch configuration: which files, how each is analysed (analyze or identify settings),
+/// what the report holds, and the limits. Written in TOML (docs/batch-config.md); read with
+/// toml++. Everything is checked at load time, before any capture is read: a TOML syntax error,
+/// an unknown section or key (with a "did you mean"), a value of the wrong type or out of
+/// range, an unknown result name or a malformed limit throws InputError carrying the config's
+/// path and the line and column of the offending value.
+///
+/// Usage:
+///   const BatchConfig config = load_batch_config("limits.toml");
+///   for (const Limit& l : config.limits) …
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "batch/limits.hpp"
+#include "ident/identify.hpp"
+#include "io/capture_reader.hpp"
+
+namespace periodfit::batch {
+
+/// Which files' sections in report.html get plots.
+enum class PlotSelection { all, failed, none };
+
+const char* plot_selection_name(PlotSelection selection);
+/// Parses "all", "failed" or "none"; throws OptionError naming `field` otherwise.
+PlotSelection parse_plot_selection(std::string_view text, std::string_view field = "plots");
+/// Parses "analyze" or "identify"; throws OptionError naming `field` otherwise.
+AnalysisMode parse_mode(std::string_view text, std::string_view field = "mode");
+
+/// Settings of analyze mode (one result per channel).
+struct AnalyzeSettings {
+  std::vector<std::string> channels;  ///< channel names or 0-based indices; empty = all data channels
+  double f0_hz = 0;       ///< > 0: use exactly this fundamental; 0 = estimate
+  double f0_hint_hz = 0;  ///< > 0: search the fundamental near this value
+  int harmonics = 0;      ///< highest harmonic; 0 = all below 0.45·fs, at most 50
+  void validate() const;  ///< throws OptionError naming the field
+};
+
+/// Which files a batch takes from its folders.
+struct FileSelection {
+  /// File-name globs (`*`, `?`, `[…]`); empty = every file with a capture extension
+  /// (.csv, .txt, .tsv, .dat, .wav, .flac, .aif, .aiff, .w64, .rf64).
+  std::vector<std::string> patterns;
+  bool recursive = false;  ///< descend into sub-folders
+};
+
+struct BatchConfig {
+  std::string source;  ///< path of the config file; "" when built from flags alone
+  AnalysisMode mode = AnalysisMode::analyze;
+  FileSelection files;
+  io::ReadOptions read;
+  AnalyzeSettings analyze;
+  ident::IdentifyOptions identify;  ///< identify mode: channels, order, delay, FRF settings
+  PlotSelection plots = PlotSelection::all;
+  std::string title = "periodfit batch report";  ///< heading of report.html
+  std::vector<Limit> limits;  ///< finished (lo/hi derived) for `mode`
+};
+
+/// Parses config text; `source` names it in error messages.
+BatchConfig parse_batch_config(std::string_view text, const std::string& source);
+
+/// Reads and parses a config file (IoError when it cannot be read).
+BatchConfig load_batch_config(const std::string& path);
+
+/// Re-checks every limit for `config.mode` (after a command line changed it); an invalid one
+/// throws InputError at the limit's position in the config.
+void revalidate_limits(BatchConfig& config);
+
+}  // namespace periodfit::batch
