@@ -10,6 +10,47 @@
 /// Conventions: a phasor X_n = A_n·e^{jφ_n} means the term A_n·cos(n·ω0·t + φ_n) with A_n the
 /// peak amplitude and t = 0 the file's time origin (Capture::t0_s is the time of sample 0).
 /// X_0 is the dc value (real).
+///
+/// ## Model and method
+/// Samples x_k at t_k = t0 + k/fs, k = 0…N−1, are modelled as
+///     x_k = a_0 + Σ_{n=1..H} [a_n·cos(n·ω·τ_k) + b_n·sin(n·ω·τ_k)] + e_k,   τ_k = t_k − t_c,
+/// with t_c the record's middle (conditioning: cos and sin columns are then exactly
+/// orthogonal and the ω column is orthogonal to the cosines' even part). e_k is taken as
+/// zero-mean noise; the fit is least squares, which is maximum likelihood for white Gaussian e.
+///  1. Coarse ω: Hann-windowed, zero-padded FFT peak with Gaussian (log-parabolic)
+///     interpolation. A sub-multiple f/m (m = 4, 3, 2) of the peak that is itself a spectral
+///     peak within −60 dB of it is taken instead (2nd harmonic stronger than the fundamental,
+///     e.g. a full-wave rectifier with unequal halves). With f0_hint_hz the peak is searched
+///     within ±20 % of the hint only. Records under 12 periods are then searched on a
+///     0.02-bin grid of the 3-harmonic least-squares criterion, because the DC and the
+///     negative-frequency image bias the FFT peak at a few periods.
+///  2. Refinement: IEEE Std 1057-2017 §4.1.3 four-parameter sine fit, extended to H harmonics
+///     (Gauss–Newton on ω with the linear parameters eliminated, i.e. variable projection;
+///     Golub & Pereyra 1973), first with min(H, 3) harmonics, then with H.
+///     The design matrix is never formed: A^T·A and the ω-column products are closed-form
+///     Dirichlet-kernel sums (exact for uniform sampling), A^T·x is one streamed pass over the
+///     data per iteration. The normal equations are solved by Cholesky; their condition
+///     number is reported (the closed-form Gram matrix is exact, so squaring the condition is
+///     the only cost; for ≥ 1.5 periods it stays below ~1e3 — see tests).
+///  3. Covariance: σ²·(J^T J)^{-1} with σ² = ‖r‖²/(N − (2H + 2)) (dof N − (2H+2); with a
+///     forced f0, N − (2H + 1)).
+///  4. Locking: the grid's samples are  model(t) + interpolated residual(t): the fitted model
+///     is band-limited and evaluated exactly at the grid times; only the residual (noise,
+///     harmonics above H) is interpolated, with a Kaiser-windowed sinc of half-width 16
+///     samples (β = 6, passband ripple ≲ 1e-3 below 0.44·fs). A noise-free band-limited
+///     record is therefore locked to rounding error, and the interpolation error on noise is
+///     ~1e-3 of the noise.
+///     The grid starts at the first sample and holds the P = ⌊(N−1)·f0/fs + 1/M⌋ whole periods
+///     that fit inside the record; the partial period at the END of the record is dropped.
+///
+/// Misuse: the model assumes f0 is constant over the record; a drifting f0 is fitted by its
+/// average and the residual grows (analyze flags "drift"). Records shorter than ~1.5 periods
+/// cannot separate f0 from the harmonics' phases.
+///
+///   dsp::Fundamental f = dsp::estimate_fundamental(x, fs);
+///   dsp::PeriodGrid g = dsp::resample_to_periods(x, fs, t0, f.f0_hz, 256);
+///   dsp::PeriodSpectra s = dsp::period_spectra(g, 10);   // s.mean[1] is the fundamental
+#include <array>
 #include <complex>
 #include <span>
 #include <string>
@@ -25,6 +66,9 @@ struct LockOptions {
   int max_iterations = 50;       ///< Gauss–Newton iteration cap
 };
 
+/// Throws OptionError naming the first invalid field.
+void validate(const LockOptions& options);
+
 /// The fundamental and how it was found.
 struct Fundamental {
   double f0_hz = 0;
@@ -35,6 +79,7 @@ struct Fundamental {
   int iterations = 0;
   bool converged = false;
   std::string method;       ///< "forced", "sine-fit" (estimated), …
+  double condition = 0;     ///< condition number of the fit's Gram matrix (columns scaled)
 };
 
 /// P whole periods of M samples each, sample (p, k) at time start_s + (p·M + k)/(M·f0_hz).
@@ -44,6 +89,7 @@ struct PeriodGrid {
   int periods = 0;             ///< P
   double start_s = 0;          ///< time of grid sample 0 relative to the file's origin
   std::vector<double> samples; ///< P·M values, period after period
+  double source_rate_hz = 0;   ///< fs of the record it came from (limits the noise bins)
 };
 
 /// Harmonic phasors of a locked record, per period and averaged.
@@ -57,19 +103,67 @@ struct PeriodSpectra {
   std::vector<std::vector<std::complex<double>>> per_period;
   /// Per harmonic n: variance E|ΔX_n|² of the *averaged* phasor estimated from the
   /// non-harmonic bins next to it in the full-record spectrum (used when P < 4).
+  /// With P = 1 there are no non-harmonic bins: every entry is 0 and noise_bin_dof is 0.
   std::vector<double> noise_bin_variance;
-  int noise_bin_dof = 0;           ///< degrees of freedom of noise_bin_variance
+  int noise_bin_dof = 0;           ///< degrees of freedom of noise_bin_variance (smallest over n)
 };
 
 /// Estimates the fundamental of `x` sampled at `fs_hz` (see the header comment for the method).
+/// Throws AnalysisError when no periodic component stands out of the noise, or the record is
+/// too short for the harmonics asked for.
 Fundamental estimate_fundamental(std::span<const double> x, double fs_hz, const LockOptions& = {});
 
 /// Band-limited resampling of `x` (first sample at t0_s) onto whole periods of f0_hz. Two
 /// channels of one capture resampled with the same arguments share the grid exactly.
+/// Internally fits the harmonics of f0_hz below min(0.45·fs, M·f0/2) by linear least squares
+/// and interpolates only the residual (see the header comment).
 PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t0_s, double f0_hz,
                                int samples_per_period);
 
 /// Per-period and averaged phasors of harmonics 0…max_harmonic of a locked grid.
 PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic);
+
+// ---- the pieces analyze uses directly ------------------------------------------------------
+
+/// The whole-record multi-harmonic least-squares fit (the refined result of step 2).
+struct HarmonicFit {
+  Fundamental fundamental;
+  double fs_hz = 0;
+  double t0_s = 0;
+  double tc_s = 0;          ///< t_c: the record's middle, the time reference of a_n, b_n
+  std::vector<double> a;    ///< a_0…a_H (a_0 = dc)
+  std::vector<double> b;    ///< b_0…b_H (b_0 = 0)
+  /// Per n: unit-σ² covariance of (a_n, b_n, ν) as {aa, bb, νν, ab, aν, bν}, where
+  /// ν = ω/fs in rad/sample; multiply by sigma2 for the white-noise covariance. νν (and the
+  /// cross terms) are 0 when f0 was forced.
+  std::vector<std::array<double, 6>> unit_cov;
+  double sigma2 = 0;        ///< ‖r‖²/dof, the residual variance
+  double residual_ss = 0;   ///< ‖r‖²
+  std::size_t samples = 0;  ///< N
+  /// X_n = (a_n − j·b_n)·e^{−j·n·ω·(t_c − 0)}: the phasor referred to t = 0 of the file.
+  std::complex<double> phasor(int n) const;
+  int harmonics() const { return static_cast<int>(a.size()) - 1; }
+};
+
+/// Highest harmonic used when max_harmonic = 0: all below 0.45·fs, at most 50, and at most
+/// what leaves half the record's samples as residual degrees of freedom.
+int default_harmonic_count(double fs_hz, double f0_hz, std::size_t samples);
+
+/// Fit of the whole record: estimate (or force) f0, then the H-harmonic least squares.
+HarmonicFit fit_harmonics(std::span<const double> x, double fs_hz, double t0_s,
+                          const LockOptions& options = {});
+
+/// x − model at every sample of the record.
+std::vector<double> fit_residual(std::span<const double> x, const HarmonicFit& fit);
+
+/// Samples per period used by default: fs/f0 when that is an integer (coherent capture, so
+/// the grid is the samples themselves), else the next FFT-friendly integer above fs/f0, and
+/// never fewer than 2H + 2.
+int default_samples_per_period(double fs_hz, double f0_hz, int max_harmonic);
+
+/// Locking with a fit already made: grid = fit model at the grid times + interpolated
+/// `residual` (from fit_residual).
+PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& fit,
+                           int samples_per_period);
 
 }  // namespace periodfit::dsp

@@ -1,0 +1,863 @@
+// Fundamental estimation, the multi-harmonic sine fit, locking onto whole periods and the
+// per-period spectra. Method and sources: see period_lock.hpp.
+#include "dsp/period_lock.hpp"
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <cstddef>
+#include <limits>
+#include <numbers>
+#include <string>
+#include <vector>
+
+#include "core/error.hpp"
+#include "dsp/fft_plan.hpp"
+#include "io/number_format.hpp"
+
+namespace periodfit::dsp {
+namespace {
+
+constexpr double kPi = std::numbers::pi;
+constexpr double kTwoPi = 2 * std::numbers::pi;
+/// Highest harmonic frequency used by default, as a fraction of fs (room for the
+/// anti-aliasing filter's transition band of a real acquisition; common practice).
+constexpr double kDefaultBandFraction = 0.45;
+/// Default cap on H (the "at most 50").
+constexpr int kDefaultMaxHarmonic = 50;
+/// Harmonics fitted by the standalone resampler are capped: beyond that the residual kernel
+/// carries them (ripple ≲ 1e-3), and the Cholesky of the Gram matrix stays cheap.
+constexpr int kResampleMaxHarmonic = 1000;
+/// Records shorter than this many periods get the 0.02-bin grid search after the FFT peak.
+constexpr double kShortRecordPeriods = 12;
+/// Samples accumulated per lane group in the streamed pass (a multiple of the SIMD width).
+constexpr int kLanes = 8;
+/// Samples between exact sin/cos restarts of the rotation recurrence (error ≲ 512·ε).
+constexpr std::size_t kRotationBlock = 512;
+
+// Residual interpolation kernel: Kaiser-windowed sinc (Kaiser 1974; Oppenheim & Schafer,
+// Discrete-Time Signal Processing, §7.5.3 design formulas: β = 6 gives ≈ 63 dB stop-band
+// attenuation; with 32 taps the transition band is ≈ 0.12·fs wide around fs/2).
+constexpr int kKernelHalfWidth = 16;
+constexpr double kKaiserBeta = 6.0;
+constexpr int kKernelPhases = 1024;  ///< table resolution in fractional delay (linear interp)
+
+std::string str(double v) { return io::format_shortest(v); }
+
+// ---- closed-form sums over s = k − (N−1)/2, k = 0…N−1 --------------------------------------
+// D(u) = Σ cos(2us) = sin(Nu)/sin(u) (Dirichlet kernel); Σ s·sin(2us) = −D'(u)/2;
+// Σ s²·cos(2us) = −D''(u)/4. The odd sums Σ sin(2us), Σ s·cos(2us) vanish by symmetry.
+struct KernelSums {
+  double d0 = 0;  ///< Σ cos(2us)
+  double d1 = 0;  ///< Σ s·sin(2us)
+  double d2 = 0;  ///< Σ s²·cos(2us)
+};
+
+KernelSums kernel_sums_direct(std::size_t n, double u) {
+  const double centre = 0.5 * static_cast<double>(n - 1);
+  long double d0 = 0, d1 = 0, d2 = 0;
+  for (std::size_t k = 0; k < n; ++k) {
+    const double s = static_cast<double>(k) - centre;
+    const double c = std::cos(2 * u * s), sn = std::sin(2 * u * s);
+    d0 += c;
+    d1 += s * sn;
+    d2 += s * s * c;
+  }
+  return {static_cast<double>(d0), static_cast<double>(d1), static_cast<double>(d2)};
+}
+
+KernelSums kernel_sums(std::size_t n_samples, double u) {
+  const double n = static_cast<double>(n_samples);
+  if (u == 0) return {n, 0, (n - 1) * n * (n + 1) / 12};
+  const double su = std::sin(u);
+  // Near u = kπ (k ≥ 1) the ratio form loses digits; there, and for less than ~0.6 cycles of
+  // the product frequency over the record, sum directly (rare: only for forced odd inputs).
+  if ((std::abs(su) < 1e-3 && std::abs(u) > 0.5) || std::abs(n * u) < 2)
+    return kernel_sums_direct(n_samples, u);
+  const double cu = std::cos(u), sn = std::sin(n * u), cn = std::cos(n * u);
+  const double d = sn / su;
+  const double dp = (n * cn * su - sn * cu) / (su * su);
+  const double dpp =
+      (-n * n * sn * su * su + sn * su * su - 2 * n * cu * cn * su + 2 * sn * cu * cu) /
+      (su * su * su);
+  return {d, -dp / 2, -dpp / 4};
+}
+
+// ---- the streamed pass over the data -------------------------------------------------------
+// acc[(n·4 + q)·kLanes + lane], q: 0 Σx·cos(nθ), 1 Σx·sin(nθ), 2 Σx·s·cos(nθ), 3 Σx·s·sin(nθ),
+// θ_k = ν·s_k. cos(nθ), sin(nθ) by the Chebyshev recurrence c_{n+1} = 2c_1·c_n − c_{n−1}
+// (error ~n²ε, negligible for n ≤ 1000 against noise); cos θ, sin θ by rotation restarted
+// exactly every kRotationBlock samples. Lanes keep the inner loops free of reductions so
+// they vectorise; cloned for AVX2+FMA where the CPU has it.
+__attribute__((target_clones("arch=haswell", "default")))
+void data_pass(const double* x, std::size_t n, double nu, int h, bool with_z, double* acc) {
+  constexpr int K = kLanes;
+  const double centre = 0.5 * static_cast<double>(n - 1);
+  const double cr = std::cos(nu), sr = std::sin(nu);
+  std::vector<double> c1(kRotationBlock), s1(kRotationBlock);
+  for (std::size_t b0 = 0; b0 < n; b0 += kRotationBlock) {
+    const std::size_t bn = std::min(kRotationBlock, n - b0);
+    const double th = nu * (static_cast<double>(b0) - centre);
+    c1[0] = std::cos(th);
+    s1[0] = std::sin(th);
+    for (std::size_t i = 1; i < bn; ++i) {
+      c1[i] = c1[i - 1] * cr - s1[i - 1] * sr;
+      s1[i] = s1[i - 1] * cr + c1[i - 1] * sr;
+    }
+    for (std::size_t k0 = 0; k0 < bn; k0 += K) {
+      alignas(64) double y[K], z[K], tc[K], cp[K], cc[K], sp[K], sc[K];
+      for (int i = 0; i < K; ++i) {
+        const std::size_t idx = k0 + static_cast<std::size_t>(i);
+        if (idx < bn) {
+          y[i] = x[b0 + idx];
+          z[i] = y[i] * (static_cast<double>(b0 + idx) - centre);
+          cc[i] = c1[idx];
+          sc[i] = s1[idx];
+        } else {
+          y[i] = 0;
+          z[i] = 0;
+          cc[i] = 1;
+          sc[i] = 0;
+        }
+        tc[i] = 2 * cc[i];
+        cp[i] = 1;
+        sp[i] = 0;
+      }
+      for (int i = 0; i < K; ++i) {
+        acc[i] += y[i];
+        acc[2 * K + i] += z[i];
+      }
+      for (int m = 1; m <= h; ++m) {
+        double* a = acc + static_cast<std::size_t>(m) * 4 * K;
+        for (int i = 0; i < K; ++i) {
+          a[i] += y[i] * cc[i];
+          a[K + i] += y[i] * sc[i];
+        }
+        if (with_z) {
+          for (int i = 0; i < K; ++i) {
+            a[2 * K + i] += z[i] * cc[i];
+            a[3 * K + i] += z[i] * sc[i];
+          }
+        }
+        for (int i = 0; i < K; ++i) {
+          const double cn = tc[i] * cc[i] - cp[i];
+          const double sn = tc[i] * sc[i] - sp[i];
+          cp[i] = cc[i];
+          cc[i] = cn;
+          sp[i] = sc[i];
+          sc[i] = sn;
+        }
+      }
+    }
+  }
+}
+
+/// r_k = x_k − model(θ_k); returns Σ r². Same recurrences as data_pass.
+__attribute__((target_clones("arch=haswell", "default")))
+double residual_pass(const double* x, std::size_t n, double nu, int h, const double* a,
+                     const double* b, double* r) {
+  constexpr int K = kLanes;
+  const double centre = 0.5 * static_cast<double>(n - 1);
+  const double cr = std::cos(nu), sr = std::sin(nu);
+  std::vector<double> c1(kRotationBlock), s1(kRotationBlock);
+  double ss = 0;
+  for (std::size_t b0 = 0; b0 < n; b0 += kRotationBlock) {
+    const std::size_t bn = std::min(kRotationBlock, n - b0);
+    const double th = nu * (static_cast<double>(b0) - centre);
+    c1[0] = std::cos(th);
+    s1[0] = std::sin(th);
+    for (std::size_t i = 1; i < bn; ++i) {
+      c1[i] = c1[i - 1] * cr - s1[i - 1] * sr;
+      s1[i] = s1[i - 1] * cr + c1[i - 1] * sr;
+    }
+    for (std::size_t k0 = 0; k0 < bn; k0 += K) {
+      alignas(64) double m_[K], tc[K], cp[K], cc[K], sp[K], sc[K];
+      for (int i = 0; i < K; ++i) {
+        const std::size_t idx = std::min(k0 + static_cast<std::size_t>(i), bn - 1);
+        cc[i] = c1[idx];
+        sc[i] = s1[idx];
+        tc[i] = 2 * cc[i];
+        cp[i] = 1;
+        sp[i] = 0;
+        m_[i] = a[0];
+      }
+      for (int m = 1; m <= h; ++m) {
+        const double am = a[m], bm = b[m];
+        for (int i = 0; i < K; ++i) {
+          m_[i] += am * cc[i] + bm * sc[i];
+          const double cn = tc[i] * cc[i] - cp[i];
+          const double sn = tc[i] * sc[i] - sp[i];
+          cp[i] = cc[i];
+          cc[i] = cn;
+          sp[i] = sc[i];
+          sc[i] = sn;
+        }
+      }
+      for (int i = 0; i < K; ++i) {
+        const std::size_t idx = k0 + static_cast<std::size_t>(i);
+        if (idx >= bn) break;
+        const double ri = x[b0 + idx] - m_[i];
+        r[b0 + idx] = ri;
+        ss += ri * ri;
+      }
+    }
+  }
+  return ss;
+}
+
+// ---- one evaluation of the variable-projection problem at ν --------------------------------
+struct Evaluation {
+  double nu = 0;
+  Eigen::VectorXd a;        ///< a_0…a_H
+  Eigen::VectorXd b;        ///< b_1…b_H (index n − 1)
+  double projection = 0;    ///< ‖P_A x‖² = (A^T x)·c: larger is better
+  double gradient = 0;      ///< d^T r (d = ∂model/∂ν), zero at the optimum
+  double schur = 0;         ///< d^T d − e^T G^{-1} e: 1/var(ν) per unit σ²
+  Eigen::VectorXd ga;       ///< G_c^{-1} e_c (for the covariance)
+  Eigen::VectorXd gb;       ///< G_s^{-1} e_s
+  Eigen::VectorXd inv_diag_c, inv_diag_s;  ///< diagonals of G_c^{-1}, G_s^{-1}
+  double condition = 0;
+  bool ok = false;
+};
+
+class SineFitter {
+ public:
+  SineFitter(std::span<const double> x) : x_(x) {}
+
+  /// Linear least squares at ν with `h` harmonics; with_frequency adds the ν-column terms.
+  Evaluation evaluate(double nu, int h, bool with_frequency, bool with_covariance) const {
+    const std::size_t n = x_.size();
+    const auto H = static_cast<std::size_t>(h);
+    std::vector<double> acc(4 * (H + 1) * kLanes, 0.0);
+    data_pass(x_.data(), n, nu, h, with_frequency, acc.data());
+    Eigen::VectorXd yc(h + 1), ys(h + 1), zc(h + 1), zs(h + 1);
+    for (std::size_t m = 0; m <= H; ++m) {
+      double q[4] = {0, 0, 0, 0};
+      for (int qi = 0; qi < 4; ++qi)
+        for (int i = 0; i < kLanes; ++i) q[qi] += acc[(m * 4 + static_cast<std::size_t>(qi)) * kLanes + static_cast<std::size_t>(i)];
+      const auto mi = static_cast<Eigen::Index>(m);
+      yc(mi) = q[0];
+      ys(mi) = q[1];
+      zc(mi) = q[2];
+      zs(mi) = q[3];
+    }
+    // Kernel sums for j = 0…2H at u = j·ν/2 (θ = ν·s = 2·(ν/2)·s).
+    std::vector<KernelSums> ks(2 * H + 1);
+    for (std::size_t j = 0; j <= 2 * H; ++j) ks[j] = kernel_sums(n, static_cast<double>(j) * nu / 2);
+    auto D0 = [&](long j) { return ks[static_cast<std::size_t>(std::abs(j))].d0; };
+    auto C1 = [&](long j) {  // odd in j
+      const double v = ks[static_cast<std::size_t>(std::abs(j))].d1;
+      return j < 0 ? -v : v;
+    };
+    auto C2 = [&](long j) { return ks[static_cast<std::size_t>(std::abs(j))].d2; };
+
+    Eigen::MatrixXd gc(h + 1, h + 1), gs(h, h);
+    for (long p = 0; p <= h; ++p)
+      for (long q = 0; q <= h; ++q) gc(p, q) = 0.5 * (D0(p - q) + D0(p + q));
+    for (long p = 1; p <= h; ++p)
+      for (long q = 1; q <= h; ++q) gs(p - 1, q - 1) = 0.5 * (D0(p - q) - D0(p + q));
+    Evaluation e;
+    e.nu = nu;
+    Eigen::LLT<Eigen::MatrixXd> lc(gc), ls(gs);
+    if (lc.info() != Eigen::Success || ls.info() != Eigen::Success) return e;
+    e.a = lc.solve(yc);
+    e.b = ls.solve(ys.tail(h));
+    e.projection = yc.dot(e.a) + ys.tail(h).dot(e.b);
+    e.ok = e.a.allFinite() && e.b.allFinite();
+    if (with_covariance && h <= 200) {
+      auto scaled_condition = [](const Eigen::MatrixXd& g) {
+        const Eigen::VectorXd d = g.diagonal().cwiseSqrt().cwiseInverse();
+        const Eigen::MatrixXd s = d.asDiagonal() * g * d.asDiagonal();
+        Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(s, Eigen::EigenvaluesOnly);
+        const auto& ev = es.eigenvalues();
+        return ev.minCoeff() > 0 ? ev.maxCoeff() / ev.minCoeff() : std::numeric_limits<double>::infinity();
+      };
+      e.condition = std::max(scaled_condition(gc), scaled_condition(gs));
+      e.inv_diag_c = lc.solve(Eigen::MatrixXd::Identity(h + 1, h + 1)).diagonal();
+      e.inv_diag_s = ls.solve(Eigen::MatrixXd::Identity(h, h)).diagonal();
+    }
+    if (!with_frequency) return e;
+    // e = A^T d with d = Σ_n n·s·(−a_n sin nθ + b_n cos nθ) (per-sample ν units).
+    Eigen::VectorXd ec = Eigen::VectorXd::Zero(h + 1), es = Eigen::VectorXd::Zero(h);
+    for (long m = 0; m <= h; ++m)
+      for (long q = 1; q <= h; ++q)
+        ec(m) += static_cast<double>(q) * (-e.a(q)) * 0.5 * (C1(q + m) + C1(q - m));
+    for (long m = 1; m <= h; ++m)
+      for (long q = 1; q <= h; ++q)
+        es(m - 1) += static_cast<double>(q) * e.b(q - 1) * 0.5 * (C1(m + q) + C1(m - q));
+    double dtd = 0;
+    for (long p = 1; p <= h; ++p)
+      for (long q = 1; q <= h; ++q) {
+        const double w = static_cast<double>(p * q);
+        dtd += w * (e.a(p) * e.a(q) * 0.5 * (C2(p - q) - C2(p + q)) +
+                    e.b(p - 1) * e.b(q - 1) * 0.5 * (C2(p - q) + C2(p + q)));
+      }
+    double dty = 0;
+    for (long q = 1; q <= h; ++q)
+      dty += static_cast<double>(q) * (-e.a(q) * zs(q) + e.b(q - 1) * zc(q));
+    e.gradient = dty - ec.dot(e.a) - es.dot(e.b);
+    e.ga = lc.solve(ec);
+    e.gb = ls.solve(es);
+    e.schur = dtd - ec.dot(e.ga) - es.dot(e.gb);
+    return e;
+  }
+
+ private:
+  std::span<const double> x_;
+};
+
+struct GaussNewton {
+  Evaluation last;
+  int iterations = 0;
+  bool converged = false;
+};
+
+/// Gauss–Newton on ν with the linear parameters projected out; step capped at `max_step`
+/// and halved until the projection (the fit's explained energy) does not decrease.
+GaussNewton gauss_newton(const SineFitter& fitter, double nu0, int h, const LockOptions& opt,
+                         double max_step, bool with_covariance) {
+  GaussNewton g;
+  g.last = fitter.evaluate(nu0, h, true, with_covariance);
+  for (int it = 0; it < opt.max_iterations && g.last.ok; ++it) {
+    if (!(g.last.schur > 0)) break;
+    double step = g.last.gradient / g.last.schur;
+    step = std::clamp(step, -max_step, max_step);
+    if (std::abs(step) <= opt.rel_tolerance * std::abs(g.last.nu)) {
+      g.converged = true;
+      break;
+    }
+    ++g.iterations;
+    bool accepted = false;
+    for (int halving = 0; halving < 30; ++halving) {
+      Evaluation trial = fitter.evaluate(g.last.nu + step, h, true, with_covariance);
+      const double tol = 1e-13 * std::abs(g.last.projection);
+      if (trial.ok && trial.projection >= g.last.projection - tol) {
+        g.last = std::move(trial);
+        accepted = true;
+        break;
+      }
+      step /= 2;
+      if (std::abs(step) <= opt.rel_tolerance * std::abs(g.last.nu)) break;
+    }
+    if (!accepted) {
+      // No step improves the fit beyond rounding: we are at the optimum to working precision.
+      g.converged = true;
+      break;
+    }
+  }
+  return g;
+}
+
+// ---- coarse estimate -----------------------------------------------------------------------
+double log_parabola_offset(double a, double b, double c) {
+  // Gaussian interpolation of a spectral peak (log-magnitudes): exact for a Gaussian lobe,
+  // and much less biased than the plain parabola for a Hann lobe (common practice; e.g.
+  // Gasior & Gonzalez 2004, CERN-AB-2004-023).
+  if (!(a > 0 && b > 0 && c > 0)) return 0;
+  const double la = std::log(a), lb = std::log(b), lc = std::log(c);
+  const double den = la - 2 * lb + lc;
+  if (!(den < 0)) return 0;
+  return std::clamp(0.5 * (la - lc) / den, -0.5, 0.5);
+}
+
+double coarse_frequency(std::span<const double> x, double fs, double hint_hz) {
+  const std::size_t n = x.size();
+  const int pad = n <= 65536 ? 8 : (n <= (std::size_t{1} << 20) ? 2 : 1);
+  const int nfft = fft_friendly_size(static_cast<int>(n) * pad);
+  std::vector<double> buf(static_cast<std::size_t>(nfft), 0.0);
+  // Hann window; subtract the window-weighted mean so the DC lobe is exactly zero at bin 0.
+  double wsum = 0, wxsum = 0;
+  std::vector<double> w(n);
+  for (std::size_t k = 0; k < n; ++k) {
+    w[k] = 0.5 - 0.5 * std::cos(kTwoPi * (static_cast<double>(k) + 0.5) / static_cast<double>(n));
+    wsum += w[k];
+    wxsum += w[k] * x[k];
+  }
+  const double mean = wxsum / wsum;
+  for (std::size_t k = 0; k < n; ++k) buf[k] = w[k] * (x[k] - mean);
+  std::vector<std::complex<double>> spec(static_cast<std::size_t>(nfft / 2 + 1));
+  real_dft(buf, spec);
+  std::vector<double> p(spec.size());
+  for (std::size_t k = 0; k < spec.size(); ++k) p[k] = std::norm(spec[k]);
+  const double bin_hz = fs / nfft;
+  const double record_bin = static_cast<double>(pad) * static_cast<double>(nfft) / (static_cast<double>(n) * pad);  // padded bins per record bin
+  std::size_t kmin = static_cast<std::size_t>(std::ceil(0.7 * record_bin * pad));
+  std::size_t kmax = p.size() - 2;
+  if (hint_hz > 0) {
+    kmin = std::max<std::size_t>(kmin, static_cast<std::size_t>(std::floor(hint_hz / 1.2 / bin_hz)));
+    kmax = std::min<std::size_t>(kmax, static_cast<std::size_t>(std::ceil(hint_hz * 1.2 / bin_hz)));
+  }
+  kmin = std::max<std::size_t>(kmin, 1);
+  if (kmin > kmax)
+    throw AnalysisError("cannot search for f0: the record (" + std::to_string(n) +
+                        " samples) is too short for the frequency range asked for");
+  auto peak_in = [&](std::size_t lo, std::size_t hi) {
+    std::size_t best = lo;
+    for (std::size_t k = lo; k <= hi; ++k)
+      if (p[k] > p[best]) best = k;
+    return best;
+  };
+  auto refine = [&](std::size_t k) {
+    return (static_cast<double>(k) + log_parabola_offset(p[k - 1], p[k], p[k + 1])) * bin_hz;
+  };
+  const std::size_t kp = peak_in(kmin, kmax);
+  double f = refine(kp);
+  if (hint_hz > 0) return f;
+  // Sub-multiples: the true fundamental may be weaker than its 2nd (3rd, 4th) harmonic.
+  const double half_window = static_cast<double>(pad);  // ±1 record bin, in padded bins
+  for (int m : {4, 3, 2}) {
+    const double fc = f / m;
+    const double kc = fc / bin_hz;
+    if (kc < 1.0 * pad) continue;  // needs at least one period in the record
+    const auto lo = static_cast<std::size_t>(std::max(1.0, std::floor(kc - half_window)));
+    const auto hi = static_cast<std::size_t>(std::ceil(kc + half_window));
+    if (hi + 1 >= p.size() || lo >= hi) continue;
+    const std::size_t k = peak_in(lo, hi);
+    const bool interior = k > lo && k < hi;
+    if (interior && p[k] >= 1e-6 * p[kp] && p[k] > p[k - 1] && p[k] >= p[k + 1]) return refine(k);
+  }
+  return f;
+}
+
+void check_samples(std::span<const double> x) {
+  for (std::size_t k = 0; k < x.size(); ++k)
+    if (!std::isfinite(x[k]))
+      throw AnalysisError("sample " + std::to_string(k) + " is not a finite number");
+}
+
+int harmonic_limit(double fs, double f0, double fraction) {
+  return static_cast<int>(std::floor(fraction * fs / f0 * (1 - 1e-12)));
+}
+
+int choose_harmonics(const LockOptions& opt, double fs, double f0, std::size_t n) {
+  if (opt.max_harmonic > 0) {
+    const int h = opt.max_harmonic;
+    if (h * f0 >= 0.5 * fs)
+      throw AnalysisError("harmonic " + std::to_string(h) + " of f0 = " + str(f0) + " Hz lies at " +
+                          str(h * f0) + " Hz, not below fs/2 = " + str(0.5 * fs) +
+                          " Hz; ask for at most " +
+                          std::to_string(std::max(1, harmonic_limit(fs, f0, 0.5))) + " harmonics");
+    if (2 * static_cast<std::size_t>(h) + 3 > n)
+      throw AnalysisError("the record's " + std::to_string(n) + " samples cannot fit " +
+                          std::to_string(h) + " harmonics (2H + 3 samples are needed)");
+    return h;
+  }
+  const int h = default_harmonic_count(fs, f0, n);
+  if (h < 1)
+    throw AnalysisError("f0 = " + str(f0) + " Hz has no harmonic below 0.45·fs = " +
+                        str(kDefaultBandFraction * fs) + " Hz");
+  return h;
+}
+
+HarmonicFit make_fit(const Evaluation& e, std::span<const double> x, double fs, double t0,
+                     int h, bool forced) {
+  HarmonicFit fit;
+  fit.fs_hz = fs;
+  fit.t0_s = t0;
+  fit.samples = x.size();
+  fit.tc_s = t0 + 0.5 * static_cast<double>(x.size() - 1) / fs;
+  const auto H = static_cast<std::size_t>(h);
+  fit.a.assign(H + 1, 0.0);
+  fit.b.assign(H + 1, 0.0);
+  for (std::size_t m = 0; m <= H; ++m) fit.a[m] = e.a(static_cast<Eigen::Index>(m));
+  for (std::size_t m = 1; m <= H; ++m) fit.b[m] = e.b(static_cast<Eigen::Index>(m - 1));
+  fit.unit_cov.assign(H + 1, {0, 0, 0, 0, 0, 0});
+  if (e.inv_diag_c.size() == h + 1) {
+    const bool freq = !forced && e.schur > 0;
+    const double s = freq ? 1 / e.schur : 0;
+    for (std::size_t m = 0; m <= H; ++m) {
+      const auto mi = static_cast<Eigen::Index>(m);
+      auto& c = fit.unit_cov[m];
+      const double ga = freq ? e.ga(mi) : 0;
+      const double gb = (freq && m > 0) ? e.gb(mi - 1) : 0;
+      c[0] = e.inv_diag_c(mi) + ga * ga * s;
+      c[1] = m > 0 ? e.inv_diag_s(mi - 1) + gb * gb * s : 0;
+      c[2] = s;
+      c[3] = ga * gb * s;
+      c[4] = -ga * s;
+      c[5] = -gb * s;
+    }
+  }
+  return fit;
+}
+
+}  // namespace
+
+// ---- public --------------------------------------------------------------------------------
+
+void validate(const LockOptions& o) {
+  if (!std::isfinite(o.f0_hint_hz) || o.f0_hint_hz < 0)
+    throw OptionError("f0_hint_hz", str(o.f0_hint_hz), "must be >= 0; 0 = estimate");
+  if (!std::isfinite(o.f0_hz) || o.f0_hz < 0)
+    throw OptionError("f0_hz", str(o.f0_hz), "must be >= 0; 0 = estimate");
+  if (o.max_harmonic < 0 || o.max_harmonic > 100000)
+    throw OptionError("max_harmonic", std::to_string(o.max_harmonic),
+                      "must be between 0 (automatic) and 100000");
+  if (!(o.rel_tolerance > 0 && o.rel_tolerance <= 1e-3))
+    throw OptionError("rel_tolerance", str(o.rel_tolerance), "must be > 0 and <= 1e-3");
+  if (o.max_iterations < 1)
+    throw OptionError("max_iterations", std::to_string(o.max_iterations), "must be >= 1");
+}
+
+std::complex<double> HarmonicFit::phasor(int n) const {
+  const auto i = static_cast<std::size_t>(n);
+  if (n == 0) return {a[0], 0};
+  // n·f0·t_c in cycles, reduced before multiplying by 2π to keep the phase exact.
+  const double cycles = n * fundamental.f0_hz * tc_s;
+  const double frac = cycles - std::floor(cycles);
+  return std::complex<double>(a[i], -b[i]) * std::polar(1.0, -kTwoPi * frac);
+}
+
+int default_harmonic_count(double fs_hz, double f0_hz, std::size_t samples) {
+  int h = std::min(kDefaultMaxHarmonic, harmonic_limit(fs_hz, f0_hz, kDefaultBandFraction));
+  const int by_samples = static_cast<int>((samples / 2 - 2) / 2);  // 2H + 2 ≤ N/2
+  return std::max(0, std::min(h, by_samples));
+}
+
+HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const LockOptions& opt) {
+  validate(opt);
+  if (!(fs > 0 && std::isfinite(fs))) throw OptionError("sample_rate_hz", str(fs), "must be > 0");
+  const std::size_t n = x.size();
+  if (n < 8)
+    throw AnalysisError("the record has " + std::to_string(n) +
+                        " samples; at least 8 are needed to find a fundamental");
+  check_samples(x);
+  const SineFitter fitter(x);
+  const auto [mn, mx] = std::minmax_element(x.begin(), x.end());
+  const bool constant = *mn == *mx;
+
+  if (opt.f0_hz > 0) {
+    if (opt.f0_hz >= 0.5 * fs)
+      throw AnalysisError("f0 = " + str(opt.f0_hz) + " Hz is not below fs/2 = " + str(0.5 * fs) + " Hz");
+    const int h = choose_harmonics(opt, fs, opt.f0_hz, n);
+    const double nu = kTwoPi * opt.f0_hz / fs;
+    Evaluation e = fitter.evaluate(nu, h, false, true);
+    if (!e.ok) throw AnalysisError("the harmonic fit at f0 = " + str(opt.f0_hz) + " Hz is singular");
+    HarmonicFit fit = make_fit(e, x, fs, t0, h, true);
+    fit.fundamental.f0_hz = opt.f0_hz;
+    fit.fundamental.method = "forced";
+    fit.fundamental.converged = true;
+    fit.fundamental.harmonics_fitted = h;
+    fit.fundamental.condition = e.condition;
+    fit.fundamental.dof = static_cast<int>(n) - (2 * h + 1);
+    std::vector<double> r(n);
+    fit.residual_ss = residual_pass(x.data(), n, nu, h, fit.a.data(), fit.b.data(), r.data());
+    fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
+    fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
+    return fit;
+  }
+
+  if (constant) throw AnalysisError("no periodic component: every sample equals " + str(*mn) + " (dc only)");
+  double f = coarse_frequency(x, fs, opt.f0_hint_hz);
+  const double record_bin_nu = kTwoPi / static_cast<double>(n);  // one DFT bin in rad/sample
+  double nu = kTwoPi * f / fs;
+  const int h_search = std::max(1, std::min(3, harmonic_limit(fs, f, 0.49)));
+  if (f * static_cast<double>(n) / fs < kShortRecordPeriods) {
+    // Grid search of the h_search-harmonic criterion, ±0.6 record bins around the peak.
+    double best_nu = nu, best = -1;
+    for (int i = -30; i <= 30; ++i) {
+      const double cand = nu + i * 0.02 * record_bin_nu;
+      if (cand < 0.7 * record_bin_nu) continue;
+      if (h_search * cand >= kPi) continue;
+      const Evaluation e = fitter.evaluate(cand, h_search, false, false);
+      if (e.ok && e.projection > best) {
+        best = e.projection;
+        best_nu = cand;
+      }
+    }
+    nu = best_nu;
+  }
+  // Stages of increasing H: each stage's f0 lies within the next one's capture range
+  // (about ±0.5/H record bins).
+  int iterations = 0;
+  GaussNewton g;
+  int h_final = 0;
+  for (int stage : {3, 10, 30, 0}) {
+    const double f_now = nu * fs / kTwoPi;
+    h_final = choose_harmonics(opt, fs, f_now, n);
+    const int h = stage == 0 ? h_final : std::min(stage, h_final);
+    if (stage != 0 && h == h_final) continue;  // this stage is the final one: skip
+    const double max_step = 0.25 * record_bin_nu;
+    g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
+    iterations += g.iterations;
+    if (!g.last.ok) throw AnalysisError("the harmonic fit near f0 = " + str(f_now) + " Hz is singular");
+    nu = g.last.nu;
+  }
+  const Evaluation& e = g.last;
+  HarmonicFit fit = make_fit(e, x, fs, t0, static_cast<int>(e.a.size()) - 1, false);
+  const int hf = fit.harmonics();
+  fit.fundamental.f0_hz = e.nu * fs / kTwoPi;
+  fit.fundamental.method = "sine-fit";
+  fit.fundamental.iterations = iterations;
+  fit.fundamental.converged = g.converged;
+  fit.fundamental.harmonics_fitted = hf;
+  fit.fundamental.condition = e.condition;
+  fit.fundamental.dof = static_cast<int>(n) - (2 * hf + 2);
+  std::vector<double> r(n);
+  fit.residual_ss = residual_pass(x.data(), n, e.nu, hf, fit.a.data(), fit.b.data(), r.data());
+  fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
+  fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
+  fit.fundamental.f0_u_hz = e.schur > 0 ? std::sqrt(fit.sigma2 / e.schur) * fs / kTwoPi : 0;
+
+  // Does the fundamental stand out of the noise? Under noise alone A1²/(σ²·(u_aa+u_bb)/2) is
+  // χ²(2)-distributed; the threshold allows for the search over ~N candidate frequencies
+  // (false-alarm probability ≈ e^{-10}).
+  const double a1sq = fit.a[1] * fit.a[1] + fit.b[1] * fit.b[1];
+  const double var1 = fit.sigma2 * 0.5 * (fit.unit_cov[1][0] + fit.unit_cov[1][1]);
+  const double threshold = 2 * std::log(static_cast<double>(n)) + 20;
+  if (a1sq == 0 || (var1 > 0 && a1sq / var1 < threshold)) {
+    const double z = var1 > 0 ? std::sqrt(a1sq / (2 * var1)) : 0;
+    throw AnalysisError("no periodic component stands out of the noise: the strongest candidate, " +
+                        str(fit.fundamental.f0_hz) + " Hz, has an amplitude of only " +
+                        io::format_significant(z, 3) + " standard uncertainties (needs " +
+                        io::format_significant(std::sqrt(threshold / 2), 3) + ")");
+  }
+  return fit;
+}
+
+Fundamental estimate_fundamental(std::span<const double> x, double fs_hz, const LockOptions& options) {
+  return fit_harmonics(x, fs_hz, 0.0, options).fundamental;
+}
+
+std::vector<double> fit_residual(std::span<const double> x, const HarmonicFit& fit) {
+  std::vector<double> r(x.size());
+  const double nu = kTwoPi * fit.fundamental.f0_hz / fit.fs_hz;
+  residual_pass(x.data(), x.size(), nu, fit.harmonics(), fit.a.data(), fit.b.data(), r.data());
+  return r;
+}
+
+int default_samples_per_period(double fs_hz, double f0_hz, int max_harmonic) {
+  const double ratio = fs_hz / f0_hz;
+  const double nearest = std::round(ratio);
+  int m = 0;
+  if (std::abs(ratio - nearest) <= 1e-9 * ratio)
+    m = static_cast<int>(nearest);
+  else
+    m = fft_friendly_size(static_cast<int>(std::ceil(ratio)));
+  return std::max(m, fft_friendly_size(2 * max_harmonic + 2));
+}
+
+namespace {
+
+struct KernelTable {
+  std::vector<double> t;  // (kKernelPhases + 1) × 2L
+  KernelTable() {
+    constexpr int L = kKernelHalfWidth;
+    t.resize(static_cast<std::size_t>(kKernelPhases + 1) * 2 * L);
+    auto bessel_i0 = [](double v) {
+      double sum = 1, term = 1;
+      for (int k = 1; k < 60; ++k) {
+        term *= (v / (2 * k)) * (v / (2 * k));
+        sum += term;
+        if (term < 1e-17 * sum) break;
+      }
+      return sum;
+    };
+    const double i0b = bessel_i0(kKaiserBeta);
+    for (int q = 0; q <= kKernelPhases; ++q) {
+      const double mu = static_cast<double>(q) / kKernelPhases;
+      for (int tap = 0; tap < 2 * L; ++tap) {
+        const int j = tap - L + 1;
+        const double d = mu - j;
+        double v = 0;
+        if (q == 0)
+          v = j == 0 ? 1 : 0;
+        else if (q == kKernelPhases)
+          v = j == 1 ? 1 : 0;
+        else if (std::abs(d) < L) {
+          const double r = d / L;
+          v = std::sin(kPi * d) / (kPi * d) * bessel_i0(kKaiserBeta * std::sqrt(1 - r * r)) / i0b;
+        }
+        t[static_cast<std::size_t>(q) * 2 * L + static_cast<std::size_t>(tap)] = v;
+      }
+    }
+  }
+};
+
+const KernelTable& kernel_table() {
+  static const KernelTable table;
+  return table;
+}
+
+/// Model value at time t for a fit (direct sin/cos, Chebyshev over n).
+double model_at(const HarmonicFit& fit, double t) {
+  const double theta = kTwoPi * fit.fundamental.f0_hz * (t - fit.tc_s);
+  const double c1 = std::cos(theta), s1 = std::sin(theta);
+  double cp = 1, sp = 0, cc = c1, sc = s1, v = fit.a[0];
+  for (int m = 1; m <= fit.harmonics(); ++m) {
+    const auto i = static_cast<std::size_t>(m);
+    v += fit.a[i] * cc + fit.b[i] * sc;
+    const double cn = 2 * c1 * cc - cp, sn = 2 * c1 * sc - sp;
+    cp = cc;
+    cc = cn;
+    sp = sc;
+    sc = sn;
+  }
+  return v;
+}
+
+}  // namespace
+
+PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& fit, int m) {
+  const std::size_t n = residual.size();
+  const double fs = fit.fs_hz, f0 = fit.fundamental.f0_hz;
+  if (m < 2) throw OptionError("samples_per_period", std::to_string(m), "must be >= 2");
+  const double cycles = static_cast<double>(n - 1) * f0 / fs;  // periods between first and last sample
+  const double p_real = (cycles * m + 1) / m;
+  const int periods = static_cast<int>(std::floor(p_real + 1e-9));
+  if (periods < 1)
+    throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
+                        " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");
+  PeriodGrid g;
+  g.f0_hz = f0;
+  g.samples_per_period = m;
+  g.periods = periods;
+  g.start_s = fit.t0_s;
+  g.source_rate_hz = fs;
+  const auto M = static_cast<std::size_t>(m);
+  std::vector<double> model(M);
+  for (std::size_t k = 0; k < M; ++k)
+    model[k] = model_at(fit, fit.t0_s + static_cast<double>(k) / (m * f0));
+  const std::size_t total = M * static_cast<std::size_t>(periods);
+  g.samples.resize(total);
+  constexpr int L = kKernelHalfWidth;
+  const double* table = kernel_table().t.data();
+  const double ratio = fs / (m * f0);  // input samples per grid sample
+  const auto last = static_cast<long>(n) - 1;
+  for (std::size_t idx = 0; idx < total; ++idx) {
+    const double u = static_cast<double>(idx) * ratio;
+    const double fl = std::floor(u);
+    const auto i0 = static_cast<long>(fl);
+    const double qpos = (u - fl) * kKernelPhases;
+    const int q = std::min(static_cast<int>(qpos), kKernelPhases - 1);
+    const double alpha = qpos - q;
+    const double* t0 = table + static_cast<std::size_t>(q) * 2 * L;
+    const double* t1 = t0 + 2 * L;
+    double s = 0;
+    if (i0 - L + 1 >= 0 && i0 + L <= last) {
+      const double* r = residual.data() + (i0 - L + 1);
+      for (int tap = 0; tap < 2 * L; ++tap) s += (t0[tap] + alpha * (t1[tap] - t0[tap])) * r[tap];
+    } else {
+      for (int tap = 0; tap < 2 * L; ++tap) {
+        const long i = i0 - L + 1 + tap;
+        if (i < 0 || i > last) continue;
+        s += (t0[tap] + alpha * (t1[tap] - t0[tap])) * residual[static_cast<std::size_t>(i)];
+      }
+    }
+    g.samples[idx] = model[idx % M] + s;
+  }
+  return g;
+}
+
+PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t0_s, double f0_hz,
+                               int samples_per_period) {
+  if (!(fs_hz > 0 && std::isfinite(fs_hz))) throw OptionError("sample_rate_hz", str(fs_hz), "must be > 0");
+  if (!(f0_hz > 0 && f0_hz < 0.5 * fs_hz))
+    throw OptionError("f0_hz", str(f0_hz), "must be > 0 and below fs/2 = " + str(0.5 * fs_hz));
+  if (samples_per_period < 2)
+    throw OptionError("samples_per_period", std::to_string(samples_per_period), "must be >= 2");
+  const std::size_t n = x.size();
+  int h = std::min({harmonic_limit(fs_hz, f0_hz, kDefaultBandFraction), (samples_per_period - 1) / 2,
+                    kResampleMaxHarmonic, static_cast<int>(n / 2) - 2});
+  h = std::max(h, 0);
+  LockOptions opt;
+  opt.f0_hz = f0_hz;
+  HarmonicFit fit;
+  if (h >= 1) {
+    check_samples(x);
+    const SineFitter fitter(x);
+    const Evaluation e = fitter.evaluate(kTwoPi * f0_hz / fs_hz, h, false, false);
+    if (!e.ok) throw AnalysisError("the harmonic fit at f0 = " + str(f0_hz) + " Hz is singular");
+    fit = make_fit(e, x, fs_hz, t0_s, h, true);
+  } else {
+    fit.fs_hz = fs_hz;
+    fit.t0_s = t0_s;
+    fit.tc_s = t0_s + 0.5 * static_cast<double>(n - 1) / fs_hz;
+    fit.a = {0.0};
+    fit.b = {0.0};
+  }
+  fit.fundamental.f0_hz = f0_hz;
+  return resample_fitted(fit_residual(x, fit), fit, samples_per_period);
+}
+
+PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic) {
+  const int m = grid.samples_per_period, p = grid.periods;
+  assert(grid.samples.size() == static_cast<std::size_t>(m) * static_cast<std::size_t>(p));
+  if (max_harmonic < 0 || max_harmonic > m / 2)
+    throw OptionError("max_harmonic", std::to_string(max_harmonic),
+                      "must be between 0 and samples_per_period/2 = " + std::to_string(m / 2));
+  const auto M = static_cast<std::size_t>(m), P = static_cast<std::size_t>(p);
+  const auto H = static_cast<std::size_t>(max_harmonic);
+  PeriodSpectra s;
+  s.f0_hz = grid.f0_hz;
+  s.periods = p;
+  s.samples_per_period = m;
+  s.max_harmonic = max_harmonic;
+  // Rotation from the grid's start to the file's time origin: X_n·e^{−j·n·ω0·start}.
+  std::vector<std::complex<double>> rot(H + 1);
+  for (std::size_t k = 0; k <= H; ++k) {
+    const double cycles = static_cast<double>(k) * grid.f0_hz * grid.start_s;
+    rot[k] = std::polar(1.0, -kTwoPi * (cycles - std::floor(cycles)));
+  }
+  // Peak-amplitude scaling: 2/M for a cosine pair, 1/M for dc and the Nyquist bin.
+  auto scale = [](std::size_t k, std::size_t len) {
+    return (k == 0 || 2 * k == len) ? 1.0 / static_cast<double>(len) : 2.0 / static_cast<double>(len);
+  };
+  std::vector<std::complex<double>> spec(M / 2 + 1);
+  s.per_period.assign(P, std::vector<std::complex<double>>(H + 1));
+  s.mean.assign(H + 1, {0, 0});
+  for (std::size_t q = 0; q < P; ++q) {
+    real_dft(std::span<const double>(grid.samples.data() + q * M, M), spec);
+    for (std::size_t k = 0; k <= H; ++k) {
+      std::complex<double> v = spec[k] * scale(k, M) * rot[k];
+      if (k == 0 || 2 * k == M) v = {v.real(), 0.0};  // dc (and Nyquist) are real cosines
+      s.per_period[q][k] = v;
+      s.mean[k] += v / static_cast<double>(P);
+    }
+  }
+  // Noise bins: the full-record spectrum's bins between harmonics (not multiples of P), below
+  // 0.45 of the source's rate (above it the interpolation kernel has filtered the noise out).
+  s.noise_bin_variance.assign(H + 1, 0.0);
+  s.noise_bin_dof = 0;
+  if (p >= 2) {
+    const std::size_t total = M * P;
+    std::vector<std::complex<double>> full(total / 2 + 1);
+    real_dft(grid.samples, full);
+    const double limit_hz = grid.source_rate_hz > 0 ? kDefaultBandFraction * grid.source_rate_hz
+                                                    : 0.5 * m * grid.f0_hz;
+    const auto kmax = std::min<std::size_t>(total / 2 - 1,
+        static_cast<std::size_t>(std::floor(limit_hz / grid.f0_hz * static_cast<double>(P))));
+    constexpr std::size_t kWantBins = 32;  // ≥ 64 real dof: coverage of ±1.96u within ~0.5 %
+    int min_dof = std::numeric_limits<int>::max();
+    for (std::size_t k = 0; k <= H; ++k) {
+      const std::size_t centre = k * P;
+      double sum = 0;
+      std::size_t count = 0;
+      for (std::size_t w = 1; count < kWantBins && w <= total / 2; ++w) {
+        bool any = false;
+        for (long sign : {-1L, 1L}) {
+          const long bin = static_cast<long>(centre) + sign * static_cast<long>(w);
+          if (bin < 1 || static_cast<std::size_t>(bin) > kmax) continue;
+          any = true;
+          if (static_cast<std::size_t>(bin) % P == 0) continue;
+          sum += std::norm(full[static_cast<std::size_t>(bin)]);
+          ++count;
+        }
+        if (!any && w > centre + kmax) break;
+      }
+      if (count == 0) {
+        min_dof = 0;
+        continue;
+      }
+      const double sc = (k == 0 ? 1.0 : 2.0) / static_cast<double>(total);
+      s.noise_bin_variance[k] = sc * sc * sum / static_cast<double>(count);
+      min_dof = std::min(min_dof, static_cast<int>(2 * count));
+    }
+    s.noise_bin_dof = min_dof == std::numeric_limits<int>::max() ? 0 : min_dof;
+    if (s.noise_bin_dof == 0) std::fill(s.noise_bin_variance.begin(), s.noise_bin_variance.end(), 0.0);
+  }
+  return s;
+}
+
+}  // namespace periodfit::dsp
