@@ -31,6 +31,8 @@ constexpr int kTailFactor = 4;
 constexpr int kTailMaxExtra = 1'000'000;
 
 std::string num(double v) { return io::format_shortest(v); }
+/// Frequencies in messages for people: 9 significant digits hide the rounding of ω/(2π).
+std::string hz(double v) { return io::format_significant(v, 9); }
 
 std::mutex& fftw_planner_mutex() {
   static std::mutex m;  // FFTW's planner is not thread-safe
@@ -253,8 +255,8 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     return nullptr;
   };
   const auto measured_span = [&] {
-    return std::to_string(measured.size()) + " points from " + num(measured.front().omega_rad_s / (2 * kPi)) +
-           " Hz to " + num(measured.back().omega_rad_s / (2 * kPi)) + " Hz";
+    return std::to_string(measured.size()) + " points from " + hz(measured.front().omega_rad_s / (2 * kPi)) +
+           " Hz to " + hz(measured.back().omega_rad_s / (2 * kPi)) + " Hz";
   };
 
   PredictResult r;
@@ -302,7 +304,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
       }
       any_model = true;
     } else {
-      throw AnalysisError("the measured FRF holds no point at " + num(omega / (2 * kPi)) + " Hz (harmonic " +
+      throw AnalysisError("the measured FRF holds no point at " + hz(f0 * static_cast<double>(n)) + " Hz (harmonic " +
                           std::to_string(n) + " of the input) and there is no model to fill it (it holds " +
                           measured_span() + "); give a model or limit the harmonic count");
     }
