@@ -8,6 +8,7 @@
 #include "cli/commands.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
+#include "io/output_file.hpp"
 
 namespace {
 
@@ -46,6 +47,7 @@ void print_error(const std::string& message) {
 int main(int argc, char** argv) {
   using periodfit::ExitCode;
   using periodfit::to_int;
+  periodfit::io::install_interrupt_cleanup();
   CLI::App app{"periodfit: measurement post-processor for sampled periodic waveforms", "periodfit"};
   app.footer(kExitCodes);
   app.require_subcommand(1);

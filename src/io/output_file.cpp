@@ -1,11 +1,16 @@
 #include "io/output_file.hpp"
 
 #include <fcntl.h>
+#include <pthread.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <array>
+#include <atomic>
 #include <cerrno>
+#include <csignal>
 #include <cstdio>
+#include <cstring>
 #include <filesystem>
 
 #include "core/error.hpp"
@@ -13,6 +18,55 @@
 namespace periodfit::io {
 
 namespace {
+
+// Temporaries in flight, visible to the signal handler. Slots are claimed lock-free; the
+// handler only reads slots marked ready and calls unlink(), which is async-signal-safe.
+constexpr std::size_t kSlots = 256;
+constexpr std::size_t kPathMax = 4096;
+enum SlotState : int { slot_free = 0, slot_filling = 1, slot_ready = 2 };
+struct TempSlot {
+  std::atomic<int> state{slot_free};
+  char path[kPathMax];
+};
+std::array<TempSlot, kSlots> g_temps;
+
+/// Registers `path`; returns the slot index, or kSlots when the path cannot be tracked (too
+/// long, or more concurrent writes than slots: cleanup is then best effort).
+std::size_t track_temp(const std::string& path) {
+  if (path.size() >= kPathMax) return kSlots;
+  for (std::size_t i = 0; i < kSlots; ++i) {
+    int expected = slot_free;
+    if (g_temps[i].state.compare_exchange_strong(expected, slot_filling)) {
+      std::memcpy(g_temps[i].path, path.c_str(), path.size() + 1);
+      g_temps[i].state.store(slot_ready);
+      return i;
+    }
+  }
+  return kSlots;
+}
+
+void untrack_temp(std::size_t slot) {
+  if (slot < kSlots) g_temps[slot].state.store(slot_free);
+}
+
+extern "C" void remove_temps_and_reraise(int signal_number) {
+  for (auto& slot : g_temps)
+    if (slot.state.load() == slot_ready) ::unlink(slot.path);
+  std::signal(signal_number, SIG_DFL);
+  std::raise(signal_number);
+}
+
+/// Removes the temporary on every exit path of write_file_atomic.
+struct TempGuard {
+  std::string path;
+  std::size_t slot;
+  bool keep = false;  ///< set once renamed into place
+  ~TempGuard() {
+    if (!keep) ::unlink(path.c_str());
+    untrack_temp(slot);
+  }
+};
+
 bool write_all(int fd, std::string_view content) {
   while (!content.empty()) {
     const ssize_t n = ::write(fd, content.data(), content.size());
@@ -35,8 +89,18 @@ void write_file_atomic(const std::string& path, std::string_view content) {
   const std::filesystem::path target(path);
   const auto folder = target.has_parent_path() ? target.parent_path() : std::filesystem::path(".");
   std::string tmp = (folder / ("." + target.filename().string() + ".tmp-XXXXXX")).string();
+  // A signal between mkstemp and track_temp would leave one empty temporary; blocking the
+  // cleanup signals for those few instructions closes the gap.
+  sigset_t cleanup_signals, previous;
+  sigemptyset(&cleanup_signals);
+  for (int s : {SIGINT, SIGTERM, SIGHUP}) sigaddset(&cleanup_signals, s);
+  pthread_sigmask(SIG_BLOCK, &cleanup_signals, &previous);
   const int fd = ::mkstemp(tmp.data());
-  if (fd < 0) throw IoError(path, "cannot create", errno);
+  const int create_errno = errno;
+  const std::size_t slot = fd >= 0 ? track_temp(tmp) : kSlots;
+  pthread_sigmask(SIG_SETMASK, &previous, nullptr);
+  if (fd < 0) throw IoError(path, "cannot create", create_errno);
+  TempGuard guard{tmp, slot};
   // mkstemp makes 0600; results are ordinary files, readable as the umask allows.
   const mode_t mask = ::umask(0);
   ::umask(mask);
@@ -44,14 +108,18 @@ void write_file_atomic(const std::string& path, std::string_view content) {
   const bool ok = write_all(fd, content) && ::fsync(fd) == 0;
   const int write_errno = errno;
   ::close(fd);
-  if (!ok) {
-    ::unlink(tmp.c_str());
-    throw IoError(path, "cannot write", write_errno);
-  }
-  if (::rename(tmp.c_str(), path.c_str()) != 0) {
-    const int rename_errno = errno;
-    ::unlink(tmp.c_str());
-    throw IoError(path, "cannot write", rename_errno);
+  if (!ok) throw IoError(path, "cannot write", write_errno);
+  if (::rename(tmp.c_str(), path.c_str()) != 0) throw IoError(path, "cannot write", errno);
+  guard.keep = true;
+}
+
+void install_interrupt_cleanup() {
+  for (int s : {SIGINT, SIGTERM, SIGHUP}) {
+    struct sigaction action {};
+    action.sa_handler = remove_temps_and_reraise;
+    sigemptyset(&action.sa_mask);
+    action.sa_flags = static_cast<int>(SA_RESETHAND);
+    ::sigaction(s, &action, nullptr);
   }
 }
 
