@@ -7,6 +7,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cstdint>
 #include <cctype>
 #include <cerrno>
 #include <charconv>
@@ -27,6 +28,9 @@ namespace {
 // The rule for a time column: spacing uniform within 1e-4 relative. The rounding of
 // the printed values is allowed on top (see TimeCheck).
 constexpr double kTimeUniformRel = 1e-4;
+// Printed times coarser than this fraction of the step get no rounding allowance: with it a
+// one-sample gap would pass (the allowance reaches a whole step at a resolution of 1/2 step).
+constexpr double kCoarsestResolution = 0.5;
 // Detection looks at the first lines only; a preamble longer than this is not recognised.
 constexpr std::size_t kSampleLines = 2000;
 constexpr std::size_t kSampleBytes = 1 << 20;
@@ -126,13 +130,7 @@ double printed_resolution(std::string_view s, char decimal) {
   const std::size_t dot = mantissa.find(decimal);
   if (dot == std::string_view::npos && epos == std::string_view::npos) return 0;
   const int fraction = dot == std::string_view::npos ? 0 : static_cast<int>(mantissa.size() - dot - 1);
-  static thread_local int cached_power = 1 << 30;
-  static thread_local double cached_value = 0;
-  if (exponent - fraction != cached_power) {
-    cached_power = exponent - fraction;
-    cached_value = std::pow(10.0, cached_power);
-  }
-  return cached_value;
+  return std::pow(10.0, exponent - fraction);
 }
 
 // ---- units ------------------------------------------------------------------------------
@@ -329,30 +327,41 @@ std::size_t stripped_count(const std::vector<Field>& fields) {
 // Δ̄ = (t_{k-1} − t_0)/(k−1): |t_k − t_{k−1} − Δ̄| must stay within kTimeUniformRel·Δ̄ plus the
 // rounding of the printed values (half a printed unit for each of t_k, t_{k−1}, and the
 // part of Δ̄'s uncertainty that comes from t_0 and t_{k−1}). A one-sample gap is therefore
-// found wherever the printed times resolve a step.
+// found wherever the printed times resolve a step. The printed rounding is only worked out
+// when the plain 1e-4 test fails, so the common case costs one comparison per row; the value
+// texts it needs are views into the parsed text, which outlives the check.
 class TimeCheck {
  public:
   enum class Verdict { ok, not_increasing, not_uniform };
 
-  Verdict add(double t, double resolution) {
+  TimeCheck(char decimal, double factor) : decimal_(decimal), factor_(factor) {}
+
+  Verdict add(double t, std::string_view text) {
     if (count_ == 0) {
       first_ = t;
-      first_res_ = resolution;
+      first_text_ = text;
     } else {
       const double step = t - last_;
       if (!(step > 0)) return Verdict::not_increasing;
       if (count_ >= 2) {
         const double mean = (last_ - first_) / static_cast<double>(count_ - 1);
-        const double allowed = kTimeUniformRel * mean + 0.5 * (resolution + last_res_) +
-                               0.5 * (first_res_ + last_res_) / static_cast<double>(count_ - 1);
         last_mean_ = mean;
-        if (std::fabs(step - mean) > allowed) return Verdict::not_uniform;
+        if (std::fabs(step - mean) > kTimeUniformRel * mean) {
+          const double res = resolution(text), last_res = resolution(last_text_),
+                       first_res = resolution(first_text_);
+          // Rounding is allowed for only where the printed unit is finer than half a step:
+          // coarser times cannot tell a rounded grid from a missing sample.
+          if (std::max({res, last_res, first_res}) >= kCoarsestResolution * mean) return Verdict::not_uniform;
+          const double allowed = kTimeUniformRel * mean + 0.5 * (res + last_res) +
+                                 0.5 * (first_res + last_res) / static_cast<double>(count_ - 1);
+          if (std::fabs(step - mean) > allowed) return Verdict::not_uniform;
+        }
       } else {
         last_mean_ = step;
       }
     }
     last_ = t;
-    last_res_ = resolution;
+    last_text_ = text;
     ++count_;
     return Verdict::ok;
   }
@@ -362,12 +371,42 @@ class TimeCheck {
   double mean_step() const { return last_mean_; }
   double rate_hz() const { return static_cast<double>(count_ - 1) / (last_ - first_); }
   /// Relative uncertainty of rate_hz() from the rounding of the first and last value.
-  double rate_rounding() const { return 0.5 * (first_res_ + last_res_) / (last_ - first_); }
+  double rate_rounding() const {
+    return 0.5 * (resolution(first_text_) + resolution(last_text_)) / (last_ - first_);
+  }
 
  private:
+  double resolution(std::string_view text) const { return printed_resolution(text, decimal_) * factor_; }
+
+  char decimal_;
+  double factor_;
   std::size_t count_ = 0;
-  double first_ = 0, first_res_ = 0, last_ = 0, last_res_ = 0, last_mean_ = 0;
+  double first_ = 0, last_ = 0, last_mean_ = 0;
+  std::string_view first_text_, last_text_;
 };
+
+// Number of '\n' in [p, end), eight bytes at a time: an exact per-byte zero test leaves 1 in
+// each byte that held '\n'; the bytes are summed in a word for up to 255 words, then added.
+std::size_t count_newlines(const char* p, const char* end) {
+  constexpr std::uint64_t kOnes = 0x0101010101010101u, kLow7 = 0x7F7F7F7F7F7F7F7Fu;
+  constexpr std::uint64_t kNewlines = kOnes * static_cast<unsigned char>('\n');
+  constexpr std::uint64_t kEvenBytes = 0x00FF00FF00FF00FFu;
+  std::size_t n = 0;
+  while (end - p >= 8) {
+    std::uint64_t lanes = 0;
+    for (int k = 0; k < 255 && end - p >= 8; ++k, p += 8) {
+      std::uint64_t word;
+      std::memcpy(&word, p, 8);
+      const std::uint64_t x = word ^ kNewlines;  // zero bytes where '\n' was
+      const std::uint64_t nonzero = ((x & kLow7) + kLow7) | x;
+      lanes += (~nonzero & ~kLow7) >> 7;
+    }
+    const std::uint64_t pairs = (lanes & kEvenBytes) + ((lanes >> 8) & kEvenBytes);
+    n += static_cast<std::size_t>((pairs * 0x0001000100010001u) >> 48);
+  }
+  for (; p != end; ++p) n += *p == '\n';
+  return n;
+}
 
 // ---- preamble -----------------------------------------------------------------------------
 
@@ -462,6 +501,7 @@ std::pair<std::string, std::string> metadata_entry(std::string_view text, const 
     text.remove_prefix(1);  // '#'
     text = trim(text);
   }
+  std::string single;  // owns the text of a one-field line once its quotes are removed
   if (!comment && d.delimiter != ' ') {
     std::vector<Field> fields;
     if (split_fields(text, d, fields)) {
@@ -475,7 +515,10 @@ std::pair<std::string, std::string> metadata_entry(std::string_view text, const 
         }
         return {fields[0].text, value};
       }
-      if (n == 1) text = trim(fields[0].text);
+      if (n == 1) {
+        single = fields[0].text;
+        text = trim(single);
+      }
     }
   }
   const std::size_t sep = text.find_first_of(":=");
@@ -556,9 +599,12 @@ std::optional<Candidate> try_dialect(const std::vector<const Line*>& content, co
     if (!shapes[i].numeric) continue;
     std::size_t following = 0, agree = 0;
     for (std::size_t j = i + 1; j < shapes.size() && following < kConfirmLines; ++j, ++following)
-      if (shapes[j].numeric && shapes[j].count == shapes[i].count) ++agree;
+      if (shapes[j].numeric && (shapes[j].count == shapes[i].count || shapes[j].raw == shapes[i].raw)) ++agree;
     if (following == 0 || 2 * agree >= following) start = i;
   }
+  // Too few rows to confirm (a short file with a bad row): the first numeric line.
+  for (std::size_t i = 0; i < shapes.size() && !start; ++i)
+    if (shapes[i].numeric) start = i;
   if (!start) return std::nullopt;
   Candidate c;
   c.layout.dialect = d;
@@ -623,7 +669,7 @@ class Parser {
   void choose_time_column(const std::vector<const Line*>& content, bool has_header);
   void parse_rows(std::size_t offset, std::size_t first_line);
   void slow_row(const Line& line);
-  void store(std::size_t column, double value, const char* begin, const char* end, const Line& line);
+  void add_time(double value, std::string_view text, std::size_t line_number, const char* line_begin);
   std::string column_label(std::size_t j) const { return quoted(columns_[j].name); }
 
   std::string_view text_;
@@ -635,19 +681,25 @@ class Parser {
   std::optional<std::size_t> time_column_;
   double time_factor_ = 1;
   bool check_time_ = false;
-  TimeCheck time_;
+  TimeCheck time_{'.', 1};
   std::size_t header_line_ = 0;
   std::size_t first_data_line_ = 0;
   Capture capture_;
-  std::vector<double*> sinks_;
+  std::vector<std::vector<double>*> sinks_;  ///< per column; nullptr for the time column
 };
+
+// The text of an unquoted or quoted field as a view into its line (fields own copies).
+std::string_view field_view(std::string_view line, const Field& f) {
+  const std::size_t at = f.column - 1 + (f.quoted ? 1 : 0);
+  return trim(line.substr(at, f.text.size()));
+}
 
 void Parser::choose_time_column(const std::vector<const Line*>& content, bool has_header) {
   const std::string& requested = options_.time_column;
   if (requested == "none") return;
   if (!requested.empty()) {
     std::vector<std::string> names;
-    for (const auto& c : columns_) names.push_back(c.name);
+    for (const auto& col : columns_) names.push_back(col.name);
     for (std::size_t j = 0; j < columns_.size() && !time_column_; ++j)
       if (columns_[j].name == requested) time_column_ = j;
     for (std::size_t j = 0; j < columns_.size() && !time_column_; ++j)
@@ -659,7 +711,11 @@ void Parser::choose_time_column(const std::vector<const Line*>& content, bool ha
           ec == std::errc{} && p == end && index < columns_.size())
         time_column_ = index;
     }
-    if (!time_column_) throw UnknownNameError("column", requested, names);
+    if (!time_column_) {
+      for (std::size_t j = 0; j < names.size(); ++j)
+        if (names[j].empty()) names[j] = std::to_string(j);
+      throw UnknownNameError("column", requested, names);
+    }
     time_factor_ = time_factor(columns_[*time_column_].unit);
     if (time_factor_ == 0)
       throw InputError(name_, header_line_, 0,
@@ -682,15 +738,13 @@ void Parser::choose_time_column(const std::vector<const Line*>& content, bool ha
     return;
   }
   // No header: the first column is time if it increases uniformly over the first rows.
-  TimeCheck check;
+  TimeCheck check(layout_.dialect.decimal, 1);
   std::vector<Field> fields;
   for (std::size_t i = layout_.data; i < content.size() && check.count() < kTimeHeuristicRows; ++i) {
     if (!split_fields(content[i]->text, layout_.dialect, fields) || fields.empty()) return;
     double t;
     if (parse_field(fields[0].text, layout_.dialect.decimal, t) != NumberStatus::ok) return;
-    if (check.add(t, printed_resolution(trim(fields[0].text), layout_.dialect.decimal)) !=
-        TimeCheck::Verdict::ok)
-      return;
+    if (check.add(t, field_view(content[i]->text, fields[0])) != TimeCheck::Verdict::ok) return;
   }
   if (check.count() >= 2) time_column_ = 0;
 }
@@ -730,7 +784,9 @@ Capture Parser::run() {
     auto c = try_dialect(content, d);
     if (!c) continue;
     const auto key = [](const Candidate& x) {
-      return std::tuple(x.header_match, x.layout.columns, x.numeric_lines);
+      // Most rows read as data first, then a header that fits, then more columns; ties go
+      // to the earlier dialect in kDialects.
+      return std::tuple(x.numeric_lines, x.header_match, x.layout.columns);
     };
     if (!best || key(*c) > key(*best)) best = std::move(c);
   }
@@ -805,7 +861,7 @@ Capture Parser::run() {
   std::size_t rows_bound = 1;
   for (std::size_t at = data_offset; at < text_.size();) {
     const std::size_t stop = std::min(text_.size(), (at / kReleaseBytes + 1) * kReleaseBytes);
-    rows_bound += static_cast<std::size_t>(std::count(text_.data() + at, text_.data() + stop, '\n'));
+    rows_bound += count_newlines(text_.data() + at, text_.data() + stop);
     at = stop;
     if (release_ && stop < text_.size()) release_(stop);
   }
@@ -822,6 +878,7 @@ Capture Parser::run() {
     ch.samples.reserve(rows_bound);
   }
   check_time_ = time_column_.has_value() && options_.rate_hz == 0;
+  time_ = TimeCheck(d.decimal, time_factor_);
   first_data_line_ = data_line;
   parse_rows(data_offset, data_line - 1);
 
@@ -851,86 +908,107 @@ Capture Parser::run() {
   return std::move(capture_);
 }
 
-void Parser::store(std::size_t j, double value, const char* begin, const char* end, const Line& line) {
-  const Column& c = columns_[j];
-  if (c.channel >= 0) {
-    capture_.channels[static_cast<std::size_t>(c.channel)].samples.push_back(value);
-    return;
-  }
+void Parser::add_time(double value, std::string_view text, std::size_t line_number,
+                      const char* line_begin) {
   const double t = value * time_factor_;
   if (!check_time_) {
-    if (time_.count() == 0) time_.add(t, 0);
+    if (time_.count() == 0) time_.add(t, text);
     return;
   }
-  const double resolution =
-      printed_resolution(std::string_view(begin, static_cast<std::size_t>(end - begin)),
-                         layout_.dialect.decimal) * time_factor_;
   const double previous = time_.last();
   const double mean = time_.mean_step();
-  switch (time_.add(t, resolution)) {
-    case TimeCheck::Verdict::ok:
-      return;
-    case TimeCheck::Verdict::not_increasing:
-      fail(line.number, static_cast<std::size_t>(begin - line.text.data()) + 1,
-           "time does not increase: " + quoted(std::string_view(begin, static_cast<std::size_t>(end - begin))) +
-               " follows " + format_significant(previous / time_factor_, 9) + " in column " +
-               column_label(j) + " (give --rate HZ to ignore the time column)");
-    case TimeCheck::Verdict::not_uniform:
-      fail(line.number, static_cast<std::size_t>(begin - line.text.data()) + 1,
-           "time is not uniform: " + quoted(std::string_view(begin, static_cast<std::size_t>(end - begin))) +
-               " comes " + format_significant(t - previous) + " s after the previous row, expected " +
-               format_significant(mean) + " s (within 1e-4 relative); give --rate HZ to ignore the "
-               "time column");
-  }
+  const TimeCheck::Verdict verdict = time_.add(t, text);
+  if (verdict == TimeCheck::Verdict::ok) return;
+  const auto column = static_cast<std::size_t>(text.data() - line_begin) + 1;
+  if (verdict == TimeCheck::Verdict::not_increasing)
+    fail(line_number, column,
+         "time does not increase: " + quoted(text) + " follows " +
+             format_significant(previous / time_factor_, 9) + " in column " +
+             column_label(*time_column_) + " (give --rate HZ to ignore the time column)");
+  fail(line_number, column,
+       "time is not uniform: " + quoted(text) + " comes " + format_significant(t - previous) +
+           " s after the previous row, expected " + format_significant(mean) +
+           " s (within 1e-4 relative); give --rate HZ to ignore the time column");
 }
 
+// The fast path parses numbers straight from the text and checks the separators; anything
+// unusual (quotes, comments, blank lines, a bad cell) goes to slow_row, which splits the
+// line properly and either parses it or throws the exact message.
 void Parser::parse_rows(std::size_t offset, std::size_t first_line) {
-  LineCursor cursor(text_, offset, first_line);
-  Line line;
   const Dialect d = layout_.dialect;
   const bool runs = d.delimiter == ' ';
   const std::size_t n = columns_.size();
-  std::size_t next_release = (offset / kReleaseBytes + 1) * kReleaseBytes;
+  const std::size_t time_j = time_column_ ? *time_column_ : n;
+  sinks_.assign(n, nullptr);
+  for (std::size_t j = 0; j < n; ++j)
+    if (columns_[j].channel >= 0)
+      sinks_[j] = &capture_.channels[static_cast<std::size_t>(columns_[j].channel)].samples;
   std::vector<double> values(n);
-  std::vector<std::pair<const char*, const char*>> spans(n);
-  while (cursor.next(line)) {
-    if (release_ && line.offset >= next_release) {
-      release_(line.offset);
-      next_release = (line.offset / kReleaseBytes + 1) * kReleaseBytes;
+  std::vector<const char*> starts(n), stops(n);
+  const char* const base = text_.data();
+  const char* const end = base + text_.size();
+  const auto blank = [&](char c) { return runs ? is_blank(c) : skippable(c, d); };
+  const auto at_eol = [&](const char* p) { return p == end || *p == '\n' || *p == '\r'; };
+  std::size_t next_release = (offset / kReleaseBytes + 1) * kReleaseBytes;
+  std::size_t line_number = first_line;
+  const char* p = base + offset;
+  while (p < end) {
+    const char* const line_begin = p;
+    ++line_number;
+    if (release_ && static_cast<std::size_t>(line_begin - base) >= next_release) {
+      release_(static_cast<std::size_t>(line_begin - base));
+      next_release += kReleaseBytes;
     }
-    const char* p = line.text.data();
-    const char* e = p + line.text.size();
-    while (p != e && is_blank(*p)) ++p;
-    if (p == e || *p == '#') continue;  // blank and comment lines
-    p = line.text.data();
     bool fast = true;
-    for (std::size_t j = 0; j < n && fast; ++j) {
-      while (p != e && (runs ? is_blank(*p) : skippable(*p, d))) ++p;
+    for (std::size_t j = 0; j < n; ++j) {
+      while (p != end && blank(*p)) ++p;
       NumberStatus status;
-      const char* q = scan_number(p, e, d.decimal, values[j], status);
+      const char* q = p == end ? nullptr : scan_number(p, end, d.decimal, values[j], status);
       if (!q || status != NumberStatus::ok) {
         fast = false;
         break;
       }
-      spans[j] = {p, q};
+      starts[j] = p;
+      stops[j] = q;
       p = q;
-      while (p != e && (runs ? is_blank(*p) : skippable(*p, d))) ++p;
+      while (p != end && blank(*p)) ++p;
       if (j + 1 < n) {
-        if (runs ? (p == q || p == e) : (p == e || *p != d.delimiter)) fast = false;
-        else if (!runs) ++p;
-      } else {
-        while (p != e && (*p == d.delimiter || is_blank(*p))) ++p;  // trailing empty columns
-        if (p != e) fast = false;
+        if (runs ? (p == q || at_eol(p)) : (at_eol(p) || *p != d.delimiter)) {
+          fast = false;
+          break;
+        }
+        if (!runs) ++p;
       }
     }
-    if (!fast) {
-      slow_row(line);
+    if (fast) {
+      while (p != end && (*p == d.delimiter || is_blank(*p))) ++p;  // trailing empty columns
+      if (p != end && *p == '\r') ++p;
+      if (p != end && *p != '\n') fast = false;
+    }
+    if (fast) {
+      if (p != end) ++p;  // the '\n'
+      for (std::size_t j = 0; j < n; ++j) {
+        if (j == time_j)
+          add_time(values[j], std::string_view(starts[j], static_cast<std::size_t>(stops[j] - starts[j])),
+                   line_number, line_begin);
+        else
+          sinks_[j]->push_back(values[j]);
+      }
       continue;
     }
-    for (std::size_t j = 0; j < n; ++j) store(j, values[j], spans[j].first, spans[j].second, line);
+    // The careful path for this line.
+    const void* nl = std::memchr(line_begin, '\n', static_cast<std::size_t>(end - line_begin));
+    const char* line_end = nl ? static_cast<const char*>(nl) : end;
+    p = nl ? line_end + 1 : end;
+    Line line;
+    line.number = line_number;
+    line.offset = static_cast<std::size_t>(line_begin - base);
+    line.text = std::string_view(line_begin, static_cast<std::size_t>(line_end - line_begin));
+    if (!line.text.empty() && line.text.back() == '\r') line.text.remove_suffix(1);
+    if (classify(line.text) != LineKind::content) continue;  // blank and comment lines
+    slow_row(line);
   }
-  if (capture_.channels.front().samples.empty())
-    fail(first_data_line_, 0, "no data rows");
+  if (capture_.channels.front().samples.empty()) fail(first_data_line_, 0, "no data rows");
 }
 
 // The careful path: quoted fields, and the exact message for whatever is wrong in the row.
@@ -965,15 +1043,15 @@ void Parser::slow_row(const Line& line) {
                      : "the first data row on line " + std::to_string(first_data_line_);
   if (fields.size() < n)
     fail(line.number, 0,
-         "row has " + std::to_string(fields.size()) + " field" + (fields.size() == 1 ? "" : "s") + ", expected " +
-             std::to_string(n) + " as in " + expected_from);
+         "row has " + std::to_string(fields.size()) + " field" + (fields.size() == 1 ? "" : "s") +
+             ", expected " + std::to_string(n) + " as in " + expected_from);
   if (count > n)
     fail(line.number, fields[n].column,
          "row has " + std::to_string(count) + " fields, expected " + std::to_string(n) + " as in " +
              expected_from);
   for (std::size_t j = 0; j < n; ++j) {
-    const std::string_view text = trim(fields[j].text);
-    store(j, values[j], text.data(), text.data() + text.size(), line);
+    if (sinks_[j]) sinks_[j]->push_back(values[j]);
+    else add_time(values[j], field_view(line.text, fields[j]), line.number, line.text.data());
   }
 }
 

@@ -17,8 +17,10 @@ class CompensatedSum {
  public:
   void add(double x) {
     const double t = sum_ + x;
-    if (std::fabs(sum_) >= std::fabs(x)) carry_ += (sum_ - t) + x;
-    else carry_ += (x - t) + sum_;
+    // Both candidates are computed so the choice compiles to a select, not a branch.
+    const double big_sum = (sum_ - t) + x;
+    const double big_x = (x - t) + sum_;
+    carry_ += std::fabs(sum_) >= std::fabs(x) ? big_sum : big_x;
     sum_ = t;
   }
   double value() const { return sum_ + carry_; }
@@ -35,11 +37,12 @@ ChannelStats channel_stats(const Channel& channel) {
   ChannelStats s;
   s.name = channel.name;
   s.unit = channel.unit;
-  const auto [lo, hi] = std::minmax_element(channel.samples.begin(), channel.samples.end());
-  s.min = *lo;
-  s.max = *hi;
+  s.min = channel.samples.front();
+  s.max = channel.samples.front();
   CompensatedSum sum, squares;
   for (double x : channel.samples) {
+    s.min = std::min(s.min, x);
+    s.max = std::max(s.max, x);
     sum.add(x);
     squares.add(x * x);
   }
