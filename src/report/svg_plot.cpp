@@ -611,7 +611,9 @@ std::string render_svg(const Figure& figure) {
       }};
       std::size_t best = 0, best_count = SIZE_MAX;
       for (std::size_t c = 0; c < corners.size(); ++c) {
-        const auto [bx, by] = corners[c];
+        // Plain variables, not a structured binding: clang 14 (the fuzz build) cannot capture
+        // structured bindings in a lambda (P1091 arrived in clang 16).
+        const double bx = corners[c].first, by = corners[c].second;
         std::size_t count = 0;
         const auto hit = [&](double xv, double yv) {
           const double x = xa.map(xv), yy = ya.map(yv);
