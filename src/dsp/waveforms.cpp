@@ -1,7 +1,10 @@
 #include "dsp/waveforms.hpp"
 
+#include <fftw3.h>
+
 #include <algorithm>
 #include <cmath>
+#include <mutex>
 #include <numbers>
 #include <set>
 
@@ -103,6 +106,41 @@ double FourierSeries::value(double t_s) const {
     v += (phasors[n] * rot).real();
     rot *= step;
   }
+  return v;
+}
+
+std::vector<double> sample_period(const FourierSeries& series, int samples_per_period) {
+  const auto size = static_cast<std::size_t>(std::max(1, samples_per_period));
+  const auto& y = series.phasors;
+  std::vector<std::complex<double>> bins(size, 0.0), out(size);
+  if (!y.empty()) bins[0] += y[0].real();
+  for (std::size_t n = 1; n < y.size(); ++n) {
+    const std::size_t b = n % size;
+    bins[b] += y[n] / 2.0;
+    bins[(size - b) % size] += std::conj(y[n]) / 2.0;
+  }
+  // FFTW's planner is not thread-safe: plan under a lock, with FFTW's own thread-safe planner
+  // mode switched on once (as dsp/fft_plan does) so other FFTW users are safe too.
+  static std::mutex planner;
+  static const bool thread_safe = [] {
+    fftw_make_planner_thread_safe();
+    return true;
+  }();
+  (void)thread_safe;
+  fftw_plan plan;
+  {
+    std::lock_guard lock(planner);
+    plan = fftw_plan_dft_1d(static_cast<int>(size), reinterpret_cast<fftw_complex*>(bins.data()),
+                            reinterpret_cast<fftw_complex*>(out.data()), FFTW_BACKWARD, FFTW_ESTIMATE);
+  }
+  if (plan == nullptr) throw std::bad_alloc();
+  fftw_execute(plan);
+  {
+    std::lock_guard lock(planner);
+    fftw_destroy_plan(plan);
+  }
+  std::vector<double> v(size);
+  for (std::size_t k = 0; k < size; ++k) v[k] = out[k].real();
   return v;
 }
 

@@ -89,6 +89,11 @@ struct FourierSeries {
   double value(double t_s) const;
 };
 
+/// The series at t_k = k/(M·f0), k = 0…M−1, from one inverse DFT of length M with harmonic n
+/// folded onto bin n mod M: exact values of the partial sum at those instants for any N (an
+/// harmonic above M/2 shows as its alias, as sampling would show it). O(N + M log M).
+std::vector<double> sample_period(const FourierSeries& series, int samples_per_period);
+
 /// Exact value of the waveform at time t (midpoint at jumps).
 double wave_value(const WaveSpec& wave, double t_s);
 /// Exact value at position u in the period (u is reduced to [0, 1)); exact for u = k/M.

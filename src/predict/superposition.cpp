@@ -1,12 +1,9 @@
 #include "predict/superposition.hpp"
 
-#include <fftw3.h>
-
 #include <Eigen/Eigenvalues>
 #include <algorithm>
 #include <cmath>
 #include <limits>
-#include <mutex>
 #include <numbers>
 
 #include "core/error.hpp"
@@ -34,36 +31,9 @@ std::string num(double v) { return io::format_shortest(v); }
 /// Frequencies in messages for people: 9 significant digits hide the rounding of ω/(2π).
 std::string hz(double v) { return io::format_significant(v, 9); }
 
-std::mutex& fftw_planner_mutex() {
-  static std::mutex m;  // FFTW's planner is not thread-safe
-  return m;
-}
-
-/// One period of y_k = Y_0 + Σ_n Re(Y_n·e^{j2πnk/M}), k = 0…M−1: harmonic n lands on bin
-/// n mod M (and its conjugate on −n mod M), so the values are exact for any N.
+/// One period of y at t_k = k/(M·f0): the folded inverse DFT of dsp::sample_period.
 std::vector<double> folded_period(const std::vector<std::complex<double>>& y, int m) {
-  const auto size = static_cast<std::size_t>(m);
-  std::vector<std::complex<double>> bins(size, 0.0), out(size);
-  if (!y.empty()) bins[0] += y[0].real();
-  for (std::size_t n = 1; n < y.size(); ++n) {
-    const std::size_t b = n % size;
-    bins[b] += y[n] / 2.0;
-    bins[(size - b) % size] += std::conj(y[n]) / 2.0;
-  }
-  fftw_plan plan;
-  {
-    std::lock_guard lock(fftw_planner_mutex());
-    plan = fftw_plan_dft_1d(m, reinterpret_cast<fftw_complex*>(bins.data()),
-                            reinterpret_cast<fftw_complex*>(out.data()), FFTW_BACKWARD, FFTW_ESTIMATE);
-  }
-  fftw_execute(plan);
-  {
-    std::lock_guard lock(fftw_planner_mutex());
-    fftw_destroy_plan(plan);
-  }
-  std::vector<double> v(size);
-  for (std::size_t k = 0; k < size; ++k) v[k] = out[k].real();
-  return v;
+  return dsp::sample_period(dsp::FourierSeries{1, y}, m);
 }
 
 /// θ = 2π·frac(f0·t), reduced before multiplying by n so large t keeps its accuracy.
