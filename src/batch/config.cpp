@@ -120,7 +120,10 @@ class Loader {
       const auto* array = node->as_array();
       if (!array || !array->is_array_of_tables())
         fail(node, "limit: expected [[limit]] tables, found " + type_name(*node));
-      for (const auto& element : *array) c.limits.push_back(load_limit(*element.as_table(), c.mode));
+      for (const auto& element : *array) {
+        c.limits.push_back(load_limit(*element.as_table(), c.mode));
+        if (const auto problem = model_problem(c.limits.back(), c)) fail(&element, *problem);
+      }
     }
     return c;
   }
@@ -138,7 +141,8 @@ class Loader {
   }
 
   void load_read(const toml::table& t, BatchConfig& c) const {
-    check_keys(t, {"rate_hz", "scale", "unit"}, "[read]");
+    check_keys(t, {"rate_hz", "scale", "unit", "time_column"}, "[read]");
+    if (const auto* n = t.get("time_column")) c.read.time_column = string(*n, "time_column");
     if (const auto* n = t.get("rate_hz")) {
       c.read.rate_hz = number(*n, "rate_hz");
       if (c.read.rate_hz < 0) fail(n, "rate_hz must be >= 0 (0 = from the file)");
@@ -236,6 +240,17 @@ class Loader {
 
 }  // namespace
 
+std::optional<std::string> model_problem(const Limit& limit, const BatchConfig& config) {
+  if (config.mode != AnalysisMode::identify || !config.identify.order.empty()) return std::nullopt;
+  static const std::vector<std::string> kModelResults = {
+      "dc_gain", "delay_s", "time_constant_s", "natural_frequency_hz", "damping", "q_factor",
+      "model_cost_ratio", "model_adequate"};
+  const bool needs_model =
+      limit.freq_hz || std::find(kModelResults.begin(), kModelResults.end(), limit.result) != kModelResults.end();
+  if (!needs_model) return std::nullopt;
+  return limit.describe() + " needs a fitted model: set order = \"M/N\" or \"auto\" in [analysis]";
+}
+
 const char* plot_selection_name(PlotSelection selection) {
   switch (selection) {
     case PlotSelection::all: return "all";
@@ -286,9 +301,13 @@ BatchConfig load_batch_config(const std::string& path) {
 
 void revalidate_limits(BatchConfig& config) {
   for (auto& limit : config.limits)
+  {
     if (const auto problem = finish_limit(limit, config.mode))
       throw InputError(config.source, limit.line, limit.column,
                        (problem->field.empty() ? "" : problem->field + ": ") + problem->message);
+    if (const auto problem = model_problem(limit, config))
+      throw InputError(config.source, limit.line, limit.column, *problem);
+  }
 }
 
 }  // namespace periodfit::batch

@@ -9,6 +9,7 @@
 /// Usage:
 ///   const BatchConfig config = load_batch_config("limits.toml");
 ///   for (const Limit& l : config.limits) …
+#include <optional>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -62,6 +63,10 @@ BatchConfig parse_batch_config(std::string_view text, const std::string& source)
 
 /// Reads and parses a config file (IoError when it cannot be read).
 BatchConfig load_batch_config(const std::string& path);
+
+/// Why `limit` cannot be evaluated with `config`'s analysis settings (a model quantity when no
+/// model order is set), or nullopt.
+std::optional<std::string> model_problem(const Limit& limit, const BatchConfig& config);
 
 /// Re-checks every limit for `config.mode` (after a command line changed it); an invalid one
 /// throws InputError at the limit's position in the config.

@@ -1,9 +1,185 @@
-// Placeholder until the command lands; replaced by its owner.
+// periodfit batch DIR…: one characterisation over folders of captures, with limits, summaries
+// and an HTML report. Settings come from --config FILE (TOML) and/or the flags below; a flag
+// given on the command line overrides the config's value.
+#include <unistd.h>
+
+#include <cmath>
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "batch/config.hpp"
+#include "batch/runner.hpp"
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
-#include "core/error.hpp"
+#include "core/exit_code.hpp"
+#include "io/number_format.hpp"
+#include "report/table.hpp"
 
 namespace periodfit::cli {
-Runner add_batch(CLI::App&) {
-  return [] () -> int { throw Error("the batch command is not built yet"); };
+
+namespace {
+
+struct BatchArgs {
+  batch::BatchOptions run;          ///< inputs, report_dir, jobs
+  batch::BatchConfig flags;         ///< settings given as flags (defaults from the structs)
+  std::string config_path;
+  std::string mode;
+  std::string plots;
+  bool quiet = false;
+  // Options whose presence decides whether they override the config.
+  CLI::Option* patterns = nullptr;
+  CLI::Option* recursive = nullptr;
+  CLI::Option* channels = nullptr;
+  CLI::Option* input = nullptr;
+  CLI::Option* output = nullptr;
+  CLI::Option* order = nullptr;
+  CLI::Option* delay = nullptr;
+  CLI::Option* f0 = nullptr;
+  CLI::Option* f0_hint = nullptr;
+  CLI::Option* harmonics = nullptr;
+  CLI::Option* min_snr = nullptr;
+  CLI::Option* skew = nullptr;
+  CLI::Option* plots_option = nullptr;
+  CLI::Option* mode_option = nullptr;
+};
+
+std::string duration_text(double s) {
+  if (!std::isfinite(s) || s < 0) return "?";
+  if (s < 60) return std::to_string(static_cast<int>(std::lround(s))) + " s";
+  const long m = std::lround(s) / 60;
+  return std::to_string(m) + " min " + std::to_string(std::lround(s) - 60 * m) + " s";
 }
+
+// One line, redrawn in place: done/total, files per second, estimated time left.
+void show_progress(const batch::Progress& p) {
+  const double rate = p.elapsed_s > 0 ? static_cast<double>(p.done) / p.elapsed_s : 0;
+  const double eta = rate > 0 ? static_cast<double>(p.total - p.done) / rate : std::nan("");
+  std::string line = "\r  " + std::to_string(p.done) + "/" + std::to_string(p.total) + " files  " +
+                     io::format_fixed(rate, 1) + " files/s  ETA " +
+                     (p.done == p.total ? std::string("0 s") : duration_text(eta)) + "   ";
+  std::fputs(line.c_str(), stderr);
+  if (p.done == p.total) std::fputs("\n", stderr);
+  std::fflush(stderr);
+}
+
+batch::BatchConfig settings(const BatchArgs& a) {
+  batch::BatchConfig c = a.config_path.empty() ? batch::BatchConfig{} : batch::load_batch_config(a.config_path);
+  const batch::BatchConfig& f = a.flags;
+  if (a.mode_option->count()) c.mode = batch::parse_mode(a.mode, "--mode");
+  else if (a.config_path.empty() && (a.input->count() || a.output->count() || a.order->count()))
+    c.mode = batch::AnalysisMode::identify;  // identify flags without --mode or a config
+  if (a.patterns->count()) c.files.patterns = f.files.patterns;
+  if (a.recursive->count()) c.files.recursive = f.files.recursive;
+  if (f.read.rate_hz != 0) c.read.rate_hz = f.read.rate_hz;
+  c.read.scales.insert(c.read.scales.end(), f.read.scales.begin(), f.read.scales.end());
+  c.read.units.insert(c.read.units.end(), f.read.units.begin(), f.read.units.end());
+  if (!f.read.time_column.empty()) c.read.time_column = f.read.time_column;
+  if (a.channels->count()) c.analyze.channels = f.analyze.channels;
+  if (a.input->count()) c.identify.input_channel = f.identify.input_channel;
+  if (a.output->count()) c.identify.output_channel = f.identify.output_channel;
+  if (a.order->count()) c.identify.order = f.identify.order;
+  if (a.delay->count()) c.identify.estimate_delay = f.identify.estimate_delay;
+  if (a.min_snr->count()) c.identify.frf.min_snr_db = f.identify.frf.min_snr_db;
+  if (a.skew->count()) c.identify.frf.skew_s = f.identify.frf.skew_s;
+  if (a.f0->count()) c.analyze.f0_hz = c.identify.f0_hz = f.analyze.f0_hz;
+  if (a.f0_hint->count()) c.analyze.f0_hint_hz = c.identify.f0_hint_hz = f.analyze.f0_hint_hz;
+  if (a.harmonics->count()) c.analyze.harmonics = c.identify.max_harmonic = f.analyze.harmonics;
+  if (a.plots_option->count()) c.plots = batch::parse_plot_selection(a.plots, "--plots");
+  if (!c.identify.order.empty() && c.identify.order != "auto")
+    ident::parse_model_order(c.identify.order, "--order");
+  batch::revalidate_limits(c);  // the flags may have changed the mode or the order
+  return c;
+}
+
+}  // namespace
+
+Runner add_batch(CLI::App& app) {
+  auto args = std::make_shared<BatchArgs>();
+  BatchArgs& a = *args;
+  const batch::BatchConfig defaults;
+  app.add_option("DIR", a.run.inputs, "folders of captures (or single capture files)")
+      ->required()
+      ->type_name("DIR");
+  app.add_option("--report", a.run.report_dir, "folder for summary.csv, summary.json, files/*.json, report.html")
+      ->required()
+      ->type_name("OUTDIR");
+  app.add_option("--config", a.config_path, "TOML file with the settings and the limits (docs/batch-config.md)")
+      ->type_name("FILE");
+  app.add_option("--jobs,-j", a.run.jobs, "files analysed in parallel (0 = hardware threads)")
+      ->capture_default_str()
+      ->type_name("N");
+  a.patterns = app.add_option("--pattern", a.flags.files.patterns,
+                              "file-name glob, repeatable (default: known capture extensions)")
+                   ->type_name("GLOB");
+  a.recursive = app.add_flag("--recursive,-r", a.flags.files.recursive, "descend into sub-folders");
+  a.mode_option = app.add_option("--mode", a.mode, "per-file analysis: analyze or identify")
+                      ->default_str(batch::mode_name(defaults.mode))
+                      ->type_name("MODE");
+  a.channels = app.add_option("--channel", a.flags.analyze.channels,
+                              "analyze: channel to analyse, repeatable (default: all)")
+                   ->type_name("CH");
+  a.input = app.add_option("--input", a.flags.identify.input_channel, "identify: DUT input channel")
+                ->capture_default_str()
+                ->type_name("CH");
+  a.output = app.add_option("--output", a.flags.identify.output_channel, "identify: DUT output channel")
+                 ->capture_default_str()
+                 ->type_name("CH");
+  a.order = app.add_option("--order", a.flags.identify.order, "identify: model order M/N or auto (default: no model)")
+                ->type_name("M/N");
+  a.delay = app.add_flag("--delay", a.flags.identify.estimate_delay, "identify: estimate the dead time");
+  a.min_snr = app.add_option("--min-snr", a.flags.identify.frf.min_snr_db,
+                             "identify: input SNR for a harmonic to count as excited")
+                  ->capture_default_str()
+                  ->type_name("DB");
+  a.skew = app.add_option("--skew", a.flags.identify.frf.skew_s, "identify: output path delay to remove")
+               ->capture_default_str()
+               ->type_name("SECONDS");
+  a.f0 = app.add_option("--f0", a.flags.analyze.f0_hz, "use exactly this fundamental (0 = estimate)")
+             ->capture_default_str()
+             ->type_name("HZ");
+  a.f0_hint = app.add_option("--f0-hint", a.flags.analyze.f0_hint_hz, "search the fundamental near this")
+                  ->capture_default_str()
+                  ->type_name("HZ");
+  a.harmonics = app.add_option("--harmonics", a.flags.analyze.harmonics, "highest harmonic (0 = automatic)")
+                    ->capture_default_str()
+                    ->type_name("N");
+  a.plots_option = app.add_option("--plots", a.plots, "plots in report.html: all, failed or none")
+                       ->default_str(batch::plot_selection_name(defaults.plots))
+                       ->type_name("WHICH");
+  app.add_flag("--quiet,-q", a.quiet, "no progress and no per-file table; only the closing line");
+  add_capture_options(app, a.flags.read);
+
+  return [args]() -> int {
+    BatchArgs& b = *args;
+    b.run.config = settings(b);
+    if (!b.quiet && ::isatty(STDERR_FILENO)) b.run.progress = show_progress;
+    const batch::BatchResult r = batch::run_batch(b.run);
+    std::string out;
+    if (!b.quiet) {
+      report::Table table({{"file", report::Table::Align::left},
+                           {"status", report::Table::Align::left},
+                           {"failing limits / message", report::Table::Align::left}});
+      for (const auto& f : r.files) {
+        std::string why = f.error;
+        std::size_t failing = 0;
+        for (std::size_t i = 0; i < f.limits.size(); ++i)
+          if (!f.limits[i].passed) {
+            if (failing++ == 0)
+              why = b.run.config.limits[i].describe() + " = " + f.limits[i].measured_text;
+          }
+        if (failing > 1) why += " (+" + std::to_string(failing - 1) + " more)";
+        table.add_row({f.path, report::status_text(f.status), why});
+      }
+      out += table.render();
+      out += "report: " + r.report_html + "\n";
+    }
+    out += batch::batch_totals_line(r) + "\n";
+    std::fwrite(out.data(), 1, out.size(), stdout);
+    std::fflush(stdout);
+    return to_int(batch::batch_exit_code(r));
+  };
+}
+
 }  // namespace periodfit::cli

@@ -1,0 +1,247 @@
+#include "batch/file_analysis.hpp"
+
+#include <cmath>
+#include <numbers>
+
+#include "core/error.hpp"
+#include "ident/frf.hpp"
+#include "ident/identify.hpp"
+#include "io/capture_reader.hpp"
+#include "io/number_format.hpp"
+#include "report/result_plots.hpp"
+
+namespace periodfit::batch {
+
+namespace {
+
+// Normal 97.5 % quantile: the coverage factor for estimates with many degrees of freedom.
+constexpr double kNormal95 = 1.959963984540054;
+
+std::string sig(double v) {
+  if (!std::isfinite(v)) return std::isnan(v) ? "n/a" : (v > 0 ? "inf" : "-inf");
+  return io::format_significant(v == 0 ? 0.0 : v, 6);
+}
+
+std::string with_unit(const std::string& number, const std::string& unit) {
+  return unit.empty() ? number : number + " " + unit;
+}
+
+std::string pm(double value, double u95, const std::string& unit) {
+  if (!std::isfinite(u95)) return with_unit(sig(value), unit);
+  return with_unit(sig(value) + " \xC2\xB1 " + io::format_significant(u95, 3), unit);
+}
+
+Quantity db_quantity(double mag, double lo, double hi) {
+  const auto db = [](double m) {
+    return m > 0 ? 20 * std::log10(m) : -std::numeric_limits<double>::infinity();
+  };
+  return {db(mag), db(lo), db(hi)};
+}
+
+void add_key(FileAnalysis& a, std::string name, std::string label, double value,
+             const std::string& unit) {
+  const bool ok = std::isfinite(value);
+  a.keys.push_back({std::move(name), std::move(label), ok ? io::format_shortest(value) : "",
+                    ok ? with_unit(sig(value), unit) : ""});
+}
+
+void add_key_text(FileAnalysis& a, std::string name, std::string label, std::string text) {
+  a.keys.push_back({std::move(name), std::move(label), text, text});
+}
+
+// H and 95 % intervals of |H| and ∠H from a fitted model at f, u by first-order propagation of
+// the parameter covariance: var|H| = gᵀCg with g_i = Re(H̄·∂H/∂θ_i)/|H|, var∠H = hᵀCh with
+// h_i = Im(H̄·∂H/∂θ_i)/|H|² (the linearisation of |H| and arg H; GUM, JCGM 100 §5.1.2).
+struct ModelPoint {
+  std::complex<double> h;
+  double mag_u = std::nan("");
+  double phase_u_rad = std::nan("");
+};
+
+ModelPoint model_point(const ident::RationalModel& model, double f_hz) {
+  const double w = 2 * std::numbers::pi * f_hz;
+  ModelPoint p;
+  p.h = model.response(w);
+  const auto& c = model.covariance;
+  const std::size_t n = model.parameter_count();
+  if (c.size() != n || std::abs(p.h) == 0) return p;
+  const auto grad = model.response_gradient(w);
+  if (grad.size() != n) return p;
+  const double mag = std::abs(p.h);
+  std::vector<double> g(n), h(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::complex<double> t = std::conj(p.h) * grad[i];
+    g[i] = t.real() / mag;
+    h[i] = t.imag() / (mag * mag);
+  }
+  double vm = 0, vp = 0;
+  for (std::size_t i = 0; i < n; ++i)
+    for (std::size_t j = 0; j < n; ++j) {
+      vm += g[i] * c[i][j] * g[j];
+      vp += h[i] * c[i][j] * h[j];
+    }
+  p.mag_u = std::sqrt(std::max(vm, 0.0));
+  p.phase_u_rad = std::sqrt(std::max(vp, 0.0));
+  return p;
+}
+
+FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config) {
+  const ident::IdentifyResult r = ident::identify(capture, config.identify);
+  FileAnalysis a;
+  MeasurementSet& m = a.measurements;
+  const double k = model_coverage_factor(r.frf.dof);
+
+  const double f0 = r.fundamental.f0_hz;
+  m.set("f0_hz", Quantity::symmetric(f0, kNormal95 * r.fundamental.f0_u_hz));
+  for (const auto& p : r.frf.points) {
+    m.set(measurement_key("mag", {}, p.n), {p.mag, p.mag_lo, p.mag_hi});
+    m.set(measurement_key("mag_db", {}, p.n), db_quantity(p.mag, p.mag_lo, p.mag_hi));
+    m.set(measurement_key("phase_deg", {}, p.n), {p.phase_deg, p.phase_lo_deg, p.phase_hi_deg});
+  }
+  if (r.linearity.status != "untested") m.set("linear", Quantity::exact(r.linearity.nonlinear ? 0 : 1));
+
+  std::string order_text;
+  if (r.model) {
+    const ident::RationalFitResult& fit = *r.model;
+    order_text = std::to_string(fit.order.num) + "/" + std::to_string(fit.order.den);
+    if (fit.dc_gain_defined) m.set("dc_gain", Quantity::symmetric(fit.dc_gain, k * fit.dc_gain_u));
+    m.set("delay_s", Quantity::symmetric(fit.delay_s, k * fit.delay_u_s));
+    if (fit.dof > 0) m.set("model_cost_ratio", Quantity::exact(fit.cost / fit.dof));
+    m.set("model_adequate", Quantity::exact(fit.adequate ? 1 : 0));
+    int entry = 0;
+    for (const auto& pole : fit.poles) {
+      if (!pole.is_real && pole.value.imag() < 0) continue;  // a pair counts once
+      ++entry;
+      const auto kk = [&](double u) { return pole.uncertainty_defined ? k * u : std::nan(""); };
+      const auto q = [&](double v, double u) {
+        return pole.uncertainty_defined ? Quantity::symmetric(v, kk(u)) : Quantity{v};
+      };
+      const double to_hz = 1 / (2 * std::numbers::pi);
+      if (pole.is_real) {
+        m.set(measurement_key("time_constant_s", {}, {}, {}, entry),
+              q(pole.time_constant_s, pole.time_constant_u_s));
+        m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
+              q(std::abs(pole.value.real()) * to_hz, pole.re_u * to_hz));
+        a.result_rows.emplace_back("pole " + std::to_string(entry),
+                                   "real, \xCF\x84 = " + pm(pole.time_constant_s, kk(pole.time_constant_u_s), "s"));
+      } else {
+        m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
+              q(pole.natural_frequency_rad_s * to_hz, pole.natural_frequency_u_rad_s * to_hz));
+        m.set(measurement_key("damping", {}, {}, {}, entry), q(pole.damping_ratio, pole.damping_ratio_u));
+        m.set(measurement_key("q_factor", {}, {}, {}, entry), q(pole.q_factor, pole.q_factor_u));
+        a.result_rows.emplace_back(
+            "pole " + std::to_string(entry),
+            "complex pair, fn = " +
+                pm(pole.natural_frequency_rad_s * to_hz, kk(pole.natural_frequency_u_rad_s) * to_hz, "Hz") +
+                ", \xCE\xB6 = " + pm(pole.damping_ratio, kk(pole.damping_ratio_u), "") +
+                ", Q = " + pm(pole.q_factor, kk(pole.q_factor_u), ""));
+      }
+    }
+    for (const auto& limit : config.limits) {
+      if (!limit.freq_hz) continue;
+      const ModelPoint p = model_point(fit.model, *limit.freq_hz);
+      const double mag = std::abs(p.h);
+      const double mu = k * p.mag_u;
+      m.set(measurement_key("mag", {}, {}, limit.freq_hz), Quantity::symmetric(mag, mu));
+      m.set(measurement_key("mag_db", {}, {}, limit.freq_hz),
+            std::isfinite(mu) ? db_quantity(mag, mag - mu, mag + mu) : Quantity{db_quantity(mag, 0, 0).value});
+      m.set(measurement_key("phase_deg", {}, {}, limit.freq_hz),
+            Quantity::symmetric(std::arg(p.h) * 180 / std::numbers::pi,
+                                k * p.phase_u_rad * 180 / std::numbers::pi));
+    }
+  }
+
+  add_key(a, "f0_hz", "f0", f0, "Hz");
+  add_key(a, "excited", "excited", static_cast<double>(r.frf.points.size()), "");
+  add_key_text(a, "order", "model", order_text);
+  const auto value_of = [&](const char* key) {
+    const Quantity* q = m.find(key);
+    return q ? q->value : std::nan("");
+  };
+  add_key(a, "dc_gain", "dc gain", value_of("dc_gain"), "");
+  add_key(a, "delay_s", "delay", r.model ? value_of("delay_s") : std::nan(""), "s");
+  add_key(a, "cost_ratio", "cost/dof", value_of("model_cost_ratio"), "");
+  add_key_text(a, "adequate", "adequate", r.model ? (r.model->adequate ? "yes" : "no") : "");
+  add_key_text(a, "linear", "linear",
+               r.linearity.status == "untested" ? "untested" : (r.linearity.nonlinear ? "no" : "yes"));
+
+  // The report section's rows, poles first collected above; put the overview before them.
+  std::vector<std::pair<std::string, std::string>> rows;
+  rows.emplace_back("channels", r.input_channel + " \xE2\x86\x92 " + r.output_channel);
+  rows.emplace_back("capture", capture.format + ", " + sig(capture.sample_rate_hz) + " Hz, " +
+                                   std::to_string(capture.sample_count()) + " samples");
+  rows.emplace_back("fundamental",
+                    pm(f0, kNormal95 * r.fundamental.f0_u_hz, "Hz") + " (" + r.fundamental.method + ")");
+  rows.emplace_back("FRF", std::to_string(r.frf.points.size()) + " excited harmonics, " +
+                               std::to_string(r.frf.periods) + " periods, " + r.frf.method +
+                               ", dof " + std::to_string(r.frf.dof));
+  if (r.model) {
+    const auto& fit = *r.model;
+    rows.emplace_back("model", order_text + " (" + fit.order_decided_by + "), " + fit.method);
+    if (fit.dc_gain_defined) rows.emplace_back("dc gain", pm(fit.dc_gain, k * fit.dc_gain_u, ""));
+    if (fit.model.delay_s != 0 || fit.delay_u_s != 0)
+      rows.emplace_back("delay", pm(fit.delay_s, k * fit.delay_u_s, "s"));
+    rows.emplace_back("cost", sig(fit.cost) + " for " + std::to_string(fit.dof) + " dof (95 % band " +
+                                  sig(fit.chi2_lower) + " \xE2\x80\xA6 " + sig(fit.chi2_upper) + "): " +
+                                  (fit.adequate ? "adequate" : "not adequate"));
+  }
+  rows.insert(rows.end(), a.result_rows.begin(), a.result_rows.end());
+  std::string lin = r.linearity.status;
+  if (r.linearity.level_db) lin += ", distortion " + io::format_fixed(*r.linearity.level_db, 1) + " dB";
+  rows.emplace_back("linearity", lin);
+  a.result_rows = std::move(rows);
+
+  a.flags = r.flags;
+  for (const auto& f : r.flags) a.messages.push_back("flag: " + f);
+  a.figures = report::identify_figures(capture, r);
+  a.result_json = ident::identify_json(r);
+  return a;
+}
+
+}  // namespace
+
+double model_coverage_factor(int frf_dof) { return ident::coverage_factor(0.95, frf_dof); }
+
+FileAnalysis analyse_file(const std::string& path, const BatchConfig& config) {
+  const Capture capture = io::read_capture(path, config.read);
+  FileAnalysis a;
+  if (config.mode == AnalysisMode::identify)
+    a = analyse_identify(capture, config);
+  else
+    throw AnalysisError("analyze mode is not available in this build yet");
+  a.metadata = capture.metadata;
+  return a;
+}
+
+std::vector<std::string> analysis_key_names(const BatchConfig& config) {
+  if (config.mode == AnalysisMode::identify)
+    return {"f0_hz", "excited", "order", "dc_gain", "delay_s", "cost_ratio", "adequate", "linear"};
+  return {"channel", "f0_hz", "rms", "thd", "sinad_db"};
+}
+
+std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const BatchConfig& config) {
+  std::vector<std::pair<std::string, std::string>> rows;
+  const auto f0 = [&](double f0_hz, double hint, int harmonics) {
+    rows.emplace_back("fundamental", f0_hz > 0 ? io::format_shortest(f0_hz) + " Hz (forced)"
+                                     : hint > 0 ? "estimated near " + io::format_shortest(hint) + " Hz"
+                                                : "estimated");
+    rows.emplace_back("harmonics", harmonics > 0 ? std::to_string(harmonics) : "automatic");
+  };
+  if (config.mode == AnalysisMode::identify) {
+    const auto& o = config.identify;
+    rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + o.output_channel);
+    rows.emplace_back("model order", o.order.empty() ? "none" : o.order);
+    rows.emplace_back("delay", o.estimate_delay ? "estimated" : "none");
+    rows.emplace_back("min SNR", io::format_shortest(o.frf.min_snr_db) + " dB");
+    f0(o.f0_hz, o.f0_hint_hz, o.max_harmonic);
+  } else {
+    const auto& o = config.analyze;
+    std::string channels;
+    for (const auto& c : o.channels) channels += (channels.empty() ? "" : ", ") + c;
+    rows.emplace_back("channels", channels.empty() ? "all" : channels);
+    f0(o.f0_hz, o.f0_hint_hz, o.harmonics);
+  }
+  return rows;
+}
+
+}  // namespace periodfit::batch

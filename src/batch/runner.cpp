@@ -1,0 +1,428 @@
+#include "batch/runner.hpp"
+
+#include <fnmatch.h>
+
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <cmath>
+#include <condition_variable>
+#include <exception>
+#include <filesystem>
+#include <mutex>
+#include <nlohmann/json.hpp>
+#include <numbers>
+#include <thread>
+
+#include "batch/file_analysis.hpp"
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+#include "io/output_file.hpp"
+#include "report/svg_plot.hpp"
+
+namespace periodfit::batch {
+
+namespace fs = std::filesystem;
+using json = nlohmann::ordered_json;
+
+namespace {
+
+// Extensions taken from folders when [files] patterns is empty (lower-case comparison).
+constexpr const char* kCaptureExtensions[] = {".csv", ".txt", ".tsv", ".dat", ".wav",
+                                              ".flac", ".aif", ".aiff", ".w64", ".rf64"};
+
+bool has_capture_extension(const fs::path& p) {
+  std::string ext = p.extension().string();
+  std::transform(ext.begin(), ext.end(), ext.begin(),
+                 [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+  return std::find(std::begin(kCaptureExtensions), std::end(kCaptureExtensions), ext) !=
+         std::end(kCaptureExtensions);
+}
+
+bool selected(const fs::path& p, const FileSelection& selection) {
+  const std::string name = p.filename().string();
+  if (!name.empty() && name[0] == '.') return false;  // hidden files and our temporaries
+  if (selection.patterns.empty()) return has_capture_extension(p);
+  return std::any_of(selection.patterns.begin(), selection.patterns.end(),
+                     [&](const std::string& g) { return ::fnmatch(g.c_str(), name.c_str(), 0) == 0; });
+}
+
+// A file name safe on every file system, for the per-file JSON: letters, digits, . _ - only.
+std::string safe_name(const std::string& path) {
+  std::string name = fs::path(path).filename().string();
+  for (auto& c : name)
+    if (!(std::isalnum(static_cast<unsigned char>(c)) || c == '.' || c == '_' || c == '-')) c = '_';
+  if (name.size() > 80) name.resize(80);
+  return name;
+}
+
+std::string index_prefix(std::size_t i) {
+  std::string s = std::to_string(i + 1);
+  return std::string(s.size() < 4 ? 4 - s.size() : 0, '0') + s;
+}
+
+json quantity_json(const Quantity& q) {
+  json j;
+  j["value"] = q.value;
+  j["lo95"] = q.has_interval() ? json(q.lo95) : json(nullptr);
+  j["hi95"] = q.has_interval() ? json(q.hi95) : json(nullptr);
+  return j;
+}
+
+json number_or_null(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
+
+json limit_json(const Limit& l, std::size_t index) {
+  json j;
+  j["index"] = index + 1;
+  j["result"] = l.result;
+  j["key"] = l.key();
+  j["label"] = l.label;
+  j["description"] = l.describe();
+  j["allowed"] = l.allowed_text();
+  j["lo"] = number_or_null(l.lo);
+  j["hi"] = number_or_null(l.hi);
+  j["guard_band"] = l.guard_band;
+  return j;
+}
+
+json outcome_json(const Limit& l, const LimitOutcome& o, std::size_t index) {
+  json j;
+  j["index"] = index + 1;
+  j["key"] = l.key();
+  j["passed"] = o.passed;
+  j["evaluated"] = o.evaluated;
+  j["value"] = o.evaluated ? number_or_null(o.measured.value) : json(nullptr);
+  j["lo95"] = o.evaluated && o.measured.has_interval() ? number_or_null(o.measured.lo95) : json(nullptr);
+  j["hi95"] = o.evaluated && o.measured.has_interval() ? number_or_null(o.measured.hi95) : json(nullptr);
+  j["measured"] = o.measured_text;
+  j["verdict"] = o.verdict;
+  return j;
+}
+
+// RFC 4180 field: quoted when it holds a comma, quote, CR or LF.
+std::string csv_field(const std::string& s) {
+  if (s.find_first_of(",\"\r\n") == std::string::npos) return s;
+  std::string out = "\"";
+  for (char c : s) out += c == '"' ? std::string("\"\"") : std::string(1, c);
+  return out + "\"";
+}
+
+std::string failing_text(const Limit& l, const LimitOutcome& o) {
+  return l.describe() + " = " + o.measured_text + ", allowed " + l.allowed_text();
+}
+
+/// Everything one worker produces for one file.
+struct FileWork {
+  FileResult result;
+  report::ReportFile section;
+  json document;  // the per-file JSON
+};
+
+FileWork process(std::size_t index, const std::string& path, const BatchOptions& options) {
+  const BatchConfig& config = options.config;
+  FileWork w;
+  w.result.path = path;
+  w.result.json_file = "files/" + index_prefix(index) + "-" + safe_name(path) + ".json";
+  w.section.path = path;
+  FileAnalysis analysis;
+  try {
+    analysis = analyse_file(path, config);
+  } catch (const Error& e) {
+    w.result.error = e.what();
+  } catch (const std::bad_alloc&) {
+    w.result.error = "out of memory";
+  } catch (const std::exception& e) {
+    w.result.error = std::string("internal error: ") + e.what();
+  }
+
+  if (!w.result.error.empty()) {
+    w.result.status = report::FileStatus::error;
+    w.section.status = report::FileStatus::error;
+    w.section.messages.push_back(w.result.error);
+    w.section.key_results = "";
+    for (const auto& key : analysis_key_names(config)) w.result.key_results.emplace_back(key, "");
+  } else {
+    bool all_passed = true;
+    for (const auto& limit : config.limits) {
+      LimitOutcome o = evaluate_limit(limit, analysis.measurements);
+      all_passed = all_passed && o.passed;
+      report::ReportLimit row{limit.describe(), o.measured_text, limit.allowed_text(), o.verdict,
+                              !o.passed};
+      if (!o.passed) {
+        w.section.failing.push_back(failing_text(limit, o));
+      }
+      w.section.limits.push_back(std::move(row));
+      w.result.limits.push_back(std::move(o));
+    }
+    w.result.status = all_passed ? report::FileStatus::pass : report::FileStatus::fail;
+    w.section.status = w.result.status;
+    w.result.flags = analysis.flags;
+    for (const auto& k : analysis.keys) w.result.key_results.emplace_back(k.name, k.machine);
+    std::string line;
+    for (const auto& k : analysis.keys)
+      if (!k.person.empty()) line += (line.empty() ? "" : " \xC2\xB7 ") + k.label + " " + k.person;
+    w.section.key_results = line;
+    w.section.results = analysis.result_rows;
+    w.section.metadata = analysis.metadata;
+    for (const auto& m : analysis.messages) w.section.messages.push_back(m);
+    const bool plots = config.plots == PlotSelection::all ||
+                       (config.plots == PlotSelection::failed && !all_passed);
+    if (plots) {
+      for (std::size_t k = 0; k < analysis.figures.size(); ++k) {
+        report::Figure fig = analysis.figures[k];
+        fig.id = "f" + std::to_string(index + 1) + "-" + std::to_string(k + 1);
+        w.section.plots.push_back(report::render_svg(fig));
+      }
+    }
+  }
+
+  json& d = w.document;
+  d["path"] = path;
+  d["status"] = report::status_text(w.result.status);
+  d["error"] = w.result.error.empty() ? json(nullptr) : json(w.result.error);
+  d["mode"] = mode_name(config.mode);
+  d["flags"] = w.result.flags;
+  json limits = json::array();
+  for (std::size_t i = 0; i < w.result.limits.size(); ++i)
+    limits.push_back(outcome_json(config.limits[i], w.result.limits[i], i));
+  d["limits"] = std::move(limits);
+  json measurements = json::object();
+  for (const auto& [key, q] : analysis.measurements.values()) measurements[key] = quantity_json(q);
+  d["measurements"] = std::move(measurements);
+  d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
+  return w;
+}
+
+std::string summary_csv(const std::vector<FileWork>& works, const BatchConfig& config) {
+  std::string out = "path,status";
+  for (const auto& key : analysis_key_names(config)) out += "," + csv_field(key);
+  for (std::size_t i = 0; i < config.limits.size(); ++i)
+    out += "," + csv_field("limit" + std::to_string(i + 1) + ":" + config.limits[i].key());
+  out += ",failing_limits,message\n";
+  for (const auto& w : works) {
+    const FileResult& r = w.result;
+    out += csv_field(r.path) + "," + report::status_text(r.status);
+    for (const auto& [key, value] : r.key_results) out += "," + csv_field(value);
+    for (std::size_t i = 0; i < config.limits.size(); ++i) {
+      std::string cell;
+      if (i < r.limits.size() && r.limits[i].evaluated)
+        cell = io::format_shortest(r.limits[i].measured.value);
+      out += "," + cell;
+    }
+    std::string failing;
+    for (std::size_t i = 0; i < r.limits.size(); ++i)
+      if (!r.limits[i].passed)
+        failing += (failing.empty() ? "" : "; ") + failing_text(config.limits[i], r.limits[i]);
+    out += "," + csv_field(failing) + "," + csv_field(r.error) + "\n";
+  }
+  return out;
+}
+
+json summary_json(const std::vector<FileWork>& works, const BatchResult& result,
+                  const BatchOptions& options) {
+  const BatchConfig& config = options.config;
+  json j;
+  j["format"] = "periodfit-batch-summary";
+  j["version"] = 1;
+  j["periodfit"] = PERIODFIT_VERSION;
+  j["mode"] = mode_name(config.mode);
+  j["config"] = config.source.empty() ? json(nullptr) : json(config.source);
+  j["totals"] = {{"files", works.size()},
+                 {"pass", result.passed},
+                 {"fail", result.failed},
+                 {"error", result.errors}};
+  json limits = json::array();
+  for (std::size_t i = 0; i < config.limits.size(); ++i) limits.push_back(limit_json(config.limits[i], i));
+  j["limits"] = std::move(limits);
+  json files = json::array();
+  for (const auto& w : works) {
+    const FileResult& r = w.result;
+    json f;
+    f["path"] = r.path;
+    f["status"] = report::status_text(r.status);
+    f["json"] = r.json_file;
+    f["error"] = r.error.empty() ? json(nullptr) : json(r.error);
+    json keys = json::object();
+    for (const auto& [key, value] : r.key_results) keys[key] = value;
+    f["key_results"] = std::move(keys);
+    json failing = json::array();
+    for (std::size_t i = 0; i < r.limits.size(); ++i)
+      if (!r.limits[i].passed) failing.push_back(outcome_json(config.limits[i], r.limits[i], i));
+    f["failing"] = std::move(failing);
+    f["flags"] = r.flags;
+    files.push_back(std::move(f));
+  }
+  j["files"] = std::move(files);
+  return j;
+}
+
+}  // namespace
+
+void BatchOptions::validate() const {
+  if (inputs.empty()) throw OptionError("inputs", "(none)", "give at least one folder or capture file");
+  if (report_dir.empty()) throw OptionError("report", "\"\"", "a report folder is required");
+  if (jobs < 0) throw OptionError("jobs", std::to_string(jobs), "must be >= 0 (0 = hardware threads)");
+  if (!(progress_interval_s > 0))
+    throw OptionError("progress_interval_s", io::format_shortest(progress_interval_s), "must be > 0");
+  if (config.mode == AnalysisMode::identify)
+    config.identify.validate();
+  else
+    config.analyze.validate();
+}
+
+std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
+                                       const FileSelection& selection) {
+  std::vector<std::string> found;
+  for (const auto& input : inputs) {
+    std::error_code ec;
+    const fs::file_status st = fs::status(input, ec);
+    if (ec || !fs::exists(st)) throw IoError(input, "cannot open", ec ? ec.value() : ENOENT);
+    if (!fs::is_directory(st)) {
+      found.push_back(input);
+      continue;
+    }
+    const auto take = [&](const fs::directory_entry& e) {
+      std::error_code e2;
+      if (e.is_regular_file(e2) && selected(e.path(), selection)) found.push_back(e.path().string());
+    };
+    if (selection.recursive) {
+      for (auto it = fs::recursive_directory_iterator(input, fs::directory_options::skip_permission_denied, ec);
+           !ec && it != fs::recursive_directory_iterator(); it.increment(ec)) {
+        if (it->path().filename().string().starts_with(".") && it->is_directory()) {
+          it.disable_recursion_pending();
+          continue;
+        }
+        take(*it);
+      }
+    } else {
+      for (auto it = fs::directory_iterator(input, ec); !ec && it != fs::directory_iterator();
+           it.increment(ec))
+        take(*it);
+    }
+    if (ec) throw IoError(input, "cannot list", ec.value());
+  }
+  std::sort(found.begin(), found.end());
+  found.erase(std::unique(found.begin(), found.end()), found.end());
+  if (found.empty()) {
+    std::string what = "no capture files found in";
+    for (const auto& i : inputs) what += " " + i;
+    what += selection.patterns.empty() ? " (extensions .csv .txt .tsv .dat .wav .flac .aif .aiff .w64 .rf64)"
+                                       : " matching the patterns";
+    throw InputError("", 0, 0, what);
+  }
+  return found;
+}
+
+BatchResult run_batch(const BatchOptions& options) {
+  options.validate();
+  const auto start = std::chrono::steady_clock::now();
+  const auto elapsed = [&] {
+    return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  };
+  const std::vector<std::string> paths = find_captures(options.inputs, options.config.files);
+
+  std::error_code ec;
+  fs::create_directories(fs::path(options.report_dir) / "files", ec);
+  if (ec) throw IoError(options.report_dir, "cannot create", ec.value());
+
+  BatchResult result;
+  result.report_dir = options.report_dir;
+  const unsigned hardware = std::max(1u, std::thread::hardware_concurrency());
+  const std::size_t jobs = std::min<std::size_t>(
+      paths.size(), options.jobs > 0 ? static_cast<std::size_t>(options.jobs) : hardware);
+  result.jobs = static_cast<int>(jobs);
+
+  // Each worker takes the next index; outcomes land in their slot, so order never depends on
+  // timing. Per-file JSON is written as soon as a file is done, keeping memory per file small.
+  std::vector<FileWork> works(paths.size());
+  std::atomic<std::size_t> next{0};
+  std::size_t done = 0;
+  std::mutex mutex;
+  std::condition_variable changed;
+  std::exception_ptr fatal;  // an output that could not be written stops the run
+  const auto worker = [&] {
+    for (;;) {
+      const std::size_t i = next.fetch_add(1);
+      if (i >= paths.size()) return;
+      {
+        std::lock_guard<std::mutex> lock(mutex);
+        if (fatal) return;
+      }
+      try {
+        FileWork w = process(i, paths[i], options);
+        io::write_file_atomic((fs::path(options.report_dir) / w.result.json_file).string(),
+                              w.document.dump(2) + "\n");
+        w.document = json();  // written; free it
+        works[i] = std::move(w);
+      } catch (...) {
+        std::lock_guard<std::mutex> lock(mutex);
+        if (!fatal) fatal = std::current_exception();
+      }
+      {
+        std::lock_guard<std::mutex> lock(mutex);
+        ++done;
+      }
+      changed.notify_all();
+    }
+  };
+  std::vector<std::thread> threads;
+  threads.reserve(jobs);
+  for (std::size_t t = 0; t < jobs; ++t) threads.emplace_back(worker);
+  {
+    std::unique_lock<std::mutex> lock(mutex);
+    const auto interval = std::chrono::duration<double>(options.progress_interval_s);
+    while (done < paths.size() && !fatal) {
+      changed.wait_for(lock, interval);
+      if (options.progress) {
+        const Progress p{done, paths.size(), elapsed()};
+        lock.unlock();
+        options.progress(p);
+        lock.lock();
+      }
+    }
+  }
+  for (auto& t : threads) t.join();
+  if (fatal) std::rethrow_exception(fatal);
+  if (options.progress) options.progress(Progress{paths.size(), paths.size(), elapsed()});
+
+  for (const auto& w : works) {
+    switch (w.result.status) {
+      case report::FileStatus::pass: ++result.passed; break;
+      case report::FileStatus::fail: ++result.failed; break;
+      case report::FileStatus::error: ++result.errors; break;
+    }
+  }
+  const fs::path dir(options.report_dir);
+  result.summary_csv = (dir / "summary.csv").string();
+  result.summary_json = (dir / "summary.json").string();
+  result.report_html = (dir / "report.html").string();
+  io::write_file_atomic(result.summary_csv, summary_csv(works, options.config));
+  io::write_file_atomic(result.summary_json, summary_json(works, result, options).dump(2) + "\n");
+
+  report::ReportDocument doc;
+  doc.title = options.config.title;
+  doc.settings.emplace_back("mode", mode_name(options.config.mode));
+  if (!options.config.source.empty()) doc.settings.emplace_back("config", options.config.source);
+  for (const auto& [key, value] : analysis_settings_rows(options.config)) doc.settings.emplace_back(key, value);
+  doc.settings.emplace_back("limits", std::to_string(options.config.limits.size()));
+  doc.settings.emplace_back("plots", plot_selection_name(options.config.plots));
+  for (auto& w : works) doc.files.push_back(std::move(w.section));
+  io::write_file_atomic(result.report_html, report::render_html_report(doc));
+
+  for (auto& w : works) result.files.push_back(std::move(w.result));
+  result.elapsed_s = elapsed();
+  return result;
+}
+
+ExitCode batch_exit_code(const BatchResult& result) {
+  if (result.errors > 0) return ExitCode::error;
+  if (result.failed > 0) return ExitCode::fail;
+  return ExitCode::ok;
+}
+
+std::string batch_totals_line(const BatchResult& result) {
+  return std::to_string(result.passed) + " pass, " + std::to_string(result.failed) + " fail, " +
+         std::to_string(result.errors) + " error";
+}
+
+}  // namespace periodfit::batch

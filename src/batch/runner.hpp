@@ -1,0 +1,85 @@
+#pragma once
+/// Running one characterisation over folders of captures: list the files (sorted by path),
+/// analyse them on a pool of threads, evaluate the limits, and write the outputs into the
+/// report folder — summary.csv, summary.json, files/NNNN-<name>.json per file and report.html
+/// (docs/batch-output.md). Every output goes through io::write_file_atomic (temporary file +
+/// rename), so a killed run leaves either the previous file or the new one, never half.
+///
+/// Robustness: a file that cannot be read or analysed (corrupt, not periodic, a missing
+/// channel) becomes an ERROR row with its message; it never stops the batch. Determinism: each
+/// file is analysed independently of the others and the outputs are assembled in path order
+/// after all files are done, so the outputs of --jobs 1 and --jobs N are byte-identical (no
+/// timings are written into them).
+///
+/// Usage:
+///   BatchOptions o; o.inputs = {"captures/"}; o.report_dir = "out"; o.config = load_batch_config("limits.toml");
+///   const BatchResult r = run_batch(o);
+///   return to_int(batch_exit_code(r));
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "batch/config.hpp"
+#include "batch/limits.hpp"
+#include "core/exit_code.hpp"
+#include "report/html_report.hpp"
+
+namespace periodfit::batch {
+
+/// Progress as the batch goes, for a terminal display (the library never prints).
+struct Progress {
+  std::size_t done = 0;
+  std::size_t total = 0;
+  double elapsed_s = 0;
+};
+
+struct BatchOptions {
+  std::vector<std::string> inputs;  ///< folders (searched per config.files) or single capture files
+  std::string report_dir;           ///< output folder, created when missing; required
+  int jobs = 0;                     ///< worker threads; 0 = hardware threads
+  BatchConfig config;               ///< per-file analysis, file selection, report, limits
+  /// Called on the calling thread about every progress_interval_s while files run, and once at
+  /// the end; empty = no progress.
+  std::function<void(const Progress&)> progress;
+  double progress_interval_s = 0.25;
+
+  void validate() const;  ///< throws OptionError naming the field
+};
+
+/// One file's outcome.
+struct FileResult {
+  std::string path;                 ///< as found (folder argument joined with the relative path)
+  report::FileStatus status = report::FileStatus::error;
+  std::string error;                ///< the message when status is ERROR
+  std::vector<std::string> flags;   ///< analysis flags (nonlinear, few-periods, clipped, …)
+  std::vector<std::pair<std::string, std::string>> key_results;  ///< summary columns, in order
+  std::vector<LimitOutcome> limits; ///< one per config limit, in config order
+  std::string json_file;            ///< per-file JSON, relative to the report folder
+};
+
+struct BatchResult {
+  std::vector<FileResult> files;    ///< in path order
+  std::size_t passed = 0, failed = 0, errors = 0;
+  std::string report_dir;
+  std::string summary_csv, summary_json, report_html;  ///< paths written
+  int jobs = 1;                     ///< worker threads used
+  double elapsed_s = 0;             ///< wall time of the whole run
+};
+
+/// The captures a batch would take from `inputs`: regular files named directly, and the files
+/// in each folder matching `selection`, sorted by path, duplicates removed. Throws IoError for
+/// an input that does not exist and InputError when nothing is found.
+std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
+                                       const FileSelection& selection);
+
+/// Runs the batch (see the header). Throws only for problems of the run itself (bad options, an
+/// unwritable report folder); problems of single files become ERROR rows.
+BatchResult run_batch(const BatchOptions& options);
+
+/// 0 all passed, 1 some limit failed (no errors), 2 some file had an error.
+ExitCode batch_exit_code(const BatchResult& result);
+
+/// "N pass, N fail, N error".
+std::string batch_totals_line(const BatchResult& result);
+
+}  // namespace periodfit::batch
