@@ -155,6 +155,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
   const double output_numerical_floor = std::pow(kNumericalFloorRelative * max_y, 2);
   const double min_ratio = std::pow(10.0, options.min_snr_db / 10);
 
+  bool at_floor = false;
   r.input_noise_floor.assign(harmonics + 1, 0.0);
   r.output_noise_floor.assign(harmonics + 1, 0.0);
   for (std::size_t n = 1; n <= harmonics; ++n) {
@@ -201,6 +202,15 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
       pt.var_re = pt.var_im = 0.5 * var_h;
       pt.cov_re_im = 0;
     }
+    // No estimate is more precise than the computation: noise-free (synthetic) records get
+    // the numerical floor instead of a zero variance, which no weighted fit could use.
+    const double floor_re_im = 0.5 * std::pow(kNumericalFloorRelative * std::max(pt.mag, 1e-300), 2);
+    if (pt.var_re < floor_re_im || pt.var_im < floor_re_im) {
+      pt.var_re = std::max(pt.var_re, floor_re_im);
+      pt.var_im = std::max(pt.var_im, floor_re_im);
+      pt.cov_re_im = 0;
+      at_floor = true;
+    }
     pt.var_h = pt.var_re + pt.var_im;
     // Radial and tangential projections of the 2×2 covariance give |H| and phase variances.
     const double c = pt.mag > 0 ? pt.re / pt.mag : 1.0;
@@ -216,6 +226,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     pt.phase_hi_deg = pt.phase_deg + r.coverage_factor * pt.phase_u_deg;
     r.points.push_back(pt);
   }
+  if (at_floor) r.flags.push_back("numerical-floor");
   if (r.points.empty())
     throw AnalysisError("FRF: no excited harmonic: no input harmonic 1…" +
                         std::to_string(input.max_harmonic) + " exceeds the input noise floor by " +

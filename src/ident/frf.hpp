@@ -33,6 +33,9 @@
 /// of (kNumericalFloorRelative·max_n|U_n|)² (n = 0…H), so noise-free synthetic records do not "excite"
 /// harmonics that carry only rounding.
 ///
+/// A point's (Re, Im) variances are never below ½(kNumericalFloorRelative·|H|)² (flag
+/// "numerical-floor"): a noise-free record gets the computation's precision, not zero.
+///
 /// Misuse: the first-order formula holds when the input SNR at each point is high (≳ 20 dB,
 /// hence the default); below that H = Y/U is biased and the intervals are too narrow. The
 /// phasors must come from the same grid (same f0, start and samples per period).
@@ -104,7 +107,9 @@ struct FrfResult {
   std::vector<double> input_noise_floor;   ///< [n]: variance of Ū_n used as the floor
   std::vector<double> output_noise_floor;  ///< [n]: variance of Ȳ_n (same method)
   int output_noise_dof = 0;          ///< dof of output_noise_floor
-  std::vector<std::string> flags;    ///< e.g. "few-periods"
+  /// "few-periods" (noise-bin method), "numerical-floor" (some point's variance was below
+  /// (kNumericalFloorRelative·|H|)², i.e. a noise-free record, and was raised to it)
+  std::vector<std::string> flags;
 };
 
 /// FRF at the excited harmonics of `input`. Throws AnalysisError when the two spectra are not

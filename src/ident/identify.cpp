@@ -12,8 +12,7 @@ namespace periodfit::ident {
 
 namespace {
 
-/// Highest harmonic by default: the lock stage's limit (below 0.45·fs, at most 50).
-constexpr int kDefaultMaxHarmonic = 50;
+/// Harmonics above this fraction of fs are not examined (the lock stage's band limit).
 constexpr double kNyquistFraction = 0.45;
 /// Two captures count as one time base when their rates agree to this relative tolerance
 /// (rates parsed from text may differ in the last digit).
@@ -59,7 +58,11 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   lock.f0_hz = options.f0_hz;
   lock.f0_hint_hz = options.f0_hint_hz;
   lock.max_harmonic = options.max_harmonic;
-  r.fundamental = dsp::estimate_fundamental(in.channel->samples, fs, lock);
+  try {
+    r.fundamental = dsp::estimate_fundamental(in.channel->samples, fs, lock);
+  } catch (const AnalysisError& e) {
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
+  }
   const double f0 = r.fundamental.f0_hz;
   if (!(f0 > 0) || !std::isfinite(f0))
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
@@ -68,13 +71,11 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   if (nyquist_harmonics < 1)
     throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
                         " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
-  const int harmonics = std::min(options.max_harmonic > 0 ? options.max_harmonic : kDefaultMaxHarmonic,
-                                 nyquist_harmonics);
-  int m = options.samples_per_period;
-  if (m == 0) {
-    m = std::max(2 * harmonics + 2, int(std::ceil(fs / f0)));
-    m += m % 2;
-  }
+  const int harmonics =
+      options.max_harmonic > 0 ? std::min(options.max_harmonic, nyquist_harmonics)
+                               : dsp::default_harmonic_count(fs, f0, in.channel->samples.size());
+  const int m = options.samples_per_period > 0 ? options.samples_per_period
+                                               : dsp::default_samples_per_period(fs, f0, harmonics);
   r.samples_per_period = m;
   const dsp::PeriodGrid grid_u = dsp::resample_to_periods(in.channel->samples, fs, ci.t0_s, f0, m);
   const dsp::PeriodGrid grid_y =

@@ -43,9 +43,9 @@ struct IdentifyOptions {
   std::string output_channel = "1";  ///< DUT output: name or index (in the output capture when two)
   double f0_hz = 0;                  ///< > 0: use exactly this fundamental; 0 = estimate on the input
   double f0_hint_hz = 0;             ///< > 0: search the fundamental near this value
-  int max_harmonic = 0;              ///< highest harmonic examined; 0 = all below 0.45·fs, at most 50
-  /// Samples per period of the resampling grid; 0 = the capture's own (fs/f0, rounded up to an
-  /// even number, at least 2·max_harmonic + 2).
+  int max_harmonic = 0;              ///< highest harmonic examined; 0 = dsp::default_harmonic_count
+  /// Samples per period of the resampling grid; 0 = dsp::default_samples_per_period (fs/f0
+  /// when an integer, else the next FFT-friendly size, at least 2·max_harmonic + 2).
   int samples_per_period = 0;
   FrfOptions frf;                    ///< min_snr_db, confidence, skew_s, …
   LinearityOptions linearity;
