@@ -1,9 +1,11 @@
 #include "batch/file_analysis.hpp"
 
 #include <cmath>
+#include <optional>
 #include <numbers>
 
 #include "core/error.hpp"
+#include "dsp/analysis_output.hpp"
 #include "ident/frf.hpp"
 #include "ident/identify.hpp"
 #include "io/capture_reader.hpp"
@@ -198,6 +200,69 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   return a;
 }
 
+void measure_channel(const dsp::ChannelAnalysis& c, const std::string& channel, MeasurementSet& m) {
+  const double k = ident::coverage_factor(0.95, c.noise_dof);
+  const auto put = [&](const char* name, Quantity q, std::optional<int> n = {}) {
+    if (std::isfinite(q.value)) m.set(measurement_key(name, channel, n), q);
+  };
+  put("f0_hz", Quantity::symmetric(c.fundamental.f0_hz, kNormal95 * c.fundamental.f0_u_hz));
+  put("dc", Quantity::symmetric(c.dc, k * c.dc_u));
+  put("rms", Quantity{c.rms});
+  put("thd", Quantity{c.distortion.thd});
+  put("thd_n", Quantity{c.distortion.thd_n});
+  put("sinad_db", Quantity{c.distortion.sinad_db});
+  put("snr_db", Quantity{c.distortion.snr_db});
+  put("enob_bits", Quantity{c.distortion.enob_bits});
+  put("crest_factor", Quantity{c.crest_factor});
+  for (const auto& h : c.harmonics) {
+    put("amplitude", Quantity::symmetric(h.amplitude, k * h.amplitude_u), h.n);
+    put("phase_deg", Quantity::symmetric(h.phase_deg, k * h.phase_u_deg), h.n);
+  }
+}
+
+FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config) {
+  dsp::AnalyzeOptions options;
+  options.lock.f0_hz = config.analyze.f0_hz;
+  options.lock.f0_hint_hz = config.analyze.f0_hint_hz;
+  options.lock.max_harmonic = config.analyze.harmonics;
+  const dsp::AnalyzeReport report = dsp::analyze_capture(capture, config.analyze.channels, options);
+  FileAnalysis a;
+  for (std::size_t i = 0; i < report.channels.size(); ++i) {
+    const auto& c = report.channels[i];
+    measure_channel(c, c.name, a.measurements);
+    if (i == 0) measure_channel(c, "", a.measurements);  // limits without a channel: the first
+    const double k = ident::coverage_factor(0.95, c.noise_dof);
+    a.result_rows.emplace_back(c.name + ": fundamental",
+                               pm(c.fundamental.f0_hz, kNormal95 * c.fundamental.f0_u_hz, "Hz") + " (" +
+                                   c.fundamental.method + "), " + sig(c.periods) + " periods");
+    a.result_rows.emplace_back(c.name + ": dc, rms", pm(c.dc, k * c.dc_u, c.unit) + ", " + with_unit(sig(c.rms), c.unit));
+    a.result_rows.emplace_back(c.name + ": distortion",
+                               "THD " + sig(c.distortion.thd) + ", THD+N " + sig(c.distortion.thd_n) +
+                                   ", SINAD " + sig(c.distortion.sinad_db) + " dB, SNR " +
+                                   sig(c.distortion.snr_db) + " dB, ENOB " + sig(c.distortion.enob_bits));
+    if (!c.harmonics.empty())
+      a.result_rows.emplace_back(c.name + ": fundamental line",
+                                 pm(c.harmonics[0].amplitude, k * c.harmonics[0].amplitude_u, c.unit) + " at " +
+                                     pm(c.harmonics[0].phase_deg, k * c.harmonics[0].phase_u_deg, "\xC2\xB0"));
+    for (const auto& f : c.flags) {
+      a.flags.push_back(c.name + ": " + f.code);
+      a.messages.push_back(c.name + ": " + f.message);
+    }
+    a.figures.push_back(report::analyze_spectrum_figure(c));
+    a.figures.push_back(report::analyze_waveform_figure(capture, c));
+  }
+  if (!report.channels.empty()) {
+    const auto& c = report.channels.front();
+    add_key_text(a, "channel", "channel", c.name);
+    add_key(a, "f0_hz", "f0", c.fundamental.f0_hz, "Hz");
+    add_key(a, "rms", "rms", c.rms, c.unit);
+    add_key(a, "thd", "THD", c.distortion.thd, "");
+    add_key(a, "sinad_db", "SINAD", c.distortion.sinad_db, "dB");
+  }
+  a.result_json = dsp::analyze_json(report);
+  return a;
+}
+
 }  // namespace
 
 double model_coverage_factor(int frf_dof) { return ident::coverage_factor(0.95, frf_dof); }
@@ -208,7 +273,7 @@ FileAnalysis analyse_file(const std::string& path, const BatchConfig& config) {
   if (config.mode == AnalysisMode::identify)
     a = analyse_identify(capture, config);
   else
-    throw AnalysisError("analyze mode is not available in this build yet");
+    a = analyse_channels(capture, config);
   a.metadata = capture.metadata;
   return a;
 }

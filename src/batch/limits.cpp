@@ -268,7 +268,7 @@ LimitOutcome evaluate_limit(const Limit& limit, const MeasurementSet& measured) 
   out.measured = v;
   const std::string unit = unit_suffix(info);
   out.measured_text = format_limit_number(v.value) + unit;
-  if (v.has_interval())
+  if (v.has_interval() && !(v.lo95 == v.value && v.hi95 == v.value))
     out.measured_text += " (95 %: " + format_limit_number(v.lo95) + " \xE2\x80\xA6 " +
                          format_limit_number(v.hi95) + ")";
   const bool value_inside = v.value >= limit.lo && v.value <= limit.hi;

@@ -26,7 +26,8 @@ table { border-collapse: collapse; margin: 6px 0 10px; }
 th, td { text-align: left; vertical-align: top; padding: 4px 10px; border-bottom: 1px solid var(--rule); }
 th { background: #f3f3f3; font-weight: 600; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-td.path, td.msg { overflow-wrap: anywhere; }
+td.path { white-space: nowrap; }
+td.msg { overflow-wrap: anywhere; }
 table.overview { width: 100%; }
 .badge { display: inline-block; min-width: 52px; text-align: center; padding: 1px 6px;
          border-radius: 3px; color: #ffffff; font-weight: bold; font-size: 12px; }

@@ -122,4 +122,27 @@ std::vector<Figure> identify_figures(const Capture& capture, const ident::Identi
   return figs;
 }
 
+Figure analyze_spectrum_figure(const dsp::ChannelAnalysis& channel, const std::string& title) {
+  SpectrumPlotData s;
+  s.id = "spectrum";
+  s.title = title.empty() ? "Harmonic spectrum: " + channel.name : title;
+  s.unit = channel.unit;
+  for (const auto& h : channel.harmonics) {
+    s.harmonic.push_back(h.n);
+    s.amplitude.push_back(h.amplitude);
+    if (channel.noise_floor > 0) s.noise_floor.push_back(channel.noise_floor);
+  }
+  return spectrum_figure(s);
+}
+
+Figure analyze_waveform_figure(const Capture& capture, const dsp::ChannelAnalysis& channel,
+                               const std::string& title) {
+  std::vector<HarmonicPhasor> harmonics;
+  for (const auto& h : channel.harmonics) harmonics.push_back({h.n, h.phasor});
+  const Channel& samples = capture.channels[capture.channel_index(channel.name)];
+  return waveform_period_figure(capture, samples, channel.fundamental.f0_hz, channel.dc, harmonics,
+                                title.empty() ? "One period of " + channel.name : title,
+                                "dc + " + std::to_string(channel.harmonics.size()) + " harmonics");
+}
+
 }  // namespace periodfit::report

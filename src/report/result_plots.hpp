@@ -4,15 +4,18 @@
 /// 95 % intervals and the fitted model's curve), harmonic spectra as dB bars, and one period of
 /// a measured waveform with its reconstruction from the harmonics.
 ///
-/// Usage (identify --plot):
+/// Usage (identify --plot, analyze --plot):
 ///   const auto r = ident::identify(capture, options);
 ///   io::write_file_atomic(plot_path, report::svg_document(report::identify_bode_figure(r)));
+///   const auto a = dsp::analyze_capture(capture, channels, options);
+///   io::write_file_atomic(plot_path, report::svg_document(report::analyze_spectrum_figure(a.channels[0])));
 #include <complex>
 #include <string>
 #include <utility>
 #include <vector>
 
 #include "core/capture.hpp"
+#include "dsp/harmonics.hpp"
 #include "ident/identify.hpp"
 #include "report/svg_plot.hpp"
 
@@ -41,6 +44,14 @@ Figure waveform_period_figure(const Capture& capture, const Channel& channel, do
 
 /// Bode, output spectrum and output waveform of an identify result on `capture`.
 std::vector<Figure> identify_figures(const Capture& capture, const ident::IdentifyResult& result);
+
+/// Harmonic amplitudes of one analysed channel as dB bars, with its noise floor.
+Figure analyze_spectrum_figure(const dsp::ChannelAnalysis& channel, const std::string& title = "");
+
+/// One period of an analysed channel of `capture` and its reconstruction from dc and the
+/// harmonics.
+Figure analyze_waveform_figure(const Capture& capture, const dsp::ChannelAnalysis& channel,
+                               const std::string& title = "");
 
 /// Mean of the samples over the whole periods of f0 from the first sample (the dc of the
 /// periodic part, without the partial period's bias).
