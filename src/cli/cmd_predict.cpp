@@ -1,9 +1,161 @@
-// Placeholder until the command lands; replaced by its owner.
+// periodfit predict: the steady-state output of a model or measured FRF for a periodic input,
+// by superposition (predict/superposition.hpp). Outputs: docs/predict-json.md.
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <vector>
+
 #include "cli/commands.hpp"
 #include "core/error.hpp"
+#include "core/exit_code.hpp"
+#include "dsp/harmonics.hpp"
+#include "dsp/waveforms.hpp"
+#include "ident/model_file.hpp"
+#include "io/capture_reader.hpp"
+#include "io/output_file.hpp"
+#include "predict/superposition.hpp"
 
 namespace periodfit::cli {
-Runner add_predict(CLI::App&) {
-  return [] () -> int { throw Error("the predict command is not built yet"); };
+
+namespace {
+struct PredictArgs {
+  std::string model_path;
+  std::vector<double> num, den;
+  double delay_s = 0;
+  std::string system = "model";  ///< "model" or "measured"
+  std::string wave_kind;
+  dsp::WaveSpec wave;
+  std::vector<std::string> harmonic_terms;
+  std::string input_file, channel;
+  predict::PredictOptions options;
+  std::string csv_path, json_path;
+  std::size_t list = 50;
+};
+}  // namespace
+
+Runner add_predict(CLI::App& app) {
+  auto a = std::make_shared<PredictArgs>();
+  auto& o = a->options;
+  // System.
+  auto* model = app.add_option("--model", a->model_path, "model file written by identify (may hold measured FRF points)")
+                    ->type_name("FILE");
+  auto* num = app.add_option("--num", a->num, "numerator b0,b1,… in ascending powers of s (s in rad/s)")
+                  ->delimiter(',')
+                  ->type_name("LIST");
+  auto* den = app.add_option("--den", a->den, "denominator a0,a1,… in ascending powers of s; highest must be nonzero")
+                  ->delimiter(',')
+                  ->type_name("LIST");
+  num->needs(den);
+  den->needs(num);
+  model->excludes(num)->excludes(den);
+  app.add_option("--delay", a->delay_s, "dead time T of H(s)·e^{-sT} for --num/--den, seconds")
+      ->capture_default_str()
+      ->type_name("S")
+      ->needs(num);
+  app.add_option("--system", a->system,
+                 "with a model file holding measured points: 'model' (the fit everywhere) or 'measured' "
+                 "(measured points where they exist, the model elsewhere)")
+      ->capture_default_str()
+      ->check(CLI::IsMember({"model", "measured"}))
+      ->needs(model);
+  // Input.
+  auto* wave = app.add_option("--wave", a->wave_kind,
+                              "input waveform: sine, square, triangle, sawtooth, half-wave, full-wave, pulse "
+                              "(docs/waveforms.md)")
+                   ->type_name("KIND");
+  app.add_option("--amplitude", a->wave.amplitude_v, "peak A of the waveform (pulse: its height)")
+      ->capture_default_str()
+      ->type_name("A");
+  app.add_option("--f0", a->wave.f0_hz, "fundamental in Hz (full-wave: the sine before rectification)")
+      ->capture_default_str()
+      ->type_name("HZ");
+  app.add_option("--duty", a->wave.duty, "square and pulse: fraction of the period high, in (0, 1)")
+      ->capture_default_str()
+      ->type_name("D");
+  app.add_option("--offset", a->wave.offset_v, "dc added to the input")->capture_default_str()->type_name("V");
+  auto* terms = app.add_option("--harmonic", a->harmonic_terms,
+                               "an input term n:amplitude:phase_deg (cos convention, at --f0); repeatable")
+                    ->type_name("N:A:DEG")
+                    ->take_all();
+  auto* input = app.add_option("--input-file", a->input_file, "use a capture's analysed harmonics as the input")
+                    ->type_name("FILE");
+  auto* channel = app.add_option("--channel", a->channel, "channel of --input-file (name or 0-based index)")
+                      ->type_name("CH");
+  input->needs(channel);
+  channel->needs(input);
+  wave->excludes(terms)->excludes(input);
+  terms->excludes(input);
+  // Output.
+  app.add_option("--harmonics", o.truncation.harmonics,
+                 "input harmonics used; 0 = automatic (input energy left out below the bound); a capture: "
+                 "harmonics analysed")
+      ->capture_default_str()
+      ->type_name("N");
+  app.add_option("--energy-bound", o.truncation.max_left_out_fraction,
+                 "automatic count: largest fraction of the input's ac energy left out")
+      ->capture_default_str()
+      ->type_name("F");
+  app.add_option("--csv", a->csv_path, "write samples time_s,value[,value_u] to OUT ('-' = stdout)")->type_name("OUT");
+  app.add_option("--periods", o.periods, "periods of samples in --csv")->capture_default_str()->type_name("P");
+  app.add_option("--rate", o.rate_hz, "sample rate of --csv in Hz; 0 = 1000 samples per period")
+      ->capture_default_str()
+      ->type_name("HZ");
+  app.add_option("--json", a->json_path, "write the prediction as JSON to PATH ('-' = stdout, instead of the text)")
+      ->type_name("PATH");
+  app.add_option("--list", a->list, "harmonics listed in the table and JSON; 0 = all")
+      ->capture_default_str()
+      ->type_name("N");
+
+  return [a]() -> int {
+    if (a->json_path == "-" && a->csv_path == "-")
+      throw OptionError("--json/--csv", "-", "only one of them can go to stdout");
+    predict::PredictSystem sys;
+    if (!a->model_path.empty()) {
+      const ident::ModelFile file = ident::read_model_file(a->model_path);
+      if (!file.model.den.empty()) sys.model = file.model;
+      sys.measured = file.frf;
+      sys.prefer_measured = a->system == "measured";
+      if (sys.prefer_measured && file.frf.empty())
+        throw InputError(a->model_path, 0, 0, "--system measured: the model file holds no measured FRF points");
+    } else if (!a->den.empty()) {
+      sys.model = predict::model_from_coefficients(a->num, a->den, a->delay_s);
+    } else {
+      throw OptionError("system", "(none)", "give --model FILE or --num and --den");
+    }
+
+    predict::PredictResult r;
+    if (!a->input_file.empty()) {
+      const Capture capture = io::read_capture(a->input_file);
+      dsp::AnalyzeOptions ao;
+      ao.lock.max_harmonic = a->options.truncation.harmonics;
+      const dsp::ChannelAnalysis an =
+          dsp::analyze_channel(capture.channel(a->channel), capture.sample_rate_hz, capture.t0_s, ao);
+      std::vector<std::complex<double>> phasors;
+      for (const auto& h : an.harmonics) phasors.push_back(h.phasor);
+      r = predict::predict_steady_state(
+          predict::series_from_measurement(an.fundamental.f0_hz, an.dc, phasors), sys, a->options);
+    } else {
+      if (!a->harmonic_terms.empty()) {
+        a->wave.kind = dsp::WaveKind::harmonics;
+        for (const auto& t : a->harmonic_terms) a->wave.terms.push_back(predict::parse_harmonic_term(t));
+      } else if (!a->wave_kind.empty()) {
+        a->wave.kind = dsp::parse_wave_kind(a->wave_kind);
+        if (a->wave.kind == dsp::WaveKind::harmonics)
+          throw OptionError("--wave", "harmonics", "give the terms with --harmonic n:amplitude:phase_deg");
+      } else {
+        throw OptionError("input", "(none)", "give --wave KIND, --harmonic n:amp:phase_deg or --input-file FILE");
+      }
+      r = predict::predict_steady_state(a->wave, sys, a->options);
+    }
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
+    if (!a->csv_path.empty()) io::write_file_atomic(a->csv_path, predict::format_predict_csv(r));
+    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, predict::predict_json(r, a->list).dump(2) + "\n");
+    if (a->json_path != "-" && a->csv_path != "-") {
+      const std::string text = predict::predict_text(r, a->list);
+      std::fwrite(text.data(), 1, text.size(), stdout);
+    }
+    return to_int(ExitCode::ok);
+  };
 }
+
 }  // namespace periodfit::cli

@@ -13,6 +13,7 @@
 #include "io/audio_writer.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
+#include "report/table.hpp"
 
 namespace periodfit::predict {
 
@@ -334,6 +335,86 @@ void write_excitation(const std::string& path, const ExciteResult& r) {
                                                  : io::AudioEncoding::float32;
   w.channels = r.channels;
   io::write_wav(path, all, r.rate_hz, w);
+}
+
+std::vector<std::pair<int, double>> parse_amplitude_spectrum(std::string_view text, std::string_view name) {
+  std::vector<std::pair<int, double>> out;
+  std::set<int> seen;
+  std::size_t line_no = 0, start = 0;
+  const std::string file(name);
+  while (start <= text.size()) {
+    const std::size_t end = std::min(text.find('\n', start), text.size());
+    std::string_view line = text.substr(start, end - start);
+    ++line_no;
+    start = end + 1;
+    if (const auto hash = line.find('#'); hash != std::string_view::npos) line = line.substr(0, hash);
+    if (!line.empty() && line.back() == '\r') line.remove_suffix(1);
+    // Fields separated by comma, semicolon, tab or spaces.
+    std::vector<std::pair<std::size_t, std::string_view>> fields;
+    std::size_t i = 0;
+    while (i < line.size()) {
+      while (i < line.size() && (line[i] == ' ' || line[i] == '\t' || line[i] == ',' || line[i] == ';')) ++i;
+      const std::size_t f = i;
+      while (i < line.size() && !(line[i] == ' ' || line[i] == '\t' || line[i] == ',' || line[i] == ';')) ++i;
+      if (i > f) fields.emplace_back(f + 1, line.substr(f, i - f));
+    }
+    if (fields.empty()) {
+      if (end >= text.size()) break;
+      continue;
+    }
+    int n = 0;
+    double a = 0;
+    const auto& [col_n, f_n] = fields[0];
+    const auto [pn, en] = std::from_chars(f_n.data(), f_n.data() + f_n.size(), n);
+    const bool n_ok = en == std::errc{} && pn == f_n.data() + f_n.size();
+    if (!n_ok && out.empty() && seen.empty() && line_no == 1) continue;  // a header line
+    if (!n_ok) throw InputError(file, line_no, col_n, "expected a harmonic number, found \"" + std::string(f_n) + "\"");
+    if (fields.size() != 2)
+      throw InputError(file, line_no, 0, "expected two fields (n, amplitude), found " + std::to_string(fields.size()));
+    const auto& [col_a, f_a] = fields[1];
+    const auto [pa, ea] = std::from_chars(f_a.data(), f_a.data() + f_a.size(), a);
+    if (ea != std::errc{} || pa != f_a.data() + f_a.size())
+      throw InputError(file, line_no, col_a, "expected an amplitude, found \"" + std::string(f_a) + "\"");
+    if (n < 1) throw InputError(file, line_no, col_n, "harmonic numbers start at 1, found " + std::to_string(n));
+    if (!(std::isfinite(a) && a > 0))
+      throw InputError(file, line_no, col_a, "amplitudes must be > 0, found " + std::string(f_a));
+    if (!seen.insert(n).second)
+      throw InputError(file, line_no, col_n, "harmonic " + std::to_string(n) + " is given twice");
+    out.emplace_back(n, a);
+    if (end >= text.size()) break;
+  }
+  if (out.empty()) throw InputError(file, 0, 0, "no n,amplitude pairs found");
+  return out;
+}
+
+std::string excitation_text(const ExciteResult& r) {
+  const auto g = [](double v) { return io::format_significant(v, 9); };
+  std::vector<std::pair<std::string, std::string>> kv;
+  kv.emplace_back("signal", r.method);
+  kv.emplace_back("f0", g(r.f0_hz) + " Hz" + (r.adjusted == "f0" ? " (adjusted from " + g(r.f0_requested_hz) + " Hz)" : ""));
+  kv.emplace_back("sample rate",
+                  g(r.rate_hz) + " Hz" + (r.adjusted == "rate" ? " (adjusted from " + g(r.rate_requested_hz) + " Hz)" : ""));
+  kv.emplace_back("samples per period", std::to_string(r.samples_per_period));
+  kv.emplace_back("periods", std::to_string(r.periods) + " (" + std::to_string(r.sample_count()) + " samples, " +
+                                 io::format_significant(static_cast<double>(r.sample_count()) / r.rate_hz, 6) + " s)");
+  kv.emplace_back("channels", std::to_string(r.channels) + (r.channels > 1 ? " (identical copies)" : ""));
+  kv.emplace_back("format", std::string(sample_format_name(r.format)));
+  kv.emplace_back("peak", io::format_significant(r.peak, 9) + " (requested " + g(r.amplitude_requested) + ")" +
+                              (r.full_scale_code > 0 ? ", max code " + std::to_string(r.max_code) + " of " +
+                                                           std::to_string(r.full_scale_code - 1)
+                                                     : ""));
+  kv.emplace_back("rms", io::format_significant(r.rms, 6));
+  kv.emplace_back("crest factor", io::format_fixed(r.crest_factor, 4) + " (" +
+                                      io::format_fixed(20 * std::log10(r.crest_factor), 2) + " dB)");
+  if (r.method == "multisine, random phases") kv.emplace_back("seed", std::to_string(r.seed));
+  if (r.signal == "multisine") {
+    std::string list;
+    const std::size_t show = std::min<std::size_t>(r.harmonics.size(), 12);
+    for (std::size_t i = 0; i < show; ++i) list += (i ? "," : "") + std::to_string(r.harmonics[i].n);
+    if (show < r.harmonics.size()) list += ",… (" + std::to_string(r.harmonics.size()) + " in all)";
+    kv.emplace_back("harmonics", list);
+  }
+  return report::render_key_values(kv);
 }
 
 nlohmann::ordered_json excitation_json(const ExciteResult& r) {

@@ -139,6 +139,14 @@ ExciteResult generate_excitation(const ExciteOptions& options);
 /// file; path "-" = stdout. Atomic.
 void write_excitation(const std::string& path, const ExciteResult& result);
 
+/// Parses an amplitude spectrum file: one `n,amplitude` pair per line (comma, semicolon, tab or
+/// spaces between), `#` comments and blank lines ignored, an optional non-numeric header on the
+/// first line. `name` is used in messages. Throws InputError (name:line:column: what).
+std::vector<std::pair<int, double>> parse_amplitude_spectrum(std::string_view text, std::string_view name);
+
+/// The text summary for people, every line ending in '\n'.
+std::string excitation_text(const ExciteResult& result);
+
 /// The JSON summary of docs/excite.md.
 nlohmann::ordered_json excitation_json(const ExciteResult& result);
 

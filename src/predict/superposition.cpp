@@ -2,12 +2,14 @@
 
 #include <Eigen/Eigenvalues>
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 #include <limits>
 #include <numbers>
 
 #include "core/error.hpp"
 #include "io/number_format.hpp"
+#include "report/table.hpp"
 
 namespace periodfit::predict {
 
@@ -506,6 +508,98 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
                                                     : ""));
   }
   return r;
+}
+
+dsp::HarmonicTerm parse_harmonic_term(std::string_view text) {
+  const std::string whole(text);
+  const auto bad = [&](const std::string& why) { return OptionError("harmonic", whole, why); };
+  const std::size_t c1 = text.find(':');
+  const std::size_t c2 = c1 == std::string_view::npos ? c1 : text.find(':', c1 + 1);
+  if (c2 == std::string_view::npos || text.find(':', c2 + 1) != std::string_view::npos)
+    throw bad("expected n:amplitude:phase_deg, e.g. 3:0.25:-90");
+  const std::string_view parts[3] = {text.substr(0, c1), text.substr(c1 + 1, c2 - c1 - 1), text.substr(c2 + 1)};
+  dsp::HarmonicTerm t;
+  {
+    const auto [p, ec] = std::from_chars(parts[0].data(), parts[0].data() + parts[0].size(), t.n);
+    if (parts[0].empty() || ec != std::errc{} || p != parts[0].data() + parts[0].size())
+      throw bad("the harmonic number \"" + std::string(parts[0]) + "\" is not a whole number");
+  }
+  double* fields[2] = {&t.amplitude, &t.phase_deg};
+  const char* names[2] = {"amplitude", "phase"};
+  for (int i = 0; i < 2; ++i) {
+    const std::string_view f = parts[i + 1];
+    const auto [p, ec] = std::from_chars(f.data(), f.data() + f.size(), *fields[i]);
+    if (f.empty() || ec != std::errc{} || p != f.data() + f.size())
+      throw bad(std::string("the ") + names[i] + " \"" + std::string(f) + "\" is not a number");
+  }
+  return t;
+}
+
+dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
+                                              const std::vector<std::complex<double>>& phasors) {
+  dsp::SeriesTruncation s;
+  s.series.f0_hz = f0_hz;
+  s.series.phasors.push_back(dc);
+  s.series.phasors.insert(s.series.phasors.end(), phasors.begin(), phasors.end());
+  s.harmonics = static_cast<int>(phasors.size());
+  s.left_out_fraction = kNaN;
+  s.method = "measured";
+  return s;
+}
+
+std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
+  const auto g = [](double v) { return io::format_significant(v, 6); };
+  const auto with_u = [&](double v, double u) { return r.has_uncertainty ? g(v) + " ± " + g(u) : g(v); };
+  std::vector<std::pair<std::string, std::string>> kv;
+  kv.emplace_back("method", r.method);
+  kv.emplace_back("status", r.status);
+  kv.emplace_back("f0", g(r.f0_hz) + " Hz");
+  std::string count = std::to_string(r.harmonics) + " (" + r.harmonic_count_method;
+  if (std::isfinite(r.input_left_out_fraction))
+    count += "; input energy left out " + io::format_significant(r.input_left_out_fraction, 3) + " of the total";
+  kv.emplace_back("harmonics used", count + ")");
+  if (std::isfinite(r.output_tail_estimate))
+    kv.emplace_back("output tail", io::format_significant(r.output_tail_estimate, 3) + " (sum of |Y_n| up to n = " +
+                                       std::to_string(r.tail_checked_to) + ")");
+  else
+    kv.emplace_back("output tail", "unknown (no model or closed form beyond the harmonics used)");
+  kv.emplace_back("dc", with_u(r.dc, r.dc_u));
+  kv.emplace_back("rms", with_u(r.rms, r.rms_u));
+  kv.emplace_back("min / max", g(r.min) + " / " + g(r.max));
+  kv.emplace_back("ripple (peak-to-peak)", with_u(r.ripple_pp, r.ripple_pp_u));
+  kv.emplace_back("THD", r.thd_defined ? with_u(100 * r.thd, 100 * r.thd_u) + " %" : "undefined (no fundamental)");
+  if (!r.flags.empty()) {
+    std::string f;
+    for (std::size_t i = 0; i < r.flags.size(); ++i) f += (i ? ", " : "") + r.flags[i];
+    kv.emplace_back("flags", f);
+  }
+  std::string out = report::render_key_values(kv);
+  using report::Table;
+  std::vector<Table::Column> cols{{"n"}, {"freq_Hz"}, {"amplitude"}};
+  if (r.has_uncertainty) cols.push_back({"u_amplitude"});
+  cols.push_back({"phase_deg"});
+  if (r.has_uncertainty) cols.push_back({"u_phase_deg"});
+  cols.push_back({"gain"});
+  cols.push_back({"gain_phase_deg"});
+  cols.push_back({"source", Table::Align::left});
+  Table t(cols);
+  const std::size_t listed =
+      list_harmonics == 0 ? r.harmonics_out.size() : std::min(list_harmonics, r.harmonics_out.size());
+  for (std::size_t i = 0; i < listed; ++i) {
+    const auto& h = r.harmonics_out[i];
+    std::vector<std::string> row{std::to_string(h.n), g(h.freq_hz), g(h.amplitude)};
+    if (r.has_uncertainty) row.push_back(g(h.amplitude_u));
+    row.push_back(io::format_fixed(h.phase_deg, 3));
+    if (r.has_uncertainty) row.push_back(io::format_fixed(h.phase_u_deg, 3));
+    row.push_back(g(std::abs(h.gain)));
+    row.push_back(io::format_fixed(phase_deg(h.gain), 3));
+    row.push_back(h.source);
+    t.add_row(std::move(row));
+  }
+  out += "\n" + t.render();
+  if (listed < r.harmonics_out.size())
+    out += "(" + std::to_string(r.harmonics_out.size() - listed) + " more harmonics not listed)\n";
+  return out;
 }
 
 std::string format_predict_csv(const PredictResult& r) {

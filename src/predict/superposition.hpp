@@ -41,6 +41,7 @@
 #include <complex>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include <nlohmann/json.hpp>
@@ -140,6 +141,18 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
 
 /// `time_s,value[,value_u]` lines (docs/predict-json.md), doubles shortest round-trip.
 std::string format_predict_csv(const PredictResult& result);
+
+/// The text report for people: a key/value summary and the harmonic table (first
+/// `list_harmonics` harmonics, 0 = all), every line ending in '\n'.
+std::string predict_text(const PredictResult& result, std::size_t list_harmonics = 0);
+
+/// Parses one `n:amp:phase_deg` term (the --harmonic option). Throws OptionError.
+dsp::HarmonicTerm parse_harmonic_term(std::string_view text);
+
+/// The series of a capture channel's analysed harmonics (dsp/harmonics.hpp): dc, then
+/// A_n·e^{jφ_n} for n = 1…H; method "measured", left-out fraction unknown (NaN).
+dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
+                                              const std::vector<std::complex<double>>& phasors);
 
 /// The JSON document of docs/predict-json.md (keys in that order).
 nlohmann::ordered_json predict_json(const PredictResult& result, std::size_t list_harmonics = 0);
