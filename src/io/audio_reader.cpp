@@ -91,6 +91,10 @@ std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& r
         return std::nullopt;
       }
       if (chunk < 24) return std::nullopt;  // corrupt: let libsndfile say so
+      // A chunk reaching past the end of the file; this also keeps the rounding below from
+      // wrapping around for sizes near 2^64, which made pos stand still (a fuzz-found hang,
+      // tests/regressions/audio/w64-chunk-size-wraps.w64).
+      if (chunk > size - pos) return cut_in_header(size);
       pos += (chunk + 7) / 8 * 8;
     }
   }
