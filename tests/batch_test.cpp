@@ -1,0 +1,200 @@
+// The batch runner as a library: file discovery, pass/fail/error classification, ERROR rows
+// for unreadable or non-periodic captures, identical outputs for any number of jobs, and the
+// exit-code mapping. The DUT is a textbook second-order low-pass (see batch_fixture.hpp), so
+// which limit passes follows from its closed form.
+#include <doctest/doctest.h>
+
+#include <filesystem>
+#include <fstream>
+#include <string>
+#include <vector>
+
+#include "batch/config.hpp"
+#include "batch/runner.hpp"
+#include "batch_fixture.hpp"
+#include "core/error.hpp"
+#include "support/cli_runner.hpp"
+
+using namespace periodfit;
+using namespace periodfit::batch;
+namespace fs = std::filesystem;
+using periodfit::test::slurp;
+
+namespace {
+
+// Every file under `dir`, relative path → content.
+std::vector<std::pair<std::string, std::string>> tree(const fs::path& dir) {
+  std::vector<std::pair<std::string, std::string>> out;
+  for (const auto& e : fs::recursive_directory_iterator(dir))
+    if (e.is_regular_file()) out.emplace_back(fs::relative(e.path(), dir).string(), slurp(e.path()));
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+struct Boards {
+  periodfit::test::TempDir dir{"batch_boards"};
+  Boards() {
+    test::LowpassCapture good;
+    test::write_lowpass_csv(dir.file("board_a.csv"), good);
+    test::LowpassCapture wrong_corner = good;
+    wrong_corner.fn_hz = 1200;  // 20 % high: outside 1000 ± 5 %
+    wrong_corner.seed = 2;
+    test::write_lowpass_csv(dir.file("board_b.csv"), wrong_corner);
+    test::LowpassCapture good2 = good;
+    good2.seed = 3;
+    good2.zeta = 0.52;
+    test::write_lowpass_csv(dir.file("board_c.csv"), good2);
+    // A cell that is not a number: the importer's error becomes the row's message.
+    test::write_text(dir.file("board_d.csv"), "time (s),v_in (V),v_out (V)\n0,1,2\n0.001,1.2.3,4\n");
+    // Only noise on the input: no periodic component.
+    test::LowpassCapture silent = good;
+    silent.seed = 4;
+    std::string text = "time (s),v_in (V),v_out (V)\n";
+    std::mt19937 rng(9);
+    std::normal_distribution<double> n(0, 1e-3);
+    for (int k = 0; k < 4000; ++k)
+      text += std::to_string(k * 2e-5) + "," + std::to_string(n(rng)) + "," + std::to_string(n(rng)) + "\n";
+    test::write_text(dir.file("board_e.csv"), text);
+    test::write_text(dir.file("notes.md"), "not a capture\n");
+    test::write_text(dir.file(".hidden.csv"), "skipped\n");
+  }
+};
+
+BatchOptions options_for(const Boards& boards, const std::string& out, int jobs) {
+  BatchOptions o;
+  o.inputs = {boards.dir.path.string()};
+  o.report_dir = out;
+  o.jobs = jobs;
+  o.config = parse_batch_config(test::lowpass_config(), "test.toml");
+  return o;
+}
+
+}  // namespace
+
+TEST_CASE("batch: files are found by extension or pattern, sorted, hidden files skipped") {
+  Boards boards;
+  fs::create_directories(boards.dir.path / "sub");
+  test::write_text(boards.dir.file("sub/board_z.csv"), "x\n");
+  const std::string d = boards.dir.path.string();
+  FileSelection sel;
+  CHECK(find_captures({d}, sel) ==
+        std::vector<std::string>{d + "/board_a.csv", d + "/board_b.csv", d + "/board_c.csv",
+                                 d + "/board_d.csv", d + "/board_e.csv"});
+  sel.recursive = true;
+  CHECK(find_captures({d}, sel).back() == d + "/sub/board_z.csv");
+  sel.patterns = {"board_[ab].csv", "*.md"};
+  sel.recursive = false;
+  CHECK(find_captures({d}, sel) ==
+        std::vector<std::string>{d + "/board_a.csv", d + "/board_b.csv", d + "/notes.md"});
+  // A file given directly is taken whatever its name; duplicates collapse.
+  CHECK(find_captures({d + "/notes.md", d + "/notes.md"}, FileSelection{}) ==
+        std::vector<std::string>{d + "/notes.md"});
+  CHECK_THROWS_WITH_AS(find_captures({d + "/missing"}, sel),
+                       (d + "/missing: cannot open: No such file or directory").c_str(), IoError);
+  sel.patterns = {"*.nothing"};
+  CHECK_THROWS_WITH_AS(find_captures({d}, sel), ("no capture files found in " + d + " matching the patterns").c_str(),
+                       InputError);
+}
+
+TEST_CASE("batch: pass, fail and error rows; errors never stop the batch") {
+  Boards boards;
+  periodfit::test::TempDir out("batch_out");
+  const BatchResult r = run_batch(options_for(boards, out.path.string(), 2));
+  REQUIRE(r.files.size() == 5);
+  CHECK(r.passed == 2);
+  CHECK(r.failed == 1);
+  CHECK(r.errors == 2);
+  CHECK(batch_exit_code(r) == ExitCode::error);
+  CHECK(batch_totals_line(r) == "2 pass, 1 fail, 2 error");
+  const auto& a = r.files[0];
+  CHECK(a.status == report::FileStatus::pass);
+  // The corner of board b: 1200 Hz is the textbook ωn of the synthesised section.
+  const auto& b = r.files[1];
+  CHECK(b.status == report::FileStatus::fail);
+  REQUIRE(b.limits.size() == 3);
+  CHECK(b.limits[0].passed);
+  CHECK_FALSE(b.limits[1].passed);
+  CHECK(b.limits[1].measured.value == doctest::Approx(1200).epsilon(0.01));
+  CHECK(b.limits[1].verdict == "fail: outside the range");
+  CHECK(b.limits[2].passed);
+  const auto& d = r.files[3];
+  CHECK(d.status == report::FileStatus::error);
+  CHECK(d.error.find("board_d.csv:3:") != std::string::npos);
+  CHECK(d.error.find("1.2.3") != std::string::npos);
+  const auto& e = r.files[4];
+  CHECK(e.status == report::FileStatus::error);
+  CHECK(e.error.find("periodic") != std::string::npos);
+  // Every output exists, with one JSON per file.
+  for (const char* name : {"summary.csv", "summary.json", "report.html"})
+    CHECK(fs::exists(out.path / name));
+  for (const auto& f : r.files) CHECK(fs::exists(out.path / f.json_file));
+  CHECK(r.files[0].json_file == "files/0001-board_a.csv.json");
+  // No temporary file is left behind.
+  for (const auto& [path, content] : tree(out.path)) CHECK(path.find(".tmp-") == std::string::npos);
+}
+
+TEST_CASE("batch: outputs are byte-identical for --jobs 1 and --jobs 2") {
+  Boards boards;
+  periodfit::test::TempDir one("batch_jobs1"), two("batch_jobs2");
+  run_batch(options_for(boards, one.path.string(), 1));
+  run_batch(options_for(boards, two.path.string(), 2));
+  const auto a = tree(one.path), b = tree(two.path);
+  REQUIRE(a.size() == b.size());
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    CAPTURE(a[i].first);
+    CHECK(a[i].first == b[i].first);
+    CHECK(a[i].second == b[i].second);
+  }
+}
+
+TEST_CASE("batch: summary.csv has one row per file with the limit columns") {
+  Boards boards;
+  periodfit::test::TempDir out("batch_csv");
+  run_batch(options_for(boards, out.path.string(), 1));
+  const std::string csv = slurp(out.path / "summary.csv");
+  const std::string header = csv.substr(0, csv.find('\n'));
+  CHECK(header ==
+        "path,status,f0_hz,excited,order,dc_gain,delay_s,cost_ratio,adequate,linear,"
+        "limit1:dc_gain,limit2:natural_frequency_hz[pole=1],limit3:damping[pole=1],"
+        "failing_limits,message");
+  std::size_t rows = 0;
+  for (char c : csv) rows += c == '\n' ? 1u : 0u;
+  CHECK(rows == 6);  // header + 5 files
+  CHECK(csv.find(",FAIL,") != std::string::npos);
+  CHECK(csv.find("natural_frequency_hz of pole 1 = 1") != std::string::npos);
+}
+
+TEST_CASE("batch: plots only for failed files when asked") {
+  Boards boards;
+  periodfit::test::TempDir out("batch_plots");
+  BatchOptions o = options_for(boards, out.path.string(), 1);
+  o.config.plots = PlotSelection::failed;
+  run_batch(o);
+  const std::string html = slurp(out.path / "report.html");
+  // board_b failed: three plots (Bode, spectrum, waveform) with ids f2-1…f2-3; board_a none.
+  CHECK(html.find("id=\"f2-1-title\"") != std::string::npos);
+  CHECK(html.find("id=\"f2-3-title\"") != std::string::npos);
+  CHECK(html.find("id=\"f1-1-title\"") == std::string::npos);
+}
+
+TEST_CASE("batch: options are validated before any file is read") {
+  BatchOptions o;
+  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: inputs = (none) (give at least one folder or capture file)",
+                       OptionError);
+  o.inputs = {"x"};
+  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: report = \"\" (a report folder is required)", OptionError);
+  o.report_dir = "out";
+  o.jobs = -1;
+  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: jobs = -1 (must be >= 0 (0 = hardware threads))",
+                       OptionError);
+}
+
+TEST_CASE("batch: a model limit without a model order is a load-time error") {
+  try {
+    parse_batch_config("[analysis]\nmode = \"identify\"\n[[limit]]\nresult = \"dc_gain\"\nmin = 0.9\n", "c.toml");
+    FAIL("no error");
+  } catch (const InputError& e) {
+    CHECK(std::string(e.what()) ==
+          "c.toml:3:1: dc_gain needs a fitted model: set order = \"M/N\" or \"auto\" in [analysis]");
+  }
+}
