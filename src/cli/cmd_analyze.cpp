@@ -1,9 +1,78 @@
-// Placeholder until the command lands; replaced by its owner.
+// periodfit analyze FILE: lock onto each channel's fundamental and report its harmonics with
+// uncertainties, THD, THD+N, SINAD, SNR and ENOB, as aligned text, JSON and/or CSV.
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
-#include "core/error.hpp"
+#include "core/exit_code.hpp"
+#include "dsp/analysis_output.hpp"
+#include "dsp/harmonics.hpp"
+#include "io/capture_reader.hpp"
+#include "io/output_file.hpp"
 
 namespace periodfit::cli {
-Runner add_analyze(CLI::App&) {
-  return [] () -> int { throw Error("the analyze command is not built yet"); };
+
+namespace {
+struct AnalyzeArgs {
+  std::string file;
+  std::vector<std::string> channels;  ///< empty = every data channel
+  std::string json_path;              ///< "" = none; "-" = stdout instead of the text
+  std::string csv_path;               ///< "" = none; "-" = stdout instead of the text
+  dsp::AnalyzeOptions options;
+  io::ReadOptions read;
+};
+}  // namespace
+
+Runner add_analyze(CLI::App& app) {
+  auto args = std::make_shared<AnalyzeArgs>();
+  auto& lock = args->options.lock;
+  app.add_option("FILE", args->file, "capture to analyse (CSV or audio)")->required()->type_name("FILE");
+  app.add_option("--channel", args->channels,
+                 "channel to analyse, by name or 0-based index (repeatable; default: all)")
+      ->type_name("CH")
+      ->allow_extra_args(false);
+  app.add_option("--f0", lock.f0_hz, "use exactly this fundamental in Hz (0 = estimate it)")
+      ->capture_default_str()
+      ->type_name("HZ");
+  app.add_option("--f0-hint", lock.f0_hint_hz,
+                 "search for the fundamental within ±20 % of this frequency in Hz (0 = anywhere)")
+      ->capture_default_str()
+      ->type_name("HZ");
+  app.add_option("--harmonics", lock.max_harmonic,
+                 "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
+      ->capture_default_str()
+      ->type_name("N");
+  app.add_option("--samples-per-period", args->options.samples_per_period,
+                 "samples per period of the locked grid (0 = automatic)")
+      ->capture_default_str()
+      ->type_name("M");
+  app.add_option("--json", args->json_path,
+                 "also write the results as JSON to PATH ('-' = stdout, instead of the text)")
+      ->type_name("PATH");
+  app.add_option("--csv", args->csv_path,
+                 "also write the harmonics table as CSV to PATH ('-' = stdout, instead of the text)")
+      ->type_name("PATH");
+  add_capture_options(app, args->read);
+  return [args]() -> int {
+    const Capture capture = io::read_capture(args->file, args->read);
+    const dsp::AnalyzeReport report = dsp::analyze_capture(capture, args->channels, args->options);
+    // Files are written only once every channel is analysed: an error leaves no partial result.
+    if (!args->json_path.empty())
+      io::write_file_atomic(args->json_path, dsp::analyze_json(report).dump(2) + "\n");
+    if (!args->csv_path.empty()) io::write_file_atomic(args->csv_path, dsp::harmonics_csv(report));
+    for (const auto& channel : report.channels)
+      for (const auto& flag : channel.flags)
+        std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n", channel.name.c_str(),
+                     flag.message.c_str());
+    if (args->json_path != "-" && args->csv_path != "-") {
+      const std::string text = dsp::analyze_text(report);
+      std::fwrite(text.data(), 1, text.size(), stdout);
+    }
+    return to_int(ExitCode::ok);
+  };
 }
+
 }  // namespace periodfit::cli

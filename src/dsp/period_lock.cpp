@@ -496,6 +496,8 @@ void validate(const LockOptions& o) {
                       "must be between 0 (automatic) and 100000");
   if (!(o.rel_tolerance > 0 && o.rel_tolerance <= 1e-3))
     throw OptionError("rel_tolerance", str(o.rel_tolerance), "must be > 0 and <= 1e-3");
+  if (!std::isfinite(o.f0_start_hz) || o.f0_start_hz < 0)
+    throw OptionError("f0_start_hz", str(o.f0_start_hz), "must be >= 0; 0 = search");
   if (o.max_iterations < 1)
     throw OptionError("max_iterations", std::to_string(o.max_iterations), "must be >= 1");
 }
@@ -549,11 +551,12 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   }
 
   if (constant) throw AnalysisError("no periodic component: every sample equals " + str(*mn) + " (dc only)");
-  double f = coarse_frequency(x, fs, opt.f0_hint_hz);
+  const bool given_start = opt.f0_start_hz > 0 && opt.f0_start_hz < 0.5 * fs;
+  const double f = given_start ? opt.f0_start_hz : coarse_frequency(x, fs, opt.f0_hint_hz);
   const double record_bin_nu = kTwoPi / static_cast<double>(n);  // one DFT bin in rad/sample
   double nu = kTwoPi * f / fs;
   const int h_search = std::max(1, std::min(3, harmonic_limit(fs, f, 0.49)));
-  if (f * static_cast<double>(n) / fs < kShortRecordPeriods) {
+  if (!given_start && f * static_cast<double>(n) / fs < kShortRecordPeriods) {
     // Grid search of the h_search-harmonic criterion, ±0.6 record bins around the peak.
     double best_nu = nu, best = -1;
     for (int i = -30; i <= 30; ++i) {

@@ -64,6 +64,9 @@ struct LockOptions {
   int max_harmonic = 0;    ///< highest harmonic H; 0 = all below 0.45·fs, at most 50
   double rel_tolerance = 1e-12;  ///< Gauss–Newton stop on |Δf|/f
   int max_iterations = 50;       ///< Gauss–Newton iteration cap
+  /// > 0: skip the coarse search and start Gauss–Newton here (a value known to be within a
+  /// fraction of a bin, e.g. f0 of the whole record when fitting its halves)
+  double f0_start_hz = 0;
 };
 
 /// Throws OptionError naming the first invalid field.

@@ -1,0 +1,193 @@
+// JSON, CSV and text renderings of an analysis (see analysis_output.hpp, docs/analyze-json.md).
+#include "dsp/analysis_output.hpp"
+
+#include <cmath>
+#include <string>
+
+#include "io/number_format.hpp"
+#include "report/table.hpp"
+
+namespace periodfit::dsp {
+namespace {
+
+/// A finite double as a JSON number, anything else as null.
+nlohmann::ordered_json num(double v) {
+  if (!std::isfinite(v)) return nullptr;
+  return v;
+}
+
+std::string csv_field(const std::string& s) {
+  if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
+  std::string out = "\"";
+  for (char c : s) {
+    if (c == '"') out += '"';
+    out += c;
+  }
+  return out + "\"";
+}
+
+std::string shortest(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
+
+std::string people(double v, int digits = 6) {
+  return std::isfinite(v) ? io::format_significant(v, digits) : "undefined";
+}
+
+std::string db(double v) { return std::isfinite(v) ? io::format_fixed(v, 2) + " dB" : "undefined"; }
+
+std::string percent(double ratio) {
+  return std::isfinite(ratio) ? io::format_significant(100 * ratio, 4) + " %" : "undefined";
+}
+
+}  // namespace
+
+AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::string>& channels,
+                              const AnalyzeOptions& options) {
+  validate(options);
+  AnalyzeReport r;
+  r.source = capture.source;
+  r.format = capture.format;
+  r.sample_rate_hz = capture.sample_rate_hz;
+  r.t0_s = capture.t0_s;
+  r.samples = capture.sample_count();
+  std::vector<std::size_t> indices;
+  if (channels.empty()) {
+    for (std::size_t i = 0; i < capture.channels.size(); ++i) indices.push_back(i);
+  } else {
+    for (const auto& sel : channels) indices.push_back(capture.channel_index(sel));
+  }
+  for (std::size_t i : indices)
+    r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+  return r;
+}
+
+nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
+  nlohmann::ordered_json j;
+  j["name"] = c.name;
+  j["unit"] = c.unit;
+  j["status"] = c.status;
+  j["f0_hz"] = num(c.fundamental.f0_hz);
+  j["f0_u_hz"] = num(c.fundamental.f0_u_hz);
+  j["f0_method"] = c.fundamental.method;
+  j["periods"] = num(c.periods);
+  j["whole_periods"] = c.whole_periods;
+  j["samples_per_period"] = c.samples_per_period;
+  j["dc"] = num(c.dc);
+  j["dc_u"] = num(c.dc_u);
+  j["rms"] = num(c.rms);
+  j["peak"] = num(c.peak_abs);
+  j["crest_factor"] = num(c.crest_factor);
+  j["thd"] = num(c.distortion.thd);
+  j["thd_r"] = num(c.distortion.thd_r);
+  j["thd_n"] = num(c.distortion.thd_n);
+  j["sinad_db"] = num(c.distortion.sinad_db);
+  j["snr_db"] = num(c.distortion.snr_db);
+  j["enob_bits"] = num(c.distortion.enob_bits);
+  j["noise_rms"] = num(c.noise_rms);
+  j["noise_floor"] = num(c.noise_floor);
+  j["noise_floor_dbc"] = num(c.noise_floor_dbc);
+  j["noise_method"] = c.noise_method;
+  j["noise_dof"] = c.noise_dof;
+  nlohmann::ordered_json fit;
+  fit["harmonics"] = c.fundamental.harmonics_fitted;
+  fit["dof"] = c.fundamental.dof;
+  fit["residual_rms"] = num(c.fundamental.residual_rms);
+  fit["iterations"] = c.fundamental.iterations;
+  fit["converged"] = c.fundamental.converged;
+  fit["condition"] = num(c.fundamental.condition);
+  j["fit"] = fit;
+  nlohmann::ordered_json drift;
+  const bool checked = c.f0_first_half_hz > 0;
+  drift["checked"] = checked;
+  drift["f0_first_half_hz"] = checked ? num(c.f0_first_half_hz) : nullptr;
+  drift["f0_second_half_hz"] = checked ? num(c.f0_second_half_hz) : nullptr;
+  drift["sigmas"] = checked ? num(c.drift_sigmas) : nullptr;
+  j["drift"] = drift;
+  nlohmann::ordered_json flags = nlohmann::ordered_json::array();
+  nlohmann::ordered_json warnings = nlohmann::ordered_json::array();
+  for (const auto& f : c.flags) {
+    flags.push_back(f.code);
+    warnings.push_back(f.message);
+  }
+  j["flags"] = flags;
+  j["warnings"] = warnings;
+  nlohmann::ordered_json harmonics = nlohmann::ordered_json::array();
+  for (const auto& h : c.harmonics) {
+    nlohmann::ordered_json row;
+    row["n"] = h.n;
+    row["freq_hz"] = num(h.freq_hz);
+    row["amplitude"] = num(h.amplitude);
+    row["amplitude_u"] = num(h.amplitude_u);
+    row["phase_deg"] = num(h.phase_deg);
+    row["phase_u_deg"] = num(h.phase_u_deg);
+    row["significant"] = h.significant;
+    harmonics.push_back(row);
+  }
+  j["harmonics"] = harmonics;
+  return j;
+}
+
+nlohmann::ordered_json analyze_json(const AnalyzeReport& r) {
+  nlohmann::ordered_json j;
+  j["source"] = r.source;
+  j["format"] = r.format;
+  j["sample_rate_hz"] = num(r.sample_rate_hz);
+  j["t0_s"] = num(r.t0_s);
+  j["samples"] = r.samples;
+  nlohmann::ordered_json channels = nlohmann::ordered_json::array();
+  for (const auto& c : r.channels) channels.push_back(channel_json(c));
+  j["channels"] = channels;
+  return j;
+}
+
+std::string harmonics_csv(const AnalyzeReport& r) {
+  std::string out = "channel,unit,n,freq_hz,amplitude,amplitude_u,phase_deg,phase_u_deg,significant\n";
+  for (const auto& c : r.channels)
+    for (const auto& h : c.harmonics)
+      out += csv_field(c.name) + "," + csv_field(c.unit) + "," + std::to_string(h.n) + "," +
+             shortest(h.freq_hz) + "," + shortest(h.amplitude) + "," + shortest(h.amplitude_u) + "," +
+             shortest(h.phase_deg) + "," + shortest(h.phase_u_deg) + "," +
+             (h.significant ? "yes" : "no") + "\n";
+  return out;
+}
+
+std::string analyze_text(const AnalyzeReport& r) {
+  std::string out = r.source + ": " + r.format + ", " + people(r.sample_rate_hz, 9) + " Hz, " +
+                    std::to_string(r.samples) + " samples\n";
+  for (const auto& c : r.channels) {
+    const std::string u = c.unit.empty() ? "" : " " + c.unit;
+    out += "\n" + c.name + (c.unit.empty() ? "" : " [" + c.unit + "]") + "\n";
+    std::vector<std::pair<std::string, std::string>> kv;
+    std::string f0 = people(c.fundamental.f0_hz, 10) + " Hz";
+    if (c.fundamental.f0_u_hz > 0) f0 += " ± " + people(c.fundamental.f0_u_hz, 2) + " Hz";
+    f0 += " (" + c.fundamental.method + ", " + std::to_string(c.fundamental.harmonics_fitted) + " harmonics)";
+    kv.emplace_back("f0", f0);
+    kv.emplace_back("periods", people(c.periods, 6) + " (" + std::to_string(c.whole_periods) +
+                                   " locked, " + std::to_string(c.samples_per_period) +
+                                   " samples per period)");
+    kv.emplace_back("dc", people(c.dc) + " ± " + people(c.dc_u, 2) + u);
+    kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
+    kv.emplace_back("THD", percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")");
+    kv.emplace_back("THD+N", percent(c.distortion.thd_n) + ", SINAD " + db(c.distortion.sinad_db) +
+                                 ", SNR " + db(c.distortion.snr_db) + ", ENOB " +
+                                 (std::isfinite(c.distortion.enob_bits)
+                                      ? io::format_fixed(c.distortion.enob_bits, 2) + " bits"
+                                      : std::string("undefined")));
+    kv.emplace_back("noise floor", people(c.noise_floor, 3) + u + " per line (" +
+                                       io::format_fixed(c.noise_floor_dbc, 1) + " dBc)");
+    kv.emplace_back("uncertainty", c.noise_method + ", " + std::to_string(c.noise_dof) + " dof");
+    std::string flags;
+    for (const auto& f : c.flags) flags += (flags.empty() ? "" : ", ") + f.code;
+    kv.emplace_back("flags", flags.empty() ? "none" : flags);
+    out += report::render_key_values(kv, 2);
+    report::Table t({{"n"}, {"freq/Hz"}, {"amplitude" + (c.unit.empty() ? "" : "/" + c.unit)}, {"± u"},
+                     {"phase/deg"}, {"± u"}, {"", report::Table::Align::left}});
+    for (const auto& h : c.harmonics)
+      t.add_row({std::to_string(h.n), people(h.freq_hz, 8), people(h.amplitude, 6),
+                 people(h.amplitude_u, 2), io::format_fixed(h.phase_deg, 3),
+                 io::format_fixed(h.phase_u_deg, 3), h.significant ? "" : "(noise)"});
+    out += "\n" + t.render(2);
+  }
+  return out;
+}
+
+}  // namespace periodfit::dsp

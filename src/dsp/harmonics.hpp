@@ -1,0 +1,97 @@
+#pragma once
+/// Analysis of one channel: the fundamental, every harmonic's amplitude and phase with its
+/// standard uncertainty, the distortion figures and the plain-language flags.
+///
+/// ## What is reported, and how the uncertainties are made
+/// Amplitudes and phases are those of the whole-record least-squares fit (period_lock.hpp):
+/// it uses every sample, including the partial period, so it is statistically efficient.
+/// Their covariance is the fit's σ²·(J^T J)^{-1}, with the noise level at each harmonic
+/// estimated from the data in one of three ways (noise_method):
+///   - "per-period" (P ≥ 4 whole periods): the sample covariance of harmonic n over the P
+///     periods of the locked grid, P − 1 degrees of freedom; its ratio to what white noise of
+///     the fit's residual variance would give scales harmonic n's (a_n, b_n) covariance;
+///   - "noise-bins" (P < 4): the mean power of the full-grid spectrum's non-harmonic bins next
+///     to harmonic n (≥ 32 bins where the record allows), 2·bins degrees of freedom;
+///   - "fit-residual" (one whole period: no non-harmonic bins): the residual variance alone,
+///     N − (2H + 2) degrees of freedom, assuming white noise.
+/// The scaling keeps the f0 part of the covariance as fitted (diag(√r, √r, 1)·C·diag(…)), so a
+/// phase referred to a far time origin carries the f0 uncertainty too. Amplitude and phase
+/// uncertainties follow from the phasor covariance to first order (delta method); the phase
+/// uncertainty of a harmonic that is not resolved (amplitude below its uncertainty) is large
+/// and capped at 180°.
+///
+///   ChannelAnalysis a = dsp::analyze_channel(capture.channels[0], capture.sample_rate_hz,
+///                                            capture.t0_s, {});
+///   a.harmonics[0].amplitude;   // fundamental, peak, channel unit
+#include <complex>
+#include <string>
+#include <vector>
+
+#include "core/capture.hpp"
+#include "dsp/metrics.hpp"
+#include "dsp/period_lock.hpp"
+
+namespace periodfit::dsp {
+
+struct AnalyzeOptions {
+  LockOptions lock;            ///< f0 search, forced f0, number of harmonics
+  int samples_per_period = 0;  ///< M of the locked grid; 0 = default_samples_per_period
+  double drift_sigmas = 5;     ///< "drift" when the halves' f0 differ by more than this many u
+  double significance = 3;     ///< a harmonic is "significant" when amplitude ≥ this × its u
+};
+
+/// Throws OptionError naming the first invalid field.
+void validate(const AnalyzeOptions& options);
+
+struct HarmonicLine {
+  int n = 0;
+  double freq_hz = 0;
+  double amplitude = 0;     ///< peak, channel unit
+  double amplitude_u = 0;   ///< standard uncertainty
+  double phase_deg = 0;     ///< of cos(n·ω0·t + φ), t = 0 at the file's origin, in (−180, 180]
+  double phase_u_deg = 0;   ///< standard uncertainty, capped at 180
+  bool significant = false; ///< amplitude ≥ significance × amplitude_u
+  std::complex<double> phasor;  ///< A·e^{jφ}
+};
+
+struct AnalysisFlag {
+  std::string code;     ///< "clipped", "aliasing-risk", "few-periods", "drift", "dc-only",
+                        ///< "not-converged"
+  std::string message;  ///< plain-language warning
+};
+
+struct ChannelAnalysis {
+  std::string name;
+  std::string unit;
+  std::string status = "ok";    ///< "ok", or "not-converged" (the fit hit its iteration cap)
+  Fundamental fundamental;      ///< f0, f0_u, method, dof, iterations, condition
+  double periods = 0;           ///< the record's length in periods, N·f0/fs (fractional)
+  int whole_periods = 0;        ///< P: periods on the locked grid
+  int samples_per_period = 0;   ///< M of the locked grid
+  double dc = 0;
+  double dc_u = 0;
+  double rms = 0;               ///< of the locked grid (whole periods), dc included
+  double peak_abs = 0;          ///< max |x| over the record
+  double crest_factor = 0;      ///< peak_abs / rms
+  std::vector<HarmonicLine> harmonics;  ///< n = 1…H, every one listed
+  DistortionFigures distortion;
+  double noise_rms = 0;         ///< √(noise power): residual, unbiased (dof-corrected)
+  double noise_floor = 0;       ///< 2·noise_rms/√N: a noise-only line's RMS amplitude (peak scale)
+  double noise_floor_dbc = 0;   ///< noise_floor relative to the fundamental, dB
+  std::string noise_method;     ///< "per-period", "noise-bins" or "fit-residual"
+  int noise_dof = 0;            ///< degrees of freedom of the noise estimate behind the u's
+  double f0_first_half_hz = 0;  ///< drift check (0 when the record is under 4 periods)
+  double f0_second_half_hz = 0;
+  double drift_sigmas = 0;      ///< |Δf| / √(u₁² + u₂²)
+  std::vector<AnalysisFlag> flags;
+
+  bool has_flag(const std::string& code) const;
+};
+
+/// Analyses one channel sampled at fs_hz whose first sample is at t0_s. Throws AnalysisError
+/// (message starting with the channel's name) when it has no periodic component or is too
+/// short, OptionError for invalid options.
+ChannelAnalysis analyze_channel(const Channel& channel, double fs_hz, double t0_s,
+                                const AnalyzeOptions& options = {});
+
+}  // namespace periodfit::dsp
