@@ -24,7 +24,7 @@ constexpr double kExact = 0;
 // Frames of 2 channels: full-scale negative, zero, half scale, and the largest positive code.
 // libsndfile's sf_read_double with SFC_SET_NORM_DOUBLE true (its default; libsndfile API
 // documentation, "Note 2" of sf_read_double: "the data is normalised so that the range is
-// -1.0 to 1.0") divides 16-bit codes by 0x8000, 24-bit by 0x800000 and 32-bit by 0x80000000
+// -1.0 to 1.0") divides 8-bit codes by 0x80, 16-bit by 0x8000, 24-bit by 0x800000 and 32-bit by 0x80000000
 // (src/pcm.c in libsndfile: normfact = 1.0 / 0x8000 etc.).
 struct Width {
   const char* name;
@@ -32,7 +32,7 @@ struct Width {
   int bits;
 };
 constexpr Width kWidths[] = {
-    {"PCM 16", SF_FORMAT_PCM_16, 16}, {"PCM 24", SF_FORMAT_PCM_24, 24}, {"PCM 32", SF_FORMAT_PCM_32, 32}};
+    {"PCM 8 (unsigned in WAV)", SF_FORMAT_PCM_U8, 8}, {"PCM 16", SF_FORMAT_PCM_16, 16}, {"PCM 24", SF_FORMAT_PCM_24, 24}, {"PCM 32", SF_FORMAT_PCM_32, 32}};
 
 /// Codes as libsndfile's int interface takes them: left-justified in 32 bits.
 std::vector<int> codes_left_justified(int bits) {
@@ -72,7 +72,7 @@ std::string message_of(const std::string& path) {
 
 }  // namespace
 
-TEST_CASE("audio: PCM 16/24/32 in WAV read as code / 2^(N-1), unit FS, channels ch0 ch1") {
+TEST_CASE("audio: PCM 8/16/24/32 in WAV read as code / 2^(N-1), unit FS, channels ch0 ch1") {
   const test::TempDir dir("audio_pcm");
   for (const auto& w : kWidths) {
     CAPTURE(w.name);

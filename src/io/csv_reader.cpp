@@ -33,6 +33,10 @@ constexpr double kTimeUniformRel = 1e-4;
 constexpr double kCoarsestResolution = 0.5;
 // Detection looks at the first lines only; a preamble longer than this is not recognised.
 constexpr std::size_t kSampleLines = 2000;
+// A "key: value" or "key = value" preamble line has a key of at most this many characters and
+// words; longer text before the separator is free text.
+constexpr std::size_t kMaxKeyLength = 40;
+constexpr long kMaxKeyWords = 3;
 constexpr std::size_t kSampleBytes = 1 << 20;
 // A data line is where the data start when most of the next few lines agree with it.
 constexpr std::size_t kConfirmLines = 8;
@@ -524,7 +528,10 @@ std::pair<std::string, std::string> metadata_entry(std::string_view text, const 
   const std::size_t sep = text.find_first_of(":=");
   if (sep != std::string_view::npos && sep > 0) {
     const auto key = trim(text.substr(0, sep));
-    if (!key.empty() && key.size() <= 64)
+    // A key is a short name ("Sample rate", "fs", "Note"), not the start of a sentence.
+    const auto words = 1 + std::count(key.begin(), key.end(), ' ');
+    if (!key.empty() && key.size() <= kMaxKeyLength && words <= kMaxKeyWords &&
+        key.find(',') == std::string_view::npos)
       return {std::string(key), std::string(trim(text.substr(sep + 1)))};
   }
   return {"text", std::string(text)};

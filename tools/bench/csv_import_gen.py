@@ -1,7 +1,8 @@
 """Writes the CSV import benchmark file: a time column and 2 data columns, N rows (default 4M).
 
 Invented content: a 997 Hz square-ish input and a first-order low-pass output, sampled at
-1 MHz, printed the way scopes print them (time with 7 significant digits, volts with 6).
+1 MHz, printed the way scopes print them (volts with 6 significant digits); time with 10
+significant digits, so 1 us steps stay exact up to 1000 s (38M rows for a 1 GB file).
 """
 import sys
 
@@ -19,5 +20,5 @@ with open(path, "w") as out:
         t = k * 1e-6
         v_in = np.sign(np.sin(2 * np.pi * 997 * t)) + rng.normal(0, 1e-3, k.size)
         v_out = np.sin(2 * np.pi * 997 * t - 0.3) * 0.9 + rng.normal(0, 1e-3, k.size)
-        lines = [f"{a:.7g},{b:.6g},{c:.6g}\n" for a, b, c in zip(t, v_in, v_out)]
+        lines = [f"{a:.10g},{b:.6g},{c:.6g}\n" for a, b, c in zip(t, v_in, v_out)]
         out.write("".join(lines))
