@@ -7,6 +7,7 @@
 
 #include <cmath>
 #include <cstdint>
+#include <cstdlib>
 #include <numbers>
 #include <random>
 #include <sstream>
@@ -335,6 +336,43 @@ TEST_CASE("rational fit: the cost of a correct model follows χ²(2K − n) over
   // The verdict uses the same 95 % band, so the correct model is called adequate in 181…199.
   CHECK(adequate >= 181);
   CHECK(adequate <= 199);
+}
+
+TEST_CASE("rational fit: 95 % intervals of every parameter and derived quantity cover the truth") {
+  // Monte Carlo coverage (issue 4, item 8, at the fit level): 1000 noisy FRFs of a band-pass
+  // (order 1/2) at 60 dB SNR. For a calibrated first-order covariance each ±1.96σ interval holds
+  // the truth in 95 % of draws; binomial(1000, 0.95) has σ = 0.69 %, so the issue's 95 ± 2.5 %
+  // band is 3.6σ wide and cannot fail by chance. The same band applies to the χ² verdict of the
+  // true model. Figures are printed (docs/performance.md records them).
+  // tools/bench/rational_fit_coverage.sh raises the draw count through PERIODFIT_FIT_DRAWS.
+  const char* env = std::getenv("PERIODFIT_FIT_DRAWS");
+  const int kDraws = env ? std::max(1000, std::atoi(env)) : 1000;
+  constexpr double kCoverageTolerance = 0.025;
+  const double wn = 2 * kPi * 1500, q = 4;
+  const std::vector<double> num{0, wn / q}, den{wn * wn, wn / q, 1};
+  const std::vector<double> w = harmonics(100, 1, 30);
+  const auto h = response(num, den, w);
+  RationalFitOptions o;
+  o.order = {1, 2};
+  const std::vector<std::string> names{"b0", "b1", "a0", "a1", "omega_n", "zeta", "Q", "chi2 band"};
+  const std::vector<double> truth{0, wn / q, wn * wn, wn / q, wn, 1 / (2 * q), q};
+  std::vector<int> hits(names.size(), 0);
+  for (int i = 0; i < kDraws; ++i) {
+    const RationalFitResult fit = fit_rational(points_of(w, h, kSnr60dB, 5000 + static_cast<std::uint64_t>(i)), o);
+    const Root& p = fit.poles[0];
+    const std::vector<double> est{fit.model.num[0], fit.model.num[1], fit.model.den[0], fit.model.den[1],
+                                  p.natural_frequency_rad_s, p.damping_ratio, p.q_factor};
+    const std::vector<double> u{fit.parameter_u[0], fit.parameter_u[1], fit.parameter_u[2], fit.parameter_u[3],
+                                p.natural_frequency_u_rad_s, p.damping_ratio_u, p.q_factor_u};
+    for (std::size_t j = 0; j < est.size(); ++j)
+      if (std::abs(est[j] - truth[j]) <= 1.96 * u[j]) ++hits[j];
+    if (fit.adequate) ++hits.back();
+  }
+  for (std::size_t j = 0; j < names.size(); ++j) {
+    const double coverage = static_cast<double>(hits[j]) / kDraws;
+    MESSAGE(names[j] << ": 95 % coverage " << coverage * 100 << " % over " << kDraws << " draws");
+    CHECK(std::abs(coverage - 0.95) <= kCoverageTolerance);
+  }
 }
 
 TEST_CASE("rational fit: too few points for the order say how many are needed") {

@@ -54,7 +54,7 @@ struct LeastSquaresProblem {
 };
 
 struct LeastSquaresOptions {
-  int max_iterations = 500;            ///< accepted + rejected steps, i.e. Jacobian solves
+  int max_iterations = 1000;           ///< steps tried (accepted + rejected); MGH09 start 1 needs ~410
   double function_tolerance = 1e-15;   ///< stop when actual and predicted relative cost reduction ≤ this
   double parameter_tolerance = 1e-15;  ///< stop when Δ ≤ this·‖D x‖ (relative step size)
   double gradient_tolerance = 1e-15;   ///< stop when max_j |cos(angle(r, J_{:,j}))| ≤ this
