@@ -4,6 +4,7 @@
 // which limit passes follows from its closed form.
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <filesystem>
 #include <fstream>
 #include <string>
