@@ -1,9 +1,135 @@
-// Placeholder until the command lands; replaced by its owner.
+// periodfit identify: DUT frequency response with uncertainties, linearity check and an
+// optional rational model. Maps options onto ident::IdentifyOptions, calls ident::identify,
+// prints the report (or the JSON) and writes the files asked for.
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
 #include "core/error.hpp"
+#include "core/exit_code.hpp"
+#include "ident/identify.hpp"
+#include "ident/model_file.hpp"
+#include "io/capture_reader.hpp"
+#include "io/number_format.hpp"
+#include "io/output_file.hpp"
 
 namespace periodfit::cli {
-Runner add_identify(CLI::App&) {
-  return [] () -> int { throw Error("the identify command is not built yet"); };
+
+namespace {
+
+struct IdentifyArgs {
+  std::string file;
+  std::string output_file;
+  std::string json_path;
+  std::string model_path;
+  io::ReadOptions read;  ///< --rate, --scale, --unit, --time-column
+  ident::IdentifyOptions options;
+};
+
+bool has_channel(const Capture& c, const std::string& selector) {
+  try {
+    (void)c.channel_index(selector);
+    return true;
+  } catch (const UnknownNameError&) {
+    return false;
+  }
 }
+
+/// Two files: each --scale/--unit CH=… goes to the capture that has channel CH (the input
+/// file first); a name neither has is an UnknownNameError listing the input file's channels.
+void read_pair(const IdentifyArgs& a, Capture& input, Capture& output) {
+  io::ReadOptions base = a.read;
+  base.scales.clear();
+  base.units.clear();
+  input = io::read_capture(a.file, base);
+  output = io::read_capture(a.output_file, base);
+  io::ReadOptions in_opts, out_opts;
+  const auto route = [&](const std::string& ch) -> io::ReadOptions& {
+    return has_channel(input, ch) || !has_channel(output, ch) ? in_opts : out_opts;
+  };
+  for (const auto& s : a.read.scales) route(s.first).scales.push_back(s);
+  for (const auto& u : a.read.units) route(u.first).units.push_back(u);
+  io::apply_read_options(input, in_opts);
+  io::apply_read_options(output, out_opts);
+}
+
+void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", message.c_str()); }
+
+int run(const IdentifyArgs& a) {
+  if (!a.model_path.empty() && a.options.order.empty())
+    throw OptionError("--save-model", a.model_path, "needs a model: give --order M/N or --order auto");
+  ident::IdentifyResult r;
+  if (a.output_file.empty()) {
+    r = ident::identify(io::read_capture(a.file, a.read), a.options);
+  } else {
+    Capture input, output;
+    read_pair(a, input, output);
+    r = ident::identify(input, output, a.options);
+  }
+  const bool json_to_stdout = a.json_path == "-";
+  if (!json_to_stdout) std::fputs(ident::format_identify_report(r).c_str(), stdout);
+  if (!a.json_path.empty()) io::write_file_atomic(a.json_path, ident::identify_json(r).dump(2) + "\n");
+  if (!a.model_path.empty() && r.model) {
+    std::string source = r.input_source;
+    if (r.output_source != r.input_source) source += ", " + r.output_source;
+    ident::write_model_file(a.model_path,
+                            ident::model_file_from_fit(*r.model, source, r.fundamental.f0_hz, ident::fit_points(r.frf)));
+  }
+  for (const auto& flag : r.flags) {
+    if (flag == "nonlinear")
+      warn("nonlinear: output lines at harmonics the input does not excite (" +
+           io::format_fixed(r.linearity.level_db.value_or(0), 1) + " dB relative to the excited output)");
+    else if (flag == "model-inadequate" && r.model)
+      warn("model " + std::to_string(r.model->order.num) + "/" + std::to_string(r.model->order.den) +
+           " is not adequate: cost " + io::format_significant(r.model->cost, 4) + " outside the chi-square band [" +
+           io::format_significant(r.model->chi2_lower, 4) + ", " + io::format_significant(r.model->chi2_upper, 4) +
+           "] for dof " + std::to_string(r.model->dof));
+    else if (flag == "unstable-pole")
+      warn("the fitted model has a pole with Re p >= 0 (unstable)");
+    else if (flag == "few-periods")
+      warn("only " + std::to_string(r.frf.periods) +
+           " whole periods: uncertainties come from the neighbouring noise bins");
+    else if (flag == "model-not-converged")
+      warn("the model fit did not converge: the parameters are the best found, not an optimum");
+  }
+  return to_int(ExitCode::ok);
+}
+
+}  // namespace
+
+Runner add_identify(CLI::App& app) {
+  auto a = std::make_shared<IdentifyArgs>();
+  app.add_option("FILE", a->file, "capture with the DUT input (and its output unless --output-file)")
+      ->required();
+  app.add_option("--input", a->options.input_channel, "DUT input channel: name or 0-based index")
+      ->capture_default_str();
+  app.add_option("--output", a->options.output_channel, "DUT output channel: name or 0-based index")
+      ->capture_default_str();
+  app.add_option("--output-file", a->output_file,
+                 "capture holding the output channel, recorded on the same time base (same rate and length)");
+  app.add_option("--skew", a->options.frf.skew_s,
+                 "SECONDS: extra delay of the output acquisition path, removed as a phase correction")
+      ->capture_default_str();
+  app.add_option("--f0", a->options.f0_hz, "HZ: use exactly this fundamental (0 = estimate on the input)")
+      ->capture_default_str();
+  app.add_option("--f0-hint", a->options.f0_hint_hz, "HZ: search the fundamental near this value (0 = none)")
+      ->capture_default_str();
+  app.add_option("--harmonics", a->options.max_harmonic,
+                 "N: highest harmonic examined (0 = all below 0.45 fs, at most 50)")
+      ->capture_default_str();
+  app.add_option("--min-snr", a->options.frf.min_snr_db,
+                 "DB: input power above the input noise floor for a harmonic to count as excited")
+      ->capture_default_str();
+  app.add_option("--order", a->options.order,
+                 "M/N (numerator/denominator degree) or auto: fit B(s)/A(s) e^(-sT); none = FRF only");
+  app.add_flag("--delay", a->options.estimate_delay, "also estimate the dead time T of the model");
+  app.add_option("--json", a->json_path, "PATH: write the result as JSON (- = standard output, no table)");
+  app.add_option("--save-model", a->model_path, "PATH: write the fitted model with its covariance");
+  add_capture_options(app, a->read);
+  return [a]() { return run(*a); };
+}
+
 }  // namespace periodfit::cli

@@ -1,0 +1,227 @@
+// `periodfit identify`: the report layout, the JSON contract (docs/identify-json.md), the model
+// file, two-file captures, and every bad input as one `periodfit: error: …` line with exit 2.
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <complex>
+#include <cstdio>
+#include <nlohmann/json.hpp>
+#include <numbers>
+#include <random>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "ident/model_file.hpp"
+#include "support/cli_runner.hpp"
+
+using periodfit::test::run_cli;
+using periodfit::test::TempDir;
+using periodfit::test::write_text;
+using cd = std::complex<double>;
+constexpr double kPi = std::numbers::pi;
+
+namespace {
+
+constexpr double kFs = 20000, kF0 = 50;
+const double kTau = 1 / (2 * kPi * kF0);  // ω0·τ = 1: |H| = 0.7071, −45° at n = 1
+/// Within 4.5 reported standard uncertainties: Student-t tails with P − 1 dof and a dozen
+/// checks per run (see identify_test.cpp).
+constexpr double kFrfBound = 4.5;
+/// The deskew uses the estimated f0, relatively within ~1e-7 of 50 Hz at this SNR; 1e-5 is ample.
+constexpr double kF0Relative = 1e-5;
+
+struct Signals {
+  std::vector<double> u, y;
+};
+
+/// Square wave ±1 (handbook series (4/π)Σ_{n odd} sin(nω0t)/n, to n = 31) through the RC
+/// low-pass H = 1/(1 + jωτ) (standard circuit theory) by exact superposition; white noise
+/// `sigma` on each channel; `periods` periods at 400 samples per period.
+Signals rc_square(int periods, double sigma, unsigned seed, double gain_y = 1) {
+  std::mt19937_64 rng(seed);
+  std::normal_distribution<double> noise(0.0, sigma);
+  const auto count = std::size_t(kFs / kF0) * std::size_t(periods);
+  Signals s{std::vector<double>(count), std::vector<double>(count)};
+  for (std::size_t k = 0; k < count; ++k) {
+    const double th = 2 * kPi * kF0 * double(k) / kFs;
+    double u = 0, y = 0;
+    for (int n = 1; n <= 31; n += 2) {
+      const double a = 4 / (kPi * n);
+      const cd h = 1.0 / cd(1, n * 2 * kPi * kF0 * kTau);
+      u += a * std::cos(n * th - kPi / 2);
+      y += a * std::abs(h) * std::cos(n * th - kPi / 2 + std::arg(h));
+    }
+    s.u[k] = u + noise(rng);
+    s.y[k] = gain_y * y + noise(rng);
+  }
+  return s;
+}
+
+std::string csv(const std::vector<std::vector<double>*>& columns, const std::vector<std::string>& names,
+                double fs = kFs) {
+  std::string out = "t (s)";
+  for (const auto& n : names) out += "," + n + " (V)";
+  out += '\n';
+  char buf[64];
+  for (std::size_t k = 0; k < columns[0]->size(); ++k) {
+    std::snprintf(buf, sizeof buf, "%.10g", double(k) / fs);
+    out += buf;
+    for (const auto* c : columns) {
+      std::snprintf(buf, sizeof buf, ",%.17g", (*c)[k]);
+      out += buf;
+    }
+    out += '\n';
+  }
+  return out;
+}
+
+std::string q(const std::string& path) { return "'" + path + "'"; }
+
+// Every run passes --f0-hint 50 so these tests are about identify, not about estimating f0
+// from scratch (period_lock_test covers that; see the final report on square waves).
+
+}  // namespace
+
+TEST_CASE("cli identify: report with header, FRF table, linearity and flags") {
+  const TempDir dir("cli_identify_report");
+  auto s = rc_square(12, 1e-3, 1);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31");
+  CHECK(r.exit_code == 0);
+  CHECK(r.err == "");
+  std::istringstream lines(r.out);
+  std::vector<std::string> l;
+  for (std::string line; std::getline(lines, line);) l.push_back(line);
+  REQUIRE(l.size() > 10);
+  CHECK(l[0] == "input   " + dir.file("rc.csv") + " \"v_in\" [V]");
+  CHECK(l[1] == "output  " + dir.file("rc.csv") + " \"v_out\" [V]");
+  CHECK(l[2].substr(0, 8) == "f0      ");
+  CHECK(l[3] == "grid    12 periods × 400 samples, harmonics 1…31");
+  CHECK(l[4] == "frf     per-period-covariance, dof 11, 95 % intervals k = 2.201 (student-t)");  // t_{0.975,11} = 2.201 (Student-t table)
+  CHECK(l[5] == "");
+  CHECK(l[6] == "frequency response [V/V]");
+  CHECK(l[7] ==
+        "   n   freq_Hz        |H|   u(|H|)   |H|_dB  phase_deg  u(phase)  |H| interval            phase interval      "
+        "SNR_in_dB");
+  // 16 odd harmonics, then the linearity verdict and the flags.
+  CHECK(l[9].substr(0, 4) == "   1");
+  CHECK(l[24].substr(0, 4) == "  31");
+  CHECK(l[25] == "");
+  // F(2, 22) quantile at 1 − 0.001/15 (Bonferroni over 15 tested harmonics) = 15.37 → 11.9 dB
+  // (scipy.stats.f.isf(0.001/15, 2, 22) = 15.366, 10·log10 = 11.87).
+  CHECK(l[26] == "linearity: linear (15 unexcited harmonics tested, threshold 11.9 dB above the output noise floor)");
+  CHECK(l.back() == "flags: none");
+}
+
+TEST_CASE("cli identify: --json - holds the documented keys; RC pole within 3 sigma and 1 %") {
+  const TempDir dir("cli_identify_json");
+  auto s = rc_square(12, 1e-3, 2);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const auto r = run_cli("identify " + q(dir.file("rc.csv")) +
+                         " --input v_in --output v_out --f0-hint 50 --harmonics 31 --order 0/1 --json -");
+  REQUIRE(r.exit_code == 0);
+  CHECK(r.err.find("error") == std::string::npos);  // warnings (e.g. the χ² verdict) may appear
+  const auto j = nlohmann::ordered_json::parse(r.out);  // stdout holds only the JSON
+  std::vector<std::string> keys;
+  for (const auto& [k, v] : j.items()) keys.push_back(k);
+  CHECK(keys == std::vector<std::string>{"f0_hz", "f0_u_hz", "f0_method", "status", "input", "output", "h_unit",
+                                         "sample_rate_hz", "periods", "samples_per_period", "max_harmonic", "skew_s",
+                                         "frf_method", "frf_dof", "confidence", "coverage_factor", "quantile", "frf",
+                                         "linearity", "model", "flags"});
+  REQUIRE(j["frf"].size() == 16);  // only excited harmonics: the odd ones
+  const auto& p1 = j["frf"][0];
+  std::vector<std::string> point_keys;
+  for (const auto& [k, v] : p1.items()) point_keys.push_back(k);
+  CHECK(std::vector<std::string>(point_keys.begin(), point_keys.begin() + 9) ==
+        std::vector<std::string>{"n", "freq_hz", "re", "im", "mag", "mag_db", "phase_deg", "mag_u", "phase_u_deg"});
+  // Standard circuit theory: |H(j/τ)| = 0.70711, −45°.
+  CHECK(std::abs(p1["mag"].get<double>() - 0.70710678) <= kFrfBound * p1["mag_u"].get<double>());
+  CHECK(std::abs(p1["phase_deg"].get<double>() + 45) <= kFrfBound * p1["phase_u_deg"].get<double>());
+  const auto& m = j["model"];
+  CHECK(m["den"].size() == 2);
+  CHECK(m["den"][1] == 1.0);  // monic
+  CHECK(m["delay_s"] == 0.0);  // no --delay
+  CHECK(m["delay_u_s"] == 0.0);
+  REQUIRE(m["poles"].size() == 1);
+  const double pole = m["poles"][0]["re"].get<double>(), pole_u = m["poles"][0]["re_u"].get<double>();
+  CHECK(std::abs(pole + 1 / kTau) <= 3 * pole_u);          // pole at −1/τ (standard circuit theory)
+  CHECK(std::abs(pole + 1 / kTau) <= 0.01 / kTau);         // the 1 % at 60 dB SNR
+  CHECK(std::abs(m["dc_gain"].get<double>() - 1) <= 3 * m["dc_gain_u"].get<double>());
+  CHECK(m["dof"] == 2 * 16 - 2);
+  CHECK(m["zeros"].empty());
+}
+
+TEST_CASE("cli identify: --save-model writes a model file that reads back") {
+  const TempDir dir("cli_identify_model");
+  auto s = rc_square(8, 1e-3, 3);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 " +
+                         "--order 0/1 --save-model " + q(dir.file("rc.model.json")) + " --json " +
+                         q(dir.file("rc.json")));
+  REQUIRE(r.exit_code == 0);
+  const auto model = periodfit::ident::read_model_file(dir.file("rc.model.json"));
+  const auto j = nlohmann::json::parse(periodfit::test::slurp(dir.file("rc.json")));
+  CHECK(model.model.den.size() == 2);
+  CHECK(model.model.den[0] == j["model"]["den"][0].get<double>());
+  CHECK(model.model.covariance.size() == 2);
+  CHECK(model.frf.size() == 16);
+}
+
+TEST_CASE("cli identify: two files on a common time base, --scale per channel, --skew") {
+  const TempDir dir("cli_identify_two");
+  auto s = rc_square(8, 1e-3, 4, 0.5);  // output recorded at half scale
+  write_text(dir.file("in.csv"), csv({&s.u}, {"v_in"}));
+  write_text(dir.file("out.csv"), csv({&s.y}, {"v_out"}));
+  const auto r = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                         " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["output"]["source"] == dir.file("out.csv"));
+  const auto& p1 = j["frf"][0];
+  CHECK(std::abs(p1["mag"].get<double>() - 0.70710678) <= kFrfBound * p1["mag_u"].get<double>());
+  // --skew 1e-4: the output path is taken to lag by 0.1 ms, so the phase rises by n·ω0·skew
+  // = 360°·50 Hz·1e-4 s = 1.8° at n = 1.
+  const auto skewed = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                              " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --skew 1e-4 --json -");
+  REQUIRE(skewed.exit_code == 0);
+  const auto k = nlohmann::json::parse(skewed.out);
+  CHECK(k["frf"][0]["phase_deg"].get<double>() - p1["phase_deg"].get<double>() == doctest::Approx(1.8).epsilon(kF0Relative));
+}
+
+TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
+  const TempDir dir("cli_identify_bad");
+  auto s = rc_square(8, 1e-3, 5);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  auto shorter = s;
+  shorter.y.resize(s.y.size() - 10);
+  write_text(dir.file("short.csv"), csv({&shorter.y}, {"v_out"}));
+  write_text(dir.file("fast.csv"), csv({&s.y}, {"v_out"}, 2 * kFs));
+  std::vector<double> dc(s.u.size(), 0.25);
+  write_text(dir.file("dc.csv"), csv({&dc, &s.y}, {"v_in", "v_out"}));
+  const std::string rc = q(dir.file("rc.csv"));
+  const auto expect_error = [](const std::string& args, const std::string& message) {
+    const auto r = run_cli(args);
+    CHECK(r.exit_code == 2);
+    CHECK(r.out == "");
+    CHECK(r.err == "periodfit: error: " + message + "\n");
+  };
+  expect_error("identify " + q(dir.file("dc.csv")) + " --input v_in --output v_out",
+               dir.file("dc.csv") + ": input channel \"v_in\": no periodic component: every sample equals 0.25 (dc only)");
+  expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --output-file " + q(dir.file("short.csv")),
+               "input and output captures differ in length: 3200 samples (" + dir.file("rc.csv") + ") vs 3190 samples (" +
+                   dir.file("short.csv") + ")");
+  expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --output-file " + q(dir.file("fast.csv")),
+               "input and output captures differ in sample rate: 20000 Hz (" + dir.file("rc.csv") + ") vs 40000 Hz (" +
+                   dir.file("fast.csv") + ")");
+  // 3 harmonics (1, 3, 5) excited; 3/4 has 8 parameters: 2K ≥ 9 needs K ≥ 5.
+  expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --harmonics 5 --order 3/4",
+               "model order 3/4 needs at least 5 excited harmonics; the input excites 3 (n = 1, 3, 5)");
+  expect_error("identify " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
+               "invalid option: --save-model = " + dir.file("m.json") + " (needs a model: give --order M/N or --order auto)");
+  expect_error("identify " + rc + " --input v_in --output v_ot",
+               "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)");
+  expect_error("identify " + rc + " --input v_in --output v_out --min-snr -3",
+               "invalid option: min_snr_db = -3 (must be finite and >= 0)");
+  CHECK_FALSE(std::filesystem::exists(dir.file("m.json")));
+}
