@@ -273,6 +273,16 @@ TEST_CASE("rational fit: a known delay is recovered within 3σ and 1 %, or can b
   CHECK(fit.model.delay_estimated);
   CHECK(fit.adequate);
 
+  // Odd harmonics 3…31 of 50 Hz: a 7 ms delay is longer than one turn of the lowest line
+  // (150 Hz: 6.67 ms) but shorter than the 10 ms after which odd lines only flip sign, so it is
+  // identifiable and must be found.
+  const double long_delay = 7e-3;
+  const std::vector<double> w_odd = harmonics(50, 3, 31, 2);
+  RationalFitResult odd =
+      fit_rational(points_of(w_odd, response({1 / tau}, {1 / tau, 1}, w_odd, long_delay), kSnr60dB), o);
+  check_within(odd.delay_s, odd.delay_u_s, long_delay, "T (odd lines)");
+  check_within(odd.dc_gain, odd.dc_gain_u, 1, "dc gain (odd lines)");
+
   RationalFitOptions fixed;
   fixed.order = {0, 1};
   fixed.delay_s = delay;

@@ -264,11 +264,17 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   LinearStart start;
   int grid_points = 0;
   if (with_delay) {
-    const double x_min = *std::min_element(d.x.begin(), d.x.end());
-    const double x_max = *std::max_element(d.x.begin(), d.x.end());
-    const double span = 2 * std::numbers::pi / x_min;  // one turn at the lowest frequency
+    // The delay is ambiguous modulo 2π/ω_base where ω_base is the largest frequency all ω_k are
+    // multiples of; min(ω_min, smallest gap between distinct ω_k) bounds it from above, so one
+    // turn of it covers every distinguishable delay (harmonics 1…n: ω_base = ω_1).
+    std::vector<double> xs = d.x;
+    std::sort(xs.begin(), xs.end());
+    double base = xs.front();
+    for (std::size_t k = 1; k < xs.size(); ++k)
+      if (xs[k] - xs[k - 1] > 1e-9 * xs[k]) base = std::min(base, xs[k] - xs[k - 1]);
+    const double span = 2 * std::numbers::pi / base;
     grid_points = o.delay_grid_points > 0 ? o.delay_grid_points
-                                          : std::clamp(static_cast<int>(std::ceil(8 * x_max / x_min)), 16, 2000);
+                                          : std::clamp(static_cast<int>(std::ceil(8 * xs.back() / base)), 16, 4000);
     for (int i = 0; i < grid_points; ++i) {
       const double t = span * i / grid_points;
       LinearStart trial = linear_start(d, order, t, std::min(o.max_sk_iterations, 10), o.sk_tolerance);

@@ -17,8 +17,8 @@
 ///  2. Sanathanan–Koerner (1963): the same, weighted by 1/|A_prev(jx)|, iterated to a fixed point.
 ///  3. Weighted nonlinear least squares (the Levenberg–Marquardt engine, ident/least_squares.hpp)
 ///     of V(θ) with the analytic Jacobian; parameters b_0…b_M, a_0…a_{N−1} (a_N = 1) and T.
-/// With `estimate_delay`, T starts from the best of a grid of delays over one period of the
-/// lowest frequency (the FRF cannot tell T from T + 2π/ω_min when all ω_k are harmonics), each
+/// With `estimate_delay`, T starts from the best of a grid of delays over one turn of ω_base =
+/// min(ω_min, smallest gap between the ω_k) (harmonic data cannot tell T from T + 2π/ω₀), each
 /// grid point scored by an SK fit of H·e^{jωT}.
 /// Covariance of θ = (JᵀJ)⁻¹ of the whitened residuals (known noise, not rescaled by V/dof).
 /// Roots are companion-matrix eigenvalues (in scaled frequency, then ×ω_ref); their 1σ come from
@@ -28,8 +28,9 @@
 /// Misuse warning: the χ² verdict assumes the covariances are right. Covariances estimated from
 /// P periods are themselves uncertain (P − 1 degrees of freedom), which widens the true spread of
 /// V; with few periods read the verdict loosely. Root uncertainties are first order and are not
-/// defined at repeated roots (flagged `uncertainty_defined = false`). Delays beyond one period of
-/// the lowest frequency cannot be identified.
+/// defined at repeated roots (flagged `uncertainty_defined = false`; the _u fields are then 0
+/// and meaningless). Delays beyond one period of the fundamental cannot be identified, and with
+/// odd harmonics only, T and T + half a period differ only by the sign of the gain.
 ///
 /// Usage:
 ///   std::vector<FrfPoint> pts = …;                        // ω in rad/s, H_k, Cov(Re, Im)
@@ -85,7 +86,7 @@ struct RationalFitOptions {
   double confidence = 0.95;         ///< χ² band for the adequacy verdict, in (0, 1)
   int max_sk_iterations = 30;       ///< Sanathanan–Koerner iterations (0 = Levy start only)
   double sk_tolerance = 1e-10;      ///< SK stop: relative change of the coefficients
-  int delay_grid_points = 0;        ///< delay start grid size; 0 = 8 per turn of the top harmonic (≤ 2000)
+  int delay_grid_points = 0;        ///< delay start grid size; 0 = 8 per turn of the top frequency (16…4000)
   LeastSquaresOptions least_squares;  ///< the final weighted nonlinear fit
   void validate() const;            ///< OptionError naming the field
 };
