@@ -321,6 +321,49 @@ TEST_CASE("rational fit: auto order picks the true order by the χ² test; too l
   CHECK(under.chi2_upper > under.dof);
 }
 
+TEST_CASE("rational fit: when no order passes χ², the information criterion decides and says so") {
+  // Second-order data, but auto may only try N ≤ 1: neither 0/1 nor 1/1 can pass at 60 dB SNR.
+  const double wn = 2 * kPi * 800, zeta = 0.25;
+  const std::vector<double> w = harmonics(100, 1, 25);
+  const auto pts = points_of(w, response({wn * wn}, {wn * wn, 2 * zeta * wn, 1}, w), kSnr60dB, 99);
+  for (const InformationCriterion ic : {InformationCriterion::mdl, InformationCriterion::aic}) {
+    RationalFitOptions o;
+    o.auto_order = true;
+    o.auto_max_den_order = 1;
+    o.fallback_criterion = ic;
+    const RationalFitResult fit = fit_rational(pts, o);
+    CHECK(fit.order_decided_by == (ic == InformationCriterion::mdl ? "mdl" : "aic"));
+    REQUIRE(fit.order_trials.size() == 2);
+    CHECK(!fit.adequate);
+    // The chosen order has the lowest criterion of the tried ones (AIC: V + 2n, MDL: V + n ln 2K).
+    auto score = [ic](const OrderTrial& t) { return ic == InformationCriterion::mdl ? t.mdl : t.aic; };
+    const OrderTrial* chosen = nullptr;
+    for (const OrderTrial& t : fit.order_trials) {
+      CHECK(!t.passed);
+      if (t.order.num == fit.order.num && t.order.den == fit.order.den) chosen = &t;
+    }
+    REQUIRE(chosen != nullptr);
+    CHECK(chosen->cost == fit.cost);
+    for (const OrderTrial& t : fit.order_trials) CHECK(score(*chosen) <= score(t));
+    const OrderTrial& t0 = fit.order_trials[0];
+    CHECK(t0.aic == doctest::Approx(t0.cost + 2 * t0.parameters));
+    CHECK(t0.mdl == doctest::Approx(t0.cost + t0.parameters * std::log(2.0 * 25)));
+  }
+}
+
+TEST_CASE("rational fit: a right-half-plane pole is flagged unstable with a negative time constant") {
+  // H = 1/(1 − sτ): pole at +1/τ (standard circuit theory sign convention), |H| as the RC case.
+  const double tau = 1e-3;
+  const std::vector<double> w = harmonics(100, 1, 20);
+  const auto pts = points_of(w, response({-1 / tau}, {-1 / tau, 1}, w), kSnr60dB);
+  RationalFitOptions o;
+  o.order = {0, 1};
+  const RationalFitResult fit = fit_rational(pts, o);
+  CHECK(fit.unstable);
+  check_within(fit.poles[0].value.real(), fit.poles[0].re_u, 1 / tau, "pole");
+  check_within(fit.poles[0].time_constant_s, fit.poles[0].time_constant_u_s, -tau, "tau");
+}
+
 TEST_CASE("rational fit: the cost of a correct model follows χ²(2K − n) over repeated noise") {
   // A correctly weighted least-squares cost at the optimum of a linear-in-the-limit model has
   // mean dof (common practice; Pintelon & Schoukens ch. 9). 200 draws: the sample mean of χ²(58)
