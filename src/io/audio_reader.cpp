@@ -170,7 +170,9 @@ struct Closer {
 };
 using SndFile = std::unique_ptr<SNDFILE, Closer>;
 
-Capture decode(SNDFILE* file, const SF_INFO& info, const std::string& name) {
+// `file_bytes` bounds the reservation: uncompressed PCM has fewer frames than bytes, and a
+// compressed file's declared frame count is not trusted for a large allocation up front.
+Capture decode(SNDFILE* file, const SF_INFO& info, const std::string& name, std::uint64_t file_bytes) {
   Capture capture;
   capture.source = name;
   capture.format = format_name(info.format);
@@ -191,7 +193,8 @@ Capture decode(SNDFILE* file, const SF_INFO& info, const std::string& name) {
   for (std::size_t c = 0; c < channels; ++c) {
     capture.channels[c].name = "ch" + std::to_string(c);
     capture.channels[c].unit = "FS";
-    capture.channels[c].samples.reserve(static_cast<std::size_t>(info.frames));
+    capture.channels[c].samples.reserve(
+        static_cast<std::size_t>(std::min<std::uint64_t>(static_cast<std::uint64_t>(info.frames), file_bytes)));
   }
   // Full scale ±1 for integer PCM (divide by 2^(N-1)); libsndfile's default, made explicit.
   sf_command(file, SFC_SET_NORM_DOUBLE, nullptr, SF_TRUE);
@@ -213,9 +216,10 @@ Capture decode(SNDFILE* file, const SF_INFO& info, const std::string& name) {
                      "truncated or corrupt audio file: the header declares " + std::to_string(info.frames) +
                          " frames, " + std::to_string(total) + " could be decoded");
   for (const auto& ch : capture.channels)
-    for (double v : ch.samples)
-      if (!std::isfinite(v))
-        throw InputError(name, 0, 0, "a sample in channel " + ch.name + " is not a finite number");
+    for (std::size_t k = 0; k < ch.samples.size(); ++k)
+      if (!std::isfinite(ch.samples[k]))
+        throw InputError(name, 0, 0,
+                         "sample " + std::to_string(k) + " of channel " + ch.name + " is not a finite number");
   return capture;
 }
 
@@ -286,7 +290,7 @@ Capture read_audio(const std::string& path) {
   // close_desc = true: libsndfile owns the descriptor from here on.
   SndFile file(sf_open_fd(fd, SFM_READ, &info, SF_TRUE));
   if (!file) open_failed(path);
-  return decode(file.get(), info, path);
+  return decode(file.get(), info, path, size);
 }
 
 Capture parse_audio(std::string_view bytes, std::string_view name) {
@@ -302,7 +306,7 @@ Capture parse_audio(std::string_view bytes, std::string_view name) {
   SF_INFO info{};
   SndFile file(sf_open_virtual(&io, SFM_READ, &info, &memory));
   if (!file) open_failed(source);
-  return decode(file.get(), info, source);
+  return decode(file.get(), info, source, bytes.size());
 }
 
 }  // namespace periodfit::io
