@@ -229,11 +229,12 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
     if (o.phases == PhaseRule::schroeder) {
       double total = 0;
       for (double a : amp) total += a * a;
-      double cumulative = 0;  // Σ_{l<k} p_l
+      // φ_k − φ_{k−1} = −2π·Σ_{l<k} p_l, the recursion form of Schroeder's sum.
+      // Wrapped at every step so a long list keeps its accuracy.
+      double cumulative = 0;
       for (std::size_t k = 1; k < selected.size(); ++k) {
         cumulative += amp[k - 1] * amp[k - 1] / total;
-        phase[k] = phase[k - 1] - 2 * kPi * (selected[k] - selected[k - 1]) * cumulative;
-        phase[k] = wrap_phase(phase[k]);
+        phase[k] = wrap_phase(phase[k - 1] - 2 * kPi * cumulative);
       }
       r.method = "multisine, schroeder phases";
     } else if (o.phases == PhaseRule::random) {

@@ -1,0 +1,186 @@
+// `periodfit predict` contracts: whole text output, JSON and CSV shapes, model files (with
+// covariance and measured points), a capture as the input, and bad input (exit 2, one line).
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <fstream>
+#include <numbers>
+#include <nlohmann/json.hpp>
+
+#include "ident/model_file.hpp"
+#include "support/cli_runner.hpp"
+
+using namespace periodfit;
+using test::run_cli;
+
+namespace {
+constexpr double kPi = std::numbers::pi;
+/// The CLI prints shortest round-trip doubles in JSON; closed forms agree to rounding.
+constexpr double kJsonRel = 1e-12;
+
+void write_rc_model(const std::string& path, bool with_covariance, bool with_frf, double f0 = 100) {
+  ident::ModelFile f;
+  f.model.num = {1000};
+  f.model.den = {1000, 1};
+  if (with_covariance) f.model.covariance = {{4, 1}, {1, 9}};
+  f.parameter_names = {"b0", "a0"};
+  f.source = "invented bench";
+  f.f0_hz = f0;
+  if (with_frf)
+    for (int n : {1, 3, 5}) {
+      const double w = 2 * kPi * f0 * n;
+      f.frf.push_back(ident::FrfPoint::circular(w, f.model.response(w) * 0.98, 1e-6));
+    }
+  ident::write_model_file(path, f);
+}
+}  // namespace
+
+TEST_CASE("cli predict: a sine through an RC low-pass prints the whole documented report") {
+  // f0 = 1000/(2π) Hz, so ωτ = 1: |H| = 1/√2 and ∠H = −45° (closed form of 1/(1 + jωτ)).
+  const auto r = run_cli("predict --num 1000 --den 1000,1 --wave sine --amplitude 1 --f0 159.15494309189535");
+  CHECK(r.exit_code == 0);
+  CHECK(r.err == "");
+  CHECK(r.out ==
+        "method                 superposition (model)\n"
+        "status                 ok\n"
+        "f0                     159.155 Hz\n"
+        "harmonics used         1 (complete; input energy left out 0 of the total)\n"
+        "output tail            0 (sum of |Y_n| up to n = 1)\n"
+        "dc                     0\n"
+        "rms                    0.5\n"
+        "min / max              -0.707107 / 0.707107\n"
+        "ripple (peak-to-peak)  1.41421\n"
+        "THD                    0 %\n"
+        "\n"
+        "n  freq_Hz  amplitude  phase_deg      gain  gain_phase_deg  source\n"
+        "-  -------  ---------  ---------  --------  --------------  ------\n"
+        "1  159.155   0.707107   -135.000  0.707107         -45.000  model\n");
+}
+
+TEST_CASE("cli predict: JSON holds dc, harmonics and the truncation bound") {
+  // Half-wave rectified 10 V, 50 Hz into τ = 1 ms: dc is H(0)·A/π = 10/π (handbook series).
+  const auto r = run_cli("predict --num 1000 --den 1000,1 --wave half-wave --amplitude 10 --f0 50 --harmonics 400 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["dc"].get<double>() == doctest::Approx(10 / kPi).epsilon(kJsonRel));
+  CHECK(j["harmonics_used"] == 400);
+  CHECK(j["harmonic_count_method"] == "given");
+  CHECK(j["input_left_out_fraction"].get<double>() > 0);
+  CHECK(j["harmonics_listed"] == 50);  // --list default
+  const auto& h1 = j["harmonics"][0];
+  const double wt = 2 * kPi * 50 * 1e-3;
+  CHECK(h1["n"] == 1);
+  CHECK(h1["amplitude"].get<double>() == doctest::Approx(5 / std::sqrt(1 + wt * wt)).epsilon(kJsonRel));
+  CHECK(h1["phase_deg"].get<double>() == doctest::Approx(-90 - std::atan(wt) * 180 / kPi).epsilon(kJsonRel));
+  CHECK(j["harmonics"][1]["n"] == 2);  // odd harmonics ≥ 3 of a half-wave are absent
+  CHECK(j["dc_u"].is_null());           // a typed-in model has no covariance
+  CHECK(j["status"] == "ok");
+}
+
+TEST_CASE("cli predict: a model file with covariance gives value_u in the CSV") {
+  test::TempDir dir("cli_predict_cov");
+  const auto model = dir.file("rc.model.json");
+  write_rc_model(model, true, false);
+  const auto csv = dir.file("out.csv");
+  const auto r = run_cli("predict --model '" + model + "' --wave square --f0 100 --harmonics 99 --csv '" + csv +
+                         "' --rate 1000 --periods 2");
+  REQUIRE(r.exit_code == 0);
+  const std::string text = test::slurp(csv);
+  CHECK(text.rfind("time_s,value,value_u\n0,", 0) == 0);
+  CHECK(std::count(text.begin(), text.end(), '\n') == 21);  // header + 2 periods × 10 samples
+  CHECK(r.out.find("dc                     0 ± 0\n") != std::string::npos);
+  CHECK(r.out.find("u_amplitude") != std::string::npos);
+}
+
+TEST_CASE("cli predict: measured FRF points are used only where they exist") {
+  test::TempDir dir("cli_predict_frf");
+  const auto model = dir.file("rc.model.json");
+  write_rc_model(model, false, true);
+  // Harmonics 1, 3, 5 are measured; 7 comes from the model.
+  auto r = run_cli("predict --model '" + model + "' --system measured --wave square --f0 100 --harmonics 7 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["method"] == "superposition (measured FRF + model)");
+  CHECK(j["harmonics"][2]["source"] == "measured");
+  CHECK(j["harmonics"][3]["source"] == "model");
+  // --system model: the fit everywhere, measured points ignored. (A model file always holds a
+  // model, so the refusal to extrapolate measured-only points is tested in superposition_test.)
+  r = run_cli("predict --model '" + model + "' --system model --wave square --f0 100 --harmonics 7 --json -");
+  REQUIRE(r.exit_code == 0);
+  CHECK(nlohmann::json::parse(r.out)["method"] == "superposition (model)");
+  CHECK(r.exit_code == 0);  // the model everywhere: fine
+}
+
+TEST_CASE("cli predict: a capture's analysed harmonics are the input") {
+  // An invented capture: 2 V at 50 Hz plus 0.5 V at 150 Hz (phase +30°), 20 periods at 10 kHz.
+  test::TempDir dir("cli_predict_capture");
+  const auto path = dir.file("supply.csv");
+  {
+    std::ofstream out(path);
+    out << "t,v\n";
+    out.precision(17);
+    for (int k = 0; k < 4000; ++k) {
+      const double t = k / 10000.0;
+      out << t << "," << 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) << "\n";
+    }
+  }
+  const auto r = run_cli("predict --num 1000 --den 1000,1 --input-file '" + path + "' --channel v --harmonics 5 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["harmonic_count_method"] == "measured");
+  CHECK(j["input_left_out_fraction"].is_null());
+  CHECK(j["f0_hz"].get<double>() == doctest::Approx(50).epsilon(1e-9));
+  const double w3 = 2 * kPi * 150e-3;
+  // Output at 150 Hz: 0.5/sqrt(1 + (ωτ)²) at 30° − atan(ωτ) (closed form); the capture is
+  // noise-free, so the analysis recovers the input to ~1e-9.
+  CHECK(j["harmonics"][2]["amplitude"].get<double>() == doctest::Approx(0.5 / std::sqrt(1 + w3 * w3)).epsilon(1e-7));
+  CHECK(j["harmonics"][2]["phase_deg"].get<double>() == doctest::Approx(30 - std::atan(w3) * 180 / kPi).epsilon(1e-7));
+  const auto bad = run_cli("predict --num 1 --den 1,1 --input-file '" + path + "' --channel v_ot");
+  CHECK(bad.exit_code == 2);
+  CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" (channels: v)\n");  // too far for a suggestion
+}
+
+TEST_CASE("cli predict: bad input gives one error line and exit code 2") {
+  struct Case {
+    std::string args, err;
+  };
+  test::TempDir dir("cli_predict_bad");
+  const auto missing_den = dir.file("missing.json");
+  test::write_text(missing_den, "{\"format\": \"periodfit-model\", \"version\": 1, \"model\": {\"num\": [1]}}\n");
+  const auto broken = dir.file("broken.json");
+  test::write_text(broken, "{\"format\": \"periodfit-model\",\n");
+  const Case cases[] = {
+      {"predict --num 1 --den 1,1 --wave sqare",
+       "periodfit: error: unknown wave kind \"sqare\" (did you mean \"square\"? wave kinds: sine, square, triangle, "
+       "sawtooth, half-wave, full-wave, pulse, harmonics)\n"},
+      {"predict --num 1 --den 1,1 --wave square --duty 1.5",
+       "periodfit: error: invalid option: duty = 1.5 (must be in (0, 1))\n"},
+      {"predict --num 1 --den 1,1 --wave pulse --duty 0", "periodfit: error: invalid option: duty = 0 (must be in (0, 1))\n"},
+      {"predict --num 1 --den 1,1 --wave sine --f0 0", "periodfit: error: invalid option: f0_hz = 0 (must be > 0)\n"},
+      {"predict --num 1 --den 1,1 --wave sine --f0 -50", "periodfit: error: invalid option: f0_hz = -50 (must be > 0)\n"},
+      {"predict --num 1 --den 1,0.001,0 --wave sine",
+       "periodfit: error: invalid option: den = 1,0.001,0 (the highest-power coefficient a2 must be nonzero; drop "
+       "trailing zeros to lower the order)\n"},
+      {"predict --num 1 --den -1,1 --wave sine",
+       "periodfit: error: the model has a pole at 1+0j rad/s, not in the open left half-plane: it has no periodic "
+       "steady state\n"},
+      {"predict --model '" + missing_den + "' --wave sine",
+       "periodfit: error: " + missing_den + ": missing key \"model.den\"\n"},
+      {"predict --model '" + broken + "' --wave sine",
+       "periodfit: error: " + broken +
+           ":2:1: not valid JSON: syntax error while parsing object key - unexpected end of input; expected string "
+           "literal\n"},
+      {"predict --num 1 --den 1,1 --harmonic 3:0.5", "periodfit: error: invalid option: harmonic = 3:0.5 (expected "
+                                                     "n:amplitude:phase_deg, e.g. 3:0.25:-90)\n"},
+      {"predict --num 1 --den 1,1", "periodfit: error: invalid option: input = (none) (give --wave KIND, --harmonic "
+                                    "n:amp:phase_deg or --input-file FILE)\n"},
+      {"predict --wave sine", "periodfit: error: invalid option: system = (none) (give --model FILE or --num and --den)\n"},
+  };
+  for (const auto& c : cases) {
+    INFO(c.args);
+    const auto r = run_cli(c.args);
+    CHECK(r.exit_code == 2);
+    CHECK(r.out == "");
+    CHECK(r.err == c.err);
+  }
+}
