@@ -125,6 +125,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   w.result.json_file = "files/" + index_prefix(index) + "-" + safe_name(path) + ".json";
   w.section.path = path;
   FileAnalysis analysis;
+  const auto started = std::chrono::steady_clock::now();
   try {
     analysis = analyse_file(path, config);
   } catch (const Error& e) {
@@ -134,6 +135,8 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   } catch (const std::exception& e) {
     w.result.error = std::string("internal error: ") + e.what();
   }
+
+  w.result.analysis_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
 
   if (!w.result.error.empty()) {
     w.result.status = report::FileStatus::error;
@@ -409,7 +412,10 @@ BatchResult run_batch(const BatchOptions& options) {
   for (auto& w : works) doc.files.push_back(std::move(w.section));
   io::write_file_atomic(result.report_html, report::render_html_report(doc));
 
-  for (auto& w : works) result.files.push_back(std::move(w.result));
+  for (auto& w : works) {
+    result.analysis_s += w.result.analysis_s;
+    result.files.push_back(std::move(w.result));
+  }
   result.elapsed_s = elapsed();
   return result;
 }

@@ -55,6 +55,7 @@ struct FileResult {
   std::vector<std::pair<std::string, std::string>> key_results;  ///< summary columns, in order
   std::vector<LimitOutcome> limits; ///< one per config limit, in config order
   std::string json_file;            ///< per-file JSON, relative to the report folder
+  double analysis_s = 0;            ///< wall time of reading + analysing (never written to outputs)
 };
 
 struct BatchResult {
@@ -64,6 +65,7 @@ struct BatchResult {
   std::string summary_csv, summary_json, report_html;  ///< paths written
   int jobs = 1;                     ///< worker threads used
   double elapsed_s = 0;             ///< wall time of the whole run
+  double analysis_s = 0;            ///< sum of FileResult::analysis_s
 };
 
 /// The captures a batch would take from `inputs`: regular files named directly, and the files

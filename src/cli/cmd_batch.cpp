@@ -28,6 +28,7 @@ struct BatchArgs {
   std::string mode;
   std::string plots;
   bool quiet = false;
+  bool timing = false;
   // Options whose presence decides whether they override the config.
   CLI::Option* patterns = nullptr;
   CLI::Option* recursive = nullptr;
@@ -149,6 +150,7 @@ Runner add_batch(CLI::App& app) {
                        ->default_str(batch::plot_selection_name(defaults.plots))
                        ->type_name("WHICH");
   app.add_flag("--quiet,-q", a.quiet, "no progress and no per-file table; only the closing line");
+  app.add_flag("--timing", a.timing, "print throughput and per-file overhead on stderr");
   add_capture_options(app, a.flags.read);
 
   return [args]() -> int {
@@ -176,8 +178,22 @@ Runner add_batch(CLI::App& app) {
       out += "report: " + r.report_html + "\n";
     }
     out += batch::batch_totals_line(r) + "\n";
+    std::string timing_line;
+    if (b.timing && !r.files.empty()) {
+      // Overhead: wall time per file beyond its reading and analysis (listing, thread hand-off,
+      // limits, plots, JSON, report), from the run's wall time and the analysis time per worker.
+      const double files = static_cast<double>(r.files.size());
+      const double overhead = (r.elapsed_s - r.analysis_s / r.jobs) / files;
+      const std::string line = "timing: " + std::to_string(r.files.size()) + " files in " +
+                               io::format_fixed(r.elapsed_s, 2) + " s with " + std::to_string(r.jobs) +
+                               " jobs (" + io::format_fixed(files / r.elapsed_s, 2) + " files/s); analysis " +
+                               io::format_fixed(r.analysis_s / files * 1e3, 1) + " ms/file; overhead " +
+                               io::format_fixed(overhead * 1e3, 1) + " ms/file\n";
+      timing_line = line;
+    }
     std::fwrite(out.data(), 1, out.size(), stdout);
     std::fflush(stdout);
+    std::fputs(timing_line.c_str(), stderr);
     return to_int(batch::batch_exit_code(r));
   };
 }
