@@ -14,6 +14,7 @@
 
 #include "ident/model_file.hpp"
 #include "support/cli_runner.hpp"
+#include "support/python_ref.hpp"
 
 using periodfit::test::run_cli;
 using periodfit::test::TempDir;
@@ -150,6 +151,43 @@ TEST_CASE("cli identify: --json - holds the documented keys; RC pole within 3 si
   CHECK(std::abs(m["dc_gain"].get<double>() - 1) <= 3 * m["dc_gain_u"].get<double>());
   CHECK(m["dof"] == 2 * 16 - 2);
   CHECK(m["zeros"].empty());
+}
+
+TEST_CASE("cli identify: FRF and variance equal an independent numpy computation (coherent capture)") {
+  if (!periodfit::test::python_has("numpy")) {
+    MESSAGE("skipped: /usr/bin/python3 lacks numpy");
+    return;
+  }
+  // --f0 50 with fs/f0 = 400 exactly: the grid is the samples themselves, so periodfit and
+  // tests/python/identify_frf_ref.py (numpy.fft.rfft per period, same errors-in-variables
+  // formula) see identical periods and must agree to rounding.
+  constexpr double kRoundingRelative = 1e-9;  // FFT sizes differ (FFTW vs pocketfft): rounding only
+  const TempDir dir("cli_identify_numpy");
+  auto s = rc_square(10, 1e-3, 6);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0 50 --harmonics 31 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["samples_per_period"] == 400);
+  std::string ns;
+  for (const auto& p : j["frf"]) ns += std::to_string(p["n"].get<int>()) + " ";
+  const auto ref = periodfit::test::run_python("identify_frf_ref.py", q(dir.file("rc.csv")) + " 400 '" + ns + "'");
+  REQUIRE(ref.has_value());
+  std::istringstream in(*ref);
+  std::string tag;
+  int n = 0;
+  double re = 0, im = 0, var = 0;
+  std::size_t i = 0;
+  while (in >> tag >> n >> re >> im >> var) {
+    REQUIRE(i < j["frf"].size());
+    const auto& p = j["frf"][i++];
+    CHECK(p["n"] == n);
+    const cd h(p["re"].get<double>(), p["im"].get<double>());
+    CHECK(std::abs(h - cd(re, im)) <= kRoundingRelative * std::abs(h));
+    const double var_h = p["var_re"].get<double>() + p["var_im"].get<double>();
+    CHECK(var_h == doctest::Approx(var).epsilon(1e-6));  // variance: differences of nearly equal phasors
+  }
+  CHECK(i == j["frf"].size());
 }
 
 TEST_CASE("cli identify: --save-model writes a model file that reads back") {

@@ -299,9 +299,12 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
     m["parameters"] = json::array();
     for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
       const double value = parameter_value(f, i);
+      const double u = i < f.parameter_u.size() ? f.parameter_u[i] : std::nan("");
       m["parameters"].push_back(json{{"name", f.parameter_names[i]},
                                      {"value", number(value)},
-                                     {"u", i < f.parameter_u.size() ? number(f.parameter_u[i]) : json(nullptr)}});
+                                     {"u", number(u)},
+                                     {"lo", number(value - r.frf.coverage_factor * u)},
+                                     {"hi", number(value + r.frf.coverage_factor * u)}});
     }
     m["covariance"] = json::array();
     for (const auto& row : f.model.covariance) {
