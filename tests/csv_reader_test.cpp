@@ -200,7 +200,7 @@ TEST_CASE("csv: the time column can be named or switched off") {
   CHECK(near(c.sample_rate_hz, 2.0));
   named.time_column = "stmp";
   CHECK(message_of("v,stamp\n1,0\n2,0.5\n", named) ==
-        "unknown column \"stmp\" (did you mean \"stamp\"? columns: v, stamp)");
+        "in.csv: time column: unknown column \"stmp\" (did you mean \"stamp\"? columns: v, stamp)");
 }
 
 TEST_CASE("csv: rounded printed times are uniform; a missing sample is not") {

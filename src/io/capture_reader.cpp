@@ -6,19 +6,27 @@
 
 #include <cerrno>
 #include <cmath>
+#include <string_view>
 
 #include "core/error.hpp"
 #include "io/audio_reader.hpp"
 #include "io/csv_reader.hpp"
 #include "io/number_format.hpp"
+#include "io/output_file.hpp"
 
 namespace periodfit::io {
 
 namespace {
 
-// The first bytes of the file, to recognise audio by its magic number; also turns a missing
-// path, a directory or a permission problem into one IoError before any parser runs.
-std::string file_head(const std::string& path) {
+// What the path is: a missing path, a directory or a permission problem is one IoError before
+// any parser runs. For a regular file, its first bytes (to recognise audio by its magic
+// number); a pipe or device is not read here, since what is read from it is gone.
+struct Probe {
+  bool regular = false;
+  std::string head;
+};
+
+Probe probe(const std::string& path) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) throw IoError(path, "cannot open", errno);
   struct stat info {};
@@ -26,6 +34,12 @@ std::string file_head(const std::string& path) {
     const int e = S_ISDIR(info.st_mode) ? EISDIR : errno;
     ::close(fd);
     throw IoError(path, "cannot read", e);
+  }
+  Probe p;
+  p.regular = S_ISREG(info.st_mode);
+  if (!p.regular) {
+    ::close(fd);
+    return p;
   }
   char head[16];
   ssize_t n = 0;
@@ -35,7 +49,8 @@ std::string file_head(const std::string& path) {
   const int e = errno;
   ::close(fd);
   if (n < 0) throw IoError(path, "cannot read", e);
-  return std::string(head, static_cast<std::size_t>(n));
+  p.head.assign(head, static_cast<std::size_t>(n));
+  return p;
 }
 
 void validate(const ReadOptions& options) {
@@ -73,17 +88,20 @@ void apply_read_options(Capture& capture, const ReadOptions& options) {
 
 Capture read_capture(const std::string& path, const ReadOptions& options) {
   validate(options);
-  const std::string head = file_head(path);
+  const Probe p = probe(path);
+  // A pipe or device is read whole, once; a regular file is streamed by its reader.
+  const std::string bytes = p.regular ? std::string() : read_file(path);
+  const std::string_view head = p.regular ? std::string_view(p.head) : std::string_view(bytes).substr(0, 16);
   Capture capture;
   if (looks_like_audio(head, path)) {
     if (!options.time_column.empty() && options.time_column != "none")
       throw OptionError("time_column", options.time_column, "audio files have no time column");
-    capture = read_audio(path);
+    capture = p.regular ? read_audio(path) : parse_audio(bytes, path);
   } else {
     CsvOptions csv;
     csv.rate_hz = options.rate_hz;
     csv.time_column = options.time_column;
-    capture = read_csv(path, csv);
+    capture = p.regular ? read_csv(path, csv) : parse_csv(bytes, path, csv);
   }
   try {
     apply_read_options(capture, options);

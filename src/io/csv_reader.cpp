@@ -31,6 +31,11 @@ constexpr double kTimeUniformRel = 1e-4;
 // Printed times coarser than this fraction of the step get no rounding allowance: with it a
 // one-sample gap would pass (the allowance reaches a whole step at a resolution of 1/2 step).
 constexpr double kCoarsestResolution = 0.5;
+// A rate stated in the preamble and the time column's must agree to this (relative), plus the
+// rounding of the time column's first and last values. Instruments print the interval to 4 or
+// more significant digits (rounding <= 5e-4) or exactly ("1e-05"), whose digits cannot be
+// judged, so a fixed bound is used.
+constexpr double kStatedRateAgreement = 1e-3;
 // Detection looks at the first lines only; a preamble longer than this is not recognised.
 constexpr std::size_t kSampleLines = 2000;
 // A "key: value" or "key = value" preamble line has a key of at most this many characters and
@@ -416,7 +421,6 @@ std::size_t count_newlines(const char* p, const char* end) {
 
 struct StatedRate {
   double rate_hz = 0;
-  double rel_rounding = 0;  ///< from the printed digits of the stated value
   std::size_t line = 0;
   std::string text;         ///< as written, for messages
 };
@@ -473,7 +477,6 @@ std::optional<StatedRate> parse_stated_rate(RateKey key, std::string_view value,
   const char* end = value.data() + value.size();
   const char* stop = scan_number(value.data(), end, decimal, number, status);
   if (!stop || status != NumberStatus::ok) return std::nullopt;
-  const std::string_view number_text(value.data(), static_cast<std::size_t>(stop - value.data()));
   const std::string unit = lower(trim(std::string_view(stop, static_cast<std::size_t>(end - stop))));
   bool is_rate = key == RateKey::rate;
   double factor = 1;
@@ -491,7 +494,6 @@ std::optional<StatedRate> parse_stated_rate(RateKey key, std::string_view value,
                          " must be > 0, found " + quoted(value));
   StatedRate r;
   r.rate_hz = is_rate ? number * factor : 1.0 / (number * factor);
-  r.rel_rounding = 0.5 * printed_resolution(number_text, decimal) / number;
   r.line = line;
   r.text = std::string(value);
   return r;
@@ -678,6 +680,11 @@ class Parser {
   void slow_row(const Line& line);
   void add_time(double value, std::string_view text, std::size_t line_number, const char* line_begin);
   std::string column_label(std::size_t j) const { return quoted(columns_[j].name); }
+  std::string guess_hint() const {
+    return time_guessed_ ? ", or --time-column none if the first column, taken as time because it "
+                           "increases, is data"
+                         : "";
+  }
 
   std::string_view text_;
   std::string name_;
@@ -688,6 +695,7 @@ class Parser {
   std::optional<std::size_t> time_column_;
   double time_factor_ = 1;
   bool check_time_ = false;
+  bool time_guessed_ = false;  ///< time column found by the no-header rule, not by name
   TimeCheck time_{'.', 1};
   std::size_t header_line_ = 0;
   std::size_t first_data_line_ = 0;
@@ -721,7 +729,7 @@ void Parser::choose_time_column(const std::vector<const Line*>& content, bool ha
     if (!time_column_) {
       for (std::size_t j = 0; j < names.size(); ++j)
         if (names[j].empty()) names[j] = std::to_string(j);
-      throw UnknownNameError("column", requested, names);
+      fail(0, 0, std::string("time column: ") + UnknownNameError("column", requested, names).what());
     }
     time_factor_ = time_factor(columns_[*time_column_].unit);
     if (time_factor_ == 0)
@@ -753,7 +761,10 @@ void Parser::choose_time_column(const std::vector<const Line*>& content, bool ha
     if (parse_field(fields[0].text, layout_.dialect.decimal, t) != NumberStatus::ok) return;
     if (check.add(t, field_view(content[i]->text, fields[0])) != TimeCheck::Verdict::ok) return;
   }
-  if (check.count() >= 2) time_column_ = 0;
+  if (check.count() >= 2) {
+    time_column_ = 0;
+    time_guessed_ = true;
+  }
 }
 
 Capture Parser::run() {
@@ -896,7 +907,7 @@ Capture Parser::run() {
   } else if (time_column_ && time_.count() >= 2) {
     capture_.sample_rate_hz = time_.rate_hz();
     if (stated) {
-      const double tolerance = kTimeUniformRel + stated->rel_rounding + time_.rate_rounding();
+      const double tolerance = kStatedRateAgreement + time_.rate_rounding();
       if (std::fabs(stated->rate_hz - capture_.sample_rate_hz) > tolerance * capture_.sample_rate_hz)
         fail(stated->line, 0,
              "the stated sample rate " + quoted(stated->text) + " (" +
@@ -931,11 +942,11 @@ void Parser::add_time(double value, std::string_view text, std::size_t line_numb
     fail(line_number, column,
          "time does not increase: " + quoted(text) + " follows " +
              format_significant(previous / time_factor_, 9) + " in column " +
-             column_label(*time_column_) + " (give --rate HZ to ignore the time column)");
+             column_label(*time_column_) + " (give --rate HZ to ignore the time column" + guess_hint() + ")");
   fail(line_number, column,
        "time is not uniform: " + quoted(text) + " comes " + format_significant(t - previous) +
            " s after the previous row, expected " + format_significant(mean) +
-           " s (within 1e-4 relative); give --rate HZ to ignore the time column");
+           " s (within 1e-4 relative); give --rate HZ to ignore the time column" + guess_hint());
 }
 
 // The fast path parses numbers straight from the text and checks the separators; anything
