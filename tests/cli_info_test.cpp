@@ -189,3 +189,14 @@ TEST_CASE("cli info: a file the user may not read is an IoError naming the reaso
   CHECK(periodfit::test::slurp(err) ==
         "periodfit: error: " + dir.file("locked.csv") + ": cannot open: Permission denied\n");
 }
+
+TEST_CASE("cli info: a pipe is read once, whole") {
+  const TempDir dir("cli_info_pipe");
+  write_text(dir.file("small.csv"), kSmall);
+  const std::string out = dir.file("stdout");
+  const std::string cmd = "cat " + q(dir.file("small.csv")) + " | '" + PERIODFIT_EXE + "' info /dev/stdin --json - >" + q(out);
+  REQUIRE(std::system(cmd.c_str()) == 0);
+  const auto j = nlohmann::ordered_json::parse(periodfit::test::slurp(out));
+  CHECK(j["files"][0]["samples"] == 4);
+  CHECK(j["files"][0]["channels"][0]["rms"].get<double>() == std::sqrt(7.5));
+}
