@@ -109,6 +109,18 @@ TEST_CASE("cli info: --scale, --unit and --rate apply to the capture") {
   CHECK(f["channels"][1]["unit"] == "mA");
 }
 
+TEST_CASE("cli info: --time-column none makes the time column a channel") {
+  const TempDir dir("cli_info_time_column");
+  write_text(dir.file("small.csv"), kSmall);
+  const auto r = run_cli("info " + q(dir.file("small.csv")) + " --time-column none --rate 4 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto f = nlohmann::ordered_json::parse(r.out)["files"][0];
+  REQUIRE(f["channels"].size() == 3);
+  CHECK(f["channels"][0]["name"] == "t");
+  CHECK(f["channels"][0]["unit"] == "s");
+  CHECK(f["channels"][0]["max"].get<double>() == 0.75);
+}
+
 TEST_CASE("cli info: a WAV file shows full-scale units") {
   const TempDir dir("cli_info_wav");
   SF_INFO info{};

@@ -338,4 +338,7 @@ TEST_CASE("csv: a large file streams with exact values and row count") {
   CHECK(c.channels[0].samples[123456] == 456.0);
   CHECK(c.channels[1].samples[199999] == -199999.0);
   CHECK(near(c.sample_rate_hz, 1e6));
+  // The rows are counted before parsing, so each channel is allocated once at its final size
+  // (no doubling growth): capacity is the line count after the data start, plus one.
+  CHECK(c.channels[0].samples.capacity() <= c.sample_count() + 1);
 }
