@@ -135,6 +135,20 @@ Figure analyze_spectrum_figure(const dsp::ChannelAnalysis& channel, const std::s
   return spectrum_figure(s);
 }
 
+Figure analyze_spectra_figure(const dsp::AnalyzeReport& report) {
+  Figure fig;
+  fig.id = "spectra";
+  fig.title = "Harmonic spectrum: " + report.source;
+  for (const auto& c : report.channels) {
+    Figure one = analyze_spectrum_figure(c);
+    for (auto& panel : one.panels) {
+      panel.title = c.name;
+      fig.panels.push_back(std::move(panel));
+    }
+  }
+  return fig;
+}
+
 Figure analyze_waveform_figure(const Capture& capture, const dsp::ChannelAnalysis& channel,
                                const std::string& title) {
   std::vector<HarmonicPhasor> harmonics;

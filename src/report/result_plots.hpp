@@ -8,13 +8,14 @@
 ///   const auto r = ident::identify(capture, options);
 ///   io::write_file_atomic(plot_path, report::svg_document(report::identify_bode_figure(r)));
 ///   const auto a = dsp::analyze_capture(capture, channels, options);
-///   io::write_file_atomic(plot_path, report::svg_document(report::analyze_spectrum_figure(a.channels[0])));
+///   io::write_file_atomic(plot_path, report::svg_document(report::analyze_spectra_figure(a)));
 #include <complex>
 #include <string>
 #include <utility>
 #include <vector>
 
 #include "core/capture.hpp"
+#include "dsp/analysis_output.hpp"
 #include "dsp/harmonics.hpp"
 #include "ident/identify.hpp"
 #include "report/svg_plot.hpp"
@@ -47,6 +48,10 @@ std::vector<Figure> identify_figures(const Capture& capture, const ident::Identi
 
 /// Harmonic amplitudes of one analysed channel as dB bars, with its noise floor.
 Figure analyze_spectrum_figure(const dsp::ChannelAnalysis& channel, const std::string& title = "");
+
+/// The spectra of every analysed channel of `report`, one panel per channel (for
+/// `analyze --plot FILE.svg`).
+Figure analyze_spectra_figure(const dsp::AnalyzeReport& report);
 
 /// One period of an analysed channel of `capture` and its reconstruction from dc and the
 /// harmonics.
