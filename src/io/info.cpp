@@ -99,8 +99,13 @@ nlohmann::ordered_json info_json(const std::vector<CaptureInfo>& files) {
 }
 
 std::string info_text(const CaptureInfo& info) {
+  // The summary line names at most kListedNames channels; the table below lists them all.
+  constexpr std::size_t kListedNames = 8;
   std::string names;
-  for (const auto& c : info.channels) names += (names.empty() ? "" : ", ") + c.name;
+  for (std::size_t i = 0; i < info.channels.size() && i < kListedNames; ++i)
+    names += (i ? ", " : "") + info.channels[i].name;
+  if (info.channels.size() > kListedNames)
+    names += ", … " + std::to_string(info.channels.size() - kListedNames) + " more";
   std::string out = info.source + "\n";
   out += report::render_key_values(
       {
