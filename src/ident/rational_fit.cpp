@@ -252,6 +252,10 @@ Root describe_root(cplx p, const std::vector<double>& c, std::size_t first, std:
   return out;
 }
 
+/// SK iterations per delay-grid point: enough to rank the delays (the winner is refitted with
+/// the full SK count), cheap enough for grids of thousands of points.
+constexpr int kGridSkIterations = 2;
+
 /// The full fit at one order: linear start (with the delay grid when T is free), then the
 /// weighted nonlinear least squares. Throws AnalysisError when singular.
 RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const RationalFitOptions& o) {
@@ -277,7 +281,7 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
                                           : std::clamp(static_cast<int>(std::ceil(8 * xs.back() / base)), 16, 4000);
     for (int i = 0; i < grid_points; ++i) {
       const double t = span * i / grid_points;
-      LinearStart trial = linear_start(d, order, t, std::min(o.max_sk_iterations, 10), o.sk_tolerance);
+      LinearStart trial = linear_start(d, order, t, std::min(o.max_sk_iterations, kGridSkIterations), o.sk_tolerance);
       if (!trial.singular && trial.cost < start.cost) start = trial;
     }
     if (!std::isfinite(start.cost)) start.singular = true;
