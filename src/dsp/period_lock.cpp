@@ -8,6 +8,7 @@
 #include <cmath>
 #include <cstddef>
 #include <limits>
+#include <memory>
 #include <numbers>
 #include <string>
 #include <vector>
@@ -31,10 +32,12 @@ constexpr int kDefaultMaxHarmonic = 50;
 constexpr int kResampleMaxHarmonic = 1000;
 /// Records shorter than this many periods get the 0.02-bin grid search after the FFT peak.
 constexpr double kShortRecordPeriods = 12;
-/// Samples accumulated per lane group in the streamed pass (a multiple of the SIMD width).
-constexpr int kLanes = 8;
+/// Records longer than twice this are first located on a prefix of this many samples.
+constexpr std::size_t kPrefixSamples = std::size_t{1} << 20;
+/// Records of at least this many periods go from the 3-harmonic fit straight to H.
+constexpr double kLongRecordPeriods = 200;
 /// Samples between exact sin/cos restarts of the rotation recurrence (error ≲ 512·ε).
-constexpr std::size_t kRotationBlock = 512;
+constexpr std::size_t kRotationBlock = 512;  // kBlock in harmonic_kernel.inc
 
 // Residual interpolation kernel: Kaiser-windowed sinc (Kaiser 1974; Oppenheim & Schafer,
 // Discrete-Time Signal Processing, §7.5.3 design formulas: β = 6 gives ≈ 63 dB stop-band
@@ -85,125 +88,91 @@ KernelSums kernel_sums(std::size_t n_samples, double u) {
 }
 
 // ---- the streamed pass over the data -------------------------------------------------------
-// acc[(n·4 + q)·kLanes + lane], q: 0 Σx·cos(nθ), 1 Σx·sin(nθ), 2 Σx·s·cos(nθ), 3 Σx·s·sin(nθ),
-// θ_k = ν·s_k. cos(nθ), sin(nθ) by the Chebyshev recurrence c_{n+1} = 2c_1·c_n − c_{n−1}
-// (error ~n²ε, negligible for n ≤ 1000 against noise); cos θ, sin θ by rotation restarted
-// exactly every kRotationBlock samples. Lanes keep the inner loops free of reductions so
-// they vectorise; cloned for AVX2+FMA where the CPU has it.
-__attribute__((target_clones("arch=haswell", "default")))
-void data_pass(const double* x, std::size_t n, double nu, int h, bool with_z, double* acc) {
-  constexpr int K = kLanes;
-  const double centre = 0.5 * static_cast<double>(n - 1);
-  const double cr = std::cos(nu), sr = std::sin(nu);
-  std::vector<double> c1(kRotationBlock), s1(kRotationBlock);
-  for (std::size_t b0 = 0; b0 < n; b0 += kRotationBlock) {
-    const std::size_t bn = std::min(kRotationBlock, n - b0);
-    const double th = nu * (static_cast<double>(b0) - centre);
-    c1[0] = std::cos(th);
-    s1[0] = std::sin(th);
-    for (std::size_t i = 1; i < bn; ++i) {
-      c1[i] = c1[i - 1] * cr - s1[i - 1] * sr;
-      s1[i] = s1[i - 1] * cr + c1[i - 1] * sr;
-    }
-    for (std::size_t k0 = 0; k0 < bn; k0 += K) {
-      alignas(64) double y[K], z[K], tc[K], cp[K], cc[K], sp[K], sc[K];
-      for (int i = 0; i < K; ++i) {
-        const std::size_t idx = k0 + static_cast<std::size_t>(i);
-        if (idx < bn) {
-          y[i] = x[b0 + idx];
-          z[i] = y[i] * (static_cast<double>(b0 + idx) - centre);
-          cc[i] = c1[idx];
-          sc[i] = s1[idx];
-        } else {
-          y[i] = 0;
-          z[i] = 0;
-          cc[i] = 1;
-          sc[i] = 0;
-        }
-        tc[i] = 2 * cc[i];
-        cp[i] = 1;
-        sp[i] = 0;
-      }
-      for (int i = 0; i < K; ++i) {
-        acc[i] += y[i];
-        acc[2 * K + i] += z[i];
-      }
-      for (int m = 1; m <= h; ++m) {
-        double* a = acc + static_cast<std::size_t>(m) * 4 * K;
-        for (int i = 0; i < K; ++i) {
-          a[i] += y[i] * cc[i];
-          a[K + i] += y[i] * sc[i];
-        }
-        if (with_z) {
-          for (int i = 0; i < K; ++i) {
-            a[2 * K + i] += z[i] * cc[i];
-            a[3 * K + i] += z[i] * sc[i];
-          }
-        }
-        for (int i = 0; i < K; ++i) {
-          const double cn = tc[i] * cc[i] - cp[i];
-          const double sn = tc[i] * sc[i] - sp[i];
-          cp[i] = cc[i];
-          cc[i] = cn;
-          sp[i] = sc[i];
-          sc[i] = sn;
-        }
-      }
-    }
-  }
+// The hot loops (harmonic_kernel.inc) are compiled three times, for AVX-512, AVX2+FMA and the
+// x86-64 baseline, and chosen once from the CPU's features (not its model name).
+}  // namespace
+}  // namespace periodfit::dsp
+
+#pragma GCC push_options
+#pragma GCC target("avx512f,avx512dq,avx512vl,avx512bw,fma")
+#define PERIODFIT_KERNEL_NS periodfit_kernel_avx512
+#define PERIODFIT_KERNEL_WIDTH 8
+#include "dsp/harmonic_kernel.inc"
+#undef PERIODFIT_KERNEL_NS
+#undef PERIODFIT_KERNEL_WIDTH
+#pragma GCC pop_options
+
+#pragma GCC push_options
+#pragma GCC target("avx2,fma")
+#define PERIODFIT_KERNEL_NS periodfit_kernel_avx2
+#define PERIODFIT_KERNEL_WIDTH 4
+#include "dsp/harmonic_kernel.inc"
+#undef PERIODFIT_KERNEL_NS
+#undef PERIODFIT_KERNEL_WIDTH
+#pragma GCC pop_options
+
+#define PERIODFIT_KERNEL_NS periodfit_kernel_base
+#define PERIODFIT_KERNEL_WIDTH 2
+#include "dsp/harmonic_kernel.inc"
+#undef PERIODFIT_KERNEL_NS
+#undef PERIODFIT_KERNEL_WIDTH
+
+namespace periodfit::dsp {
+namespace {
+
+enum class Isa { avx512, avx2, base };
+
+Isa cpu_isa() {
+  static const Isa isa = [] {
+    __builtin_cpu_init();
+    if (__builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512dq") &&
+        __builtin_cpu_supports("avx512vl") && __builtin_cpu_supports("avx512bw"))
+      return Isa::avx512;
+    if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma")) return Isa::avx2;
+    return Isa::base;
+  }();
+  return isa;
 }
 
-/// r_k = x_k − model(θ_k); returns Σ r². Same recurrences as data_pass.
-__attribute__((target_clones("arch=haswell", "default")))
+/// Sums for m = 0…h as sums[m·4 + q] (q as in harmonic_kernel.inc).
+std::vector<double> data_sums(const double* x, std::size_t n, double nu, int h, bool with_z) {
+  const auto H = static_cast<std::size_t>(h);
+  constexpr std::size_t kMaxVec = 8;  // doubles per vector in the widest kernel
+  std::vector<double> raw(4 * (H + 1) * 2 * kMaxVec + kMaxVec, 0.0);
+  void* p = raw.data();
+  std::size_t space = raw.size() * sizeof(double);
+  double* acc = static_cast<double*>(std::align(64, 4 * (H + 1) * 2 * kMaxVec * sizeof(double), p, space));
+  std::size_t width = 2;
+  switch (cpu_isa()) {
+    case Isa::avx512:
+      periodfit_kernel_avx512::data_pass(x, n, nu, h, with_z, acc);
+      width = 8;
+      break;
+    case Isa::avx2:
+      periodfit_kernel_avx2::data_pass(x, n, nu, h, with_z, acc);
+      width = 4;
+      break;
+    case Isa::base:
+      periodfit_kernel_base::data_pass(x, n, nu, h, with_z, acc);
+      break;
+  }
+  std::vector<double> sums(4 * (H + 1), 0.0);
+  for (std::size_t j = 0; j < 4 * (H + 1); ++j)
+    for (std::size_t i = 0; i < 2 * width; ++i) sums[j] += acc[j * 2 * width + i];
+  return sums;
+}
+
 double residual_pass(const double* x, std::size_t n, double nu, int h, const double* a,
                      const double* b, double* r) {
-  constexpr int K = kLanes;
-  const double centre = 0.5 * static_cast<double>(n - 1);
-  const double cr = std::cos(nu), sr = std::sin(nu);
-  std::vector<double> c1(kRotationBlock), s1(kRotationBlock);
-  double ss = 0;
-  for (std::size_t b0 = 0; b0 < n; b0 += kRotationBlock) {
-    const std::size_t bn = std::min(kRotationBlock, n - b0);
-    const double th = nu * (static_cast<double>(b0) - centre);
-    c1[0] = std::cos(th);
-    s1[0] = std::sin(th);
-    for (std::size_t i = 1; i < bn; ++i) {
-      c1[i] = c1[i - 1] * cr - s1[i - 1] * sr;
-      s1[i] = s1[i - 1] * cr + c1[i - 1] * sr;
-    }
-    for (std::size_t k0 = 0; k0 < bn; k0 += K) {
-      alignas(64) double m_[K], tc[K], cp[K], cc[K], sp[K], sc[K];
-      for (int i = 0; i < K; ++i) {
-        const std::size_t idx = std::min(k0 + static_cast<std::size_t>(i), bn - 1);
-        cc[i] = c1[idx];
-        sc[i] = s1[idx];
-        tc[i] = 2 * cc[i];
-        cp[i] = 1;
-        sp[i] = 0;
-        m_[i] = a[0];
-      }
-      for (int m = 1; m <= h; ++m) {
-        const double am = a[m], bm = b[m];
-        for (int i = 0; i < K; ++i) {
-          m_[i] += am * cc[i] + bm * sc[i];
-          const double cn = tc[i] * cc[i] - cp[i];
-          const double sn = tc[i] * sc[i] - sp[i];
-          cp[i] = cc[i];
-          cc[i] = cn;
-          sp[i] = sc[i];
-          sc[i] = sn;
-        }
-      }
-      for (int i = 0; i < K; ++i) {
-        const std::size_t idx = k0 + static_cast<std::size_t>(i);
-        if (idx >= bn) break;
-        const double ri = x[b0 + idx] - m_[i];
-        r[b0 + idx] = ri;
-        ss += ri * ri;
-      }
-    }
+  switch (cpu_isa()) {
+    case Isa::avx512:
+      return periodfit_kernel_avx512::residual_pass(x, n, nu, h, a, b, r);
+    case Isa::avx2:
+      return periodfit_kernel_avx2::residual_pass(x, n, nu, h, a, b, r);
+    case Isa::base:
+      break;
   }
-  return ss;
+  return periodfit_kernel_base::residual_pass(x, n, nu, h, a, b, r);
 }
 
 // ---- one evaluation of the variable-projection problem at ν --------------------------------
@@ -229,13 +198,10 @@ class SineFitter {
   Evaluation evaluate(double nu, int h, bool with_frequency, bool with_covariance) const {
     const std::size_t n = x_.size();
     const auto H = static_cast<std::size_t>(h);
-    std::vector<double> acc(4 * (H + 1) * kLanes, 0.0);
-    data_pass(x_.data(), n, nu, h, with_frequency, acc.data());
+    const std::vector<double> acc = data_sums(x_.data(), n, nu, h, with_frequency);
     Eigen::VectorXd yc(h + 1), ys(h + 1), zc(h + 1), zs(h + 1);
     for (std::size_t m = 0; m <= H; ++m) {
-      double q[4] = {0, 0, 0, 0};
-      for (int qi = 0; qi < 4; ++qi)
-        for (int i = 0; i < kLanes; ++i) q[qi] += acc[(m * 4 + static_cast<std::size_t>(qi)) * kLanes + static_cast<std::size_t>(i)];
+      const double* q = acc.data() + m * 4;
       const auto mi = static_cast<Eigen::Index>(m);
       yc(mi) = q[0];
       ys(mi) = q[1];
@@ -543,8 +509,8 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
     fit.fundamental.harmonics_fitted = h;
     fit.fundamental.condition = e.condition;
     fit.fundamental.dof = static_cast<int>(n) - (2 * h + 1);
-    std::vector<double> r(n);
-    fit.residual_ss = residual_pass(x.data(), n, nu, h, fit.a.data(), fit.b.data(), r.data());
+    fit.residual.resize(n);
+    fit.residual_ss = residual_pass(x.data(), n, nu, h, fit.a.data(), fit.b.data(), fit.residual.data());
     fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
     fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
     return fit;
@@ -552,7 +518,30 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
 
   if (constant) throw AnalysisError("no periodic component: every sample equals " + str(*mn) + " (dc only)");
   const bool given_start = opt.f0_start_hz > 0 && opt.f0_start_hz < 0.5 * fs;
-  const double f = given_start ? opt.f0_start_hz : coarse_frequency(x, fs, opt.f0_hint_hz);
+  double f = 0;
+  if (given_start) {
+    f = opt.f0_start_hz;
+  } else if (n > 2 * kPrefixSamples) {
+    // Long record: the coarse search and a 3-harmonic fit run on a prefix (cheap), whose f0
+    // is then well inside the full record's capture range. Falls back to the whole record
+    // when the prefix holds too few periods.
+    const auto prefix = x.first(kPrefixSamples);
+    try {
+      const double fp = coarse_frequency(prefix, fs, opt.f0_hint_hz);
+      if (fp * static_cast<double>(kPrefixSamples) / fs >= kShortRecordPeriods) {
+        const SineFitter pf(prefix);
+        const int hp = std::max(1, std::min(3, harmonic_limit(fs, fp, 0.49)));
+        const GaussNewton gp = gauss_newton(pf, kTwoPi * fp / fs, hp, opt,
+                                            0.25 * kTwoPi / static_cast<double>(kPrefixSamples), false);
+        if (gp.last.ok) f = gp.last.nu * fs / kTwoPi;
+      }
+    } catch (const AnalysisError&) {
+      f = 0;
+    }
+    if (f <= 0) f = coarse_frequency(x, fs, opt.f0_hint_hz);
+  } else {
+    f = coarse_frequency(x, fs, opt.f0_hint_hz);
+  }
   const double record_bin_nu = kTwoPi / static_cast<double>(n);  // one DFT bin in rad/sample
   double nu = kTwoPi * f / fs;
   const int h_search = std::max(1, std::min(3, harmonic_limit(fs, f, 0.49)));
@@ -576,11 +565,15 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   int iterations = 0;
   GaussNewton g;
   int h_final = 0;
+  // Long records skip the middle stages: unmodelled harmonics then bias the 3-harmonic f0 by
+  // far less than the final stage's capture range.
+  const bool long_record = f * static_cast<double>(n) / fs >= kLongRecordPeriods;
   for (int stage : {3, 10, 30, 0}) {
     const double f_now = nu * fs / kTwoPi;
     h_final = choose_harmonics(opt, fs, f_now, n);
     const int h = stage == 0 ? h_final : std::min(stage, h_final);
     if (stage != 0 && h == h_final) continue;  // this stage is the final one: skip
+    if (long_record && (stage == 10 || stage == 30)) continue;
     const double max_step = 0.25 * record_bin_nu;
     g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
     iterations += g.iterations;
@@ -597,8 +590,8 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   fit.fundamental.harmonics_fitted = hf;
   fit.fundamental.condition = e.condition;
   fit.fundamental.dof = static_cast<int>(n) - (2 * hf + 2);
-  std::vector<double> r(n);
-  fit.residual_ss = residual_pass(x.data(), n, e.nu, hf, fit.a.data(), fit.b.data(), r.data());
+  fit.residual.resize(n);
+  fit.residual_ss = residual_pass(x.data(), n, e.nu, hf, fit.a.data(), fit.b.data(), fit.residual.data());
   fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
   fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
   fit.fundamental.f0_u_hz = e.schur > 0 ? std::sqrt(fit.sigma2 / e.schur) * fs / kTwoPi : 0;
@@ -785,6 +778,10 @@ PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t
 }
 
 PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic) {
+  return period_spectra(grid, max_harmonic, true);
+}
+
+PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic, bool with_noise_bins) {
   const int m = grid.samples_per_period, p = grid.periods;
   assert(grid.samples.size() == static_cast<std::size_t>(m) * static_cast<std::size_t>(p));
   if (max_harmonic < 0 || max_harmonic > m / 2)
@@ -823,7 +820,7 @@ PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic) {
   // 0.45 of the source's rate (above it the interpolation kernel has filtered the noise out).
   s.noise_bin_variance.assign(H + 1, 0.0);
   s.noise_bin_dof = 0;
-  if (p >= 2) {
+  if (p >= 2 && with_noise_bins) {
     const std::size_t total = M * P;
     std::vector<std::complex<double>> full(total / 2 + 1);
     real_dft(grid.samples, full);

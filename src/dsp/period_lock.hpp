@@ -125,6 +125,8 @@ PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t
 
 /// Per-period and averaged phasors of harmonics 0…max_harmonic of a locked grid.
 PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic);
+/// The same, computing noise_bin_variance (one FFT of the whole grid) only when asked.
+PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic, bool with_noise_bins);
 
 // ---- the pieces analyze uses directly ------------------------------------------------------
 
@@ -143,6 +145,7 @@ struct HarmonicFit {
   double sigma2 = 0;        ///< ‖r‖²/dof, the residual variance
   double residual_ss = 0;   ///< ‖r‖²
   std::size_t samples = 0;  ///< N
+  std::vector<double> residual;  ///< x − model at every sample (kept: analyze locks it)
   /// X_n = (a_n − j·b_n)·e^{−j·n·ω·(t_c − 0)}: the phasor referred to t = 0 of the file.
   std::complex<double> phasor(int n) const;
   int harmonics() const { return static_cast<int>(a.size()) - 1; }
@@ -156,7 +159,7 @@ int default_harmonic_count(double fs_hz, double f0_hz, std::size_t samples);
 HarmonicFit fit_harmonics(std::span<const double> x, double fs_hz, double t0_s,
                           const LockOptions& options = {});
 
-/// x − model at every sample of the record.
+/// x − model at every sample of the record (fit_harmonics already keeps it in `residual`).
 std::vector<double> fit_residual(std::span<const double> x, const HarmonicFit& fit);
 
 /// Samples per period used by default: fs/f0 when that is an integer (coherent capture, so
