@@ -149,3 +149,35 @@ TEST_CASE("cli batch: hostile file and channel names are escaped in report.html"
   const std::string csv = slurp(dir.path / "out" / "summary.csv");
   CHECK(csv.find("\"" + dir.file("in/R&D \"\"quoted\"\" 'single'.csv") + "\",PASS,") != std::string::npos);
 }
+
+TEST_CASE("cli batch: progress on stderr only when it is a terminal") {
+  if (std::system("command -v script >/dev/null 2>&1") != 0) {
+    MESSAGE("script (util-linux) not installed: the terminal progress check is skipped");
+    return;
+  }
+  TempDir dir("cli_batch_tty");
+  fs::create_directories(dir.path / "in");
+  for (unsigned i = 0; i < 3; ++i) {
+    periodfit::test::LowpassCapture c;
+    c.seed = 20 + i;
+    periodfit::test::write_lowpass_csv(dir.file("in/u" + std::to_string(i) + ".csv"), c);
+  }
+  write_text(dir.file("limits.toml"), periodfit::test::lowpass_config());
+  // script(1) runs the command on a pseudo-terminal; stdout goes to a file, stderr stays on it.
+  const auto on_tty = [&](const std::string& extra) {
+    const std::string inner = std::string("'") + PERIODFIT_EXE + "' batch '" + dir.file("in") + "' --config '" +
+                              dir.file("limits.toml") + "' --report '" + dir.file("out") + "' --jobs 1 " + extra +
+                              " >'" + dir.file("stdout") + "'";
+    const std::string cmd = "script -qec \"" + inner + "\" /dev/null >'" + dir.file("tty") + "' 2>&1 </dev/null";
+    const int status = std::system(cmd.c_str());
+    CHECK(WIFEXITED(status));
+    CHECK(WEXITSTATUS(status) == 0);
+    return slurp(dir.path / "tty");
+  };
+  const std::string shown = on_tty("");
+  CHECK(shown.find("3/3 files") != std::string::npos);
+  CHECK(shown.find("files/s  ETA") != std::string::npos);
+  CHECK(slurp(dir.path / "stdout").find("3 pass, 0 fail, 0 error\n") != std::string::npos);
+  const std::string quiet = on_tty("--quiet");
+  CHECK(quiet.find("files/s") == std::string::npos);
+}
