@@ -54,15 +54,23 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   r.skew_s = options.frf.skew_s;
   const double fs = ci.sample_rate_hz;
 
+  // Lock (dsp/period_lock.hpp): f0 and the H-harmonic least-squares fit on the input; the same
+  // fit with f0 forced on the output. Each grid is the fitted model evaluated exactly at the
+  // grid times plus the band-limited interpolation of the residual (noise, harmonics above H).
+  // dsp::resample_to_periods would refit every harmonic below 0.45·fs instead: exact for them
+  // too, but N·fs/(2f0) work per channel, hundreds of harmonics for an oversampled capture,
+  // where the interpolator is far more accurate than its 1e-3 band-edge bound anyway.
   dsp::LockOptions lock;
   lock.f0_hz = options.f0_hz;
   lock.f0_hint_hz = options.f0_hint_hz;
   lock.max_harmonic = options.max_harmonic;
+  dsp::HarmonicFit fit_u;
   try {
-    r.fundamental = dsp::estimate_fundamental(in.channel->samples, fs, lock);
+    fit_u = dsp::fit_harmonics(in.channel->samples, fs, ci.t0_s, lock);
   } catch (const AnalysisError& e) {
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
   }
+  r.fundamental = fit_u.fundamental;
   const double f0 = r.fundamental.f0_hz;
   if (!(f0 > 0) || !std::isfinite(f0))
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
@@ -71,15 +79,16 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   if (nyquist_harmonics < 1)
     throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
                         " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
-  const int harmonics =
-      options.max_harmonic > 0 ? std::min(options.max_harmonic, nyquist_harmonics)
-                               : dsp::default_harmonic_count(fs, f0, in.channel->samples.size());
+  const int harmonics = std::min(fit_u.harmonics(), nyquist_harmonics);
   const int m = options.samples_per_period > 0 ? options.samples_per_period
                                                : dsp::default_samples_per_period(fs, f0, harmonics);
   r.samples_per_period = m;
-  const dsp::PeriodGrid grid_u = dsp::resample_to_periods(in.channel->samples, fs, ci.t0_s, f0, m);
-  const dsp::PeriodGrid grid_y =
-      dsp::resample_to_periods(out.channel->samples, fs, out.capture->t0_s, f0, m);
+  dsp::LockOptions forced;
+  forced.f0_hz = f0;
+  forced.max_harmonic = fit_u.harmonics();
+  const dsp::HarmonicFit fit_y = dsp::fit_harmonics(out.channel->samples, fs, out.capture->t0_s, forced);
+  const dsp::PeriodGrid grid_u = dsp::resample_fitted(dsp::fit_residual(in.channel->samples, fit_u), fit_u, m);
+  const dsp::PeriodGrid grid_y = dsp::resample_fitted(dsp::fit_residual(out.channel->samples, fit_y), fit_y, m);
   const dsp::PeriodSpectra su = dsp::period_spectra(grid_u, harmonics);
   const dsp::PeriodSpectra sy = dsp::period_spectra(grid_y, harmonics);
   try {
