@@ -34,7 +34,7 @@
 ///
 /// Usage:
 ///   std::vector<FrfPoint> pts = …;                        // ω in rad/s, H_k, Cov(Re, Im)
-///   RationalFitOptions o; o.num_order = 0; o.den_order = 2;
+///   RationalFitOptions o; o.order = {0, 2};               // or o.auto_order = true
 ///   RationalFitResult fit = fit_rational(pts, o);         // throws AnalysisError if singular
 ///   fit.model.den; fit.poles[0].natural_frequency_rad_s; fit.adequate;
 #include <complex>
