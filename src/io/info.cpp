@@ -39,16 +39,24 @@ ChannelStats channel_stats(const Channel& channel) {
   s.unit = channel.unit;
   s.min = channel.samples.front();
   s.max = channel.samples.front();
-  CompensatedSum sum, squares;
   for (double x : channel.samples) {
     s.min = std::min(s.min, x);
     s.max = std::max(s.max, x);
-    sum.add(x);
-    squares.add(x * x);
+  }
+  // Sums of x/scale with scale the power of two at the top of |x| (an exact division): x² of
+  // values near DBL_MAX would overflow to inf and of subnormals underflow to 0
+  // (docs/robustness.md, entries 10 and 11).
+  const double top = std::max(std::fabs(s.min), std::fabs(s.max));
+  const double scale = top > 0 ? std::ldexp(1.0, std::ilogb(top)) : 1.0;
+  CompensatedSum sum, squares;
+  for (double x : channel.samples) {
+    const double y = x / scale;
+    sum.add(y);
+    squares.add(y * y);
   }
   const auto n = static_cast<double>(channel.samples.size());
-  s.mean = sum.value() / n;
-  s.rms = std::sqrt(squares.value() / n);
+  s.mean = sum.value() / n * scale;
+  s.rms = std::sqrt(squares.value() / n) * scale;
   return s;
 }
 
