@@ -32,7 +32,10 @@ Runner add_info(CLI::App& app) {
     std::vector<io::CaptureInfo> infos;
     for (const auto& path : args->files) infos.push_back(io::describe(io::read_capture(path, args->read)));
     if (!args->json_path.empty())
-      io::write_file_atomic(args->json_path, io::info_json(infos).dump(2) + "\n");
+      // Names and metadata are bytes from the file, not always UTF-8: invalid sequences are
+      // written as U+FFFD so the JSON stays valid (docs/robustness.md, entry 16).
+      io::write_file_atomic(args->json_path,
+                            io::info_json(infos).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
     if (args->json_path != "-") {
       std::string text;
       for (std::size_t i = 0; i < infos.size(); ++i) text += (i ? "\n" : "") + io::info_text(infos[i]);
