@@ -277,15 +277,21 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
     for (std::size_t k = 1; k < xs.size(); ++k)
       if (xs[k] - xs[k - 1] > 1e-9 * xs[k]) base = std::min(base, xs[k] - xs[k - 1]);
     const double span = 2 * std::numbers::pi / base;
-    grid_points = o.delay_grid_points > 0 ? o.delay_grid_points
-                                          : std::clamp(static_cast<int>(std::ceil(8 * xs.back() / base)), 16, 4000);
+    grid_points = o.delay_grid_points > 0
+                      ? o.delay_grid_points
+                      : static_cast<int>(std::clamp(std::ceil(8 * xs.back() / base), 16.0, 4000.0));
+    LinearStart last;
     for (int i = 0; i < grid_points; ++i) {
       const double t = span * i / grid_points;
-      LinearStart trial = linear_start(d, order, t, std::min(o.max_sk_iterations, kGridSkIterations), o.sk_tolerance);
-      if (!trial.singular && trial.cost < start.cost) start = trial;
+      last = linear_start(d, order, t, std::min(o.max_sk_iterations, kGridSkIterations), o.sk_tolerance);
+      if (!last.singular && last.cost < start.cost) start = last;
     }
-    if (!std::isfinite(start.cost)) start.singular = true;
-    else start = linear_start(d, order, start.model.delay, o.max_sk_iterations, o.sk_tolerance);
+    if (!std::isfinite(start.cost)) {
+      start = last;  // every grid point singular: report the last one's rank
+      start.singular = true;
+    } else {
+      start = linear_start(d, order, start.model.delay, o.max_sk_iterations, o.sk_tolerance);
+    }
   } else {
     start = linear_start(d, order, fixed_delay, o.max_sk_iterations, o.sk_tolerance);
   }
