@@ -258,6 +258,25 @@ TEST_CASE("rational fit: band-pass matches scipy.signal.freqs, its zero sits at 
   CHECK(fit.adequate);
 }
 
+TEST_CASE("rational fit: the model covariance is in RationalModel::response_gradient order (predict relies on it)") {
+  // Near ω = 0, H → b0/a0 and the gradient-propagated variance of Re H must equal the reported
+  // dc-gain variance (first-order propagation, same covariance): a check of the parameter order.
+  const double tau = 1e-3;
+  const std::vector<double> w = harmonics(100, 1, 20);
+  RationalFitOptions o;
+  o.order = {1, 2};
+  o.estimate_delay = true;
+  const RationalFitResult fit =
+      fit_rational(points_of(w, response({2 / tau, 0.5}, {1 / (tau * tau), 3 / tau, 1}, w, 1e-4), kSnr60dB), o);
+  const auto g = fit.model.response_gradient(1e-9 / tau);
+  REQUIRE(g.size() == fit.model.covariance.size());
+  double var = 0;
+  for (std::size_t i = 0; i < g.size(); ++i)
+    for (std::size_t j = 0; j < g.size(); ++j) var += g[i].real() * fit.model.covariance[i][j] * g[j].real();
+  // Relative agreement limited by the O(ωτ) terms left at ω = 1e-9/τ.
+  CHECK(std::sqrt(var) == doctest::Approx(fit.dc_gain_u).epsilon(1e-6));
+}
+
 TEST_CASE("rational fit: a known delay is recovered within 3σ and 1 %, or can be held fixed") {
   // H = e^{−sT}/(1 + sτ): first-order lag with dead time (standard process model).
   const double tau = 1e-3, delay = 0.35e-3;
