@@ -263,3 +263,13 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
                "invalid option: min_snr_db = -3 (must be finite and >= 0)");
   CHECK_FALSE(std::filesystem::exists(dir.file("m.json")));
 }
+
+TEST_CASE("cli identify: --help shows the library defaults") {
+  const auto r = run_cli("identify --help");
+  CHECK(r.exit_code == 0);
+  // Defaults come from ident::IdentifyOptions / FrfOptions (min_snr_db = 20, channels 0 and 1).
+  CHECK(r.out.find("  --min-snr DB=20 ") != std::string::npos);
+  CHECK(r.out.find("  --input CH=0 ") != std::string::npos);
+  CHECK(r.out.find("  --output CH=1 ") != std::string::npos);
+  CHECK(r.out.find("  --order M/N|auto ") != std::string::npos);
+}

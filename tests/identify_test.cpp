@@ -457,3 +457,53 @@ TEST_CASE("identify: the chi-square verdict accepts the true order and rejects a
   }
   CHECK(adequate >= kMinAdequate);
 }
+
+TEST_CASE("identify: --order auto picks the second-order model for a second-order DUT by chi-square") {
+  // Textbook second-order low-pass (ω_n = 2π·300, ζ = 0.3) at 60 dB SNR: first-order models
+  // cannot fit it, 0/2 does (Pintelon & Schoukens 2012, §11.3: the lowest order whose cost is
+  // consistent with χ²). The true order passes its χ² test with probability ≈ 0.95 (a bit less:
+  // the weights are variances estimated from 24 periods), so 5 captures are identified and ≥ 3
+  // must choose 0/2 (fails a correct implementation with probability < 1 %, binomial).
+  const double wn = 2 * kPi * 300, zeta = 0.3;
+  constexpr int kH = 15, kRuns = 5, kMinRight = 3;
+  std::vector<cd> h(kH + 1, 0.0);
+  for (int n = 1; n <= kH; ++n) {
+    const cd s(0, 2 * kPi * kF0 * n);
+    h[std::size_t(n)] = wn * wn / (s * s + 2 * zeta * wn * s + wn * wn);
+  }
+  const Phasors u = multisine(kH, 0.2);
+  int right = 0;
+  for (int run = 0; run < kRuns; ++run) {
+    std::mt19937_64 rng(std::uint64_t(30 + run));
+    const auto x0 = synthesise(u, 0, rng);
+    const auto y0 = synthesise(times(u, h), 0, rng);
+    const auto capture =
+        two_channel(synthesise(u, rms(x0) * 1e-3, rng), synthesise(times(u, h), rms(y0) * 1e-3, rng));
+    auto o = options("auto");
+    o.max_harmonic = kH;
+    const auto r = ident::identify(capture, o);
+    REQUIRE(r.model.has_value());
+    REQUIRE(r.model->order_trials.size() >= 3);
+    CHECK_FALSE(r.model->order_trials[0].passed);  // 0/1 never fits a second-order DUT
+    const auto j = ident::identify_json(r);
+    CHECK(j["model"]["den"].back() == 1.0);  // monic, ascending powers
+    CHECK(j["model"]["order_trials"].size() == r.model->order_trials.size());
+    if (r.model->order.num == 0 && r.model->order.den == 2) {
+      ++right;
+      CHECK(r.model->order_decided_by == "chi2");
+      CHECK(j["model"]["order"] == "0/2");
+      CHECK(j["model"]["den"].size() == 3);
+    }
+  }
+  CHECK(right >= kMinRight);
+}
+
+TEST_CASE("identify: default options are valid; invalid ones name field, value and constraint") {
+  CHECK_NOTHROW(ident::IdentifyOptions{}.validate());
+  ident::IdentifyOptions o;
+  o.max_harmonic = -1;
+  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: max_harmonic = -1 (must be >= 0 (0 = automatic))", OptionError);
+  o = {};
+  o.f0_hz = -5;
+  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: f0_hz = -5 (must be finite and >= 0 (0 = estimate))", OptionError);
+}

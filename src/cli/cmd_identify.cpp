@@ -103,31 +103,44 @@ int run(const IdentifyArgs& a) {
 Runner add_identify(CLI::App& app) {
   auto a = std::make_shared<IdentifyArgs>();
   app.add_option("FILE", a->file, "capture with the DUT input (and its output unless --output-file)")
-      ->required();
-  app.add_option("--input", a->options.input_channel, "DUT input channel: name or 0-based index")
-      ->capture_default_str();
-  app.add_option("--output", a->options.output_channel, "DUT output channel: name or 0-based index")
-      ->capture_default_str();
+      ->required()
+      ->type_name("FILE");
+  app.add_option("--input", a->options.input_channel, "DUT input channel, by name or 0-based index")
+      ->capture_default_str()
+      ->type_name("CH");
+  app.add_option("--output", a->options.output_channel, "DUT output channel, by name or 0-based index")
+      ->capture_default_str()
+      ->type_name("CH");
   app.add_option("--output-file", a->output_file,
-                 "capture holding the output channel, recorded on the same time base (same rate and length)");
+                 "capture holding the output channel, recorded on the same time base (same rate and length)")
+      ->type_name("FILE");
   app.add_option("--skew", a->options.frf.skew_s,
-                 "SECONDS: extra delay of the output acquisition path, removed as a phase correction")
-      ->capture_default_str();
-  app.add_option("--f0", a->options.f0_hz, "HZ: use exactly this fundamental (0 = estimate on the input)")
-      ->capture_default_str();
-  app.add_option("--f0-hint", a->options.f0_hint_hz, "HZ: search the fundamental near this value (0 = none)")
-      ->capture_default_str();
+                 "extra delay of the output acquisition path in seconds, removed as a phase correction")
+      ->capture_default_str()
+      ->type_name("SECONDS");
+  app.add_option("--f0", a->options.f0_hz, "use exactly this fundamental in Hz (0 = estimate it on the input)")
+      ->capture_default_str()
+      ->type_name("HZ");
+  app.add_option("--f0-hint", a->options.f0_hint_hz, "search the fundamental near this frequency in Hz (0 = anywhere)")
+      ->capture_default_str()
+      ->type_name("HZ");
   app.add_option("--harmonics", a->options.max_harmonic,
-                 "N: highest harmonic examined (0 = all below 0.45 fs, at most 50)")
-      ->capture_default_str();
+                 "highest harmonic examined (0 = all below 0.45·fs, at most 50)")
+      ->capture_default_str()
+      ->type_name("N");
   app.add_option("--min-snr", a->options.frf.min_snr_db,
-                 "DB: input power above the input noise floor for a harmonic to count as excited")
-      ->capture_default_str();
+                 "input power above the input noise floor, in dB, for a harmonic to count as excited")
+      ->capture_default_str()
+      ->type_name("DB");
   app.add_option("--order", a->options.order,
-                 "M/N (numerator/denominator degree) or auto: fit B(s)/A(s) e^(-sT); none = FRF only");
+                 "fit B(s)/A(s)·e^(-sT) with numerator degree M and denominator degree N, or choose the order "
+                 "(auto); none = FRF only")
+      ->type_name("M/N|auto");
   app.add_flag("--delay", a->options.estimate_delay, "also estimate the dead time T of the model");
-  app.add_option("--json", a->json_path, "PATH: write the result as JSON (- = standard output, no table)");
-  app.add_option("--save-model", a->model_path, "PATH: write the fitted model with its covariance");
+  app.add_option("--json", a->json_path, "also write the result as JSON to PATH ('-' = stdout, instead of the text)")
+      ->type_name("PATH");
+  app.add_option("--save-model", a->model_path, "write the fitted model with its covariance to PATH (needs --order)")
+      ->type_name("PATH");
   add_capture_options(app, a->read);
   return [a]() { return run(*a); };
 }
