@@ -45,7 +45,7 @@ TEST_CASE("cli predict: a sine through an RC low-pass prints the whole documente
         "status                 ok\n"
         "f0                     159.155 Hz\n"
         "harmonics used         1 (complete; input energy left out 0 of the total)\n"
-        "output tail            0 (sum of |Y_n| up to n = 1)\n"
+        "output tail            0 (the input's series ends at N)\n"
         "dc                     0\n"
         "rms                    0.5\n"
         "min / max              -0.707107 / 0.707107\n"

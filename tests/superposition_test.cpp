@@ -107,15 +107,17 @@ TEST_CASE("superposition: RC and second-order low-pass steady states match scipy
       {"2nd order, half-wave", lp2_num, lp2_den, WaveKind::half_wave, "half-wave", 4000},
   };
   for (const auto& c : cases) {
-    INFO(c.name);
+    INFO(std::string(c.name));
     predict::PredictSystem sys;
     sys.model = predict::model_from_coefficients(c.num, c.den);
     const auto r = predict::predict_steady_state(wave(c.kind, a, f0), sys, lsim_grid(c.harmonics));
     const auto ref = lsim_period(c.num, c.den, c.kind_name, a, f0);
     const Agreement g = compare(r, ref);
     INFO("max error " << g.max_error << " of peak " << g.peak << ", harmonics " << r.harmonics);
-    MESSAGE(c.name << ": N = " << r.harmonics << ", max |error| = " << g.max_error / g.peak << " of the peak");
+    MESSAGE(std::string(c.name) << ": N = " << r.harmonics << ", max |error| = " << g.max_error / g.peak << " of the peak");
     CHECK(g.max_error < kLsimRelTol * g.peak);
+    // The reported tail covers the truncation error (1.1: extrapolation; 1e-8: lsim's own error).
+    CHECK(g.max_error <= 1.1 * r.output_tail_estimate + 1e-8 * g.peak);
     CHECK(r.status == "ok");
     CHECK(r.sampling_method == "folded-dft");
     // The extremes agree with the simulation's extremes too.
@@ -147,6 +149,28 @@ TEST_CASE("superposition: the output tail estimate bounds the error of an automa
   CHECK(g.max_error > 0.5 * r.output_tail_estimate);  // the estimate is not wildly pessimistic
   REQUIRE(r.warnings.size() == 1);
   CHECK(r.warnings[0].find("raise the harmonic count") != std::string::npos);
+}
+
+TEST_CASE("superposition: a system that passes high frequencies shows Gibbs on a square and says so") {
+  // H = (s + 2000)/(s + 1000): |H(j∞)| = 1, so |Y_n| ∝ 1/n like the square's own series and
+  // Σ|Y_n| diverges (harmonic series).
+  predict::PredictSystem sys;
+  sys.model = predict::model_from_coefficients({2000, 1}, {1000, 1});
+  predict::PredictOptions o;
+  o.truncation.harmonics = 2001;
+  const auto r = predict::predict_steady_state(wave(WaveKind::square, 1, 50), sys, o);
+  CHECK(r.status == "truncation-visible");
+  CHECK(r.output_tail_method == "summed (diverges)");
+  CHECK(std::find(r.flags.begin(), r.flags.end(), "gibbs") != r.flags.end());
+  REQUIRE(r.warnings.size() == 1);
+  CHECK(r.warnings[0].find("does not converge") != std::string::npos);
+  // H = 1 + 1000/(s + 1000): the square plus its RC-filtered copy, which reaches tanh(T/4τ) =
+  // tanh(5) just before the falling edge (closed form of an RC's square-wave steady state). The
+  // output's jump there is 2, and the partial sums overshoot it by the Wilbraham–Gibbs constant
+  // Si(π)/π − 1/2 = 0.0894899 (from memory) of the jump.
+  constexpr double kGibbs = 0.0894899;
+  constexpr double kGibbsTol = 2e-3;  // finite N: the overshoot peak sits T/(2N) from the jump
+  CHECK(r.max == doctest::Approx(1 + std::tanh(5.0) + 2 * kGibbs).epsilon(kGibbsTol));
 }
 
 TEST_CASE("superposition: RC with tau >> T on a full-wave rectified input ripples at 2 f0, ~1/(2 w0 tau)") {
@@ -403,7 +427,7 @@ TEST_CASE("superposition: CSV and JSON carry the documented fields") {
   std::vector<std::string> keys;
   for (const auto& [k, v] : j.items()) keys.push_back(k);
   CHECK(keys == std::vector<std::string>{"status", "method", "f0_hz", "harmonics_used", "harmonic_count_method",
-                                         "input_left_out_fraction", "output_tail_estimate", "tail_checked_to",
+                                         "input_left_out_fraction", "output_tail_estimate", "tail_checked_to", "output_tail_method",
                                          "has_uncertainty", "dc", "dc_u", "rms", "rms_u", "min", "max", "ripple_pp",
                                          "ripple_pp_u", "thd", "thd_u", "harmonics_listed", "harmonics", "samples",
                                          "flags", "warnings"});

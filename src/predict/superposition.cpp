@@ -25,9 +25,12 @@ constexpr double kIntegerRateRelative = 1e-9;
 /// Ripple grid: at least this many points per period of the highest output harmonic.
 constexpr int kDensePointsPerHighestHarmonic = 8;
 constexpr int kDenseMaxPoints = 1 << 22;
-/// Tail look-ahead: harmonics N+1 … min(4N, N + kTailMaxExtra).
+/// Tail look-ahead: harmonics N+1 … min(4N, N + kTailMaxExtra), then extrapolated.
 constexpr int kTailFactor = 4;
-constexpr int kTailMaxExtra = 1'000'000;
+constexpr int kTailMaxExtra = 6'000'000;  // 3 × the largest automatic count
+/// Octave ratio of the tail sums at or above which Σ|Y_n| is taken as divergent: 2^{1−p} ≥ 0.9
+/// means |Y_n| falls slower than n^{−1.15}, and the extrapolated rest would exceed 9× the octave.
+constexpr double kTailDivergentRatio = 0.9;
 
 std::string num(double v) { return io::format_shortest(v); }
 /// Frequencies in messages for people: 9 significant digits hide the rounding of ω/(2π).
@@ -479,33 +482,59 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
   PredictResult r = predict_steady_state(input, system, options);
   const ident::RationalModel* model =
       system.model && !system.model->den.empty() ? &*system.model : nullptr;
+  bool tail_diverges = false;
   if (input.method == "complete") {
     r.output_tail_estimate = 0;
+    r.output_tail_method = "none";
     r.tail_checked_to = input.harmonics;
   } else if (model) {
-    const int n_end = input.harmonics + std::min(kTailMaxExtra, (kTailFactor - 1) * input.harmonics);
-    double tail = 0;
+    // Σ|Y_n| over the octaves (N, 2N] and (2N, 4N] summed explicitly; beyond 4N the octave
+    // ratio q = S2/S1 (2^{1−p} for |Y_n| ∝ n^{−p}) continues geometrically: S2·q/(1 − q).
+    // When q ≥ kTailDivergentRatio (|Y_n| falling as 1/n or slower) the sum does not converge
+    // and only the explicit part is reported; the status is then set regardless.
+    const int n0 = input.harmonics;
+    const int n_mid = n0 + std::min(kTailMaxExtra / 3, n0);
+    const int n_end = n0 + std::min(kTailMaxExtra, (kTailFactor - 1) * n0);
+    double s1 = 0, s2 = 0;
     const double omega0 = 2 * kPi * wave.f0_hz;
-    for (int n = input.harmonics + 1; n <= n_end; ++n) {
+    for (int n = n0 + 1; n <= n_end; ++n) {
       const std::complex<double> x = dsp::wave_harmonic(wave, n);
-      if (x != 0.0) tail += std::abs(model->response(omega0 * n) * x);
+      if (x != 0.0) (n <= n_mid ? s1 : s2) += std::abs(model->response(omega0 * n) * x);
+    }
+    double tail = s1 + s2;
+    const double q = s1 > 0 ? s2 / s1 : 0;
+    r.output_tail_method = "summed";
+    if (q >= kTailDivergentRatio) {
+      tail_diverges = true;
+      r.output_tail_method = "summed (diverges)";
+    } else if (n_end == n0 + (kTailFactor - 1) * n0) {
+      tail += s2 * q / (1 - q);
+      r.output_tail_method = "summed+extrapolated";
     }
     r.output_tail_estimate = tail;
     r.tail_checked_to = n_end;
   }
   const double peak = std::max(std::abs(r.max), std::abs(r.min));
-  if (std::isfinite(r.output_tail_estimate) && r.output_tail_estimate > kVisibleTailFraction * peak) {
+  if (tail_diverges ||
+      (std::isfinite(r.output_tail_estimate) && r.output_tail_estimate > kVisibleTailFraction * peak)) {
     r.status = "truncation-visible";
     r.flags.push_back("truncation-visible");
     if (dsp::wave_has_jumps(wave)) r.flags.push_back("gibbs");
-    r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) + " sum to up to " +
-                         io::format_significant(r.output_tail_estimate, 3) + " (" +
-                         io::format_significant(100 * r.output_tail_estimate / peak, 3) +
-                         " % of the output peak): samples, min, max and ripple can be off by that much; "
-                         "raise the harmonic count" +
-                         (dsp::wave_has_jumps(wave) ? " (the input has jumps: a system that passes high "
-                                                      "frequencies shows Gibbs overshoot at any count)"
-                                                    : ""));
+    if (tail_diverges)
+      r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) +
+                           " fall as 1/n or slower, so their sum does not converge (" +
+                           io::format_significant(r.output_tail_estimate, 3) + " up to harmonic " +
+                           std::to_string(r.tail_checked_to) +
+                           "): the samples, min, max and ripple show the truncation at any harmonic count" +
+                           (dsp::wave_has_jumps(wave) ? " (Gibbs overshoot next to the input's jumps, which "
+                                                        "this system passes)"
+                                                      : ""));
+    else
+      r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) + " sum to up to " +
+                           io::format_significant(r.output_tail_estimate, 3) + " (" +
+                           io::format_significant(100 * r.output_tail_estimate / peak, 3) +
+                           " % of the output peak): samples, min, max and ripple can be off by that much; "
+                           "raise the harmonic count");
   }
   return r;
 }
@@ -559,8 +588,11 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
     count += "; input energy left out " + io::format_significant(r.input_left_out_fraction, 3) + " of the total";
   kv.emplace_back("harmonics used", count + ")");
   if (std::isfinite(r.output_tail_estimate))
-    kv.emplace_back("output tail", io::format_significant(r.output_tail_estimate, 3) + " (sum of |Y_n| up to n = " +
-                                       std::to_string(r.tail_checked_to) + ")");
+    kv.emplace_back("output tail",
+                    r.output_tail_method == "none"
+                        ? std::string("0 (the input's series ends at N)")
+                        : io::format_significant(r.output_tail_estimate, 3) + " (sum of |Y_n| over n > N: " +
+                              r.output_tail_method + ", explicit to n = " + std::to_string(r.tail_checked_to) + ")");
   else
     kv.emplace_back("output tail", "unknown (no model or closed form beyond the harmonics used)");
   kv.emplace_back("dc", with_u(r.dc, r.dc_u));
@@ -632,6 +664,7 @@ nlohmann::ordered_json predict_json(const PredictResult& r, std::size_t list_har
   j["input_left_out_fraction"] = finite_or_null(r.input_left_out_fraction);
   j["output_tail_estimate"] = finite_or_null(r.output_tail_estimate);
   j["tail_checked_to"] = r.tail_checked_to;
+  j["output_tail_method"] = r.output_tail_method;
   j["has_uncertainty"] = r.has_uncertainty;
   j["dc"] = r.dc;
   j["dc_u"] = u(r.dc_u);

@@ -30,7 +30,8 @@
 ///
 /// Misuse: the input series is truncated at N harmonics. For inputs with jumps and a system that
 /// passes high frequencies (not strictly proper) the samples show Gibbs overshoot whatever N;
-/// `output_tail_estimate` (Σ|Y_n| over the next harmonics) says how far the samples can be off,
+/// `output_tail_estimate` (Σ|Y_n| over n > N, summed to 4N and extrapolated beyond) says how far
+/// the samples can be off,
 /// and the status becomes "truncation-visible" when that exceeds kVisibleTailFraction of the
 /// output's peak.
 ///
@@ -111,9 +112,14 @@ struct PredictResult {
   std::string harmonic_count_method;  ///< "given", "automatic", "complete", "measured"
   /// Input ac energy left out by the truncation / total (NaN when unknown, e.g. a capture).
   double input_left_out_fraction = 0;
-  /// Σ|H(jnω0)·X_n| for N < n ≤ tail_checked_to (NaN when unknown: no model or no closed form).
+  /// Σ|H(jnω0)·X_n| over n > N: summed explicitly up to tail_checked_to (4N), the rest
+  /// extrapolated from the ratio of the last two octave sums (NaN when unknown: no model or no
+  /// closed form beyond N).
   double output_tail_estimate = 0;
   int tail_checked_to = 0;
+  /// "none" (the series ends at N), "summed+extrapolated", "summed (diverges)" (|Y_n| falls as
+  /// 1/n or slower: only the explicit part), "summed" (capped look-ahead), or "unknown".
+  std::string output_tail_method = "unknown";
   bool has_uncertainty = false;  ///< a covariance (model or measured) was propagated
   double dc = 0, dc_u = 0;
   double rms = 0, rms_u = 0;
