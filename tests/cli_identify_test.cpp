@@ -261,6 +261,13 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
                "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)");
   expect_error("identify " + rc + " --input v_in --output v_out --min-snr -3",
                "invalid option: min_snr_db = -3 (must be finite and >= 0)");
+  // A noise-free pure gain y = 2u fitted with 1/1: (b0 + b1 s)/(a0 + s) = 2 for any a0 = b0/2.
+  auto clean = rc_square(8, 0, 7);
+  for (std::size_t k = 0; k < clean.y.size(); ++k) clean.y[k] = 2 * clean.u[k];
+  write_text(dir.file("gain.csv"), csv({&clean.u, &clean.y}, {"v_in", "v_out"}));
+  expect_error("identify " + q(dir.file("gain.csv")) + " --input v_in --output v_out --f0-hint 50 --order 1/1",
+               "the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data cannot "
+               "determine this many coefficients; lower the order)");
   CHECK_FALSE(std::filesystem::exists(dir.file("m.json")));
 }
 

@@ -99,8 +99,9 @@ def main():
                 h0 = true_h(2 * math.pi * pt["freq_hz"], delay)
                 points += 1
                 mag_in += pt["mag_lo"] <= abs(h0) <= pt["mag_hi"]
-                ph = math.degrees(np.angle(h0))
-                phase_in += pt["phase_lo_deg"] <= ph <= pt["phase_hi_deg"]
+                # wrapped difference: intervals may cross ±180° (the delay turns the phase)
+                d = math.remainder(math.degrees(np.angle(h0)) - pt["phase_deg"], 360.0)
+                phase_in += abs(d) <= 0.5 * (pt["phase_hi_deg"] - pt["phase_lo_deg"])
             k = Z95 if a.normal else r["coverage_factor"]
             for par in r["model"]["parameters"]:
                 if par["name"] in truth:
