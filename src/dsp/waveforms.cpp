@@ -256,6 +256,8 @@ void TruncationOptions::validate() const {
                       "must be in [1e-14, 1): below 1e-14 rounding of the energy sum decides");
   if (max_harmonics < 1)
     throw OptionError("max_harmonics", std::to_string(max_harmonics), "must be >= 1");
+  if (harmonics > max_harmonics)
+    throw OptionError("harmonics", std::to_string(harmonics), "must be <= " + std::to_string(max_harmonics));
 }
 
 SeriesTruncation truncate_series(const WaveSpec& wave, const TruncationOptions& options) {

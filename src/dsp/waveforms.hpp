@@ -109,9 +109,9 @@ double wave_ac_energy(const WaveSpec& wave);
 bool wave_has_jumps(const WaveSpec& wave);
 
 struct TruncationOptions {
-  int harmonics = 0;                    ///< N; 0 = automatic (smallest N meeting the bound)
+  int harmonics = 0;                    ///< N; 0 = automatic (smallest N meeting the bound), <= max_harmonics
   double max_left_out_fraction = 1e-6;  ///< automatic: ac energy left out ≤ this × ac total
-  int max_harmonics = 2'000'000;        ///< automatic: give up above this N (AnalysisError)
+  int max_harmonics = 2'000'000;        ///< automatic: give up above this N (AnalysisError); caps a given N
 
   /// Throws OptionError naming the field, value and constraint.
   void validate() const;
