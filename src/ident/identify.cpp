@@ -87,8 +87,13 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   forced.f0_hz = f0;
   forced.max_harmonic = fit_u.harmonics();
   const dsp::HarmonicFit fit_y = dsp::fit_harmonics(out.channel->samples, fs, out.capture->t0_s, forced);
-  const dsp::PeriodGrid grid_u = dsp::resample_fitted(dsp::fit_residual(in.channel->samples, fit_u), fit_u, m);
-  const dsp::PeriodGrid grid_y = dsp::resample_fitted(dsp::fit_residual(out.channel->samples, fit_y), fit_y, m);
+  // The fit keeps its residual; recompute it only if it did not.
+  const auto lock_grid = [m](const std::vector<double>& x, const dsp::HarmonicFit& fit) {
+    if (fit.residual.size() == x.size()) return dsp::resample_fitted(fit.residual, fit, m);
+    return dsp::resample_fitted(dsp::fit_residual(x, fit), fit, m);
+  };
+  const dsp::PeriodGrid grid_u = lock_grid(in.channel->samples, fit_u);
+  const dsp::PeriodGrid grid_y = lock_grid(out.channel->samples, fit_y);
   const dsp::PeriodSpectra su = dsp::period_spectra(grid_u, harmonics);
   const dsp::PeriodSpectra sy = dsp::period_spectra(grid_y, harmonics);
   try {
