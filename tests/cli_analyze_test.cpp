@@ -1,0 +1,182 @@
+// CLI contract of `periodfit analyze`: outputs (text, JSON, CSV), channel selection, warnings
+// on stderr, and errors with exit code 2.
+#include <doctest/doctest.h>
+#include <sndfile.h>
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <numbers>
+#include <random>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+
+#include "support/cli_runner.hpp"
+
+using periodfit::test::run_cli;
+using periodfit::test::TempDir;
+using periodfit::test::write_text;
+using std::numbers::pi;
+
+namespace {
+
+/// CSV with a time column and two channels: v_in = cos at f0, v_out = distorted and delayed.
+std::string two_channel_csv(std::size_t n, double fs, double f0, double noise = 1e-4) {
+  std::mt19937_64 rng(4);
+  std::normal_distribution<double> d(0.0, noise);
+  std::ostringstream s;
+  s.precision(12);
+  s << "time,v_in,v_out\n";
+  for (std::size_t k = 0; k < n; ++k) {
+    const double t = static_cast<double>(k) / fs, w = 2 * pi * f0 * t;
+    s << t << "," << std::cos(w) + d(rng) << "," << 0.5 * std::cos(w - 0.7) + 0.05 * std::cos(3 * w) + d(rng)
+      << "\n";
+  }
+  return s.str();
+}
+
+std::string shell_quote(const std::string& p) { return "'" + p + "'"; }
+
+}  // namespace
+
+TEST_CASE("cli analyze: text report lists every channel, the figures and every harmonic") {
+  TempDir dir("cli_analyze_text");
+  write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
+  const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --harmonics 5");
+  REQUIRE(r.exit_code == 0);
+  CHECK(r.err.empty());
+  CHECK(r.out.find("v_in") != std::string::npos);
+  CHECK(r.out.find("\nv_out") != std::string::npos);
+  for (const char* key : {"  f0 ", "  periods ", "  dc ", "  rms ", "  THD ", "  THD+N ", "  noise floor ",
+                          "  uncertainty ", "  flags "})
+    CHECK(r.out.find(key) != std::string::npos);
+  // Five harmonic rows per channel, numbered 1…5, under the table header.
+  CHECK(r.out.find("  n    freq/Hz") != std::string::npos);
+  std::istringstream lines(r.out);
+  std::string line;
+  int rows = 0;
+  while (std::getline(lines, line))
+    if (line.size() > 3 && line.compare(0, 2, "  ") == 0 && line[2] >= '1' && line[2] <= '5' && line[3] == ' ') ++rows;
+  CHECK(rows == 10);
+}
+
+TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") {
+  TempDir dir("cli_analyze_json");
+  write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
+  const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --json - --harmonics 4");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::ordered_json::parse(r.out);  // stdout holds only the JSON
+  REQUIRE(j["channels"].size() == 2);
+  const auto& c = j["channels"][1];
+  std::vector<std::string> keys;
+  for (auto it = c.begin(); it != c.end(); ++it) keys.push_back(it.key());
+  // The minimum fields, in the documented order (docs/analyze-json.md).
+  const std::vector<std::string> expected = {
+      "name", "unit", "status", "f0_hz", "f0_u_hz", "f0_method", "periods", "whole_periods",
+      "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r", "thd_n",
+      "sinad_db", "snr_db", "enob_bits", "noise_rms", "noise_floor", "noise_floor_dbc",
+      "noise_method", "noise_dof", "fit", "drift", "flags", "warnings", "harmonics"};
+  CHECK(keys == expected);
+  CHECK(c["name"] == "v_out");
+  CHECK(c["f0_hz"].get<double>() == doctest::Approx(50.3).epsilon(1e-6));
+  // thd = 0.05/0.5 = 0.1 as a ratio (not 10 %), from the synthesised amplitudes.
+  CHECK(c["thd"].get<double>() == doctest::Approx(0.1).epsilon(1e-3));
+  REQUIRE(c["harmonics"].size() == 4);
+  const auto& h3 = c["harmonics"][2];
+  CHECK(h3["n"] == 3);
+  CHECK(h3["amplitude"].get<double>() == doctest::Approx(0.05).epsilon(1e-3));
+  for (const char* k : {"n", "freq_hz", "amplitude", "amplitude_u", "phase_deg", "phase_u_deg"})
+    CHECK(h3.contains(k));
+  // v_out = 0.5·cos(ωt − 0.7 rad): phase −40.107°.
+  CHECK(c["harmonics"][0]["phase_deg"].get<double>() == doctest::Approx(-0.7 * 180 / pi).epsilon(1e-4));
+}
+
+TEST_CASE("cli analyze: --csv writes the harmonics table; --channel selects by name and index") {
+  TempDir dir("cli_analyze_csv");
+  write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
+  const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --channel v_out --channel 0 --harmonics 3 --csv " +
+                         shell_quote(dir.file("h.csv")));
+  REQUIRE(r.exit_code == 0);
+  const std::string csv = periodfit::test::slurp(dir.file("h.csv"));
+  std::istringstream lines(csv);
+  std::string line;
+  std::getline(lines, line);
+  CHECK(line == "channel,unit,n,freq_hz,amplitude,amplitude_u,phase_deg,phase_u_deg,significant");
+  std::vector<std::string> rows;
+  while (std::getline(lines, line)) rows.push_back(line);
+  REQUIRE(rows.size() == 6);
+  CHECK(rows[0].rfind("v_out,", 0) == 0);  // in the order asked for
+  CHECK(rows[3].rfind("v_in,", 0) == 0);
+  CHECK(rows[0].substr(rows[0].size() - 4) == ",yes");
+}
+
+TEST_CASE("cli analyze: unknown channel and no periodic component are errors, exit 2") {
+  TempDir dir("cli_analyze_err");
+  write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
+  const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --channel v_ot");
+  CHECK(r.exit_code == 2);
+  CHECK(r.out.empty());
+  CHECK(r.err == "periodfit: error: unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)\n");
+
+  std::ostringstream s;
+  s << "time,hiss\n";
+  std::mt19937_64 rng(9);
+  std::normal_distribution<double> d(0.0, 1.0);
+  for (int k = 0; k < 4000; ++k) s << k * 1e-4 << "," << d(rng) << "\n";
+  write_text(dir.file("hiss.csv"), s.str());
+  const auto e = run_cli("analyze " + shell_quote(dir.file("hiss.csv")) + " --json " + shell_quote(dir.file("o.json")));
+  CHECK(e.exit_code == 2);
+  CHECK(e.err.rfind("periodfit: error: channel \"hiss\": no periodic component stands out of the noise", 0) == 0);
+  CHECK_FALSE(std::filesystem::exists(dir.file("o.json")));  // no partial result
+}
+
+TEST_CASE("cli analyze: warnings go to stderr, one line per flag") {
+  TempDir dir("cli_analyze_warn");
+  std::ostringstream s;
+  s << "time,c\n";
+  for (int k = 0; k < 4000; ++k) {
+    const double t = k * 1e-4;
+    s << t << "," << std::clamp(std::cos(2 * pi * 50.3 * t), -0.8, 0.8) << "\n";
+  }
+  write_text(dir.file("clip.csv"), s.str());
+  const auto r = run_cli("analyze " + shell_quote(dir.file("clip.csv")) + " --json -");
+  REQUIRE(r.exit_code == 0);
+  CHECK(r.err.rfind("periodfit: warning: channel \"c\": ", 0) == 0);
+  CHECK(r.err.find("looks clipped") != std::string::npos);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["channels"][0]["flags"][0] == "clipped");
+}
+
+TEST_CASE("cli analyze: --f0 forces the fundamental; WAV captures are read too") {
+  TempDir dir("cli_analyze_wav");
+  const int fs = 48000, n = 48000;
+  std::vector<float> x(static_cast<std::size_t>(n));
+  for (int k = 0; k < n; ++k) x[static_cast<std::size_t>(k)] = static_cast<float>(0.5 * std::cos(2 * pi * 1000.0 * k / fs));
+  SF_INFO info{};
+  info.samplerate = fs;
+  info.channels = 1;
+  info.format = SF_FORMAT_WAV | SF_FORMAT_FLOAT;
+  SNDFILE* f = sf_open(dir.file("tone.wav").c_str(), SFM_WRITE, &info);
+  REQUIRE(f != nullptr);
+  sf_writef_float(f, x.data(), n);
+  sf_close(f);
+  const auto r = run_cli("analyze " + shell_quote(dir.file("tone.wav")) + " --f0 1000 --harmonics 10 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto c = nlohmann::json::parse(r.out)["channels"][0];
+  CHECK(c["f0_method"] == "forced");
+  CHECK(c["f0_hz"] == 1000.0);
+  CHECK(c["samples_per_period"] == 48);  // coherent: 48 samples per period
+  CHECK(c["harmonics"][0]["amplitude"].get<double>() == doctest::Approx(0.5).epsilon(1e-7));
+  CHECK(c["harmonics"].size() == 10);
+}
+
+TEST_CASE("cli analyze: --help shows the defaults from the options struct") {
+  const auto r = run_cli("analyze --help");
+  CHECK(r.exit_code == 0);
+  for (const char* opt : {"--channel", "--f0", "--f0-hint", "--harmonics", "--json", "--csv", "--samples-per-period"})
+    CHECK(r.out.find(opt) != std::string::npos);
+  CHECK(r.out.find("=0") != std::string::npos);  // e.g. --harmonics N=0 (automatic)
+}
