@@ -76,12 +76,17 @@ const char* status_text(FileStatus status) {
   return "ERROR";
 }
 
-std::string render_html_report(const ReportDocument& document) {
+std::string render_html_report(ReportDocument document) {
   std::array<std::size_t, 3> counts{};
-  for (const auto& f : document.files) ++counts[static_cast<std::size_t>(f.status)];
+  std::size_t plot_bytes = 0;
+  for (const auto& f : document.files) {
+    ++counts[static_cast<std::size_t>(f.status)];
+    for (const auto& svg : f.plots) plot_bytes += svg.size();
+  }
 
   std::string html;
-  html.reserve(65536);
+  // The plots dominate; tables and text take a few kB per file.
+  html.reserve(plot_bytes + 65536 + 8192 * document.files.size());
   html += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
   // No scripts, no network: even an injected tag could not run or fetch anything.
   html += "<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; "
@@ -112,7 +117,7 @@ std::string render_html_report(const ReportDocument& document) {
   html += "</tbody>\n</table>\n";
 
   for (std::size_t i = 0; i < document.files.size(); ++i) {
-    const auto& f = document.files[i];
+    auto& f = document.files[i];
     html += "<section>\n<h2 id=\"file-" + std::to_string(i + 1) + "\">" + std::to_string(i + 1) +
             ". " + xml_escape(f.path) + " " + badge(f.status) + "</h2>\n";
     if (!f.messages.empty()) {
@@ -135,7 +140,10 @@ std::string render_html_report(const ReportDocument& document) {
     }
     if (!f.plots.empty()) {
       html += "<h3>Plots</h3>\n<div class=\"plots\">\n";
-      for (const auto& svg : f.plots) html += svg;
+      for (auto& svg : f.plots) {
+        html += svg;
+        std::string().swap(svg);  // copied: release it now
+      }
       html += "</div>\n";
     }
     if (!f.metadata.empty()) html += "<h3>Capture metadata</h3>\n" + key_value_table(f.metadata, "kv");

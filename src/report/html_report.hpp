@@ -45,7 +45,8 @@ struct ReportDocument {
   std::vector<ReportFile> files;  ///< in report order
 };
 
-/// The whole page.
-std::string render_html_report(const ReportDocument& document);
+/// The whole page. Takes the document by value and releases each file's plots once they are
+/// copied into the page, so a large report is held in memory about once, not twice.
+std::string render_html_report(ReportDocument document);
 
 }  // namespace periodfit::report
