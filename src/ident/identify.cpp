@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <future>
 #include <numbers>
 
 #include "core/error.hpp"
@@ -86,16 +87,21 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   dsp::LockOptions forced;
   forced.f0_hz = f0;
   forced.max_harmonic = fit_u.harmonics();
-  const dsp::HarmonicFit fit_y = dsp::fit_harmonics(out.channel->samples, fs, out.capture->t0_s, forced);
   // The fit keeps its residual; recompute it only if it did not.
   const auto lock_grid = [m](const std::vector<double>& x, const dsp::HarmonicFit& fit) {
     if (fit.residual.size() == x.size()) return dsp::resample_fitted(fit.residual, fit, m);
     return dsp::resample_fitted(dsp::fit_residual(x, fit), fit, m);
   };
-  const dsp::PeriodGrid grid_u = lock_grid(in.channel->samples, fit_u);
-  const dsp::PeriodGrid grid_y = lock_grid(out.channel->samples, fit_y);
-  const dsp::PeriodSpectra su = dsp::period_spectra(grid_u, harmonics);
-  const dsp::PeriodSpectra sy = dsp::period_spectra(grid_y, harmonics);
+  // The output's fit and both grids are independent once f0 is known: the output is locked on
+  // a second thread (the lock stage is thread-safe: cached FFTW plans behind a lock).
+  const std::vector<double>& y_samples = out.channel->samples;
+  const double y_t0 = out.capture->t0_s;
+  auto output_spectra = std::async(std::launch::async, [&, forced] {
+    const dsp::HarmonicFit fit_y = dsp::fit_harmonics(y_samples, fs, y_t0, forced);
+    return dsp::period_spectra(lock_grid(y_samples, fit_y), harmonics);
+  });
+  const dsp::PeriodSpectra su = dsp::period_spectra(lock_grid(in.channel->samples, fit_u), harmonics);
+  const dsp::PeriodSpectra sy = output_spectra.get();
   try {
     r.frf = compute_frf(su, sy, options.frf);
   } catch (const AnalysisError& e) {
