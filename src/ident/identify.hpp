@@ -5,8 +5,9 @@
 /// when an order is asked for, the rational model B(s)/A(s)·e^{−sT} (ident/rational_fit.hpp).
 ///
 /// Channels. Either one capture holding both channels, or two captures recorded on a common
-/// time base (same sample clock): their sample rates and lengths must be equal, each keeps its
-/// own t0_s. The fundamental is estimated on the input channel (or forced with f0_hz) and both
+/// time base (same sample clock, and t = 0 of both files the same instant, e.g. one trigger):
+/// their sample rates and lengths must be equal; each keeps its own t0_s, and phasors refer to
+/// t = 0, so a time column that starts later in one file is accounted for. The fundamental is estimated on the input channel (or forced with f0_hz) and both
 /// channels are resampled with the same (rate, start, f0, samples per period), so their periods
 /// coincide sample for sample.
 ///
