@@ -92,6 +92,9 @@ int run(const IdentifyArgs& a) {
     else if (flag == "few-periods")
       warn("only " + std::to_string(r.frf.periods) +
            " whole periods: uncertainties come from the neighbouring noise bins");
+    else if (flag == "numerical-floor")
+      warn("the record looks noise-free: some FRF variances were raised to the numerical floor, "
+           "so the uncertainties and the chi-square verdict say little");
     else if (flag == "model-not-converged")
       warn("the model fit did not converge: the parameters are the best found, not an optimum");
   }
