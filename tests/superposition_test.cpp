@@ -406,6 +406,11 @@ TEST_CASE("superposition: bad models and options are refused with clear messages
   predict::PredictSystem integrator;
   integrator.model = predict::model_from_coefficients({1}, {0, 1});
   CHECK_THROWS_AS(predict::predict_steady_state(wave(WaveKind::sine, 1, 50), integrator), AnalysisError);
+  predict::PredictSystem overflow;  // |H| overflows a double: an error, never a NaN result
+  overflow.model = predict::model_from_coefficients({1e308, 1e308}, {1, 1});
+  CHECK_THROWS_WITH_AS(predict::predict_steady_state(wave(WaveKind::sine, 1, 1000), overflow),
+                       "the system's response is not finite at 1000 Hz (harmonic 1): check the model's coefficients",
+                       AnalysisError);
   predict::PredictOptions o;
   o.periods = 0;
   CHECK_THROWS_WITH_AS(o.validate(), "invalid option: periods = 0 (must be >= 1)", OptionError);

@@ -250,6 +250,8 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
       throw AnalysisError("the measured FRF holds no point at 0 Hz but the input has a dc of " + num(x0) +
                           " (it holds " + measured_span() + "); give a model or remove the dc");
     h0 = model->response(0).real();
+    if (!std::isfinite(h0))
+      throw AnalysisError("the system's response is not finite at 0 Hz (its dc gain): check the model's coefficients");
     if (params > 0)
       for (const auto& g : model->response_gradient(0)) dc_g.push_back(g * x0);
   }
@@ -284,6 +286,9 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
                           measured_span() + "); give a model or limit the harmonic count");
     }
     t.y = t.h * t.x;
+    if (!std::isfinite(t.y.real()) || !std::isfinite(t.y.imag()))
+      throw AnalysisError("the system's response is not finite at " + hz(f0 * static_cast<double>(n)) +
+                          " Hz (harmonic " + std::to_string(n) + "): check the model's coefficients");
     terms.push_back(std::move(t));
   }
   if (x0 != 0) any_model = true;
