@@ -1,0 +1,145 @@
+// SIGINT during `periodfit batch` leaves no partial or temporary file in the report folder
+// (issue 7, item 5; io/output_file.hpp: every output is a temporary renamed into place, and the
+// temporaries in flight are removed when SIGINT/SIGTERM arrive).
+//
+// The test starts batch on enough generated captures that writing the report folder takes a
+// while, watches the folder, sends SIGINT as soon as the first entry appears (the run has begun
+// writing), and then checks what is left: no `.…tmp-…` temporaries, and every file that is
+// there is whole (each JSON parses, summary.csv has one complete row per capture).
+#include <doctest/doctest.h>
+#include <fcntl.h>
+#include <signal.h>
+#include <spawn.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <filesystem>
+#include <nlohmann/json.hpp>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "support/cli_runner.hpp"
+#include "support/hostile_inputs.hpp"
+
+extern char** environ;
+
+using namespace periodfit::test;
+namespace fs = std::filesystem;
+
+namespace {
+
+/// The batch must have started writing within this time, else the test says so (it generates
+/// captures that take well over this to analyse and write on the slowest CI machine).
+constexpr double kStartTimeoutSeconds = 120;
+
+struct Interrupted {
+  bool signalled_while_writing = false;  ///< SIGINT was sent after the folder got its first entry
+  int status = 0;                        ///< waitpid status
+};
+
+Interrupted run_and_interrupt(const std::string& captures, const std::string& report) {
+  std::vector<std::string> args = {PERIODFIT_EXE, "batch", captures, "--report", report, "--jobs", "2", "--quiet"};
+  std::vector<char*> argv;
+  for (auto& a : args) argv.push_back(a.data());
+  argv.push_back(nullptr);
+  posix_spawn_file_actions_t actions;
+  posix_spawn_file_actions_init(&actions);
+  posix_spawn_file_actions_addopen(&actions, 1, "/dev/null", O_WRONLY, 0);
+  posix_spawn_file_actions_addopen(&actions, 2, "/dev/null", O_WRONLY, 0);
+  pid_t pid = 0;
+  REQUIRE(posix_spawn(&pid, argv[0], &actions, nullptr, argv.data(), environ) == 0);
+  posix_spawn_file_actions_destroy(&actions);
+
+  Interrupted result;
+  const auto start = std::chrono::steady_clock::now();
+  for (;;) {
+    int status = 0;
+    if (::waitpid(pid, &status, WNOHANG) == pid) {  // finished before anything was seen
+      result.status = status;
+      return result;
+    }
+    std::error_code ec;
+    if (fs::exists(report, ec) && !fs::is_empty(report, ec)) break;
+    if (std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count() > kStartTimeoutSeconds) break;
+    std::this_thread::sleep_for(std::chrono::microseconds(200));
+  }
+  result.signalled_while_writing = true;
+  ::kill(pid, SIGINT);
+  ::waitpid(pid, &result.status, 0);
+  return result;
+}
+
+/// Problems with what a (possibly interrupted) batch left in `report`; empty = clean.
+std::vector<std::string> leftovers(const fs::path& report, std::size_t captures) {
+  std::vector<std::string> problems;
+  if (!fs::exists(report)) return problems;
+  for (const auto& entry : fs::recursive_directory_iterator(report)) {
+    const std::string name = entry.path().filename().string();
+    const std::string rel = fs::relative(entry.path(), report).string();
+    if (name.find(".tmp-") != std::string::npos || name.find(".tmp") != std::string::npos) {
+      problems.push_back("temporary left: " + rel);
+      continue;
+    }
+    if (!entry.is_regular_file()) continue;
+    const std::string text = slurp(entry.path());
+    if (entry.path().extension() == ".json" && nlohmann::json::parse(text, nullptr, false).is_discarded())
+      problems.push_back("partial JSON: " + rel + " (" + std::to_string(text.size()) + " bytes)");
+    if (name == "summary.csv") {
+      std::size_t lines = 0;
+      for (char c : text) lines += c == '\n';
+      if (text.empty() || text.back() != '\n' || lines < captures + 1)
+        problems.push_back("partial summary.csv: " + std::to_string(lines) + " lines for " +
+                           std::to_string(captures) + " captures");
+    }
+    if (entry.path().extension() == ".html" && text.find("</html>") == std::string::npos)
+      problems.push_back("partial HTML: " + rel);
+  }
+  return problems;
+}
+
+}  // namespace
+
+TEST_CASE("batch: SIGINT while the report folder is being written leaves no partial or temporary file") {
+  if (!command_has_option("batch", "--report")) {
+    MESSAGE("SKIPPED (batch not built yet): SIGINT during batch");
+    return;
+  }
+  TempDir dir("batch_sigint");
+  const fs::path captures = dir.path / "captures";
+  fs::create_directories(captures);
+  // 240 captures of 4000 samples (two channels, 10 periods of a 3-harmonic wave): enough that
+  // the per-file JSONs and the HTML report with its plots take a noticeable time to write.
+  constexpr std::size_t kCaptures = 240;
+  for (std::size_t i = 0; i < kCaptures; ++i) {
+    Signal s;
+    s.f0_hz = 50 + 0.01 * static_cast<double>(i);
+    s.amplitudes = {1.0, 0.1, 0.02};
+    s.noise_rms = 1e-3;
+    s.seed = static_cast<unsigned>(i + 1);
+    Signal o = s;
+    o.amplitudes = {0.5, 0.03, 0.004};
+    o.seed = static_cast<unsigned>(i + 1000);
+    char name[32];
+    std::snprintf(name, sizeof name, "unit_%04zu.csv", i);
+    write_text((captures / name).string(),
+               capture_csv(2000, {synthesize(s, 2000, 4000), synthesize(o, 2000, 4000)}, {"v_in", "v_out"}));
+  }
+  int interrupted = 0;
+  for (int attempt = 0; attempt < 3; ++attempt) {
+    const fs::path report = dir.path / ("report" + std::to_string(attempt));
+    const Interrupted r = run_and_interrupt(captures.string(), report.string());
+    const bool by_signal = WIFSIGNALED(r.status) && WTERMSIG(r.status) == SIGINT;
+    const bool exited = WIFEXITED(r.status);
+    if (r.signalled_while_writing) {
+      // Killed by SIGINT (the handler re-raises it after cleaning up), or an orderly exit.
+      CHECK_MESSAGE((by_signal || exited), "status " << r.status);
+      if (by_signal || (exited && WEXITSTATUS(r.status) != 0 && WEXITSTATUS(r.status) != 1)) ++interrupted;
+    }
+    const auto problems = leftovers(report, kCaptures);
+    for (const auto& p : problems) FAIL_CHECK("attempt " << attempt << ": " << p);
+    if (interrupted > 0) break;
+  }
+  CHECK_MESSAGE(interrupted > 0, "batch finished every time before SIGINT arrived: the test did not interrupt a write");
+}

@@ -1,0 +1,232 @@
+// Numerical honesty (issue 7, item 4): analyze and identify flag or refuse a result whose
+// uncertainty estimate rests on conditions the data do not meet — too few periods for a
+// per-period variance, an input harmonic at the noise floor (the first-order FRF variance needs
+// a high input SNR), an ill-conditioned model fit (the Jacobian-based covariance is then only
+// rounding). Each test builds the condition, runs the CLI and asserts the flag or the refusal.
+//
+// Commands that have not landed yet are skipped with a visible MESSAGE.
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <complex>
+#include <limits>
+#include <nlohmann/json.hpp>
+#include <numbers>
+#include <string>
+#include <vector>
+
+#include "support/cli_runner.hpp"
+#include "support/hostile_inputs.hpp"
+
+using namespace periodfit::test;
+using nlohmann::json;
+
+namespace {
+
+/// A harmonic is resolved when its amplitude exceeds this many standard uncertainties (the
+/// analyze default `significance`, dsp/harmonics.hpp; common practice: a 3σ detection).
+constexpr double kSignificanceSigmas = 3;
+/// The first-order FRF variance (Pintelon & Schoukens 2012, §2.4) needs input SNR ≳ 20 dB; the
+/// identify default --min-snr is that value (ident/frf.hpp).
+constexpr double kMinInputSnrDb = 20;
+/// Beyond this condition number of the scaled Jacobian, double precision (1e-16) leaves fewer
+/// than 6 digits in the parameters and the first-order covariance is not meaningful (common
+/// practice: digits lost ≈ log10 of the condition number).
+constexpr double kIllConditioned = 1e10;
+
+bool has_flag(const json& j, const std::string& code) {
+  if (!j.contains("flags")) return false;
+  for (const auto& f : j["flags"]) {
+    if (f.is_string() && f.get<std::string>() == code) return true;
+    if (f.is_object() && f.value("code", "") == code) return true;
+  }
+  return false;
+}
+
+/// Input multisine (harmonics 1…K, amplitude `amps[n-1]`, Schroeder-like phases) and the output
+/// of a first-order RC low-pass H = 1/(1 + jωτ) (standard circuit theory) in steady state.
+std::pair<std::vector<double>, std::vector<double>> rc_capture(double fs, double f0, std::size_t n,
+                                                               const std::vector<double>& amps, double tau,
+                                                               double noise, unsigned seed) {
+  Signal in;
+  in.f0_hz = f0;
+  in.amplitudes = amps;
+  in.noise_rms = noise;
+  in.seed = seed;
+  Signal out = in;
+  out.seed = seed + 7919;
+  for (std::size_t h = 0; h < amps.size(); ++h) {
+    const double k = static_cast<double>(h + 1);
+    const double ph = -std::numbers::pi * k * k / static_cast<double>(amps.size());  // Schroeder (1970)
+    in.phases_deg.push_back(ph * 180 / std::numbers::pi);
+    const std::complex<double> H = 1.0 / std::complex<double>(1.0, 2 * std::numbers::pi * k * f0 * tau);
+    out.amplitudes[h] = amps[h] * std::abs(H);
+    out.phases_deg.push_back((ph + std::arg(H)) * 180 / std::numbers::pi);
+  }
+  return {synthesize(in, fs, n), synthesize(out, fs, n)};
+}
+
+std::pair<CliRun, json> run_json(const std::string& args) {
+  CliRun r = run_cli(args + " --json -");
+  json j;
+  if (r.exit_code == 0) j = json::parse(r.out, nullptr, false);
+  return {r, j};
+}
+
+}  // namespace
+
+// ---- analyze ---------------------------------------------------------------------------------
+
+TEST_CASE("honesty: analyze of 1.7 periods flags few-periods and does not claim a per-period variance") {
+  if (!command_has_option("analyze", "--json")) {
+    MESSAGE("SKIPPED (analyze not built yet): few periods");
+    return;
+  }
+  TempDir dir("hon_few");
+  Signal s;
+  s.f0_hz = 17;  // 100 ms at 1 kHz: 1.7 periods
+  s.amplitudes = {1.0, 0.2};
+  s.noise_rms = 1e-3;
+  write_text(dir.file("few.csv"), capture_csv(1000, {synthesize(s, 1000, 100)}));
+  const auto [r, j] = run_json("analyze '" + dir.file("few.csv") + "' --harmonics 2");
+  REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
+  const json& c = j["channels"][0];
+  CHECK(has_flag(c, "few-periods"));
+  // Per-period variances need ≥ 4 whole periods (issue 3, item 2); 1 whole period cannot give one.
+  if (c.contains("noise_method")) CHECK(c["noise_method"].get<std::string>() != "per-period");
+  if (c.contains("noise_dof")) CHECK(c["noise_dof"].get<int>() > 0);
+}
+
+TEST_CASE("honesty: analyze marks a harmonic at the noise floor as not resolved, with a wide phase") {
+  if (!command_has_option("analyze", "--json")) {
+    MESSAGE("SKIPPED (analyze not built yet): harmonic at the noise floor");
+    return;
+  }
+  TempDir dir("hon_floor");
+  Signal s;
+  s.f0_hz = 50;
+  s.amplitudes = {1.0, 0.0, 1e-7};  // 3rd harmonic far below the noise line amplitude (~4e-4)
+  s.noise_rms = 1e-2;
+  write_text(dir.file("floor.csv"), capture_csv(5000, {synthesize(s, 5000, 20000)}));
+  const auto [r, j] = run_json("analyze '" + dir.file("floor.csv") + "' --harmonics 5");
+  REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
+  const json& h = j["channels"][0]["harmonics"];
+  REQUIRE(h.size() >= 3);
+  const json& h3 = h[2];
+  CHECK(h3["n"].get<int>() == 3);
+  CHECK(h3["amplitude"].get<double>() < kSignificanceSigmas * h3["amplitude_u"].get<double>());
+  if (h3.contains("significant")) CHECK_FALSE(h3["significant"].get<bool>());
+  // A line inside the noise has no defined phase: its uncertainty must be large (≥ 10°), not a
+  // small number that would make a random phase look measured.
+  CHECK(h3["phase_u_deg"].get<double>() >= 10);
+  // The fundamental, 40 dB above the noise, is resolved.
+  CHECK(h[0]["amplitude"].get<double>() > kSignificanceSigmas * h[0]["amplitude_u"].get<double>());
+  if (h[0].contains("significant")) CHECK(h[0]["significant"].get<bool>());
+}
+
+TEST_CASE("honesty: analyze asked for more harmonics than the record can carry refuses or stays finite") {
+  if (!command_has_option("analyze", "--json")) {
+    MESSAGE("SKIPPED (analyze not built yet): harmonics beyond the record");
+    return;
+  }
+  TempDir dir("hon_h");
+  Signal s;
+  s.f0_hz = 20;
+  s.noise_rms = 1e-3;
+  // 80 samples at 1 kHz (1.6 periods) and 30 harmonics: 2·30 + 2 = 62 parameters for 80 samples.
+  write_text(dir.file("h.csv"), capture_csv(1000, {synthesize(s, 1000, 80)}));
+  const CliRun r = run_cli("analyze '" + dir.file("h.csv") + "' --harmonics 30 --json -");
+  if (r.exit_code == 0) {
+    const json j = json::parse(r.out);
+    CHECK(has_flag(j["channels"][0], "few-periods"));
+    for (const auto& h : j["channels"][0]["harmonics"]) CHECK(h["amplitude_u"].is_number());
+  } else {
+    CHECK_MESSAGE(is_clear_error(r), describe(r));
+  }
+}
+
+// ---- identify --------------------------------------------------------------------------------
+
+TEST_CASE("honesty: identify on 3 periods flags few-periods and takes variances from noise bins") {
+  if (!command_has_option("identify", "--order")) {
+    MESSAGE("SKIPPED (identify not built yet): few periods");
+    return;
+  }
+  TempDir dir("hon_id_few");
+  const auto [u, y] = rc_capture(10000, 100, 300, std::vector<double>(10, 0.3), 1e-3, 1e-4, 3);
+  write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
+  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out");
+  REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
+  CHECK(has_flag(j, "few-periods"));
+  CHECK(j["frf_method"].get<std::string>() == "noise-bins");
+  CHECK(j["frf_dof"].get<int>() > 0);
+  CHECK(j["quantile"].get<std::string>() == "student-t");
+}
+
+TEST_CASE("honesty: identify refuses an input channel that carries only noise") {
+  if (!command_has_option("identify", "--order")) {
+    MESSAGE("SKIPPED (identify not built yet): input at the noise floor");
+    return;
+  }
+  TempDir dir("hon_id_noise");
+  Signal noise;
+  noise.amplitudes = {};
+  noise.noise_rms = 1e-2;
+  Signal out = noise;
+  out.seed = 99;
+  write_text(dir.file("noise.csv"),
+             capture_csv(10000, {synthesize(noise, 10000, 20000), synthesize(out, 10000, 20000)}, {"v_in", "v_out"}));
+  const CliRun r = run_cli("identify '" + dir.file("noise.csv") + "' --input v_in --output v_out --f0 100 --json -");
+  CHECK_MESSAGE(is_clear_error(r), describe(r));
+}
+
+TEST_CASE("honesty: identify lists only harmonics whose input clears the noise floor by --min-snr") {
+  if (!command_has_option("identify", "--order")) {
+    MESSAGE("SKIPPED (identify not built yet): weak input harmonics");
+    return;
+  }
+  TempDir dir("hon_id_weak");
+  // Harmonics 1…8 at 0.3, 9…12 at 3e-6: the latter sit at the noise floor (noise 1e-3 rms over
+  // 40 periods of 100 samples gives a line floor ≈ 2·1e-3/√4000 ≈ 3e-5).
+  std::vector<double> amps(12, 0.3);
+  for (std::size_t i = 8; i < 12; ++i) amps[i] = 3e-6;
+  const auto [u, y] = rc_capture(10000, 100, 4000, amps, 1e-3, 1e-3, 5);
+  write_text(dir.file("weak.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
+  const auto [r, j] = run_json("identify '" + dir.file("weak.csv") + "' --input v_in --output v_out --harmonics 12");
+  REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
+  for (const auto& p : j["frf"]) {
+    CHECK_MESSAGE(p["input_snr_db"].get<double>() >= kMinInputSnrDb, "harmonic " << p["n"] << " listed at "
+                                                                                  << p["input_snr_db"] << " dB");
+    CHECK(p["n"].get<int>() <= 8);
+  }
+  CHECK(j["frf"].size() == 8);
+}
+
+TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-conditioned") {
+  if (!command_has_option("identify", "--order")) {
+    MESSAGE("SKIPPED (identify not built yet): ill-conditioned fit");
+    return;
+  }
+  TempDir dir("hon_id_cond");
+  // A first-order RC (τ = 1 ms) fitted as 4/4 on 10 harmonics: 9 parameters, pole-zero pairs
+  // that cancel, so the Jacobian is nearly rank-deficient.
+  const auto [u, y] = rc_capture(10000, 100, 4000, std::vector<double>(10, 0.3), 1e-3, 1e-5, 11);
+  write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
+  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --order 4/4");
+  if (r.exit_code != 0) {
+    CHECK_MESSAGE(is_clear_error(r), describe(r));
+    return;
+  }
+  REQUIRE(j["model"].is_object());
+  const double cond = j["model"]["condition_number"].is_number() ? j["model"]["condition_number"].get<double>()
+                                                                  : std::numeric_limits<double>::infinity();
+  if (cond > kIllConditioned)
+    CHECK_MESSAGE(has_flag(j, "ill-conditioned"), "condition number " << cond << " without an ill-conditioned flag");
+  else
+    MESSAGE("4/4 fit came out with condition number " << cond << " (not ill-conditioned)");
+  // The well-posed order on the same data is not flagged.
+  const auto [r1, j1] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --order 0/1");
+  REQUIRE_MESSAGE(r1.exit_code == 0, describe(r1));
+  CHECK_FALSE(has_flag(j1, "ill-conditioned"));
+  CHECK(j1["model"]["condition_number"].get<double>() < kIllConditioned);
+}
