@@ -173,8 +173,8 @@ TEST_CASE("svg: spectrum bars are 20·log10 of the amplitude") {
   CHECK(bars.y[0] == doctest::Approx(0));
   CHECK(bars.y[1] == doctest::Approx(-20));
   CHECK(bars.y[2] == fig.panels[0].y.min);  // a zero amplitude draws no bar
-  CHECK(fig.panels[0].y.max == 20);
-  CHECK(fig.panels[0].y.min == -100);       // 120 dB shown by default
+  CHECK(fig.panels[0].y.max == 40);        // 0 dB top bar + at least 25 dB headroom for the legend
+  CHECK(fig.panels[0].y.min == -80);        // 120 dB shown by default
   CHECK(fig.panels[0].y.unit == "dB re 1 V");
 }
 

@@ -879,7 +879,8 @@ Figure spectrum_figure(const SpectrumPlotData& data) {
   if (!std::isfinite(top)) top = 0;
   const double range = std::clamp(data.range_db, 20.0, 300.0);
   Axis y = make_axis("amplitude", "dB re 1" + (data.unit.empty() ? "" : " " + data.unit));
-  y.max = std::ceil((top + 5) / 20) * 20;
+  // Headroom above the tallest bar leaves space for the legend.
+  y.max = std::ceil((top + 25) / 20) * 20;
   y.min = y.max - std::ceil(range / 20) * 20;
   // Show the noise floor too when it lies below the default range (up to 200 dB in all).
   double floor_lo = kInf;
