@@ -18,7 +18,7 @@ dir=${1:-/tmp/periodfit-bench-1gb}
 mkdir -p "$dir"
 file=$dir/capture_1gb.csv
 rows=38000000   # ≈ 28 bytes a row (time 7 digits, volts 6): just over 1 GiB
-if [ ! -f "$file" ] || [ "$(stat -c %s "$file")" -lt $((1024 * 1024 * 1024)) ]; then
+if [ ! -f "$file" ] || [ "$(stat -c %s "$file")" -lt 1000000000 ]; then
   echo "writing $file ($rows rows)…" >&2
   /usr/bin/python3 "$root/tools/bench/csv_import_gen.py" "$file" "$rows"
 fi
