@@ -1,13 +1,81 @@
 #!/usr/bin/env bash
-# Installs what the build and the tests need, builds into build/, and runs the whole suite.
-# Usage: tools/test.sh            (CI=true turns warnings into errors)
+# Installs what the build and the tests need, builds into build/, and runs the whole suite; then
+# the same suite under AddressSanitizer + UndefinedBehaviorSanitizer (build-asan/), then, in CI or
+# when asked, each libFuzzer target (tools/fuzz.sh). Prints the time of each stage at the end.
+# Usage: tools/test.sh
+#   CI=true                      warnings are errors; fuzzing runs (60 s per target)
+#   PERIODFIT_FUZZ_SECONDS=N     run the fuzz stage with N seconds per target (0 = skip it)
+#   PERIODFIT_SKIP_ASAN=1        skip the sanitizer stage (local quick runs only; CI never sets it)
 set -euo pipefail
 PERIODFIT_ROOT=$(cd "$(dirname "$0")/.." && pwd)
 cd "$PERIODFIT_ROOT"
 source tools/deps.sh
 
+stage_names=()
+stage_seconds=()
+stage_start=0
+begin_stage() { stage_start=$SECONDS; echo "periodfit: == $1 ==" >&2; }
+end_stage() { stage_names+=("$1"); stage_seconds+=($((SECONDS - stage_start))); }
+print_times() {
+  local i
+  echo "periodfit: stage times:" >&2
+  for i in "${!stage_names[@]}"; do
+    printf 'periodfit:   %-34s %5d s\n' "${stage_names[$i]}" "${stage_seconds[$i]}" >&2
+  done
+}
+trap print_times EXIT
+
+begin_stage "install"
 periodfit_install "${PERIODFIT_BUILD_PACKAGES[@]}" "${PERIODFIT_TEST_PACKAGES[@]}"
+end_stage "install"
+
 werror=OFF
 [ "${CI:-}" = true ] && werror=ON
+jobs=$(nproc)
+
+begin_stage "build + ctest (build/)"
 periodfit_build build -DPERIODFIT_WERROR=$werror -DBUILD_TESTING=ON
-ctest --test-dir build --output-on-failure -j "$(nproc)"
+ctest --test-dir build --output-on-failure -j "$jobs"
+end_stage "build + ctest (build/)"
+
+# --- the whole suite again under ASan + UBSan -----------------------------------------------
+# Every report is written to build-asan/sanitizer-reports/ (log_path) as well as failing the
+# process (halt_on_error), so a report from a periodfit child process of a CLI test is caught
+# even when that test only looked at an exit code: the stage fails unless the folder is empty.
+if [ "${PERIODFIT_SKIP_ASAN:-}" = 1 ] && [ "${CI:-}" != true ]; then
+  echo "periodfit: sanitizer stage SKIPPED (PERIODFIT_SKIP_ASAN=1)" >&2
+else
+  begin_stage "asan+ubsan build + ctest (build-asan/)"
+  periodfit_build build-asan -DPERIODFIT_SANITIZE=ON -DPERIODFIT_WERROR=$werror -DBUILD_TESTING=ON
+  reports="$PERIODFIT_ROOT/build-asan/sanitizer-reports"
+  rm -rf "$reports"
+  mkdir -p "$reports"
+  ASAN_OPTIONS="detect_leaks=1:halt_on_error=1:log_path=$reports/asan" \
+  UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1:log_path=$reports/ubsan" \
+    ctest --test-dir build-asan --output-on-failure -j "$jobs" || asan_failed=1
+  if [ -n "$(ls -A "$reports")" ]; then
+    echo "periodfit: sanitizer reports:" >&2
+    for f in "$reports"/*; do echo "--- $f" >&2; head -n 80 "$f" >&2; done
+    exit 1
+  fi
+  [ "${asan_failed:-0}" = 0 ] || exit 1
+  echo "periodfit: sanitizers: 0 reports" >&2
+  end_stage "asan+ubsan build + ctest (build-asan/)"
+fi
+
+# --- fuzzing: CI, or when asked ---------------------------------------------------------------
+fuzz_seconds=${PERIODFIT_FUZZ_SECONDS:-}
+[ -z "$fuzz_seconds" ] && [ "${CI:-}" = true ] && fuzz_seconds=60
+if [ -z "$fuzz_seconds" ] || [ "$fuzz_seconds" = 0 ]; then
+  echo "periodfit: fuzz stage not run (set PERIODFIT_FUZZ_SECONDS=N or CI=true)" >&2
+else
+  begin_stage "fuzz (build-fuzz/, ${fuzz_seconds}s per target)"
+  status=0
+  tools/fuzz.sh "$fuzz_seconds" || status=$?
+  if [ "$status" = 3 ]; then
+    echo "periodfit: fuzz stage SKIPPED: clang++ / libclang-rt-14-dev missing" >&2
+  elif [ "$status" != 0 ]; then
+    exit "$status"
+  fi
+  end_stage "fuzz (build-fuzz/, ${fuzz_seconds}s per target)"
+fi
