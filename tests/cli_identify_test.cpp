@@ -206,6 +206,22 @@ TEST_CASE("cli identify: --save-model writes a model file that reads back") {
   CHECK(model.frf.size() == 16);
 }
 
+TEST_CASE("cli identify: --plot writes a Bode SVG with both panels and the model curve") {
+  const TempDir dir("cli_identify_plot");
+  auto s = rc_square(8, 1e-3, 3);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 " +
+                         "--order 0/1 --plot " + q(dir.file("bode.svg")));
+  REQUIRE(r.exit_code == 0);
+  const std::string svg = periodfit::test::slurp(dir.file("bode.svg"));
+  CHECK(svg.rfind("<?xml", 0) == 0);
+  CHECK(svg.find("magnitude (dB)") != std::string::npos);
+  CHECK(svg.find("phase (°)") != std::string::npos);
+  CHECK(svg.find("frequency (Hz)") != std::string::npos);
+  CHECK(svg.find("fitted model 0/1") != std::string::npos);
+  CHECK(svg.find("</svg>") != std::string::npos);
+}
+
 TEST_CASE("cli identify: two files on a common time base, --scale per channel, --skew") {
   const TempDir dir("cli_identify_two");
   auto s = rc_square(8, 1e-3, 4, 0.5);  // output recorded at half scale

@@ -34,7 +34,8 @@ periodfit_install() {
   apt-get install -y -q --no-install-recommends "${missing[@]}" >/dev/null || return 1
 }
 
-# periodfit_build BUILD_DIR [CMAKE_ARGS…]: configures (Release with debug info) and builds.
+# periodfit_build BUILD_DIR [CMAKE_ARGS…]: configures (Release with debug info) and builds
+# everything, or only $PERIODFIT_TARGET when that is set.
 periodfit_build() {
   local dir=$1
   shift
@@ -45,5 +46,5 @@ periodfit_build() {
   else
     cmake -S "$PERIODFIT_ROOT" -B "$dir" "$@" >/dev/null || return 1
   fi
-  cmake --build "$dir" -j "$(nproc)" || return 1
+  cmake --build "$dir" -j "$(nproc)" ${PERIODFIT_TARGET:+--target "$PERIODFIT_TARGET"} || return 1
 }

@@ -15,6 +15,8 @@
 #include "io/capture_reader.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
+#include "report/result_plots.hpp"
+#include "report/svg_plot.hpp"
 
 namespace periodfit::cli {
 
@@ -25,6 +27,7 @@ struct IdentifyArgs {
   std::string output_file;
   std::string json_path;
   std::string model_path;
+  std::string plot_path;
   io::ReadOptions read;  ///< --rate, --scale, --unit, --time-column
   ident::IdentifyOptions options;
 };
@@ -72,6 +75,8 @@ int run(const IdentifyArgs& a) {
   const bool json_to_stdout = a.json_path == "-";
   if (!json_to_stdout) std::fputs(ident::format_identify_report(r).c_str(), stdout);
   if (!a.json_path.empty()) io::write_file_atomic(a.json_path, ident::identify_json(r).dump(2) + "\n");
+  if (!a.plot_path.empty())
+    io::write_file_atomic(a.plot_path, report::svg_document(report::identify_bode_figure(r)));
   if (!a.model_path.empty() && r.model) {
     std::string source = r.input_source;
     if (r.output_source != r.input_source) source += ", " + r.output_source;
@@ -143,6 +148,9 @@ Runner add_identify(CLI::App& app) {
   app.add_option("--json", a->json_path, "also write the result as JSON to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");
   app.add_option("--save-model", a->model_path, "write the fitted model with its covariance to PATH (needs --order)")
+      ->type_name("PATH");
+  app.add_option("--plot", a->plot_path,
+                 "write a Bode plot (magnitude and phase with 95 % error bars and the model) as SVG to PATH")
       ->type_name("PATH");
   add_capture_options(app, a->read);
   return [a]() { return run(*a); };
