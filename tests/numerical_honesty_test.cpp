@@ -155,7 +155,7 @@ TEST_CASE("honesty: identify on 3 periods flags few-periods and takes variances 
   TempDir dir("hon_id_few");
   const auto [u, y] = rc_capture(10000, 100, 300, std::vector<double>(10, 0.3), 1e-3, 1e-4, 3);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out");
+  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100");
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   CHECK(has_flag(j, "few-periods"));
   CHECK(j["frf_method"].get<std::string>() == "noise-bins");
@@ -192,7 +192,7 @@ TEST_CASE("honesty: identify lists only harmonics whose input clears the noise f
   for (std::size_t i = 8; i < 12; ++i) amps[i] = 3e-6;
   const auto [u, y] = rc_capture(10000, 100, 4000, amps, 1e-3, 1e-3, 5);
   write_text(dir.file("weak.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("weak.csv") + "' --input v_in --output v_out --harmonics 12");
+  const auto [r, j] = run_json("identify '" + dir.file("weak.csv") + "' --input v_in --output v_out --f0 100 --harmonics 12");
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   for (const auto& p : j["frf"]) {
     CHECK_MESSAGE(p["input_snr_db"].get<double>() >= kMinInputSnrDb, "harmonic " << p["n"] << " listed at "
@@ -212,7 +212,7 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   // that cancel, so the Jacobian is nearly rank-deficient.
   const auto [u, y] = rc_capture(10000, 100, 4000, std::vector<double>(10, 0.3), 1e-3, 1e-5, 11);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --order 4/4");
+  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 4/4");
   if (r.exit_code != 0) {
     CHECK_MESSAGE(is_clear_error(r), describe(r));
     return;
@@ -225,7 +225,7 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   else
     MESSAGE("4/4 fit came out with condition number " << cond << " (not ill-conditioned)");
   // The well-posed order on the same data is not flagged.
-  const auto [r1, j1] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --order 0/1");
+  const auto [r1, j1] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 0/1");
   REQUIRE_MESSAGE(r1.exit_code == 0, describe(r1));
   CHECK_FALSE(has_flag(j1, "ill-conditioned"));
   CHECK(j1["model"]["condition_number"].get<double>() < kIllConditioned);
