@@ -168,7 +168,7 @@ TEST_CASE("lock: per-period spectra give each harmonic's phasor at the file's or
   const auto x = synth(2000, fs, t0, f0, 0.25, kFiveTones);
   const dsp::PeriodGrid g = dsp::resample_to_periods(x, fs, t0, f0, 80);
   const dsp::PeriodSpectra s = dsp::period_spectra(g, 10);
-  CHECK(s.periods == 26);  // ⌊1999·13.37/1000 + 1/80⌋ = 26
+  CHECK(s.periods == 26);  // ⌊2000·13.37/1000⌋ = 26
   REQUIRE(s.per_period.size() == 26u);
   CHECK(std::abs(s.mean[0] - 0.25) < 1e-12);
   for (const auto& tone : kFiveTones) {
@@ -229,4 +229,16 @@ TEST_CASE("lock: a coherent capture is resampled onto its own samples") {
   double worst = 0;
   for (std::size_t i = 0; i < x.size(); ++i) worst = std::max(worst, std::abs(g.samples[i] - x[i]));
   CHECK(worst < 1e-12);
+}
+
+TEST_CASE("lock: a multisine whose strongest line is a high harmonic locks onto its period") {
+  // Lines 3…20 of 25 Hz with equal amplitudes and Schroeder phases φ_k = −π·k(k−1)/K (Schroeder
+  // 1970, low crest factor); no line at 25 Hz itself. The period is 1/25 s: the comb of the
+  // spectrum's lines (all multiples of 25 Hz) gives it, whichever line is strongest.
+  const double fs = 2000, f0 = 25.0;
+  std::vector<Tone> tones;
+  for (int k = 3; k <= 20; ++k) tones.push_back({k, 0.1, -180.0 * k * (k - 1) / 18.0});
+  const auto x = synth(1600, fs, 0, f0, 0, tones, 1e-4, 21);  // 20 periods
+  const dsp::Fundamental f = dsp::estimate_fundamental(x, fs);
+  CHECK(std::abs(f.f0_hz / f0 - 1) < 1e-6);
 }

@@ -359,8 +359,8 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz) {
   std::vector<double> p(spec.size());
   for (std::size_t k = 0; k < spec.size(); ++k) p[k] = std::norm(spec[k]);
   const double bin_hz = fs / nfft;
-  const double record_bin = static_cast<double>(pad) * static_cast<double>(nfft) / (static_cast<double>(n) * pad);  // padded bins per record bin
-  std::size_t kmin = static_cast<std::size_t>(std::ceil(0.7 * record_bin * pad));
+  const double record_bin = static_cast<double>(nfft) / static_cast<double>(n);  // padded bins per record bin
+  std::size_t kmin = static_cast<std::size_t>(std::ceil(0.7 * record_bin));  // ≥ 0.7 periods
   std::size_t kmax = p.size() - 2;
   if (hint_hz > 0) {
     kmin = std::max<std::size_t>(kmin, static_cast<std::size_t>(std::floor(hint_hz / 1.2 / bin_hz)));
@@ -382,18 +382,57 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz) {
   const std::size_t kp = peak_in(kmin, kmax);
   double f = refine(kp);
   if (hint_hz > 0) return f;
-  // Sub-multiples: the true fundamental may be weaker than its 2nd (3rd, 4th) harmonic.
-  const double half_window = static_cast<double>(pad);  // ±1 record bin, in padded bins
-  for (int m : {4, 3, 2}) {
+  // Harmonic comb: the fundamental is the largest f_peak/m of which every significant
+  // spectral peak is a harmonic. This finds a fundamental weaker than its 2nd harmonic
+  // (full-wave rectifier with unequal halves) and that of a multisine whose strongest line
+  // is any harmonic. Significant: a local maximum within −50 dB of the strongest, 25× above
+  // the median level (noise), and 20 dB above the Hann sidelobe envelope
+  // |W(d)|/|W(0)| ≈ 1/(π·d·(d²−1)) of every stronger peak d record bins away (Harris 1978),
+  // so a short record's sidelobes do not pass for lines.
+  std::vector<double> sorted(p.begin() + static_cast<long>(kmin), p.begin() + static_cast<long>(kmax) + 1);
+  std::nth_element(sorted.begin(), sorted.begin() + static_cast<long>(sorted.size() / 2), sorted.end());
+  const double median = sorted[sorted.size() / 2];
+  const double level = std::max(1e-5 * p[kp], 25 * median);
+  struct Peak {
+    double f;
+    double power;
+  };
+  std::vector<Peak> candidates;
+  for (std::size_t k = std::max<std::size_t>(kmin, 1); k <= kmax; ++k)
+    if (p[k] > level && p[k] > p[k - 1] && p[k] >= p[k + 1]) candidates.push_back({refine(k), p[k]});
+  std::sort(candidates.begin(), candidates.end(), [](const Peak& l, const Peak& r) { return l.power > r.power; });
+  if (candidates.size() > 400) candidates.resize(400);
+  const double record_bin_hz = fs / static_cast<double>(n);
+  std::vector<Peak> lines;
+  for (const auto& c : candidates) {
+    bool sidelobe = false;
+    for (const auto& l : lines) {
+      const double d = std::abs(c.f - l.f) / record_bin_hz;
+      const double env = d > 1.5 ? 1 / (kPi * d * (d * d - 1)) : 1.0;
+      if (c.power < 100 * env * env * l.power) {
+        sidelobe = true;
+        break;
+      }
+    }
+    if (!sidelobe) lines.push_back(c);
+  }
+  if (lines.size() <= 1 || f * static_cast<double>(n) / fs < 2 * kShortRecordPeriods) return f;
+  // A sub-multiple must span at least 8 record bins (8 periods in the record): narrower, any
+  // set of lines lies "near" some multiple of it by chance, and short records' lines are
+  // not resolved well enough to judge (use --f0-hint there).
+  const int m_max = static_cast<int>(std::min(2000.0, f / (8 * record_bin_hz)));
+  for (int m = 1; m <= m_max; ++m) {
     const double fc = f / m;
-    const double kc = fc / bin_hz;
-    if (kc < 1.0 * pad) continue;  // needs at least one period in the record
-    const auto lo = static_cast<std::size_t>(std::max(1.0, std::floor(kc - half_window)));
-    const auto hi = static_cast<std::size_t>(std::ceil(kc + half_window));
-    if (hi + 1 >= p.size() || lo >= hi) continue;
-    const std::size_t k = peak_in(lo, hi);
-    const bool interior = k > lo && k < hi;
-    if (interior && p[k] >= 1e-6 * p[kp] && p[k] > p[k - 1] && p[k] >= p[k + 1]) return refine(k);
+    const double fc_err = 0.1 * record_bin_hz / m;  // interpolation error of f, shared by 1/m
+    bool all = true;
+    for (const auto& l : lines) {
+      const double j = std::round(l.f / fc);
+      if (j < 1 || std::abs(l.f - j * fc) > 0.6 * record_bin_hz + j * fc_err) {
+        all = false;
+        break;
+      }
+    }
+    if (all) return fc;
   }
   return f;
 }
@@ -611,13 +650,27 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   // Does the fundamental stand out of the noise? Under noise alone A1²/(σ²·(u_aa+u_bb)/2) is
   // χ²(2)-distributed; the threshold allows for the search over ~N candidate frequencies
   // (false-alarm probability ≈ e^{-10}).
-  const double a1sq = fit.a[1] * fit.a[1] + fit.b[1] * fit.b[1];
-  const double var1 = fit.sigma2 * 0.5 * (fit.unit_cov[1][0] + fit.unit_cov[1][1]);
-  const double threshold = 2 * std::log(static_cast<double>(n)) + 20;
+  // The strongest harmonic decides (a multisine need not contain its fundamental); the
+  // threshold also allows for taking the best of H.
+  std::size_t best = 1;
+  double best_z2 = -1;
+  for (std::size_t m = 1; m <= static_cast<std::size_t>(hf); ++m) {
+    const double amp2 = fit.a[m] * fit.a[m] + fit.b[m] * fit.b[m];
+    const double var = fit.sigma2 * 0.5 * (fit.unit_cov[m][0] + fit.unit_cov[m][1]);
+    const double z2 = var > 0 ? amp2 / var : (amp2 > 0 ? std::numeric_limits<double>::infinity() : 0);
+    if (z2 > best_z2) {
+      best_z2 = z2;
+      best = m;
+    }
+  }
+  const double a1sq = fit.a[best] * fit.a[best] + fit.b[best] * fit.b[best];
+  const double var1 = fit.sigma2 * 0.5 * (fit.unit_cov[best][0] + fit.unit_cov[best][1]);
+  const double threshold =
+      2 * std::log(static_cast<double>(n)) + 2 * std::log(static_cast<double>(hf)) + 20;
   if (a1sq == 0 || (var1 > 0 && a1sq / var1 < threshold)) {
     const double z = var1 > 0 ? std::sqrt(a1sq / var1) : 0;
     throw AnalysisError("no periodic component stands out of the noise: the strongest candidate, " +
-                        str(fit.fundamental.f0_hz) + " Hz, has an amplitude of only " +
+                        io::format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
                         io::format_significant(z, 3) + " standard uncertainties (needs " +
                         io::format_significant(std::sqrt(threshold), 3) + ")");
   }
@@ -711,9 +764,12 @@ PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& 
   const std::size_t n = residual.size();
   const double fs = fit.fs_hz, f0 = fit.fundamental.f0_hz;
   if (m < 2) throw OptionError("samples_per_period", std::to_string(m), "must be >= 2");
-  const double cycles = static_cast<double>(n - 1) * f0 / fs;  // periods between first and last sample
-  const double p_real = (cycles * m + 1) / m;
-  const int periods = static_cast<int>(std::floor(p_real + 1e-9));
+  // The record's N sample intervals span N·f0/fs periods; the grid holds the whole ones. Its
+  // last point may lie up to one sample interval past the last sample, where the residual is
+  // interpolated one-sidedly (the model part is exact everywhere).
+  // (1e-3 period of slack: a capture of exactly one period whose fitted f0 is a hair low.)
+  const double cycles = static_cast<double>(n) * f0 / fs;
+  const int periods = static_cast<int>(std::floor(cycles + 1e-3));
   if (periods < 1)
     throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
                         " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");

@@ -40,8 +40,9 @@
 ///     samples (β = 6, passband ripple ≲ 1e-3 below 0.44·fs). A noise-free band-limited
 ///     record is therefore locked to rounding error, and the interpolation error on noise is
 ///     ~1e-3 of the noise.
-///     The grid starts at the first sample and holds the P = ⌊(N−1)·f0/fs + 1/M⌋ whole periods
-///     that fit inside the record; the partial period at the END of the record is dropped.
+///     The grid starts at the first sample and holds the P = ⌊N·f0/fs⌋ whole periods of the
+///     record's N sample intervals; the partial period at the END of the record is dropped
+///     (the last grid point may lie up to one sample interval past the last sample).
 ///
 /// Misuse: the model assumes f0 is constant over the record; a drifting f0 is fitted by its
 /// average and the residual grows (analyze flags "drift"). Records shorter than ~1.5 periods
