@@ -18,9 +18,9 @@
 /// orthogonal and the ω column is orthogonal to the cosines' even part). e_k is taken as
 /// zero-mean noise; the fit is least squares, which is maximum likelihood for white Gaussian e.
 ///  1. Coarse ω: Hann-windowed, zero-padded FFT peak with Gaussian (log-parabolic)
-///     interpolation. A sub-multiple f/m (m = 4, 3, 2) of the peak that is itself a spectral
-///     peak within −60 dB of it is taken instead (2nd harmonic stronger than the fundamental,
-///     e.g. a full-wave rectifier with unequal halves). With f0_hint_hz the peak is searched
+///     interpolation; then the largest f/m of which every significant line is a harmonic
+///     (harmonic comb: 2nd harmonic stronger than the fundamental, as in a full-wave rectifier
+///     with unequal halves; multisines). With f0_hint_hz the peak is searched
 ///     within ±20 % of the hint only. Records under 12 periods are then searched on a
 ///     0.02-bin grid of the 3-harmonic least-squares criterion, because the DC and the
 ///     negative-frequency image bias the FFT peak at a few periods.
