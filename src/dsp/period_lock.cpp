@@ -4,6 +4,7 @@
 
 #include <Eigen/Dense>
 #include <algorithm>
+#include <atomic>
 #include <cassert>
 #include <cmath>
 #include <cstddef>
@@ -122,7 +123,11 @@ namespace {
 
 enum class Isa { avx512, avx2, base };
 
+std::atomic<int> forced_isa{-1};  // test hook: -1 = by CPU features
+
 Isa cpu_isa() {
+  const int forced = forced_isa.load(std::memory_order_relaxed);
+  if (forced >= 0) return static_cast<Isa>(forced);
   static const Isa isa = [] {
     __builtin_cpu_init();
     if (__builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512dq") &&
@@ -502,6 +507,28 @@ HarmonicFit make_fit(const Evaluation& e, std::span<const double> x, double fs, 
 }  // namespace
 
 // ---- public --------------------------------------------------------------------------------
+
+bool force_kernel_for_testing(const std::string& name) {
+  __builtin_cpu_init();
+  if (name.empty()) {
+    forced_isa = -1;
+    return true;
+  }
+  if (name == "base") {
+    forced_isa = static_cast<int>(Isa::base);
+    return true;
+  }
+  if (name == "avx2" && __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma")) {
+    forced_isa = static_cast<int>(Isa::avx2);
+    return true;
+  }
+  if (name == "avx512" && __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512dq") &&
+      __builtin_cpu_supports("avx512vl") && __builtin_cpu_supports("avx512bw")) {
+    forced_isa = static_cast<int>(Isa::avx512);
+    return true;
+  }
+  return false;
+}
 
 void validate(const LockOptions& o) {
   if (!std::isfinite(o.f0_hint_hz) || o.f0_hint_hz < 0)

@@ -173,4 +173,8 @@ int default_samples_per_period(double fs_hz, double f0_hz, int max_harmonic);
 PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& fit,
                            int samples_per_period);
 
+/// Test hook: run the streamed sums with one instruction set ("avx512", "avx2", "base"; ""
+/// = by CPU features again). Returns false when this CPU lacks it. Not for production use.
+bool force_kernel_for_testing(const std::string& name);
+
 }  // namespace periodfit::dsp
