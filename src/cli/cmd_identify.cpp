@@ -74,7 +74,7 @@ int run(const IdentifyArgs& a) {
   }
   const bool json_to_stdout = a.json_path == "-";
   if (!json_to_stdout) std::fputs(ident::format_identify_report(r).c_str(), stdout);
-  if (!a.json_path.empty()) io::write_file_atomic(a.json_path, ident::identify_json(r).dump(2) + "\n");
+  if (!a.json_path.empty()) io::write_file_atomic(a.json_path, ident::identify_json(r).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
   if (!a.plot_path.empty())
     io::write_file_atomic(a.plot_path, report::svg_document(report::identify_bode_figure(r)));
   if (!a.model_path.empty() && r.model) {
