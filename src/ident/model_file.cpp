@@ -143,7 +143,7 @@ std::string format_model_file(const ModelFile& file) {
                          {"cov_re_im", p.cov_re_im}});
     doc["frf"] = std::move(pts);
   }
-  return doc.dump(2) + "\n";
+  return doc.dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n";
 }
 
 void write_model_file(const std::string& path, const ModelFile& file) {
