@@ -46,7 +46,10 @@ if [ "${PERIODFIT_SKIP_ASAN:-}" = 1 ] && [ "${CI:-}" != true ]; then
   echo "periodfit: sanitizer stage SKIPPED (PERIODFIT_SKIP_ASAN=1)" >&2
 else
   begin_stage "asan+ubsan build + ctest (build-asan/)"
-  periodfit_build build-asan -DPERIODFIT_SANITIZE=ON -DPERIODFIT_WERROR=$werror -DBUILD_TESTING=ON
+  # Warnings are not errors here: the normal build already checks them, and gcc 12's flow
+  # warnings are unreliable under ASan instrumentation (a false -Wmaybe-uninitialized inside
+  # std::regex / std::function breaks a -Werror build).
+  periodfit_build build-asan -DPERIODFIT_SANITIZE=ON -DPERIODFIT_WERROR=OFF -DBUILD_TESTING=ON
   reports="$PERIODFIT_ROOT/build-asan/sanitizer-reports"
   rm -rf "$reports"
   mkdir -p "$reports"
