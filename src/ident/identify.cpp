@@ -134,6 +134,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
       r.status = "model-inadequate";
     }
     if (r.model->unstable) r.flags.push_back("unstable-pole");
+    if (!(r.model->condition_number <= kIllConditionedJacobian)) r.flags.push_back("ill-conditioned");
     if (r.model->status == LeastSquaresStatus::max_iterations ||
         r.model->status == LeastSquaresStatus::failed) {
       r.flags.push_back("model-not-converged");

@@ -39,6 +39,13 @@
 
 namespace periodfit::ident {
 
+/// Condition number of the model fit's column-scaled Jacobian beyond which the result carries
+/// the flag "ill-conditioned": double precision then keeps fewer than ~6 significant digits of
+/// the parameters (digits lost ≈ log10 of the condition number), so the first-order covariance
+/// behind every model uncertainty is not to be trusted (common practice). An over-parameterised
+/// order (pole–zero pairs that nearly cancel) is the usual cause.
+inline constexpr double kIllConditionedJacobian = 1e10;
+
 struct IdentifyOptions {
   std::string input_channel = "0";   ///< DUT input: channel name or 0-based index
   std::string output_channel = "1";  ///< DUT output: name or index (in the output capture when two)
@@ -70,7 +77,7 @@ struct IdentifyResult {
   LinearityResult linearity;
   std::optional<RationalFitResult> model;  ///< present when an order was asked for
   double model_confidence = 0.95;  ///< level of the χ² adequacy band
-  std::vector<std::string> flags;  ///< "nonlinear", "model-inadequate", "unstable-pole", "few-periods"
+  std::vector<std::string> flags;  ///< "nonlinear", "model-inadequate", "unstable-pole", "few-periods", "ill-conditioned"
 };
 
 /// Both channels from one capture.
