@@ -7,6 +7,9 @@
 
 #include <algorithm>
 #include <array>
+#include <atomic>
+#include <csignal>
+#include <mutex>
 #include <cstdint>
 #include <cctype>
 #include <cerrno>
@@ -1074,15 +1077,80 @@ void Parser::slow_row(const Line& line) {
   }
 }
 
+// A file cut shorter while it is mapped (another process truncating it, a network share going
+// away) makes every access past the new end raise SIGBUS. The guard below catches that for the
+// mappings registered here: it maps zero pages over the rest of the mapping (mmap is a plain
+// system call, safe in practice inside the handler), marks the mapping truncated and returns,
+// so the parse runs on to its end and read_csv reports the truncation as an input error.
+// Faults outside our mappings get the default action.
+constexpr std::size_t kGuardSlots = 64;
+struct GuardSlot {
+  std::atomic<char*> base{nullptr};
+  std::atomic<std::size_t> size{0};
+  std::atomic<bool> truncated{false};
+};
+std::array<GuardSlot, kGuardSlots> g_guarded;
+struct sigaction g_previous_sigbus {};
+
+extern "C" void on_mapped_file_sigbus(int signal_number, siginfo_t* info, void* context) {
+  char* const fault = static_cast<char*>(info->si_addr);
+  for (auto& slot : g_guarded) {
+    char* const base = slot.base.load();
+    const std::size_t size = slot.size.load();
+    if (base && fault >= base && fault < base + size) {
+      const auto page = static_cast<std::uintptr_t>(::sysconf(_SC_PAGESIZE));
+      char* const from = reinterpret_cast<char*>(reinterpret_cast<std::uintptr_t>(fault) / page * page);
+      ::mmap(from, static_cast<std::size_t>(base + size - from), PROT_READ,
+             MAP_PRIVATE | MAP_ANONYMOUS | MAP_FIXED, -1, 0);
+      slot.truncated.store(true);
+      return;
+    }
+  }
+  if (g_previous_sigbus.sa_flags & SA_SIGINFO) {
+    g_previous_sigbus.sa_sigaction(signal_number, info, context);
+    return;
+  }
+  std::signal(signal_number, SIG_DFL);
+  std::raise(signal_number);
+}
+
+void install_sigbus_guard() {
+  static std::once_flag once;
+  std::call_once(once, [] {
+    struct sigaction action {};
+    action.sa_sigaction = on_mapped_file_sigbus;
+    sigemptyset(&action.sa_mask);
+    action.sa_flags = SA_SIGINFO;
+    ::sigaction(SIGBUS, &action, &g_previous_sigbus);
+  });
+}
+
 // A read-only mapping of a regular file; pages behind the parse are given back.
 class MappedFile {
  public:
   MappedFile(const MappedFile&) = delete;
   MappedFile& operator=(const MappedFile&) = delete;
-  MappedFile(void* base, std::size_t size) : base_(base), size_(size) {}
+  MappedFile(void* base, std::size_t size) : base_(base), size_(size) {
+    install_sigbus_guard();
+    for (std::size_t i = 0; i < kGuardSlots; ++i) {
+      char* expected = nullptr;
+      if (g_guarded[i].base.compare_exchange_strong(expected, static_cast<char*>(base))) {
+        g_guarded[i].truncated.store(false);
+        g_guarded[i].size.store(size);
+        slot_ = i;
+        break;
+      }
+    }
+  }
   ~MappedFile() {
+    if (slot_ < kGuardSlots) {
+      g_guarded[slot_].size.store(0);
+      g_guarded[slot_].base.store(nullptr);
+    }
     if (base_) ::munmap(base_, size_);
   }
+  /// True once an access found the file shorter than when it was mapped.
+  bool truncated() const { return slot_ < kGuardSlots && g_guarded[slot_].truncated.load(); }
   std::string_view text() const { return {static_cast<const char*>(base_), size_}; }
   void release_before(std::size_t offset) {
     const auto page = static_cast<std::size_t>(::sysconf(_SC_PAGESIZE));
@@ -1101,6 +1169,7 @@ class MappedFile {
   void* base_;
   std::size_t size_;
   std::size_t released_ = 0;
+  std::size_t slot_ = kGuardSlots;  ///< guard slot; kGuardSlots = unguarded (all slots busy)
 };
 
 }  // namespace
@@ -1142,7 +1211,20 @@ Capture read_csv(const std::string& path, const CsvOptions& options) {
     if (offset == 0) file.release_all();
     else file.release_before(offset);
   };
-  return Parser(file.text(), path, options, release).run();
+  const auto truncated_error = [&] {
+    return InputError(path, 0, 0, "the file became shorter while it was being read (" +
+                                      std::to_string(size) + " bytes when opened); read it again once it is complete");
+  };
+  try {
+    Capture capture = Parser(file.text(), path, options, release).run();
+    if (file.truncated()) throw truncated_error();
+    return capture;
+  } catch (const Error&) {
+    // Zero pages stand in for the lost tail, so the parse may have failed on them: the
+    // truncation is the real cause.
+    if (file.truncated()) throw truncated_error();
+    throw;
+  }
 }
 
 }  // namespace periodfit::io
