@@ -20,6 +20,7 @@
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
 #include "report/svg_plot.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::batch {
 
@@ -355,7 +356,7 @@ BatchResult run_batch(const BatchOptions& options) {
       try {
         FileWork w = process(i, paths[i], options);
         io::write_file_atomic((fs::path(options.report_dir) / w.result.json_file).string(),
-                              w.document.dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
+                              io::json_text(w.document));
         w.document = json();  // written; free it
         works[i] = std::move(w);
         // The file's transient buffers (capture, grids, spectra) were freed between the small
@@ -405,7 +406,7 @@ BatchResult run_batch(const BatchOptions& options) {
   result.summary_json = (dir / "summary.json").string();
   result.report_html = (dir / "report.html").string();
   io::write_file_atomic(result.summary_csv, summary_csv(works, options.config));
-  io::write_file_atomic(result.summary_json, summary_json(works, result, options).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
+  io::write_file_atomic(result.summary_json, io::json_text(summary_json(works, result, options)));
 
   report::ReportDocument doc;
   doc.title = options.config.title;

@@ -12,6 +12,7 @@
 #include "dsp/harmonics.hpp"
 #include "io/capture_reader.hpp"
 #include "io/output_file.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -61,7 +62,7 @@ Runner add_analyze(CLI::App& app) {
     const dsp::AnalyzeReport report = dsp::analyze_capture(capture, args->channels, args->options);
     // Files are written only once every channel is analysed: an error leaves no partial result.
     if (!args->json_path.empty())
-      io::write_file_atomic(args->json_path, dsp::analyze_json(report).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
+      io::write_file_atomic(args->json_path, io::json_text(dsp::analyze_json(report)));
     if (!args->csv_path.empty()) io::write_file_atomic(args->csv_path, dsp::harmonics_csv(report));
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)

@@ -10,6 +10,7 @@
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
 #include "predict/excitation.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -97,7 +98,7 @@ Runner add_excite(CLI::App& app) {
     const predict::ExciteResult r = predict::generate_excitation(opt);
     predict::write_excitation(a->out_path, r);
     for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
-    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, predict::excitation_json(r).dump(2) + "\n");
+    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, io::json_text(predict::excitation_json(r)));
     if (a->out_path != "-" && a->json_path != "-") {
       const std::string text = predict::excitation_text(r);
       std::fwrite(text.data(), 1, text.size(), stdout);

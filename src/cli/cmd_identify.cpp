@@ -17,6 +17,7 @@
 #include "io/output_file.hpp"
 #include "report/result_plots.hpp"
 #include "report/svg_plot.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -74,7 +75,7 @@ int run(const IdentifyArgs& a) {
   }
   const bool json_to_stdout = a.json_path == "-";
   if (!json_to_stdout) std::fputs(ident::format_identify_report(r).c_str(), stdout);
-  if (!a.json_path.empty()) io::write_file_atomic(a.json_path, ident::identify_json(r).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
+  if (!a.json_path.empty()) io::write_file_atomic(a.json_path, io::json_text(ident::identify_json(r)));
   if (!a.plot_path.empty())
     io::write_file_atomic(a.plot_path, report::svg_document(report::identify_bode_figure(r)));
   if (!a.model_path.empty() && r.model) {

@@ -10,6 +10,7 @@
 #include "io/capture_reader.hpp"
 #include "io/info.hpp"
 #include "io/output_file.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -35,7 +36,7 @@ Runner add_info(CLI::App& app) {
       // Names and metadata are bytes from the file, not always UTF-8: invalid sequences are
       // written as U+FFFD so the JSON stays valid (docs/robustness.md, entry 16).
       io::write_file_atomic(args->json_path,
-                            io::info_json(infos).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
+                            io::json_text(io::info_json(infos)));
     if (args->json_path != "-") {
       std::string text;
       for (std::size_t i = 0; i < infos.size(); ++i) text += (i ? "\n" : "") + io::info_text(infos[i]);

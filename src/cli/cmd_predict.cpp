@@ -14,6 +14,7 @@
 #include "io/capture_reader.hpp"
 #include "io/output_file.hpp"
 #include "predict/superposition.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -149,7 +150,7 @@ Runner add_predict(CLI::App& app) {
     }
     for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
     if (!a->csv_path.empty()) io::write_file_atomic(a->csv_path, predict::format_predict_csv(r));
-    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, predict::predict_json(r, a->list).dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n");
+    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, io::json_text(predict::predict_json(r, a->list)));
     if (a->json_path != "-" && a->csv_path != "-") {
       const std::string text = predict::predict_text(r, a->list);
       std::fwrite(text.data(), 1, text.size(), stdout);

@@ -25,7 +25,7 @@
 /// Usage:
 ///   IdentifyOptions o; o.input_channel = "v_in"; o.output_channel = "v_out"; o.order = "0/2";
 ///   const IdentifyResult r = identify(io::read_capture("bench.csv"), o);
-///   io::write_file_atomic("-", identify_json(r).dump(2) + "\n");
+///   io::write_file_atomic("-", io::json_text(identify_json(r)));
 #include <nlohmann/json.hpp>
 #include <optional>
 #include <string>

@@ -8,6 +8,7 @@
 #include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::ident {
 
@@ -143,7 +144,7 @@ std::string format_model_file(const ModelFile& file) {
                          {"cov_re_im", p.cov_re_im}});
     doc["frf"] = std::move(pts);
   }
-  return doc.dump(2, ' ', false, nlohmann::json::error_handler_t::replace) + "\n";
+  return io::json_text(doc);
 }
 
 void write_model_file(const std::string& path, const ModelFile& file) {
