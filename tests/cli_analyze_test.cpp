@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdlib>
 #include <filesystem>
 #include <numbers>
 #include <random>
@@ -92,6 +93,23 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
     CHECK(h3.contains(k));
   // v_out = 0.5·cos(ωt − 0.7 rad): phase −40.107°.
   CHECK(c["harmonics"][0]["phase_deg"].get<double>() == doctest::Approx(-0.7 * 180 / pi).epsilon(1e-4));
+}
+
+TEST_CASE("cli analyze: --plot writes a well-formed spectrum SVG with labelled axes") {
+  TempDir dir("cli_analyze_plot");
+  write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
+  const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --harmonics 5 --plot " +
+                         shell_quote(dir.file("spectrum.svg")));
+  REQUIRE(r.exit_code == 0);
+  const std::string svg = periodfit::test::slurp(dir.file("spectrum.svg"));
+  CHECK(svg.rfind("<?xml", 0) == 0);
+  CHECK(svg.find("harmonic") != std::string::npos);
+  CHECK(svg.find("amplitude (dB") != std::string::npos);
+  CHECK(svg.find("</svg>") != std::string::npos);
+  if (std::system("command -v xmllint >/dev/null 2>&1") == 0)  // Debian libxml2-utils
+    CHECK(std::system(("xmllint --noout " + shell_quote(dir.file("spectrum.svg"))).c_str()) == 0);
+  else
+    MESSAGE("xmllint not installed: SVG well-formedness not checked here");
 }
 
 TEST_CASE("cli analyze: --csv writes the harmonics table; --channel selects by name and index") {

@@ -13,6 +13,8 @@
 #include "io/capture_reader.hpp"
 #include "io/output_file.hpp"
 #include "io/json_writer.hpp"
+#include "report/result_plots.hpp"
+#include "report/svg_plot.hpp"
 
 namespace periodfit::cli {
 
@@ -22,6 +24,7 @@ struct AnalyzeArgs {
   std::vector<std::string> channels;  ///< empty = every data channel
   std::string json_path;              ///< "" = none; "-" = stdout instead of the text
   std::string csv_path;               ///< "" = none; "-" = stdout instead of the text
+  std::string plot_path;              ///< "" = none; else the harmonic spectrum as SVG
   dsp::AnalyzeOptions options;
   io::ReadOptions read;
 };
@@ -53,6 +56,9 @@ Runner add_analyze(CLI::App& app) {
   app.add_option("--json", args->json_path,
                  "also write the results as JSON to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");
+  app.add_option("--plot", args->plot_path,
+                 "write the harmonic spectrum (dB, one panel per channel) as SVG to PATH")
+      ->type_name("PATH");
   app.add_option("--csv", args->csv_path,
                  "also write the harmonics table as CSV to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");
@@ -64,6 +70,8 @@ Runner add_analyze(CLI::App& app) {
     if (!args->json_path.empty())
       io::write_file_atomic(args->json_path, io::json_text(dsp::analyze_json(report)));
     if (!args->csv_path.empty()) io::write_file_atomic(args->csv_path, dsp::harmonics_csv(report));
+    if (!args->plot_path.empty())
+      io::write_file_atomic(args->plot_path, report::svg_document(report::analyze_spectra_figure(report)));
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
         std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n", channel.name.c_str(),
