@@ -71,8 +71,6 @@ json quantity_json(const Quantity& q) {
   return j;
 }
 
-json number_or_null(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
-
 json limit_json(const Limit& l, std::size_t index) {
   json j;
   j["index"] = index + 1;
@@ -81,8 +79,8 @@ json limit_json(const Limit& l, std::size_t index) {
   j["label"] = l.label;
   j["description"] = l.describe();
   j["allowed"] = l.allowed_text();
-  j["lo"] = number_or_null(l.lo);
-  j["hi"] = number_or_null(l.hi);
+  j["lo"] = io::json_number(l.lo);
+  j["hi"] = io::json_number(l.hi);
   j["guard_band"] = l.guard_band;
   return j;
 }
@@ -93,9 +91,9 @@ json outcome_json(const Limit& l, const LimitOutcome& o, std::size_t index) {
   j["key"] = l.key();
   j["passed"] = o.passed;
   j["evaluated"] = o.evaluated;
-  j["value"] = o.evaluated ? number_or_null(o.measured.value) : json(nullptr);
-  j["lo95"] = o.evaluated && o.measured.has_interval() ? number_or_null(o.measured.lo95) : json(nullptr);
-  j["hi95"] = o.evaluated && o.measured.has_interval() ? number_or_null(o.measured.hi95) : json(nullptr);
+  j["value"] = o.evaluated ? io::json_number(o.measured.value) : json(nullptr);
+  j["lo95"] = o.evaluated && o.measured.has_interval() ? io::json_number(o.measured.lo95) : json(nullptr);
+  j["hi95"] = o.evaluated && o.measured.has_interval() ? io::json_number(o.measured.hi95) : json(nullptr);
   j["measured"] = o.measured_text;
   j["verdict"] = o.verdict;
   return j;

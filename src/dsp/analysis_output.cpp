@@ -6,15 +6,10 @@
 
 #include "io/number_format.hpp"
 #include "report/table.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::dsp {
 namespace {
-
-/// A finite double as a JSON number, anything else as null.
-nlohmann::ordered_json num(double v) {
-  if (!std::isfinite(v)) return nullptr;
-  return v;
-}
 
 std::string csv_field(const std::string& s) {
   if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
@@ -65,42 +60,42 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   j["name"] = c.name;
   j["unit"] = c.unit;
   j["status"] = c.status;
-  j["f0_hz"] = num(c.fundamental.f0_hz);
-  j["f0_u_hz"] = num(c.fundamental.f0_u_hz);
+  j["f0_hz"] = io::json_number(c.fundamental.f0_hz);
+  j["f0_u_hz"] = io::json_number(c.fundamental.f0_u_hz);
   j["f0_method"] = c.fundamental.method;
-  j["periods"] = num(c.periods);
+  j["periods"] = io::json_number(c.periods);
   j["whole_periods"] = c.whole_periods;
   j["samples_per_period"] = c.samples_per_period;
-  j["dc"] = num(c.dc);
-  j["dc_u"] = num(c.dc_u);
-  j["rms"] = num(c.rms);
-  j["peak"] = num(c.peak_abs);
-  j["crest_factor"] = num(c.crest_factor);
-  j["thd"] = num(c.distortion.thd);
-  j["thd_r"] = num(c.distortion.thd_r);
-  j["thd_n"] = num(c.distortion.thd_n);
-  j["sinad_db"] = num(c.distortion.sinad_db);
-  j["snr_db"] = num(c.distortion.snr_db);
-  j["enob_bits"] = num(c.distortion.enob_bits);
-  j["noise_rms"] = num(c.noise_rms);
-  j["noise_floor"] = num(c.noise_floor);
-  j["noise_floor_dbc"] = num(c.noise_floor_dbc);
+  j["dc"] = io::json_number(c.dc);
+  j["dc_u"] = io::json_number(c.dc_u);
+  j["rms"] = io::json_number(c.rms);
+  j["peak"] = io::json_number(c.peak_abs);
+  j["crest_factor"] = io::json_number(c.crest_factor);
+  j["thd"] = io::json_number(c.distortion.thd);
+  j["thd_r"] = io::json_number(c.distortion.thd_r);
+  j["thd_n"] = io::json_number(c.distortion.thd_n);
+  j["sinad_db"] = io::json_number(c.distortion.sinad_db);
+  j["snr_db"] = io::json_number(c.distortion.snr_db);
+  j["enob_bits"] = io::json_number(c.distortion.enob_bits);
+  j["noise_rms"] = io::json_number(c.noise_rms);
+  j["noise_floor"] = io::json_number(c.noise_floor);
+  j["noise_floor_dbc"] = io::json_number(c.noise_floor_dbc);
   j["noise_method"] = c.noise_method;
   j["noise_dof"] = c.noise_dof;
   nlohmann::ordered_json fit;
   fit["harmonics"] = c.fundamental.harmonics_fitted;
   fit["dof"] = c.fundamental.dof;
-  fit["residual_rms"] = num(c.fundamental.residual_rms);
+  fit["residual_rms"] = io::json_number(c.fundamental.residual_rms);
   fit["iterations"] = c.fundamental.iterations;
   fit["converged"] = c.fundamental.converged;
-  fit["condition"] = num(c.fundamental.condition);
+  fit["condition"] = io::json_number(c.fundamental.condition);
   j["fit"] = fit;
   nlohmann::ordered_json drift;
   const bool checked = c.f0_first_half_hz > 0;
   drift["checked"] = checked;
-  drift["f0_first_half_hz"] = checked ? num(c.f0_first_half_hz) : nullptr;
-  drift["f0_second_half_hz"] = checked ? num(c.f0_second_half_hz) : nullptr;
-  drift["sigmas"] = checked ? num(c.drift_sigmas) : nullptr;
+  drift["f0_first_half_hz"] = checked ? io::json_number(c.f0_first_half_hz) : nullptr;
+  drift["f0_second_half_hz"] = checked ? io::json_number(c.f0_second_half_hz) : nullptr;
+  drift["sigmas"] = checked ? io::json_number(c.drift_sigmas) : nullptr;
   j["drift"] = drift;
   nlohmann::ordered_json flags = nlohmann::ordered_json::array();
   nlohmann::ordered_json warnings = nlohmann::ordered_json::array();
@@ -114,11 +109,11 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   for (const auto& h : c.harmonics) {
     nlohmann::ordered_json row;
     row["n"] = h.n;
-    row["freq_hz"] = num(h.freq_hz);
-    row["amplitude"] = num(h.amplitude);
-    row["amplitude_u"] = num(h.amplitude_u);
-    row["phase_deg"] = num(h.phase_deg);
-    row["phase_u_deg"] = num(h.phase_u_deg);
+    row["freq_hz"] = io::json_number(h.freq_hz);
+    row["amplitude"] = io::json_number(h.amplitude);
+    row["amplitude_u"] = io::json_number(h.amplitude_u);
+    row["phase_deg"] = io::json_number(h.phase_deg);
+    row["phase_u_deg"] = io::json_number(h.phase_u_deg);
     row["significant"] = h.significant;
     harmonics.push_back(row);
   }
@@ -130,8 +125,8 @@ nlohmann::ordered_json analyze_json(const AnalyzeReport& r) {
   nlohmann::ordered_json j;
   j["source"] = r.source;
   j["format"] = r.format;
-  j["sample_rate_hz"] = num(r.sample_rate_hz);
-  j["t0_s"] = num(r.t0_s);
+  j["sample_rate_hz"] = io::json_number(r.sample_rate_hz);
+  j["t0_s"] = io::json_number(r.t0_s);
   j["samples"] = r.samples;
   nlohmann::ordered_json channels = nlohmann::ordered_json::array();
   for (const auto& c : r.channels) channels.push_back(channel_json(c));

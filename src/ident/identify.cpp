@@ -8,6 +8,7 @@
 #include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::ident {
 
@@ -20,9 +21,6 @@ constexpr double kNyquistFraction = 0.45;
 constexpr double kSameRateRelative = 1e-9;
 
 using json = nlohmann::ordered_json;
-
-/// JSON number, or null when the value is not finite (never a silent NaN in a file).
-json number(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
 
 std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
 
@@ -146,34 +144,34 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
 
 json root_json(const Root& p) {
   json j;
-  j["re"] = number(p.value.real());
-  j["im"] = number(p.value.imag());
-  j["re_u"] = number(p.re_u);
-  j["im_u"] = number(p.im_u);
+  j["re"] = io::json_number(p.value.real());
+  j["im"] = io::json_number(p.value.imag());
+  j["re_u"] = io::json_number(p.re_u);
+  j["im_u"] = io::json_number(p.im_u);
   j["uncertainty_defined"] = p.uncertainty_defined;
   if (p.is_real) {
-    j["time_constant_s"] = number(p.time_constant_s);
-    j["time_constant_u_s"] = number(p.time_constant_u_s);
+    j["time_constant_s"] = io::json_number(p.time_constant_s);
+    j["time_constant_u_s"] = io::json_number(p.time_constant_u_s);
   } else {
-    j["natural_frequency_rad_s"] = number(p.natural_frequency_rad_s);
-    j["natural_frequency_u_rad_s"] = number(p.natural_frequency_u_rad_s);
-    j["damping_ratio"] = number(p.damping_ratio);
-    j["damping_ratio_u"] = number(p.damping_ratio_u);
-    j["q_factor"] = number(p.q_factor);
-    j["q_factor_u"] = number(p.q_factor_u);
+    j["natural_frequency_rad_s"] = io::json_number(p.natural_frequency_rad_s);
+    j["natural_frequency_u_rad_s"] = io::json_number(p.natural_frequency_u_rad_s);
+    j["damping_ratio"] = io::json_number(p.damping_ratio);
+    j["damping_ratio_u"] = io::json_number(p.damping_ratio_u);
+    j["q_factor"] = io::json_number(p.q_factor);
+    j["q_factor_u"] = io::json_number(p.q_factor_u);
   }
   return j;
 }
 
 json line_json(const DistortionLine& l) {
   return json{{"n", l.n},
-              {"freq_hz", number(l.freq_hz)},
-              {"amplitude", number(l.amplitude)},
-              {"level_dbc", number(l.level_dbc)},
-              {"above_floor_db", number(l.above_floor_db)}};
+              {"freq_hz", io::json_number(l.freq_hz)},
+              {"amplitude", io::json_number(l.amplitude)},
+              {"level_dbc", io::json_number(l.level_dbc)},
+              {"above_floor_db", io::json_number(l.above_floor_db)}};
 }
 
-json optional_number(const std::optional<double>& v) { return v ? number(*v) : json(nullptr); }
+json optional_number(const std::optional<double>& v) { return v ? io::json_number(*v) : json(nullptr); }
 
 std::string h_unit(const IdentifyResult& r) {
   if (r.input_unit.empty() && r.output_unit.empty()) return "";
@@ -239,43 +237,43 @@ IdentifyResult identify(const Capture& input_capture, const Capture& output_capt
 
 nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   json j;
-  j["f0_hz"] = number(r.fundamental.f0_hz);
-  j["f0_u_hz"] = number(r.fundamental.f0_u_hz);
+  j["f0_hz"] = io::json_number(r.fundamental.f0_hz);
+  j["f0_u_hz"] = io::json_number(r.fundamental.f0_u_hz);
   j["f0_method"] = r.fundamental.method;
   j["status"] = r.status;
   j["input"] = json{{"source", r.input_source}, {"channel", r.input_channel}, {"unit", r.input_unit}};
   j["output"] = json{{"source", r.output_source}, {"channel", r.output_channel}, {"unit", r.output_unit}};
   j["h_unit"] = h_unit(r);
-  j["sample_rate_hz"] = number(r.sample_rate_hz);
+  j["sample_rate_hz"] = io::json_number(r.sample_rate_hz);
   j["periods"] = r.frf.periods;
   j["samples_per_period"] = r.samples_per_period;
   j["max_harmonic"] = r.frf.max_harmonic;
-  j["skew_s"] = number(r.skew_s);
+  j["skew_s"] = io::json_number(r.skew_s);
   j["frf_method"] = r.frf.method;
   j["frf_dof"] = r.frf.dof;
-  j["confidence"] = number(r.frf.confidence);
-  j["coverage_factor"] = number(r.frf.coverage_factor);
+  j["confidence"] = io::json_number(r.frf.confidence);
+  j["coverage_factor"] = io::json_number(r.frf.coverage_factor);
   j["quantile"] = r.frf.quantile;
   json frf = json::array();
   for (const auto& p : r.frf.points) {
     frf.push_back(json{{"n", p.n},
-                       {"freq_hz", number(p.freq_hz)},
-                       {"re", number(p.re)},
-                       {"im", number(p.im)},
-                       {"mag", number(p.mag)},
-                       {"mag_db", number(p.mag_db)},
-                       {"phase_deg", number(p.phase_deg)},
-                       {"mag_u", number(p.mag_u)},
-                       {"phase_u_deg", number(p.phase_u_deg)},
-                       {"mag_db_u", number(p.mag_db_u)},
-                       {"mag_lo", number(p.mag_lo)},
-                       {"mag_hi", number(p.mag_hi)},
-                       {"phase_lo_deg", number(p.phase_lo_deg)},
-                       {"phase_hi_deg", number(p.phase_hi_deg)},
-                       {"var_re", number(p.var_re)},
-                       {"var_im", number(p.var_im)},
-                       {"cov_re_im", number(p.cov_re_im)},
-                       {"input_snr_db", number(p.input_snr_db)}});
+                       {"freq_hz", io::json_number(p.freq_hz)},
+                       {"re", io::json_number(p.re)},
+                       {"im", io::json_number(p.im)},
+                       {"mag", io::json_number(p.mag)},
+                       {"mag_db", io::json_number(p.mag_db)},
+                       {"phase_deg", io::json_number(p.phase_deg)},
+                       {"mag_u", io::json_number(p.mag_u)},
+                       {"phase_u_deg", io::json_number(p.phase_u_deg)},
+                       {"mag_db_u", io::json_number(p.mag_db_u)},
+                       {"mag_lo", io::json_number(p.mag_lo)},
+                       {"mag_hi", io::json_number(p.mag_hi)},
+                       {"phase_lo_deg", io::json_number(p.phase_lo_deg)},
+                       {"phase_hi_deg", io::json_number(p.phase_hi_deg)},
+                       {"var_re", io::json_number(p.var_re)},
+                       {"var_im", io::json_number(p.var_im)},
+                       {"cov_re_im", io::json_number(p.cov_re_im)},
+                       {"input_snr_db", io::json_number(p.input_snr_db)}});
   }
   j["frf"] = frf;
   json lin;
@@ -284,7 +282,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   lin["method"] = r.linearity.method;
   lin["tested"] = r.linearity.tested;
   lin["dof"] = r.linearity.dof;
-  lin["threshold_db"] = number(r.linearity.threshold_db);
+  lin["threshold_db"] = io::json_number(r.linearity.threshold_db);
   lin["level_db"] = optional_number(r.linearity.level_db);
   lin["odd_level_db"] = optional_number(r.linearity.odd_level_db);
   lin["even_level_db"] = optional_number(r.linearity.even_level_db);
@@ -299,22 +297,22 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
     m["order"] = order_text(f.order);
     m["order_decided_by"] = f.order_decided_by;
     m["num"] = json::array();
-    for (double v : f.model.num) m["num"].push_back(number(v));
+    for (double v : f.model.num) m["num"].push_back(io::json_number(v));
     m["den"] = json::array();
-    for (double v : f.model.den) m["den"].push_back(number(v));
-    m["delay_s"] = number(f.delay_s);
-    m["delay_u_s"] = number(f.delay_u_s);
+    for (double v : f.model.den) m["den"].push_back(io::json_number(v));
+    m["delay_s"] = io::json_number(f.delay_s);
+    m["delay_u_s"] = io::json_number(f.delay_u_s);
     m["delay_estimated"] = f.model.delay_estimated;
     m["poles"] = json::array();
     for (const auto& p : f.poles) m["poles"].push_back(root_json(p));
     m["zeros"] = json::array();
     for (const auto& z : f.zeros) m["zeros"].push_back(root_json(z));
-    m["dc_gain"] = f.dc_gain_defined ? number(f.dc_gain) : json(nullptr);
-    m["dc_gain_u"] = f.dc_gain_defined ? number(f.dc_gain_u) : json(nullptr);
-    m["cost"] = number(f.cost);
+    m["dc_gain"] = f.dc_gain_defined ? io::json_number(f.dc_gain) : json(nullptr);
+    m["dc_gain_u"] = f.dc_gain_defined ? io::json_number(f.dc_gain_u) : json(nullptr);
+    m["cost"] = io::json_number(f.cost);
     m["dof"] = f.dof;
-    m["chi2_lower"] = number(f.chi2_lower);
-    m["chi2_upper"] = number(f.chi2_upper);
+    m["chi2_lower"] = io::json_number(f.chi2_lower);
+    m["chi2_upper"] = io::json_number(f.chi2_upper);
     m["adequate"] = f.adequate;
     m["unstable"] = f.unstable;
     m["parameters"] = json::array();
@@ -322,18 +320,18 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
       const double value = parameter_value(f, i);
       const double u = i < f.parameter_u.size() ? f.parameter_u[i] : std::nan("");
       m["parameters"].push_back(json{{"name", f.parameter_names[i]},
-                                     {"value", number(value)},
-                                     {"u", number(u)},
-                                     {"lo", number(value - r.frf.coverage_factor * u)},
-                                     {"hi", number(value + r.frf.coverage_factor * u)}});
+                                     {"value", io::json_number(value)},
+                                     {"u", io::json_number(u)},
+                                     {"lo", io::json_number(value - r.frf.coverage_factor * u)},
+                                     {"hi", io::json_number(value + r.frf.coverage_factor * u)}});
     }
     m["covariance"] = json::array();
     for (const auto& row : f.model.covariance) {
       json jr = json::array();
-      for (double v : row) jr.push_back(number(v));
+      for (double v : row) jr.push_back(io::json_number(v));
       m["covariance"].push_back(jr);
     }
-    m["condition_number"] = number(f.condition_number);
+    m["condition_number"] = io::json_number(f.condition_number);
     m["method"] = f.method;
     m["fit_status"] = to_string(f.status);
     if (!f.order_trials.empty()) {
@@ -341,9 +339,9 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
       for (const auto& t : f.order_trials)
         m["order_trials"].push_back(json{{"order", order_text(t.order)},
                                          {"parameters", t.parameters},
-                                         {"cost", t.failed ? json(nullptr) : number(t.cost)},
+                                         {"cost", t.failed ? json(nullptr) : io::json_number(t.cost)},
                                          {"dof", t.dof},
-                                         {"chi2_upper", number(t.chi2_upper)},
+                                         {"chi2_upper", io::json_number(t.chi2_upper)},
                                          {"passed", t.passed},
                                          {"failed", t.failed},
                                          {"note", t.note}});

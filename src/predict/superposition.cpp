@@ -10,6 +10,7 @@
 #include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
+#include "io/json_writer.hpp"
 
 namespace periodfit::predict {
 
@@ -658,16 +659,15 @@ std::string format_predict_csv(const PredictResult& r) {
 
 nlohmann::ordered_json predict_json(const PredictResult& r, std::size_t list_harmonics) {
   using nlohmann::ordered_json;
-  const auto finite_or_null = [](double v) { return std::isfinite(v) ? ordered_json(v) : ordered_json(nullptr); };
-  const auto u = [&](double v) { return r.has_uncertainty ? finite_or_null(v) : ordered_json(nullptr); };
+  const auto u = [&](double v) { return r.has_uncertainty ? io::json_number(v) : ordered_json(nullptr); };
   ordered_json j;
   j["status"] = r.status;
   j["method"] = r.method;
   j["f0_hz"] = r.f0_hz;
   j["harmonics_used"] = r.harmonics;
   j["harmonic_count_method"] = r.harmonic_count_method;
-  j["input_left_out_fraction"] = finite_or_null(r.input_left_out_fraction);
-  j["output_tail_estimate"] = finite_or_null(r.output_tail_estimate);
+  j["input_left_out_fraction"] = io::json_number(r.input_left_out_fraction);
+  j["output_tail_estimate"] = io::json_number(r.output_tail_estimate);
   j["tail_checked_to"] = r.tail_checked_to;
   j["output_tail_method"] = r.output_tail_method;
   j["has_uncertainty"] = r.has_uncertainty;
