@@ -114,6 +114,10 @@ TEST_CASE("model file: malformed files name what is wrong") {
   CHECK(parse_error("{\"format\": ") ==
         "dut.json:1:12: not valid JSON: syntax error while parsing value - unexpected end of input; expected '[', "
         "'{', or a literal");
+  // Found by fuzz_model_file (tests/regressions/model_file/): a literal beyond double's range
+  // threw nlohmann's out_of_range, which was not caught and aborted the program.
+  CHECK(parse_error("{\"format\": \"periodfit-model\",\n \"version\": 1e999}") ==
+        "dut.json:2:13: not valid JSON: number overflow parsing '1e999' (a number must fit a double)");
   CHECK(parse_error("[1, 2]") == "dut.json: expected a JSON object at the top level, found an array");
   CHECK(parse_error("{}") == "dut.json: missing key \"format\"");
   CHECK(parse_error(R"({"format": "other", "version": 1})") ==

@@ -5,6 +5,9 @@
 # Crash, leak and timeout inputs are kept in tests/fuzz/artifacts/<target>/ (git-ignored); once a
 # bug is fixed, copy its input to tests/regressions/<target>/ so robustness_test replays it.
 # New corpus entries found during a run go to build-fuzz/corpus/<target>/, not into the source tree.
+# PERIODFIT_FUZZ_SEED=N fixes libFuzzer's seed (tools/test.sh does in CI, so a CI run explores the
+# same inputs in the same order each time and a red run reproduces; unset = a new seed per run,
+# for exploring).
 # Exits 1 when any target found a problem, 3 when clang or its fuzzer runtime is missing.
 set -euo pipefail
 PERIODFIT_ROOT=$(cd "$(dirname "$0")/.." && pwd)
@@ -41,7 +44,7 @@ for t in "${targets[@]}"; do
   # -rss_limit_mb: an input that makes the parser allocate beyond this is a finding, not an
   # out-of-memory of the machine; -timeout: a single input slower than this is a hang.
   if ! ASAN_OPTIONS=detect_leaks=1:halt_on_error=1 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
-      "$build/fuzz/fuzz_$t" -max_total_time="$seconds" -timeout=10 -rss_limit_mb=2048 -max_len=65536 \
+      "$build/fuzz/fuzz_$t" -seed="${PERIODFIT_FUZZ_SEED:-0}" -max_total_time="$seconds" -timeout=10 -rss_limit_mb=2048 -max_len=65536 \
       -print_final_stats=1 -artifact_prefix="$artifacts/" "$corpus" "tests/fuzz/corpus/$t" \
       >"$build/fuzz_$t.log" 2>&1; then
     failed+=("$t")

@@ -4,6 +4,8 @@
 
 #include <cmath>
 #include <numbers>
+#include <string>
+#include <utility>
 
 #include "core/error.hpp"
 #include "io/number_format.hpp"
@@ -154,12 +156,10 @@ void write_model_file(const std::string& path, const ModelFile& file) {
 ModelFile parse_model_file(std::string_view text, std::string_view name) {
   const Reader rd{std::string(name)};
   json doc;
-  try {
-    doc = json::parse(text);
-  } catch (const json::parse_error& e) {
-    // Position from the byte offset, message from nlohmann's text after its "parse error …: ".
+  // Line and column of a byte offset, for errors that carry only the offset.
+  const auto position_of = [&](std::size_t byte) {
     std::size_t line = 1, column = 1;
-    for (std::size_t i = 0; i + 1 < e.byte && i < text.size(); ++i) {
+    for (std::size_t i = 0; i < byte && i < text.size(); ++i) {
       if (text[i] == '\n') {
         ++line;
         column = 1;
@@ -167,10 +167,40 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
         ++column;
       }
     }
+    return std::pair{line, column};
+  };
+  const auto after_prefix = [](std::string why) {
+    // nlohmann's text reads "[json.exception.<kind>.<id>] <what>"; keep <what>.
+    const auto bracket = why.find("] ");
+    if (bracket != std::string::npos) why = why.substr(bracket + 2);
+    return why;
+  };
+  try {
+    doc = json::parse(text);
+  } catch (const json::parse_error& e) {
+    // e.byte is one past the offending byte (1-based); its message is "parse error at line …: why".
+    const auto [line, column] = position_of(e.byte == 0 ? 0 : e.byte - 1);
     std::string why = e.what();
     const auto colon = why.find(": ");
     if (colon != std::string::npos) why = why.substr(colon + 2);
     throw InputError(std::string(name), line, column, "not valid JSON: " + why);
+  } catch (const json::out_of_range& e) {
+    // A number literal outside the range of double (out_of_range.406, "number overflow parsing
+    // '<literal>'") carries no offset; the literal is quoted in the message, so find it.
+    const std::string why = after_prefix(e.what());
+    std::size_t at = 0;
+    const auto open = why.find('\''), close = why.rfind('\'');
+    if (open != std::string::npos && close > open + 1) {
+      const auto found = text.find(std::string_view(why).substr(open + 1, close - open - 1));
+      if (found != std::string_view::npos) at = found;
+    }
+    const auto [line, column] = position_of(at);
+    throw InputError(std::string(name), line, column,
+                     "not valid JSON: " + why + " (a number must fit a double)");
+  } catch (const json::exception& e) {
+    // Any other reader failure (nlohmann documents type_error and other_error too) is still a
+    // bad file, never a crash.
+    throw InputError(std::string(name), 1, 1, "not valid JSON: " + after_prefix(e.what()));
   }
   if (!doc.is_object()) rd.fail("expected a JSON object at the top level, found " + Reader::type_of(doc));
   const std::string format = rd.text(rd.member(doc, "format", "format"), "format");
