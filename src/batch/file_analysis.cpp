@@ -108,7 +108,10 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
     order_text = std::to_string(fit.order.num) + "/" + std::to_string(fit.order.den);
     if (fit.dc_gain_defined) m.set("dc_gain", Quantity::symmetric(fit.dc_gain, k * fit.dc_gain_u));
     m.set("delay_s", Quantity::symmetric(fit.delay_s, k * fit.delay_u_s));
-    if (fit.dof > 0) m.set("model_cost_ratio", Quantity::exact(fit.cost / fit.dof));
+    // Over the cost a right model is expected to reach (dof with known weights, more when the
+    // weights were estimated from few periods), so ≈ 1 means "as good as the noise allows".
+    if (fit.dof > 0 && fit.cost_expected > 0)
+      m.set("model_cost_ratio", Quantity::exact(fit.cost / fit.cost_expected));
     m.set("model_adequate", Quantity::exact(fit.adequate ? 1 : 0));
     int entry = 0;
     for (const auto& pole : fit.poles) {
@@ -162,7 +165,7 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   };
   add_key(a, "dc_gain", "dc gain", value_of("dc_gain"), "");
   add_key(a, "delay_s", "delay", r.model ? value_of("delay_s") : std::nan(""), "s");
-  add_key(a, "cost_ratio", "cost/dof", value_of("model_cost_ratio"), "");
+  add_key(a, "cost_ratio", "cost/expected", value_of("model_cost_ratio"), "");
   add_key_text(a, "adequate", "adequate", r.model ? (r.model->adequate ? "yes" : "no") : "");
   add_key_text(a, "linear", "linear",
                r.linearity.status == "untested" ? "untested" : (r.linearity.nonlinear ? "no" : "yes"));
@@ -183,8 +186,9 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
     if (fit.dc_gain_defined) rows.emplace_back("dc gain", pm(fit.dc_gain, k * fit.dc_gain_u, ""));
     if (fit.model.delay_s != 0 || fit.delay_u_s != 0)
       rows.emplace_back("delay", pm(fit.delay_s, k * fit.delay_u_s, "s"));
-    rows.emplace_back("cost", sig(fit.cost) + " for " + std::to_string(fit.dof) + " dof (95 % band " +
-                                  sig(fit.chi2_lower) + " \xE2\x80\xA6 " + sig(fit.chi2_upper) + "): " +
+    rows.emplace_back("cost", sig(fit.cost) + " for " + std::to_string(fit.dof) + " dof (expected " +
+                                  sig(fit.cost_expected) + ", 95 % band " + sig(fit.chi2_lower) +
+                                  " \xE2\x80\xA6 " + sig(fit.chi2_upper) + "): " +
                                   (fit.adequate ? "adequate" : "not adequate"));
   }
   rows.insert(rows.end(), a.result_rows.begin(), a.result_rows.end());

@@ -49,7 +49,7 @@ const std::vector<ResultInfo> kCatalogue = {
     {"q_factor", "", Selector::pole, false, true, false, false,
      "Q = 1/(2ζ) of pole entry k when it is a complex pair"},
     {"model_cost_ratio", "", Selector::none, false, true, false, false,
-     "weighted least-squares cost over its degrees of freedom (≈ 1 for an adequate model)"},
+     "weighted least-squares cost over the cost expected of a correct model (≈ 1 for an adequate model)"},
     {"model_adequate", "", Selector::none, false, true, true, false,
      "cost inside the central 95 % band of its χ² distribution"},
     {"linear", "", Selector::none, false, true, true, false,

@@ -90,9 +90,9 @@ int run(const IdentifyArgs& a) {
            io::format_fixed(r.linearity.level_db.value_or(0), 1) + " dB relative to the excited output)");
     else if (flag == "model-inadequate" && r.model)
       warn("model " + std::to_string(r.model->order.num) + "/" + std::to_string(r.model->order.den) +
-           " is not adequate: cost " + io::format_significant(r.model->cost, 4) + " outside the chi-square band [" +
+           " is not adequate: cost " + io::format_significant(r.model->cost, 4) + " outside the band [" +
            io::format_significant(r.model->chi2_lower, 4) + ", " + io::format_significant(r.model->chi2_upper, 4) +
-           "] for dof " + std::to_string(r.model->dof));
+           "] for dof " + std::to_string(r.model->dof) + " (" + r.model->band_method + ")");
     else if (flag == "unstable-pole")
       warn("the fitted model has a pole with Re p >= 0 (unstable)");
     else if (flag == "few-periods")

@@ -93,7 +93,8 @@ std::vector<FrfPoint> fit_points(const FrfResult& frf) {
   std::vector<FrfPoint> points;
   points.reserve(frf.points.size());
   for (const auto& p : frf.points)
-    points.push_back({2 * std::numbers::pi * p.freq_hz, p.h, p.var_re, p.var_im, p.cov_re_im});
+    points.push_back({2 * std::numbers::pi * p.freq_hz, p.h, p.var_re, p.var_im, p.cov_re_im,
+                      p.at_numerical_floor ? 0 : frf.dof, frf.method == "per-period-covariance"});
   return points;
 }
 
@@ -209,6 +210,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
       pt.var_re = std::max(pt.var_re, floor_re_im);
       pt.var_im = std::max(pt.var_im, floor_re_im);
       pt.cov_re_im = 0;
+      pt.at_numerical_floor = true;
       at_floor = true;
     }
     pt.var_h = pt.var_re + pt.var_im;

@@ -90,6 +90,7 @@ struct FrfHarmonic {
   double mag_lo = 0, mag_hi = 0;              ///< interval of |H| at `confidence`
   double phase_lo_deg = 0, phase_hi_deg = 0;  ///< interval of the phase at `confidence`
   double input_snr_db = 0;      ///< 10·log10(|Ū_n|²/input noise floor)
+  bool at_numerical_floor = false;  ///< the variances were raised to the numerical floor
 };
 
 struct FrfResult {
@@ -118,7 +119,9 @@ struct FrfResult {
 FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra& output,
                       const FrfOptions& options = {});
 
-/// The excited points as input for the rational fit (ω = 2π·freq_hz, H, 2×2 covariance).
+/// The excited points as input for the rational fit (ω = 2π·freq_hz, H, 2×2 covariance and
+/// how it was estimated: dof, per-period 2×2 or circular noise-bin; points at the numerical
+/// floor count as known).
 std::vector<FrfPoint> fit_points(const FrfResult& frf);
 
 /// Two-sided Student-t quantile k with P(|t_dof| ≤ k) = confidence (normal when dof exceeds

@@ -32,6 +32,14 @@ std::string list_harmonics(const std::vector<int>& n) {
 
 std::string sig(double v, int digits = 6) { return std::isfinite(v) ? io::format_significant(v, digits) : "-"; }
 
+/// How the cost band was found, for the text report (ident/cost_band.hpp).
+std::string band_text(const std::string& method) {
+  if (method == "chi2") return "chi-square";
+  if (method == "scaled-chi2") return "chi-square scaled for estimated weights";
+  if (method == "monte-carlo") return "Monte Carlo, estimated weights";
+  return method;
+}
+
 struct Selected {
   const Capture* capture;
   const Channel* channel;
@@ -313,6 +321,8 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
     m["dof"] = f.dof;
     m["chi2_lower"] = io::json_number(f.chi2_lower);
     m["chi2_upper"] = io::json_number(f.chi2_upper);
+    m["cost_expected"] = io::json_number(f.cost_expected);
+    m["band_method"] = f.band_method;
     m["adequate"] = f.adequate;
     m["unstable"] = f.unstable;
     m["parameters"] = json::array();
@@ -425,8 +435,9 @@ std::string format_identify_report(const IdentifyResult& r) {
     roots("poles", f.poles);
     roots("zeros", f.zeros);
     out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " +
-           io::format_fixed(100 * r.model_confidence, 0) + " % chi-square band [" + sig(f.chi2_lower) +
-           ", " + sig(f.chi2_upper) + "]: " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
+           io::format_fixed(100 * r.model_confidence, 0) + " % band [" + sig(f.chi2_lower) + ", " +
+           sig(f.chi2_upper) + "] (" + band_text(f.band_method) + ", expected " + sig(f.cost_expected) +
+           "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
   }
   std::string flags;
   for (std::size_t i = 0; i < r.flags.size(); ++i) flags += (i ? ", " : "") + r.flags[i];

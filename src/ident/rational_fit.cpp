@@ -1,7 +1,6 @@
 #include "ident/rational_fit.hpp"
 
 #include <Eigen/Dense>
-#include <boost/math/distributions/chi_squared.hpp>
 
 #include <algorithm>
 #include <charconv>
@@ -10,6 +9,7 @@
 #include <numbers>
 
 #include "core/error.hpp"
+#include "ident/cost_band.hpp"
 #include "io/number_format.hpp"
 
 namespace periodfit::ident {
@@ -32,6 +32,7 @@ struct ScaledData {
   std::vector<double> x;
   std::vector<cplx> h;
   std::vector<double> l11, l21, l22, sigma;
+  std::vector<FrfPoint> points;  ///< as given (the cost band needs how each covariance was estimated)
   std::size_t size() const { return x.size(); }
 };
 
@@ -55,6 +56,7 @@ ScaledData scale(const std::vector<FrfPoint>& points) {
     w_max = std::max(w_max, p.omega_rad_s);
   }
   d.omega_ref = std::sqrt(w_min * w_max);
+  d.points = points;
   for (const FrfPoint& p : points) {
     d.x.push_back(p.omega_rad_s / d.omega_ref);
     d.h.push_back(p.h);
@@ -406,9 +408,11 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   }
 
   if (out.dof > 0) {
-    const boost::math::chi_squared chi2(out.dof);
-    out.chi2_lower = boost::math::quantile(chi2, (1 - o.confidence) / 2);
-    out.chi2_upper = boost::math::quantile(chi2, (1 + o.confidence) / 2);
+    const CostBand band = cost_band(d.points, out.dof, o.confidence);
+    out.chi2_lower = band.lower;
+    out.chi2_upper = band.upper;
+    out.cost_expected = band.expected;
+    out.band_method = band.method;
     out.adequate = out.cost >= out.chi2_lower && out.cost <= out.chi2_upper;
   }
   for (double x : d.x) out.fitted.push_back(model.response(x * d.omega_ref));
@@ -498,8 +502,11 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
       t.cost = r.cost;
       t.dof = r.dof;
       t.chi2_upper = r.chi2_upper;
-      t.aic = r.cost + 2 * t.parameters;
-      t.mdl = r.cost + t.parameters * std::log(2.0 * K);
+      // On the χ² scale: estimated weights inflate the cost by cost_expected/dof, which would
+      // otherwise weigh against the parameter penalty.
+      const double chi2_scale = r.cost_expected > 0 ? r.dof / r.cost_expected : 1.0;
+      t.aic = r.cost * chi2_scale + 2 * t.parameters;
+      t.mdl = r.cost * chi2_scale + t.parameters * std::log(2.0 * K);
       t.passed = r.cost <= r.chi2_upper;
       fits.push_back(std::move(r));
     } catch (const AnalysisError& e) {

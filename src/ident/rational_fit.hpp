@@ -25,9 +25,11 @@
 /// ∂p/∂a_i = −p^i/A'(p) (∂z/∂b_i = −z^i/B'(z)) applied to the covariance; time constants,
 /// natural frequencies, damping ratios and Q are propagated from the roots to first order.
 ///
-/// Misuse warning: the χ² verdict assumes the covariances are right. Covariances estimated from
-/// P periods are themselves uncertain (P − 1 degrees of freedom), which widens the true spread of
-/// V; with few periods read the verdict loosely. Root uncertainties are first order and are not
+/// Covariances estimated from P periods are themselves uncertain (P − 1 degrees of freedom), which
+/// raises and widens the spread of V (by 1.5× in the mean at P = 10); the adequacy band allows for
+/// this when the points say how their covariances were estimated (FrfPoint::covariance_dof;
+/// ident/cost_band.hpp). Misuse warning: the parameter covariance does not: with few periods the
+/// parameter intervals are slightly too narrow (coverage in docs/performance.md). Root uncertainties are first order and are not
 /// defined at repeated roots (flagged `uncertainty_defined = false`; the _u fields are then 0
 /// and meaningless). Delays beyond one period of the fundamental cannot be identified, and with
 /// odd harmonics only, T and T + half a period differ only by the sign of the gain.
@@ -54,6 +56,13 @@ struct FrfPoint {
   double var_re = 0;              ///< Var(Re H)
   double var_im = 0;              ///< Var(Im H)
   double cov_re_im = 0;           ///< Cov(Re H, Im H)
+  /// Degrees of freedom of the covariance estimate; 0 = known exactly. Sets the law of this
+  /// point's term in the cost, hence the adequacy band (ident/cost_band.hpp).
+  int covariance_dof = 0;
+  /// With covariance_dof = m > 0: true when the covariance is a 2×2 sample covariance of m + 1
+  /// per-period deviations (divided by their count), false when it is circular, σ̂²/2·I with σ̂²
+  /// on m real degrees of freedom.
+  bool covariance_sampled_2x2 = false;
   /// A point with circular noise of total variance E|ΔH|² = `variance` (half in Re, half in Im).
   static FrfPoint circular(double omega_rad_s, std::complex<double> h, double variance) {
     return {omega_rad_s, h, variance / 2, variance / 2, 0};
@@ -116,9 +125,9 @@ struct OrderTrial {
   int parameters = 0;       ///< n_θ
   double cost = 0;          ///< V at the optimum
   int dof = 0;              ///< 2K − n_θ
-  double chi2_upper = 0;    ///< upper edge of the χ² band for dof
-  double aic = 0;
-  double mdl = 0;
+  double chi2_upper = 0;    ///< upper edge of the cost band for dof (see RationalFitResult)
+  double aic = 0;          ///< cost·dof/cost_expected + 2·n_θ (the cost on the χ² scale)
+  double mdl = 0;          ///< cost·dof/cost_expected + n_θ·ln(2K)
   bool passed = false;      ///< cost ≤ chi2_upper
   bool failed = false;      ///< the fit was singular or did not converge (cost meaningless)
   std::string note;         ///< why it failed, when it did
@@ -137,8 +146,12 @@ struct RationalFitResult {
   double delay_u_s = 0;                ///< 0 when T was fixed
   double cost = 0;                     ///< V at the optimum (see header)
   int dof = 0;                         ///< 2K − n_θ
-  double chi2_lower = 0;               ///< central `confidence` band of χ²(dof)
+  /// Central `confidence` band of the cost for a right model (ident/cost_band.hpp): χ²(dof)
+  /// with known covariances, wider and higher when they were estimated from few periods.
+  double chi2_lower = 0;
   double chi2_upper = 0;
+  double cost_expected = 0;            ///< E[cost] for a right model (dof with known covariances)
+  std::string band_method;             ///< "chi2", "scaled-chi2" or "monte-carlo"
   bool adequate = false;               ///< chi2_lower ≤ cost ≤ chi2_upper
   bool unstable = false;               ///< some pole has Re p ≥ 0
   double condition_number = 0;         ///< of the column-scaled Jacobian at the optimum (scaled ω)
