@@ -344,7 +344,10 @@ double log_parabola_offset(double a, double b, double c) {
   return std::clamp(0.5 * (la - lc) / den, -0.5, 0.5);
 }
 
-double coarse_frequency(std::span<const double> x, double fs, double hint_hz) {
+/// `off_comb` (when given) is set when a significant spectral line is not a harmonic of the
+/// returned frequency: evidence of a longer period than the comb could reach.
+double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bool* off_comb = nullptr) {
+  if (off_comb) *off_comb = false;
   const std::size_t n = x.size();
   const int pad = n <= 65536 ? 8 : (n <= (std::size_t{1} << 20) ? 2 : 1);
   const int nfft = fft_friendly_size(static_cast<int>(n) * pad);
@@ -421,6 +424,14 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz) {
     }
     if (!sidelobe) lines.push_back(c);
   }
+  const auto on_comb = [&](double fc, double fc_err) {
+    for (const auto& l : lines) {
+      const double j = std::round(l.f / fc);
+      if (j < 1 || std::abs(l.f - j * fc) > 0.6 * record_bin_hz + j * fc_err) return false;
+    }
+    return true;
+  };
+  if (off_comb) *off_comb = !on_comb(f, 0.1 * record_bin_hz);
   if (lines.size() <= 1 || f * static_cast<double>(n) / fs < 2 * kShortRecordPeriods) return f;
   // A sub-multiple must span at least 8 record bins (8 periods in the record): narrower, any
   // set of lines lies "near" some multiple of it by chance, and short records' lines are
@@ -429,15 +440,10 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz) {
   for (int m = 1; m <= m_max; ++m) {
     const double fc = f / m;
     const double fc_err = 0.1 * record_bin_hz / m;  // interpolation error of f, shared by 1/m
-    bool all = true;
-    for (const auto& l : lines) {
-      const double j = std::round(l.f / fc);
-      if (j < 1 || std::abs(l.f - j * fc) > 0.6 * record_bin_hz + j * fc_err) {
-        all = false;
-        break;
-      }
+    if (on_comb(fc, fc_err)) {
+      if (off_comb) *off_comb = false;
+      return fc;
     }
-    if (all) return fc;
   }
   return f;
 }
@@ -470,6 +476,60 @@ int choose_harmonics(const LockOptions& opt, double fs, double f0, std::size_t n
     throw AnalysisError("f0 = " + str(f0) + " Hz has no harmonic below 0.45·fs = " +
                         str(kDefaultBandFraction * fs) + " Hz");
   return h;
+}
+
+/// Short records: the coarse search takes the strongest spectral line for the fundamental, and
+/// its harmonic comb, which corrects that, needs 24 periods and reaches only sub-multiples that
+/// keep 8 periods in the record (coarse_frequency). A flat multisine over a few periods then
+/// locked on whichever harmonic leaked strongest. The sub-multiples the comb could not judge are
+/// tried here: ν/m replaces the fitted ν when its harmonic model (H_m harmonics as chosen for
+/// ν/m itself) explains the record better by the Bayesian information criterion (Schwarz 1978),
+///   N·ln(RSS_ν / RSS_m) − (p_m − p_ν)·ln N  >  2·ln 64 + 20
+/// (the margin allows for the search over m, as the detection threshold in fit_harmonics does),
+/// and the extra explained energy is at least 1e-4 of the record's ac energy, so unmodelled slow
+/// effects (drift, a partial last period) at high SNR do not pass for a longer period. The models
+/// are not nested when H_m·ν/m < H·ν, which is why the criterion is BIC and not an F test: a
+/// dense comb of m·H lines would fit a drifting sine's residual and win an F test.
+/// The test runs only when the coarse spectrum holds a resolved line that is not a harmonic of
+/// ν (`off_comb`): a chirp's smeared line made a dense comb at ν/44 (100 periods) or ν/13 (20
+/// periods) win by BIC otherwise. Of the candidates that pass, the largest criterion wins. Candidates need ≥ 1.5 periods in the
+/// record, m ≤ 64, and a bounded cost (Σ N·H_m ≤ 4e9). Returns `fit.nu` when none wins.
+double sub_multiple_fundamental(const SineFitter& fitter, const Evaluation& fit, int h, const LockOptions& opt,
+                                double fs, bool off_comb) {
+  const std::size_t n = fitter.size();
+  const double periods = fit.nu * static_cast<double>(n) / kTwoPi;
+  // A longer period needs a resolved line off f's comb (one line smeared by drift is not that);
+  // in records of ≥ 24 periods the comb has judged the sub-multiples with ≥ 8 periods.
+  if (!off_comb) return fit.nu;
+  const bool short_record = periods < 2 * kShortRecordPeriods;
+  const int m_min = short_record ? 2 : static_cast<int>(std::floor(periods / 8)) + 1;
+  const int m_max = std::min(64, static_cast<int>(std::floor(periods / 1.5)));
+  if (m_max < m_min) return fit.nu;
+  const double dc = fit.a.size() > 0 ? fit.a[0] : 0;
+  const double ac_energy = fitter.sum_sq() - static_cast<double>(n) * dc * dc;
+  const double rss_base = fitter.sum_sq() - fit.projection;
+  if (!(rss_base > 0)) return fit.nu;  // an exact fit: nothing left to explain
+  const double log_n = std::log(static_cast<double>(n));
+  const double margin = 2 * std::log(64.0) + 20;
+  double best_score = margin, best_nu = fit.nu;
+  double budget = 4e9;
+  for (int m = m_min; m <= m_max; ++m) {
+    const double nu_m = fit.nu / m;
+    const int h_m = choose_harmonics(opt, fs, nu_m * fs / kTwoPi, n);
+    budget -= static_cast<double>(n) * h_m;
+    if (budget < 0) break;
+    if (static_cast<std::size_t>(2 * h_m + 1) >= n) continue;
+    const Evaluation e = fitter.evaluate(nu_m, h_m, false, false);
+    if (!e.ok) continue;
+    const double rss = fitter.sum_sq() - e.projection;
+    if (!(rss > 0) || !(rss_base - rss > 1e-4 * ac_energy)) continue;
+    const double score = static_cast<double>(n) * std::log(rss_base / rss) - 2.0 * (h_m - h) * log_n;
+    if (score > best_score) {
+      best_score = score;
+      best_nu = nu_m;
+    }
+  }
+  return best_nu;
 }
 
 HarmonicFit make_fit(const Evaluation& e, std::span<const double> x, double fs, double t0,
@@ -597,6 +657,7 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   if (constant) throw AnalysisError("no periodic component: every sample equals " + str(*mn) + " (dc only)");
   const bool given_start = opt.f0_start_hz > 0 && opt.f0_start_hz < 0.5 * fs;
   double f = 0;
+  bool off_comb = false;
   if (given_start) {
     f = opt.f0_start_hz;
   } else if (n > 2 * kPrefixSamples) {
@@ -605,7 +666,7 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
     // when the prefix holds too few periods.
     const auto prefix = x.first(kPrefixSamples);
     try {
-      const double fp = coarse_frequency(prefix, fs, opt.f0_hint_hz);
+      const double fp = coarse_frequency(prefix, fs, opt.f0_hint_hz, &off_comb);
       if (fp * static_cast<double>(kPrefixSamples) / fs >= kShortRecordPeriods) {
         const SineFitter pf(prefix);
         const int hp = std::max(1, std::min(3, harmonic_limit(fs, fp, 0.49)));
@@ -616,9 +677,9 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
     } catch (const AnalysisError&) {
       f = 0;
     }
-    if (f <= 0) f = coarse_frequency(x, fs, opt.f0_hint_hz);
+    if (f <= 0) f = coarse_frequency(x, fs, opt.f0_hint_hz, &off_comb);
   } else {
-    f = coarse_frequency(x, fs, opt.f0_hint_hz);
+    f = coarse_frequency(x, fs, opt.f0_hint_hz, &off_comb);
   }
   const double record_bin_nu = kTwoPi / static_cast<double>(n);  // one DFT bin in rad/sample
   double nu = kTwoPi * f / fs;
@@ -646,17 +707,29 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   // Long records skip the middle stages: unmodelled harmonics then bias the 3-harmonic f0 by
   // far less than the final stage's capture range.
   const bool long_record = f * static_cast<double>(n) / fs >= kLongRecordPeriods;
-  for (int stage : {3, 10, 30, 0}) {
-    const double f_now = nu * fs / kTwoPi;
-    h_final = choose_harmonics(opt, fs, f_now, n);
-    const int h = stage == 0 ? h_final : std::min(stage, h_final);
-    if (stage != 0 && h == h_final) continue;  // this stage is the final one: skip
-    if (long_record && (stage == 10 || stage == 30)) continue;
-    const double max_step = 0.25 * record_bin_nu;
-    g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
-    iterations += g.iterations;
-    if (!g.last.ok) throw AnalysisError("the harmonic fit near f0 = " + str(f_now) + " Hz is singular");
-    nu = g.last.nu;
+  const auto refine_stages = [&](bool all_stages) {
+    for (int stage : {3, 10, 30, 0}) {
+      const double f_now = nu * fs / kTwoPi;
+      h_final = choose_harmonics(opt, fs, f_now, n);
+      const int h = stage == 0 ? h_final : std::min(stage, h_final);
+      if (stage != 0 && (h == h_final || !all_stages)) continue;  // this stage is the final one: skip
+      if (long_record && (stage == 10 || stage == 30)) continue;
+      const double max_step = 0.25 * record_bin_nu;
+      g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
+      iterations += g.iterations;
+      if (!g.last.ok) throw AnalysisError("the harmonic fit near f0 = " + str(f_now) + " Hz is singular");
+      nu = g.last.nu;
+    }
+  };
+  refine_stages(true);
+  if (!given_start && opt.f0_hint_hz <= 0) {
+    // The sub-multiple found here is exact to the fit's precision, so one final stage from it
+    // suffices.
+    const double nu_sub = sub_multiple_fundamental(fitter, g.last, h_final, opt, fs, off_comb);
+    if (nu_sub != g.last.nu) {
+      nu = nu_sub;
+      refine_stages(false);
+    }
   }
   const Evaluation& e = g.last;
   HarmonicFit fit = make_fit(e, x, fs, t0, static_cast<int>(e.a.size()) - 1, false);

@@ -21,7 +21,10 @@
 ///     interpolation; then the largest f/m of which every significant line is a harmonic
 ///     (harmonic comb: 2nd harmonic stronger than the fundamental, as in a full-wave rectifier
 ///     with unequal halves; multisines). With f0_hint_hz the peak is searched
-///     within ±20 % of the hint only. Records under 12 periods are then searched on a
+///     within ±20 % of the hint only. After the refinement (2.), sub-multiples ν/m the comb
+///     cannot judge (records under 24 periods, ν/m with under 8 periods in the record) are
+///     tested by an information criterion (period_lock.cpp, sub_multiple_fundamental; not
+///     with a hint). Records under 12 periods are then searched on a
 ///     0.02-bin grid of the 3-harmonic least-squares criterion, because the DC and the
 ///     negative-frequency image bias the FFT peak at a few periods.
 ///  2. Refinement: IEEE Std 1057-2017 §4.1.3 four-parameter sine fit, extended to H harmonics
