@@ -1,14 +1,20 @@
 // Tests of the shared nouns: errors, channel selection, atomic output, number formatting.
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <cstdlib>
 #include <filesystem>
+#include <string>
+#include <thread>
+#include <vector>
 
 #include "core/capture.hpp"
 #include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
+#include "io/scratch_file.hpp"
 #include "report/table.hpp"
+#include "support/cli_runner.hpp"
 
 using namespace periodfit;
 
@@ -55,6 +61,121 @@ TEST_CASE("output file: written atomically, no temporary left, missing folder is
   CHECK_THROWS_AS(io::write_file_atomic((dir / "missing" / "x.json").string(), "x"), IoError);
   CHECK_THROWS_AS(io::read_file(dir.string()), IoError);
   std::filesystem::remove_all(dir);
+}
+
+namespace {
+
+/// Names in `dir`, sorted.
+std::vector<std::string> names_in(const std::filesystem::path& dir) {
+  std::vector<std::string> names;
+  for (const auto& e : std::filesystem::directory_iterator(dir)) names.push_back(e.path().filename().string());
+  std::sort(names.begin(), names.end());
+  return names;
+}
+
+/// `n` bytes of a pattern that shows where a piece landed if pieces get swapped or cut.
+std::string pattern_bytes(std::size_t n, char seed) {
+  std::string s(n, '\0');
+  for (std::size_t i = 0; i < n; ++i) s[i] = static_cast<char>(seed + static_cast<char>(i % 61));
+  return s;
+}
+
+/// AtomicFile's write buffer (io/output_file.cpp, kBufferBytes): pieces below, at and above
+/// it take the three paths of write().
+constexpr std::size_t kWriterBuffer = 1 << 16;
+
+}  // namespace
+
+TEST_CASE("output file: AtomicFile written in pieces appears whole on commit, not before") {
+  periodfit::test::TempDir dir("atomic_file_chunks");
+  const std::string path = dir.file("page.html");
+  std::string expected;
+  {
+    io::AtomicFile out(path);
+    // Small pieces that fill the buffer, one that overflows it, one larger than the buffer.
+    for (const std::size_t n : {std::size_t{10}, std::size_t{5000}, kWriterBuffer - 3, std::size_t{7},
+                                3 * kWriterBuffer + 11, std::size_t{0}, std::size_t{1}}) {
+      const std::string piece = pattern_bytes(n, static_cast<char>('A' + expected.size() % 7));
+      out.write(piece);
+      expected += piece;
+    }
+    // Before commit: only the temporary, named after the destination, exists.
+    const auto before = names_in(dir.path);
+    REQUIRE(before.size() == 1);
+    CHECK(before[0].starts_with(".page.html.tmp-"));
+    out.commit();
+  }
+  CHECK(io::read_file(path) == expected);
+  CHECK(names_in(dir.path) == std::vector<std::string>{"page.html"});
+}
+
+TEST_CASE("output file: an AtomicFile destroyed without commit leaves neither destination nor temporary") {
+  periodfit::test::TempDir dir("atomic_file_abandon");
+  const std::string fresh = dir.file("new.json");
+  {
+    io::AtomicFile out(fresh);
+    out.write(pattern_bytes(2 * kWriterBuffer, 'a'));  // some of it reached the disk
+  }
+  CHECK(names_in(dir.path).empty());
+  // An existing destination keeps its old content.
+  io::write_file_atomic(dir.file("old.json"), "old\n");
+  {
+    io::AtomicFile out(dir.file("old.json"));
+    out.write("new\n");
+  }
+  CHECK(io::read_file(dir.file("old.json")) == "old\n");
+  CHECK(names_in(dir.path) == std::vector<std::string>{"old.json"});
+}
+
+TEST_CASE("output file: a missing folder is an IoError naming the path and the reason") {
+  periodfit::test::TempDir dir("atomic_file_missing");
+  const std::string path = dir.file("missing/x.json");
+  // strerror(ENOENT) on glibc.
+  const std::string expected = path + ": cannot create: No such file or directory";
+  CHECK_THROWS_WITH_AS(io::AtomicFile{path}, expected.c_str(), IoError);
+  CHECK_THROWS_WITH_AS(io::write_file_atomic(path, "x"), expected.c_str(), IoError);
+  try {
+    io::AtomicFile out(path);
+    FAIL("no IoError for a missing folder");
+  } catch (const IoError& e) {
+    CHECK(e.path() == path);
+  }
+  CHECK(names_in(dir.path).empty());
+}
+
+TEST_CASE("scratch file: parts appended from several threads read back by span, nothing left on disk") {
+  periodfit::test::TempDir dir("scratch_file");
+  std::vector<std::string> parts;
+  for (std::size_t i = 0; i < 40; ++i)
+    parts.push_back(pattern_bytes(i % 5 == 0 ? 70000 + i : 100 + 37 * i, static_cast<char>('a' + i % 20)));
+  std::vector<io::ScratchFile::Span> spans(parts.size());
+  {
+    io::ScratchFile scratch(dir.path.string());
+    // Two threads take alternate parts, as two batch workers finishing in any order would.
+    const auto append_every_other = [&](std::size_t first) {
+      for (std::size_t i = first; i < parts.size(); i += 2) spans[i] = scratch.append(parts[i]);
+    };
+    std::thread t1(append_every_other, 0), t2(append_every_other, 1);
+    t1.join();
+    t2.join();
+    std::uint64_t total = 0;
+    for (const auto& p : parts) total += p.size();
+    CHECK(scratch.size() == total);
+    // Unnamed from the start: the folder stays empty while the file is in use.
+    CHECK(names_in(dir.path).empty());
+    for (std::size_t i = parts.size(); i-- > 0;) {  // read back in reverse order
+      std::string back;
+      std::size_t largest_piece = 0;
+      scratch.copy(spans[i], [&](std::string_view bytes) {
+        back.append(bytes);
+        largest_piece = std::max(largest_piece, bytes.size());
+      });
+      CAPTURE(i);
+      CHECK(back == parts[i]);
+      CHECK(largest_piece <= std::size_t{1 << 16});  // bounded read buffer (scratch_file.hpp)
+    }
+  }
+  CHECK(names_in(dir.path).empty());
 }
 
 TEST_CASE("table: columns align, numbers to the right") {

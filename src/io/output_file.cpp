@@ -56,17 +56,6 @@ extern "C" void remove_temps_and_reraise(int signal_number) {
   std::raise(signal_number);
 }
 
-/// Removes the temporary on every exit path of write_file_atomic.
-struct TempGuard {
-  std::string path;
-  std::size_t slot;
-  bool keep = false;  ///< set once renamed into place
-  ~TempGuard() {
-    if (!keep) ::unlink(path.c_str());
-    untrack_temp(slot);
-  }
-};
-
 bool write_all(int fd, std::string_view content) {
   while (!content.empty()) {
     const ssize_t n = ::write(fd, content.data(), content.size());
@@ -78,39 +67,113 @@ bool write_all(int fd, std::string_view content) {
   }
   return true;
 }
+
+// The process's umask, read once while static initialisation is still single-threaded: umask()
+// can only be read by setting it, and setting it while workers create files would let them
+// create files with the wrong mode.
+mode_t read_umask() {
+  const mode_t mask = ::umask(0);
+  ::umask(mask);
+  return mask;
+}
+const mode_t g_umask = read_umask();
+
+constexpr std::size_t kBufferBytes = 1 << 16;
 }  // namespace
 
-void write_file_atomic(const std::string& path, std::string_view content) {
-  if (path == "-") {
-    std::fwrite(content.data(), 1, content.size(), stdout);
-    std::fflush(stdout);
-    return;
-  }
-  const std::filesystem::path target(path);
+AtomicFile::AtomicFile(std::string path) : path_(std::move(path)), slot_(kSlots) {
+  if (path_ == "-") return;
+  const std::filesystem::path target(path_);
   const auto folder = target.has_parent_path() ? target.parent_path() : std::filesystem::path(".");
   std::string tmp = (folder / ("." + target.filename().string() + ".tmp-XXXXXX")).string();
-  // A signal between mkstemp and track_temp would leave one empty temporary; blocking the
+  // A signal between mkostemp and track_temp would leave one empty temporary; blocking the
   // cleanup signals for those few instructions closes the gap.
   sigset_t cleanup_signals, previous;
   sigemptyset(&cleanup_signals);
   for (int s : {SIGINT, SIGTERM, SIGHUP}) sigaddset(&cleanup_signals, s);
   pthread_sigmask(SIG_BLOCK, &cleanup_signals, &previous);
-  const int fd = ::mkstemp(tmp.data());
+  const int fd = ::mkostemp(tmp.data(), O_CLOEXEC);
   const int create_errno = errno;
   const std::size_t slot = fd >= 0 ? track_temp(tmp) : kSlots;
   pthread_sigmask(SIG_SETMASK, &previous, nullptr);
-  if (fd < 0) throw IoError(path, "cannot create", create_errno);
-  TempGuard guard{tmp, slot};
-  // mkstemp makes 0600; results are ordinary files, readable as the umask allows.
-  const mode_t mask = ::umask(0);
-  ::umask(mask);
-  ::fchmod(fd, 0666 & ~mask);
-  const bool ok = write_all(fd, content) && ::fsync(fd) == 0;
-  const int write_errno = errno;
-  ::close(fd);
-  if (!ok) throw IoError(path, "cannot write", write_errno);
-  if (::rename(tmp.c_str(), path.c_str()) != 0) throw IoError(path, "cannot write", errno);
-  guard.keep = true;
+  if (fd < 0) throw IoError(path_, "cannot create", create_errno);
+  fd_ = fd;
+  slot_ = slot;
+  temp_ = std::move(tmp);
+  // mkostemp makes 0600; results are ordinary files, readable as the umask allows.
+  ::fchmod(fd_, 0666 & ~g_umask);
+  buffer_ = std::make_unique<char[]>(kBufferBytes);
+}
+
+AtomicFile::~AtomicFile() {
+  if (fd_ >= 0) ::close(fd_);
+  // Unlink before untracking: a signal in between unlinks a name that is already gone.
+  if (!committed_ && !temp_.empty()) ::unlink(temp_.c_str());
+  untrack_temp(slot_);
+}
+
+void AtomicFile::flush_buffer() {
+  if (buffered_ == 0) return;
+  if (!write_all(fd_, std::string_view(buffer_.get(), buffered_))) {
+    failed_ = true;
+    throw IoError(path_, "cannot write", errno);
+  }
+  buffered_ = 0;
+}
+
+void AtomicFile::write(std::string_view bytes) {
+  if (temp_.empty()) {
+    std::fwrite(bytes.data(), 1, bytes.size(), stdout);
+    return;
+  }
+  if (failed_ || committed_) throw IoError(path_, "cannot write", EBADF);
+  if (bytes.size() <= kBufferBytes - buffered_) {
+    std::memcpy(buffer_.get() + buffered_, bytes.data(), bytes.size());
+    buffered_ += bytes.size();
+    return;
+  }
+  flush_buffer();
+  if (bytes.size() < kBufferBytes) {
+    std::memcpy(buffer_.get(), bytes.data(), bytes.size());
+    buffered_ = bytes.size();
+  } else if (!write_all(fd_, bytes)) {
+    failed_ = true;
+    throw IoError(path_, "cannot write", errno);
+  }
+}
+
+void AtomicFile::commit() {
+  if (temp_.empty()) {
+    std::fflush(stdout);
+    return;
+  }
+  if (failed_ || committed_) throw IoError(path_, "cannot write", EBADF);
+  flush_buffer();
+  // fsync before the rename: otherwise a crash soon after can leave the new name on an empty
+  // file (ext4/xfs delayed allocation), which is the half-written state this class exists to
+  // rule out.
+  const bool synced = ::fsync(fd_) == 0;
+  const int sync_errno = errno;
+  const bool closed = ::close(fd_) == 0;
+  const int close_errno = errno;
+  fd_ = -1;
+  if (!synced || !closed) {
+    failed_ = true;
+    throw IoError(path_, "cannot write", synced ? close_errno : sync_errno);
+  }
+  if (::rename(temp_.c_str(), path_.c_str()) != 0) {
+    failed_ = true;
+    throw IoError(path_, "cannot write", errno);
+  }
+  committed_ = true;
+  untrack_temp(slot_);
+  slot_ = kSlots;
+}
+
+void write_file_atomic(const std::string& path, std::string_view content) {
+  AtomicFile file(path);
+  file.write(content);
+  file.commit();
 }
 
 void install_interrupt_cleanup() {

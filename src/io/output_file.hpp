@@ -3,17 +3,64 @@
 /// file in the destination folder, is flushed, and is renamed over the destination (rename is
 /// atomic on POSIX file systems). A failure leaves the destination untouched and no temporary
 /// behind, and throws IoError naming the path and the OS reason.
+///
+/// Usage (a file too large to hold in memory at once):
+///   io::AtomicFile out("report/report.html");
+///   for (const auto& part : parts) out.write(part);
+///   out.commit();  // leaving the scope without commit() removes the temporary
+#include <cstddef>
+#include <memory>
 #include <string>
 #include <string_view>
 
 namespace periodfit::io {
 
-/// Writes `content` to `path` atomically. `path == "-"` writes to standard output instead.
+/// One output file written in pieces and published whole: the constructor creates the
+/// temporary `.<name>.tmp-XXXXXX` beside `path`, write() appends (through a 64 KiB buffer, so
+/// memory stays bounded whatever the file's size), commit() flushes, fsyncs and renames it over
+/// `path`. Destroyed without commit() (an exception, an early return) it removes the temporary
+/// and leaves `path` as it was. While it exists the temporary is listed for
+/// install_interrupt_cleanup, so SIGINT/SIGTERM/SIGHUP remove it too. `path == "-"` writes to
+/// standard output instead (not atomic; commit() flushes). Not thread-safe: one writer.
+class AtomicFile {
+ public:
+  /// Throws IoError(path, "cannot create", reason) when the temporary cannot be made (missing
+  /// folder, permission).
+  explicit AtomicFile(std::string path);
+  ~AtomicFile();
+  AtomicFile(const AtomicFile&) = delete;
+  AtomicFile& operator=(const AtomicFile&) = delete;
+
+  /// Appends bytes. Throws IoError(path, "cannot write", reason) (disk full, I/O error); the
+  /// file can then only be abandoned.
+  void write(std::string_view bytes);
+  /// Publishes the file. Throws IoError(path, "cannot write", reason) and removes the
+  /// temporary when flushing, fsync or the rename fails. Call once.
+  void commit();
+
+  const std::string& path() const noexcept { return path_; }
+
+ private:
+  void flush_buffer();
+
+  std::string path_;
+  std::string temp_;         ///< the temporary's path; empty for standard output
+  int fd_ = -1;              ///< open while writing; closed by commit or the destructor
+  std::size_t slot_;         ///< its entry in the interrupt-cleanup registry
+  std::unique_ptr<char[]> buffer_;
+  std::size_t buffered_ = 0;
+  bool failed_ = false;      ///< a write failed: commit() refuses
+  bool committed_ = false;
+};
+
+/// Writes `content` to `path` atomically (one AtomicFile). `path == "-"` writes to standard
+/// output instead.
 void write_file_atomic(const std::string& path, std::string_view content);
 
 /// Installs SIGINT/SIGTERM/SIGHUP handlers that remove every temporary file still being written
-/// by write_file_atomic, then let the signal end the process as it would have. Call once at
-/// program start (the CLI does), so an interrupted run leaves no partial output behind.
+/// by an AtomicFile (write_file_atomic included), then let the signal end the process as it
+/// would have. Call once at program start (the CLI does), so an interrupted run leaves no
+/// partial output behind.
 void install_interrupt_cleanup();
 
 /// Whole file as bytes; IoError names the path and reason (missing, a directory, permission).
