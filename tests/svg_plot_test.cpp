@@ -13,8 +13,10 @@
 
 #include "report/svg_plot.hpp"
 #include "support/cli_runner.hpp"
+#include "support/lowpass_bode.hpp"
 
 using namespace periodfit::report;
+using periodfit::test::second_order_lowpass;
 
 namespace {
 
@@ -38,28 +40,7 @@ bool xml_well_formed(const std::string& svg, const std::string& name) {
   return std::system(("xmllint --noout '" + path + "' 2>/dev/null").c_str()) == 0;
 }
 
-std::complex<double> second_order_lowpass(double f_hz) {
-  // H(s) = 1/((s/ωn)² + 2ζ s/ωn + 1), fn = 1 kHz, ζ = 0.3 (textbook second-order section).
-  const std::complex<double> s(0, f_hz / 1000.0);
-  return 1.0 / (s * s + 0.6 * s + 1.0);
-}
-
-BodePlotData bode_data() {
-  BodePlotData b;
-  b.title = "Bode of " + kHostile;
-  for (int n = 1; n <= 40; n += 2) {
-    const double f = 97.0 * n;
-    const auto h = second_order_lowpass(f);
-    b.freq_hz.push_back(f);
-    b.mag.push_back(std::abs(h));
-    b.mag_u95.push_back(0.01);
-    b.phase_deg.push_back(std::arg(h) * 180 / std::numbers::pi);  // wrapped to (−180, 180]
-    b.phase_u95_deg.push_back(0.5);
-  }
-  b.model = second_order_lowpass;
-  b.model_label = kHostile;
-  return b;
-}
+BodePlotData bode_data() { return periodfit::test::lowpass_bode_data(kHostile); }
 
 }  // namespace
 

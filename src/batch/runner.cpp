@@ -18,9 +18,10 @@
 #include "batch/file_analysis.hpp"
 #include "core/error.hpp"
 #include "io/number_format.hpp"
-#include "io/output_file.hpp"
-#include "report/svg_plot.hpp"
 #include "io/json_writer.hpp"
+#include "io/output_file.hpp"
+#include "io/scratch_file.hpp"
+#include "report/svg_plot.hpp"
 
 namespace periodfit::batch {
 
@@ -111,11 +112,19 @@ std::string failing_text(const Limit& l, const LimitOutcome& o) {
   return l.describe() + " = " + o.measured_text + ", allowed " + l.allowed_text();
 }
 
-/// Everything one worker produces for one file.
+/// Everything one worker produces for one file; the section and the JSON leave memory as soon
+/// as the file is done.
 struct FileWork {
   FileResult result;
   report::ReportFile section;
   json document;  // the per-file JSON
+};
+
+/// What the run keeps of a file until the end: a few hundred bytes, whatever its plots weigh.
+struct FileDone {
+  FileResult result;
+  report::ReportRow row;           ///< its line in report.html's overview
+  io::ScratchFile::Span section;  ///< its rendered report.html section in the spill file
 };
 
 FileWork process(std::size_t index, const std::string& path, const BatchOptions& options) {
@@ -196,7 +205,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   return w;
 }
 
-std::string summary_csv(const std::vector<FileWork>& works, const BatchConfig& config) {
+std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& config) {
   std::string out = "path,status";
   for (const auto& key : analysis_key_names(config)) out += "," + csv_field(key);
   for (std::size_t i = 0; i < config.limits.size(); ++i)
@@ -221,7 +230,7 @@ std::string summary_csv(const std::vector<FileWork>& works, const BatchConfig& c
   return out;
 }
 
-json summary_json(const std::vector<FileWork>& works, const BatchResult& result,
+json summary_json(const std::vector<FileDone>& works, const BatchResult& result,
                   const BatchOptions& options) {
   const BatchConfig& config = options.config;
   json j;
@@ -336,8 +345,11 @@ BatchResult run_batch(const BatchOptions& options) {
   result.jobs = static_cast<int>(jobs);
 
   // Each worker takes the next index; outcomes land in their slot, so order never depends on
-  // timing. Per-file JSON is written as soon as a file is done, keeping memory per file small.
-  std::vector<FileWork> works(paths.size());
+  // timing. As soon as a file is done its JSON is written and its report section (text and
+  // plots, tens of kB) is rendered into the spill file, so memory does not grow with the
+  // number of files; report.html is assembled from the spill file in path order at the end.
+  io::ScratchFile sections(options.report_dir);
+  std::vector<FileDone> works(paths.size());
   std::atomic<std::size_t> next{0};
   std::size_t done = 0;
   std::mutex mutex;
@@ -352,11 +364,15 @@ BatchResult run_batch(const BatchOptions& options) {
         if (fatal) return;
       }
       try {
-        FileWork w = process(i, paths[i], options);
-        io::write_file_atomic((fs::path(options.report_dir) / w.result.json_file).string(),
-                              io::json_text(w.document));
-        w.document = json();  // written; free it
-        works[i] = std::move(w);
+        {
+          FileWork w = process(i, paths[i], options);
+          io::write_file_atomic((fs::path(options.report_dir) / w.result.json_file).string(),
+                                io::json_text(w.document));
+          FileDone& kept = works[i];
+          kept.section = sections.append(report::render_report_section(w.section, i + 1));
+          kept.row = report::report_row(w.section);
+          kept.result = std::move(w.result);
+        }  // the JSON document and the section with its plots are freed here
         // The file's transient buffers (capture, grids, spectra) were freed between the small
         // results this run keeps; hand those pages back so the peak RSS stays that of one file
         // per worker whatever the number of files (glibc keeps them otherwise).
@@ -406,15 +422,20 @@ BatchResult run_batch(const BatchOptions& options) {
   io::write_file_atomic(result.summary_csv, summary_csv(works, options.config));
   io::write_file_atomic(result.summary_json, io::json_text(summary_json(works, result, options)));
 
-  report::ReportDocument doc;
-  doc.title = options.config.title;
-  doc.settings.emplace_back("mode", mode_name(options.config.mode));
-  if (!options.config.source.empty()) doc.settings.emplace_back("config", options.config.source);
-  for (const auto& [key, value] : analysis_settings_rows(options.config)) doc.settings.emplace_back(key, value);
-  doc.settings.emplace_back("limits", std::to_string(options.config.limits.size()));
-  doc.settings.emplace_back("plots", plot_selection_name(options.config.plots));
-  for (auto& w : works) doc.files.push_back(std::move(w.section));
-  io::write_file_atomic(result.report_html, report::render_html_report(std::move(doc)));
+  report::ReportOverview overview;
+  overview.title = options.config.title;
+  overview.settings.emplace_back("mode", mode_name(options.config.mode));
+  if (!options.config.source.empty()) overview.settings.emplace_back("config", options.config.source);
+  for (const auto& [key, value] : analysis_settings_rows(options.config)) overview.settings.emplace_back(key, value);
+  overview.settings.emplace_back("limits", std::to_string(options.config.limits.size()));
+  overview.settings.emplace_back("plots", plot_selection_name(options.config.plots));
+  for (auto& w : works) overview.rows.push_back(std::move(w.row));
+  io::AtomicFile page(result.report_html);
+  report::write_html_report(
+      overview,
+      [&](std::size_t i, const report::HtmlSink& sink) { sections.copy(works[i].section, sink); },
+      [&](std::string_view bytes) { page.write(bytes); });
+  page.commit();
 
   for (auto& w : works) {
     result.analysis_s += w.result.analysis_s;

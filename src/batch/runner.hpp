@@ -2,8 +2,13 @@
 /// Running one characterisation over folders of captures: list the files (sorted by path),
 /// analyse them on a pool of threads, evaluate the limits, and write the outputs into the
 /// report folder — summary.csv, summary.json, files/NNNN-<name>.json per file and report.html
-/// (docs/batch-output.md). Every output goes through io::write_file_atomic (temporary file +
-/// rename), so a killed run leaves either the previous file or the new one, never half.
+/// (docs/batch-output.md). Every output goes through io::AtomicFile (temporary file + rename),
+/// so a killed run leaves either the previous file or the new one, never half.
+///
+/// Memory: a file's report section (text and plots) is rendered as soon as the file is done and
+/// spilled to an unnamed scratch file (io::ScratchFile) in the report folder; the run keeps
+/// only each file's summary row, and report.html is streamed from the spill file at the end, so
+/// the peak RSS does not grow with the number of files (docs/performance.md, Batch).
 ///
 /// Robustness: a file that cannot be read or analysed (corrupt, not periodic, a missing
 /// channel) becomes an ERROR row with its message; it never stops the batch. Determinism: each

@@ -76,82 +76,116 @@ const char* status_text(FileStatus status) {
   return "ERROR";
 }
 
-std::string render_html_report(ReportDocument document) {
-  std::array<std::size_t, 3> counts{};
+ReportRow report_row(const ReportFile& file) {
+  ReportRow row;
+  row.path = file.path;
+  row.status = file.status;
+  row.key_results = file.key_results;
+  row.failing = file.failing;
+  if (file.status == FileStatus::error && !file.messages.empty()) row.error = file.messages.front();
+  return row;
+}
+
+std::string render_report_section(const ReportFile& f, std::size_t number) {
   std::size_t plot_bytes = 0;
-  for (const auto& f : document.files) {
-    ++counts[static_cast<std::size_t>(f.status)];
-    for (const auto& svg : f.plots) plot_bytes += svg.size();
+  for (const auto& svg : f.plots) plot_bytes += svg.size();
+  std::string html;
+  // The plots dominate; tables and text take a few kB.
+  html.reserve(plot_bytes + 8192);
+  html += "<section>\n<h2 id=\"file-" + std::to_string(number) + "\">" + std::to_string(number) +
+          ". " + xml_escape(f.path) + " " + badge(f.status) + "</h2>\n";
+  if (!f.messages.empty()) {
+    html += "<h3>Messages</h3>\n<ul class=\"messages\">\n";
+    for (const auto& m : f.messages) html += "<li>" + xml_escape(m) + "</li>\n";
+    html += "</ul>\n";
   }
+  if (!f.limits.empty()) {
+    html += "<h3>Limits</h3>\n<table class=\"limits\">\n<thead><tr><th>limit</th><th>measured"
+            "</th><th>allowed</th><th>verdict</th></tr></thead>\n<tbody>\n";
+    for (const auto& l : f.limits)
+      html += std::string(l.failed ? "<tr class=\"failed\">" : "<tr>") + "<td>" +
+              xml_escape(l.name) + "</td><td class=\"num\">" + xml_escape(l.measured) +
+              "</td><td class=\"num\">" + xml_escape(l.allowed) + "</td><td>" +
+              xml_escape(l.verdict) + "</td></tr>\n";
+    html += "</tbody>\n</table>\n";
+  }
+  if (!f.results.empty()) {
+    html += "<h3>Results</h3>\n" + key_value_table(f.results, "kv");
+  }
+  if (!f.plots.empty()) {
+    html += "<h3>Plots</h3>\n<div class=\"plots\">\n";
+    for (const auto& svg : f.plots) html += svg;
+    html += "</div>\n";
+  }
+  if (!f.metadata.empty()) html += "<h3>Capture metadata</h3>\n" + key_value_table(f.metadata, "kv");
+  html += "<p><a href=\"#overview\">back to the overview</a></p>\n</section>\n";
+  return html;
+}
+
+void write_html_report(const ReportOverview& overview,
+                       const std::function<void(std::size_t, const HtmlSink&)>& write_section,
+                       const HtmlSink& sink) {
+  std::array<std::size_t, 3> counts{};
+  for (const auto& row : overview.rows) ++counts[static_cast<std::size_t>(row.status)];
 
   std::string html;
-  // The plots dominate; tables and text take a few kB per file.
-  html.reserve(plot_bytes + 65536 + 8192 * document.files.size());
   html += "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
   // No scripts, no network: even an injected tag could not run or fetch anything.
   html += "<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; "
           "style-src 'unsafe-inline'; img-src data:\">\n";
   html += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
-  html += "<title>" + xml_escape(document.title) + "</title>\n<style>" + kStyle + "</style>\n";
+  html += "<title>" + xml_escape(overview.title) + "</title>\n<style>" + kStyle + "</style>\n";
   html += "</head>\n<body>\n";
-  html += "<h1>" + xml_escape(document.title) + "</h1>\n";
+  html += "<h1>" + xml_escape(overview.title) + "</h1>\n";
   html += "<p class=\"totals\"><span class=\"pass\">" + std::to_string(counts[0]) +
           " pass</span><span class=\"fail\">" + std::to_string(counts[1]) +
           " fail</span><span class=\"error\">" + std::to_string(counts[2]) + " error</span>" +
-          std::to_string(document.files.size()) + " files</p>\n";
-  if (!document.settings.empty()) html += key_value_table(document.settings, "settings");
+          std::to_string(overview.rows.size()) + " files</p>\n";
+  if (!overview.settings.empty()) html += key_value_table(overview.settings, "settings");
 
   html += "<h2 id=\"overview\">Overview</h2>\n<table class=\"overview\">\n<thead><tr><th>#</th>"
           "<th>file</th><th>status</th><th>key results</th><th>failing limits (measured)</th>"
           "</tr></thead>\n<tbody>\n";
-  for (std::size_t i = 0; i < document.files.size(); ++i) {
-    const auto& f = document.files[i];
-    html += "<tr><td class=\"num\">" + std::to_string(i + 1) + "</td><td class=\"path\"><a href=\"#file-" +
-            std::to_string(i + 1) + "\">" + xml_escape(f.path) + "</a></td><td>" + badge(f.status) +
-            "</td><td>" + xml_escape(f.key_results) + "</td><td class=\"msg\">";
+  sink(html);
+  for (std::size_t i = 0; i < overview.rows.size(); ++i) {
+    const auto& f = overview.rows[i];
+    html = "<tr><td class=\"num\">" + std::to_string(i + 1) + "</td><td class=\"path\"><a href=\"#file-" +
+           std::to_string(i + 1) + "\">" + xml_escape(f.path) + "</a></td><td>" + badge(f.status) +
+           "</td><td>" + xml_escape(f.key_results) + "</td><td class=\"msg\">";
     for (std::size_t k = 0; k < f.failing.size(); ++k)
       html += (k ? "<br>" : "") + xml_escape(f.failing[k]);
-    if (f.status == FileStatus::error && !f.messages.empty()) html += xml_escape(f.messages.front());
+    html += xml_escape(f.error);
     html += "</td></tr>\n";
+    sink(html);
   }
-  html += "</tbody>\n</table>\n";
+  sink("</tbody>\n</table>\n");
 
-  for (std::size_t i = 0; i < document.files.size(); ++i) {
-    auto& f = document.files[i];
-    html += "<section>\n<h2 id=\"file-" + std::to_string(i + 1) + "\">" + std::to_string(i + 1) +
-            ". " + xml_escape(f.path) + " " + badge(f.status) + "</h2>\n";
-    if (!f.messages.empty()) {
-      html += "<h3>Messages</h3>\n<ul class=\"messages\">\n";
-      for (const auto& m : f.messages) html += "<li>" + xml_escape(m) + "</li>\n";
-      html += "</ul>\n";
-    }
-    if (!f.limits.empty()) {
-      html += "<h3>Limits</h3>\n<table class=\"limits\">\n<thead><tr><th>limit</th><th>measured"
-              "</th><th>allowed</th><th>verdict</th></tr></thead>\n<tbody>\n";
-      for (const auto& l : f.limits)
-        html += std::string(l.failed ? "<tr class=\"failed\">" : "<tr>") + "<td>" +
-                xml_escape(l.name) + "</td><td class=\"num\">" + xml_escape(l.measured) +
-                "</td><td class=\"num\">" + xml_escape(l.allowed) + "</td><td>" +
-                xml_escape(l.verdict) + "</td></tr>\n";
-      html += "</tbody>\n</table>\n";
-    }
-    if (!f.results.empty()) {
-      html += "<h3>Results</h3>\n" + key_value_table(f.results, "kv");
-    }
-    if (!f.plots.empty()) {
-      html += "<h3>Plots</h3>\n<div class=\"plots\">\n";
-      for (auto& svg : f.plots) {
-        html += svg;
-        std::string().swap(svg);  // copied: release it now
-      }
-      html += "</div>\n";
-    }
-    if (!f.metadata.empty()) html += "<h3>Capture metadata</h3>\n" + key_value_table(f.metadata, "kv");
-    html += "<p><a href=\"#overview\">back to the overview</a></p>\n</section>\n";
-  }
-  html += "<footer>Written by periodfit " + xml_escape(PERIODFIT_VERSION) +
-          ". Uncertainties are 95 % intervals unless stated otherwise.</footer>\n";
-  html += "</body>\n</html>\n";
+  for (std::size_t i = 0; i < overview.rows.size(); ++i) write_section(i, sink);
+  sink("<footer>Written by periodfit " + xml_escape(PERIODFIT_VERSION) +
+       ". Uncertainties are 95 % intervals unless stated otherwise.</footer>\n");
+  sink("</body>\n</html>\n");
+}
+
+std::string render_html_report(ReportDocument document) {
+  ReportOverview overview;
+  overview.title = std::move(document.title);
+  overview.settings = std::move(document.settings);
+  for (const auto& f : document.files) overview.rows.push_back(report_row(f));
+  std::size_t plot_bytes = 0;
+  for (const auto& f : document.files)
+    for (const auto& svg : f.plots) plot_bytes += svg.size();
+
+  std::string html;
+  // The plots dominate; tables and text take a few kB per file.
+  html.reserve(plot_bytes + 65536 + 8192 * document.files.size());
+  const HtmlSink append = [&](std::string_view bytes) { html.append(bytes); };
+  write_html_report(
+      overview,
+      [&](std::size_t i, const HtmlSink& sink) {
+        sink(render_report_section(document.files[i], i + 1));
+        std::vector<std::string>().swap(document.files[i].plots);  // in the page now: release
+      },
+      append);
   return html;
 }
 

@@ -7,7 +7,21 @@
 ///
 /// Every string that came from a user or a file (paths, channel names, metadata, messages) is
 /// escaped with xml_escape; the SVG fragments are trusted output of report::render_svg.
+///
+/// Two ways to the same bytes: render_html_report(document) returns the page as one string;
+/// for a report too large to hold (a batch of thousands of files with plots), each file's
+/// section is rendered on its own as soon as the file is done (render_report_section) and
+/// stored wherever the caller likes, and write_html_report streams the page to a sink, taking
+/// only the overview rows in memory and asking for each section in turn.
+///
+/// Usage (streaming):
+///   sections[i] = render_report_section(file_i, i + 1);    // as each file finishes
+///   write_html_report(overview, [&](std::size_t i, const HtmlSink& s) { s(sections[i]); },
+///                     [&](std::string_view bytes) { out.write(bytes); });
+#include <cstddef>
+#include <functional>
 #include <string>
+#include <string_view>
 #include <utility>
 #include <vector>
 
@@ -45,8 +59,42 @@ struct ReportDocument {
   std::vector<ReportFile> files;  ///< in report order
 };
 
-/// The whole page. Takes the document by value and releases each file's plots once they are
-/// copied into the page, so a large report is held in memory about once, not twice.
+/// What the overview table shows of one file: all the page needs of it besides its section.
+struct ReportRow {
+  std::string path;
+  FileStatus status = FileStatus::pass;
+  std::string key_results;
+  std::vector<std::string> failing;  ///< as ReportFile::failing
+  std::string error;                 ///< shown for an ERROR file: its first message
+};
+
+/// The row of `file` in the overview table.
+ReportRow report_row(const ReportFile& file);
+
+/// The page without its per-file sections.
+struct ReportOverview {
+  std::string title = "periodfit batch report";
+  std::vector<std::pair<std::string, std::string>> settings;  ///< shown under the title
+  std::vector<ReportRow> rows;  ///< in report order
+};
+
+/// Receives the page's bytes in order, in pieces of any size.
+using HtmlSink = std::function<void(std::string_view)>;
+
+/// The `<section>` of one file. `number` is its 1-based position in report order; the overview
+/// links to it as `#file-<number>`.
+std::string render_report_section(const ReportFile& file, std::size_t number);
+
+/// Streams the page to `sink`: head, totals, settings and the overview table from `overview`,
+/// then, for i = 0 … rows − 1 in order, `write_section(i, sink)`, which must pass the bytes of
+/// render_report_section(file i, i + 1) to the sink it is given, then the footer.
+void write_html_report(const ReportOverview& overview,
+                       const std::function<void(std::size_t, const HtmlSink&)>& write_section,
+                       const HtmlSink& sink);
+
+/// The whole page as one string, the same bytes as write_html_report. Takes the document by
+/// value and releases each file's plots once its section is rendered, so the page is held in
+/// memory about once, not twice.
 std::string render_html_report(ReportDocument document);
 
 }  // namespace periodfit::report
