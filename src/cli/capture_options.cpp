@@ -18,6 +18,24 @@ std::pair<std::string, std::string> split_assignment(std::string_view text, std:
   return {channel, value};
 }
 
+FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
+                                           std::string_view estimated_on) {
+  FundamentalOptions o;
+  const std::string on = estimated_on.empty() ? "" : " on " + std::string(estimated_on);
+  o.f0 = app.add_option("--f0", f0_hz, "use exactly this fundamental in Hz (0 = estimate it" + on + ")")
+             ->capture_default_str()
+             ->type_name("HZ");
+  o.f0_hint = app.add_option("--f0-hint", f0_hint_hz,
+                             "search for the fundamental within ±20 % of this frequency in Hz (0 = anywhere)")
+                  ->capture_default_str()
+                  ->type_name("HZ");
+  o.harmonics = app.add_option("--harmonics", max_harmonic,
+                               "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
+                    ->capture_default_str()
+                    ->type_name("N");
+  return o;
+}
+
 void add_capture_options(CLI::App& app, io::ReadOptions& options) {
   app.add_option("--rate", options.rate_hz,
                  "sample rate in Hz; overrides the file's (time column, preamble, audio header); "

@@ -18,6 +18,19 @@ namespace periodfit::cli {
 /// malformed CH=VALUE is a CLI::ValidationError (a usage error, exit code 2).
 void add_capture_options(CLI::App& app, io::ReadOptions& options);
 
+/// The options that steer the fundamental (analyze, identify and batch share them, so their
+/// help reads the same everywhere); each binds to the caller's field and shows its default.
+struct FundamentalOptions {
+  CLI::Option* f0 = nullptr;         ///< --f0 HZ
+  CLI::Option* f0_hint = nullptr;    ///< --f0-hint HZ
+  CLI::Option* harmonics = nullptr;  ///< --harmonics N
+};
+
+/// Declares --f0, --f0-hint and --harmonics. `estimated_on` names what f0 is estimated on when
+/// it differs per command (e.g. "the input"); empty = the channel analysed.
+FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
+                                           std::string_view estimated_on = "");
+
 /// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
 /// CLI::ValidationError naming `option` and what was wrong.
 std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option);

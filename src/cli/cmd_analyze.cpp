@@ -38,17 +38,7 @@ Runner add_analyze(CLI::App& app) {
                  "channel to analyse, by name or 0-based index (repeatable; default: all)")
       ->type_name("CH")
       ->allow_extra_args(false);
-  app.add_option("--f0", lock.f0_hz, "use exactly this fundamental in Hz (0 = estimate it)")
-      ->capture_default_str()
-      ->type_name("HZ");
-  app.add_option("--f0-hint", lock.f0_hint_hz,
-                 "search for the fundamental within ±20 % of this frequency in Hz (0 = anywhere)")
-      ->capture_default_str()
-      ->type_name("HZ");
-  app.add_option("--harmonics", lock.max_harmonic,
-                 "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
-      ->capture_default_str()
-      ->type_name("N");
+  add_fundamental_options(app, lock.f0_hz, lock.f0_hint_hz, lock.max_harmonic);
   app.add_option("--samples-per-period", args->options.samples_per_period,
                  "samples per period of the locked grid (0 = automatic)")
       ->capture_default_str()

@@ -137,15 +137,11 @@ Runner add_batch(CLI::App& app) {
   a.skew = app.add_option("--skew", a.flags.identify.frf.skew_s, "identify: output path delay to remove")
                ->capture_default_str()
                ->type_name("SECONDS");
-  a.f0 = app.add_option("--f0", a.flags.analyze.f0_hz, "use exactly this fundamental (0 = estimate)")
-             ->capture_default_str()
-             ->type_name("HZ");
-  a.f0_hint = app.add_option("--f0-hint", a.flags.analyze.f0_hint_hz, "search the fundamental near this")
-                  ->capture_default_str()
-                  ->type_name("HZ");
-  a.harmonics = app.add_option("--harmonics", a.flags.analyze.harmonics, "highest harmonic (0 = automatic)")
-                    ->capture_default_str()
-                    ->type_name("N");
+  const FundamentalOptions fundamental = add_fundamental_options(
+      app, a.flags.analyze.f0_hz, a.flags.analyze.f0_hint_hz, a.flags.analyze.harmonics);
+  a.f0 = fundamental.f0;
+  a.f0_hint = fundamental.f0_hint;
+  a.harmonics = fundamental.harmonics;
   a.plots_option = app.add_option("--plots", a.plots, "plots in report.html: all, failed or none")
                        ->default_str(batch::plot_selection_name(defaults.plots))
                        ->type_name("WHICH");

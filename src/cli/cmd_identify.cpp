@@ -127,16 +127,7 @@ Runner add_identify(CLI::App& app) {
                  "extra delay of the output acquisition path in seconds, removed as a phase correction")
       ->capture_default_str()
       ->type_name("SECONDS");
-  app.add_option("--f0", a->options.f0_hz, "use exactly this fundamental in Hz (0 = estimate it on the input)")
-      ->capture_default_str()
-      ->type_name("HZ");
-  app.add_option("--f0-hint", a->options.f0_hint_hz, "search the fundamental near this frequency in Hz (0 = anywhere)")
-      ->capture_default_str()
-      ->type_name("HZ");
-  app.add_option("--harmonics", a->options.max_harmonic,
-                 "highest harmonic examined (0 = all below 0.45·fs, at most 50)")
-      ->capture_default_str()
-      ->type_name("N");
+  add_fundamental_options(app, a->options.f0_hz, a->options.f0_hint_hz, a->options.max_harmonic, "the input");
   app.add_option("--min-snr", a->options.frf.min_snr_db,
                  "input power above the input noise floor, in dB, for a harmonic to count as excited")
       ->capture_default_str()
