@@ -178,3 +178,56 @@ TEST_CASE("cost band: a right model fitted to estimated-weight points is called 
   CHECK(std::abs(rate - 0.95) <= 0.025);
   CHECK(std::abs(mean_cost / expected - 1) <= 0.05);
 }
+
+TEST_CASE("cost band: parameter intervals of a fit to estimated-weight points cover ~95 %") {
+  // H = 2ω_c/(s + ω_c), ω_c = 2π·700: b0 = 2ω_c, a0 = ω_c, order 0/1, 20 harmonics of 100 Hz,
+  // weights from P periods. ±1.96u (u with covariance_inflation) must cover 95 ± 2 % (2000
+  // draws: binomial σ 0.49 %); the uninflated u with Student-t is the control that falls short.
+  const int K = 20, draws = 2000;
+  const double wc = 2 * kPi * 700;
+  for (int periods : {10, 32}) {
+    CAPTURE(periods);
+    Gaussian g(500 + static_cast<std::uint64_t>(periods));
+    int b0_in = 0, a0_in = 0, b0_uninflated_t = 0;
+    // Student-t 97.5 % points for 9 and 31 dof: 2.262 and 2.040 (tables, from memory).
+    const double t = periods == 10 ? 2.262 : 2.040;
+    for (int d = 0; d < draws; ++d) {
+      std::vector<FrfPoint> pts;
+      for (int k = 0; k < K; ++k) {
+        const double w = 2 * kPi * 100 * (k + 1);
+        pts.push_back(simulated_point(g, w, 2.0 * low_pass(w, wc), 2e-3, periods));
+      }
+      RationalFitOptions o;
+      o.order = {0, 1};
+      const RationalFitResult r = fit_rational(pts, o);
+      REQUIRE(r.covariance_defined);
+      REQUIRE(r.covariance_inflation == doctest::Approx((periods - 1.0) / (periods - 6.0)));
+      const double zb = std::abs(r.model.num[0] - 2 * wc) / r.parameter_u[0];
+      const double za = std::abs(r.model.den[0] - wc) / r.parameter_u[1];
+      b0_in += zb < 1.96;
+      a0_in += za < 1.96;
+      b0_uninflated_t += zb * std::sqrt(r.covariance_inflation) < t;
+    }
+    const double b0 = double(b0_in) / draws, a0 = double(a0_in) / draws, control = double(b0_uninflated_t) / draws;
+    MESSAGE("P = " << periods << ": b0 " << 100 * b0 << " %, a0 " << 100 * a0 << " %, uninflated with t "
+                   << 100 * control << " %");
+    CHECK(std::abs(b0 - 0.95) <= 0.02);
+    CHECK(std::abs(a0 - 0.95) <= 0.02);
+    if (periods == 10) CHECK(control < 0.90);
+  }
+}
+
+TEST_CASE("cost band: weights from 6 or fewer periods leave the parameter covariance undefined") {
+  FrfPoint p = FrfPoint::circular(1, 1, 1);
+  p.covariance_dof = 5;  // P = 6
+  p.covariance_sampled_2x2 = true;
+  const CovarianceInflation c = covariance_inflation({p, p});
+  CHECK(!c.defined);
+  CHECK(c.factor == doctest::Approx(5.0 / 2.0));  // the first-moment correction m/(m − 3)
+  p.covariance_dof = 9;
+  CHECK(covariance_inflation({p}).factor == doctest::Approx(9.0 / 4.0));
+  FrfPoint q = FrfPoint::circular(1, 1, 1);
+  q.covariance_dof = 64;  // noise bins
+  CHECK(covariance_inflation({q}).factor == doctest::Approx(64.0 / 60.0));
+  CHECK(covariance_inflation({FrfPoint::circular(1, 1, 1)}).factor == 1);
+}

@@ -91,7 +91,7 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   const ident::IdentifyResult r = ident::identify(capture, config.identify);
   FileAnalysis a;
   MeasurementSet& m = a.measurements;
-  const double k = model_coverage_factor(r.frf.dof);
+  const double k = model_coverage_factor();
 
   const double f0 = r.fundamental.f0_hz;
   m.set("f0_hz", Quantity::symmetric(f0, kNormal95 * r.fundamental.f0_u_hz));
@@ -269,7 +269,9 @@ FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config)
 
 }  // namespace
 
-double model_coverage_factor(int frf_dof) { return ident::coverage_factor(0.95, frf_dof); }
+// The model covariance already allows for weights estimated from P periods
+// (ident::covariance_inflation), so the normal quantile applies, not Student-t on the FRF dof.
+double model_coverage_factor() { return ident::coverage_factor(0.95, 0); }
 
 FileAnalysis analyse_file(const std::string& path, const BatchConfig& config) {
   const Capture capture = io::read_capture(path, config.read);

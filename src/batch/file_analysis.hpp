@@ -5,9 +5,9 @@
 /// analysis JSON. Errors propagate as exceptions (the runner makes them ERROR rows).
 ///
 /// Uncertainties in the MeasurementSet are 95 % intervals. Identify: FRF points carry the
-/// Student-t intervals the FRF stage computed; model parameters (1σ from the fit covariance)
-/// are scaled by the same coverage factor (Student-t for the FRF's degrees of freedom, since
-/// the weights of the fit were estimated with them); f0 uses 1.96·u (the sine fit has
+/// Student-t intervals the FRF stage computed; model parameters (1σ from the fit covariance,
+/// which already allows for weights estimated from P periods: ident::covariance_inflation)
+/// use the normal 1.96; f0 uses 1.96·u too (the sine fit has
 /// thousands of residual degrees of freedom). Values at freq_hz come from the fitted model,
 /// with u from the parameter covariance propagated to first order through ∂H/∂θ.
 #include <nlohmann/json.hpp>
@@ -51,6 +51,6 @@ std::vector<std::string> analysis_key_names(const BatchConfig& config);
 std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const BatchConfig& config);
 
 /// The 95 % coverage factor used for model-derived quantities (see the header comment).
-double model_coverage_factor(int frf_dof);
+double model_coverage_factor();
 
 }  // namespace periodfit::batch

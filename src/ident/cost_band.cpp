@@ -139,4 +139,29 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
   return band;
 }
 
+CovarianceInflation covariance_inflation(const std::vector<FrfPoint>& points) {
+  CovarianceInflation out;
+  if (points.empty()) return out;
+  double sum = 0;
+  for (const FrfPoint& p : points) {
+    if (p.covariance_dof <= 0) {
+      sum += 1;
+      continue;
+    }
+    const double m = p.covariance_dof;
+    const double limit = p.covariance_sampled_2x2 ? 5 : 4;
+    if (m <= limit) {
+      // No finite second moment: count the first-moment correction (m/(m − 3), ν/(ν − 2))
+      // where it exists, and say the result is not a covariance.
+      out.defined = false;
+      const double first = p.covariance_sampled_2x2 ? 3 : 2;
+      sum += m > first ? m / (m - first) : 1;
+      continue;
+    }
+    sum += m / (m - limit);
+  }
+  out.factor = sum / static_cast<double>(points.size());
+  return out;
+}
+
 }  // namespace periodfit::ident

@@ -141,6 +141,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     }
     if (r.model->unstable) r.flags.push_back("unstable-pole");
     if (!(r.model->condition_number <= kIllConditionedJacobian)) r.flags.push_back("ill-conditioned");
+    if (!r.model->covariance_defined) r.flags.push_back("parameter-u-undefined");
     if (r.model->status == LeastSquaresStatus::max_iterations ||
         r.model->status == LeastSquaresStatus::failed) {
       r.flags.push_back("model-not-converged");
@@ -325,6 +326,9 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
     m["band_method"] = f.band_method;
     m["adequate"] = f.adequate;
     m["unstable"] = f.unstable;
+    // The parameter covariance carries the estimated-weights inflation, so the normal quantile
+    // gives the interval (ident/cost_band.hpp, covariance_inflation).
+    const double k_model = coverage_factor(r.model_confidence, 0);
     m["parameters"] = json::array();
     for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
       const double value = parameter_value(f, i);
@@ -332,8 +336,8 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
       m["parameters"].push_back(json{{"name", f.parameter_names[i]},
                                      {"value", io::json_number(value)},
                                      {"u", io::json_number(u)},
-                                     {"lo", io::json_number(value - r.frf.coverage_factor * u)},
-                                     {"hi", io::json_number(value + r.frf.coverage_factor * u)}});
+                                     {"lo", io::json_number(value - k_model * u)},
+                                     {"hi", io::json_number(value + k_model * u)}});
     }
     m["covariance"] = json::array();
     for (const auto& row : f.model.covariance) {
@@ -341,6 +345,8 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
       for (double v : row) jr.push_back(io::json_number(v));
       m["covariance"].push_back(jr);
     }
+    m["coverage_factor"] = io::json_number(k_model);
+    m["covariance_inflation"] = io::json_number(f.covariance_inflation);
     m["condition_number"] = io::json_number(f.condition_number);
     m["method"] = f.method;
     m["fit_status"] = to_string(f.status);

@@ -356,8 +356,13 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   out.method = std::string(with_delay ? "delay-grid(" + std::to_string(grid_points) + ")+" : "") + "levy+sk(" +
                std::to_string(start.iterations) + ")+ml-lm(" + std::to_string(ls.iterations) + ")";
 
-  const MatrixXd cov = Eigen::Map<const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(
-      ls.covariance_unscaled.data(), static_cast<Index>(n), static_cast<Index>(n));
+  // Estimated weights widen the parameters' spread beyond (JᵀŴJ)⁻¹ (ident/cost_band.hpp).
+  const CovarianceInflation inflation = covariance_inflation(d.points);
+  out.covariance_inflation = inflation.factor;
+  out.covariance_defined = inflation.defined;
+  const MatrixXd cov = inflation.factor *
+      Eigen::Map<const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(
+          ls.covariance_unscaled.data(), static_cast<Index>(n), static_cast<Index>(n));
   // Back to SI: b_i = b'_i ω_ref^{N−i}, a_i = a'_i ω_ref^{N−i} (dividing B'(s/ω_ref), A'(s/ω_ref)
   // by the leading ω_ref^{−N} keeps A monic), T = T'/ω_ref.
   std::vector<double> factor(n);

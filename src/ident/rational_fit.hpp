@@ -20,7 +20,9 @@
 /// With `estimate_delay`, T starts from the best of a grid of delays over one turn of ω_base =
 /// min(ω_min, smallest gap between the ω_k) (harmonic data cannot tell T from T + 2π/ω₀), each
 /// grid point scored by an SK fit of H·e^{jωT}.
-/// Covariance of θ = (JᵀJ)⁻¹ of the whitened residuals (known noise, not rescaled by V/dof).
+/// Covariance of θ = (JᵀJ)⁻¹ of the whitened residuals (not rescaled by V/dof), times the
+/// inflation for estimated weights (ident/cost_band.hpp: m/(m − 5) for covariances from P = m + 1
+/// periods; 1 for known ones), so ±1.96σ intervals cover about 95 % from P ≈ 10 on.
 /// Roots are companion-matrix eigenvalues (in scaled frequency, then ×ω_ref); their 1σ come from
 /// ∂p/∂a_i = −p^i/A'(p) (∂z/∂b_i = −z^i/B'(z)) applied to the covariance; time constants,
 /// natural frequencies, damping ratios and Q are propagated from the roots to first order.
@@ -28,8 +30,9 @@
 /// Covariances estimated from P periods are themselves uncertain (P − 1 degrees of freedom), which
 /// raises and widens the spread of V (by 1.5× in the mean at P = 10); the adequacy band allows for
 /// this when the points say how their covariances were estimated (FrfPoint::covariance_dof;
-/// ident/cost_band.hpp). Misuse warning: the parameter covariance does not: with few periods the
-/// parameter intervals are slightly too narrow (coverage in docs/performance.md). Root uncertainties are first order and are not
+/// ident/cost_band.hpp), and so does the parameter covariance (below). Misuse warning: with
+/// weights from fewer than 7 periods the parameters' covariance does not exist to first order
+/// (`covariance_defined` false; identify flags it). Root uncertainties are first order and are not
 /// defined at repeated roots (flagged `uncertainty_defined = false`; the _u fields are then 0
 /// and meaningless). Delays beyond one period of the fundamental cannot be identified, and with
 /// odd harmonics only, T and T + half a period differ only by the sign of the gain.
@@ -154,6 +157,11 @@ struct RationalFitResult {
   std::string band_method;             ///< "chi2", "scaled-chi2" or "monte-carlo"
   bool adequate = false;               ///< chi2_lower ≤ cost ≤ chi2_upper
   bool unstable = false;               ///< some pole has Re p ≥ 0
+  /// Factor applied to (JᵀŴJ)⁻¹ for estimated weights (1 = weights known).
+  double covariance_inflation = 1;
+  /// false: weights from ≤ 6 periods (or ≤ 4 noise dof), whose parameter covariance has no
+  /// finite second moment; the reported one then carries only the first-moment correction.
+  bool covariance_defined = true;
   double condition_number = 0;         ///< of the column-scaled Jacobian at the optimum (scaled ω)
   int rank = 0;                        ///< numerical rank of that Jacobian
   double omega_ref_rad_s = 0;          ///< frequency scale used internally

@@ -8,9 +8,11 @@ channels, runs `periodfit identify --json -` and scores:
   * |H| and phase at every excited harmonic against the DUT's true response: inside
     [mag_lo, mag_hi] / [phase_lo_deg, phase_hi_deg] (Student-t intervals);
   * every model parameter (b0, a0, a1, and T with --delay) against its true value: inside
-    value ± k·u with k = coverage_factor of the JSON (Student-t with the FRF's P − 1 dof, as
-    the intervals in the report and in batch use: the FRF variances the fit is weighted with
-    are themselves estimated from P periods). --normal scores with 1.959964 instead.
+    its reported [lo, hi] (value ± model.coverage_factor·u: the normal quantile on a covariance
+    inflated for weights estimated from P periods, model.covariance_inflation);
+    --student-t scores with the old rule instead, value ± coverage_factor·u/√inflation
+    (Student-t with P − 1 dof on the uninflated covariance), for comparison;
+  * the share of runs whose model is called adequate (the true order is fitted, so ≈ 95 %).
 Target (issue 4): each coverage 95 ± 2.5 %.
 
 DUT: H(s) = wn²/(s² + 2ζ·wn·s + wn²)·e^(−sT), wn = 2π·300 rad/s, ζ = 0.3 (textbook
@@ -35,7 +37,6 @@ F0 = 100.0        # Hz, 100 samples per period
 HARMONICS = 12    # flat multisine on 1…12
 WN = 2 * math.pi * 300
 ZETA = 0.3
-Z95 = 1.959964    # normal quantile 0.975
 
 
 def true_h(w, delay):
@@ -65,7 +66,8 @@ def main():
     ap.add_argument("--periods", type=int, default=16)
     ap.add_argument("--delay", action="store_true")
     ap.add_argument("--seed", type=int, default=20261202)
-    ap.add_argument("--normal", action="store_true", help="score parameters with the normal quantile")
+    ap.add_argument("--student-t", dest="student_t", action="store_true",
+                    help="score parameters the old way: Student-t on the uninflated covariance")
     ap.add_argument("--exe", default=os.path.join(os.path.dirname(__file__), "..", "..", "build", "periodfit"))
     a = ap.parse_args()
     delay = 2e-4 if a.delay else 0.0
@@ -75,7 +77,7 @@ def main():
     rng = np.random.default_rng(a.seed)
     mag_in = phase_in = points = 0
     par_in = {k: 0 for k in truth}
-    runs = 0
+    runs = adequate = 0
     failures = 0
     start = time.time()
     with tempfile.TemporaryDirectory() as tmp:
@@ -102,18 +104,25 @@ def main():
                 # wrapped difference: intervals may cross ±180° (the delay turns the phase)
                 d = math.remainder(math.degrees(np.angle(h0)) - pt["phase_deg"], 360.0)
                 phase_in += abs(d) <= 0.5 * (pt["phase_hi_deg"] - pt["phase_lo_deg"])
-            k = Z95 if a.normal else r["coverage_factor"]
-            for par in r["model"]["parameters"]:
-                if par["name"] in truth:
-                    par_in[par["name"]] += abs(par["value"] - truth[par["name"]]) <= k * par["u"]
+            model = r["model"]
+            adequate += bool(model["adequate"])
+            for par in model["parameters"]:
+                if par["name"] not in truth:
+                    continue
+                if a.student_t:
+                    u = par["u"] / math.sqrt(model["covariance_inflation"])
+                    par_in[par["name"]] += abs(par["value"] - truth[par["name"]]) <= r["coverage_factor"] * u
+                else:
+                    par_in[par["name"]] += par["lo"] <= truth[par["name"]] <= par["hi"]
     elapsed = time.time() - start
     print(f"runs {runs} (failed {failures}), {a.periods} periods, SNR {a.snr_db:g} dB, "
-          f"delay {'estimated' if a.delay else 'none'}, parameter quantile {'normal' if a.normal else 'student-t'}, "
+          f"delay {'estimated' if a.delay else 'none'}, parameters scored {'the old way (student-t)' if a.student_t else 'by lo/hi'}, "
           f"{elapsed:.1f} s")
     print(f"coverage |H|     {100 * mag_in / points:.1f} %  ({points} points)")
     print(f"coverage phase   {100 * phase_in / points:.1f} %")
     for k, v in par_in.items():
         print(f"coverage {k:<7} {100 * v / max(runs, 1):.1f} %")
+    print(f"adequate         {100 * adequate / max(runs, 1):.1f} %")
     lo, hi = 92.5, 97.5
     ok = all(lo <= 100 * c <= hi for c in [mag_in / points, phase_in / points] + [v / runs for v in par_in.values()])
     print("target 95 ± 2.5 %:", "met" if ok else "MISSED")
