@@ -163,6 +163,28 @@ TEST_CASE("honesty: identify on 3 periods flags few-periods and takes variances 
   CHECK(j["quantile"].get<std::string>() == "student-t");
 }
 
+TEST_CASE("honesty: a model fitted with weights from 5 periods flags its parameter uncertainties") {
+  // Per-period covariances from P = 5 (m = 4 dof) have no finite second moment of their
+  // inverse (ident/cost_band.hpp), so the parameters' first-order covariance does not exist.
+  TempDir dir("hon_id_five");
+  const auto [u, y] = rc_capture(10000, 100, 500, std::vector<double>(10, 0.3), 1e-3, 1e-4, 5);
+  write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
+  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") +
+                               "' --input v_in --output v_out --f0 100 --order 0/1");
+  REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
+  CHECK(j["frf_method"].get<std::string>() == "per-period-covariance");
+  CHECK(has_flag(j, "parameter-u-undefined"));
+  CHECK(j["model"]["covariance_inflation"].get<double>() == doctest::Approx(4.0 / 1.0));
+  // With 10 periods the flag is gone and the factor is m/(m − 5) = 9/4.
+  const auto [u10, y10] = rc_capture(10000, 100, 1000, std::vector<double>(10, 0.3), 1e-3, 1e-4, 10);
+  write_text(dir.file("rc10.csv"), capture_csv(10000, {u10, y10}, {"v_in", "v_out"}));
+  const auto [r10, j10] = run_json("identify '" + dir.file("rc10.csv") +
+                                   "' --input v_in --output v_out --f0 100 --order 0/1");
+  REQUIRE_MESSAGE(r10.exit_code == 0, describe(r10));
+  CHECK(!has_flag(j10, "parameter-u-undefined"));
+  CHECK(j10["model"]["covariance_inflation"].get<double>() == doctest::Approx(9.0 / 4.0));
+}
+
 TEST_CASE("honesty: identify refuses an input channel that carries only noise") {
   if (!command_has_option("identify", "--order")) {
     MESSAGE("SKIPPED (identify not built yet): input at the noise floor");
