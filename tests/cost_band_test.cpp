@@ -15,6 +15,7 @@
 #include "core/error.hpp"
 #include "ident/cost_band.hpp"
 #include "ident/rational_fit.hpp"
+#include "support/gaussian.hpp"
 #include "support/python_ref.hpp"
 
 using namespace periodfit;
@@ -25,19 +26,7 @@ namespace {
 
 constexpr double kPi = std::numbers::pi;
 
-/// Deterministic standard normal (Box–Muller on mt19937_64, whose sequence the standard fixes).
-class Gaussian {
- public:
-  explicit Gaussian(std::uint64_t seed) : gen_(seed) {}
-  double operator()() {
-    const double u1 = (static_cast<double>(gen_() >> 11) + 1) * 0x1p-53;
-    const double u2 = static_cast<double>(gen_() >> 11) * 0x1p-53;
-    return std::sqrt(-2 * std::log(u1)) * std::cos(2 * kPi * u2);
-  }
-
- private:
-  std::mt19937_64 gen_;
-};
+using test::Gaussian;
 
 /// One measured point as ident/frf.cpp makes it: P per-period deviations δH_p drawn from a
 /// correlated 2-D Gaussian (σ_re, σ_im, correlation ρ), H = truth + mean δH, covariance = sample

@@ -17,6 +17,7 @@
 #include "core/error.hpp"
 #include "ident/rational_fit.hpp"
 #include "io/number_format.hpp"
+#include "support/gaussian.hpp"
 #include "support/python_ref.hpp"
 
 using namespace periodfit;
@@ -39,20 +40,7 @@ constexpr double kTextbook4Digits = 5e-5;
 // A cost beyond the 99.9 % point of its χ² means a wrong model, not bad luck (1 in 1000).
 constexpr double kGrossMisfitQuantile = 0.999;
 
-/// Deterministic standard normal (fixed-seed mt19937_64 is specified by the standard; Box–Muller
-/// written out so the sequence does not depend on the library's distribution code).
-class Gaussian {
- public:
-  explicit Gaussian(std::uint64_t seed) : gen_(seed) {}
-  double operator()() {
-    const double u1 = (static_cast<double>(gen_() >> 11) + 1) * 0x1p-53;
-    const double u2 = static_cast<double>(gen_() >> 11) * 0x1p-53;
-    return std::sqrt(-2 * std::log(u1)) * std::cos(2 * kPi * u2);
-  }
-
- private:
-  std::mt19937_64 gen_;
-};
+using test::Gaussian;
 
 /// FRF points of `h` at `omegas`, with circular noise of standard deviation rel·|H| (variance
 /// reported accordingly); rel = 0 gives exact values with a nominal variance (1e-6·|H|)².
