@@ -26,8 +26,13 @@ struct TermLaw {
 TermLaw term_law(const FrfPoint& p) {
   if (p.covariance_dof <= 0) return {};
   const double m = p.covariance_dof;
-  // Hotelling: P·ēᵀS⁻¹ē with S on m dof, dimension 2 → 2m/(m − 1)·F(2, m − 1).
-  if (p.covariance_sampled_2x2) return {2 * m / (m - 1), m - 1};
+  // Hotelling: P·ēᵀS⁻¹ē with S on m dof, dimension 2 → 2m/(m − 1)·F(2, m − 1). m ≥ 2 is needed
+  // for S to be invertible at all (FrfOptions asks for ≥ 3 periods); a caller's m = 1 gets the
+  // m = 2 law rather than a division by zero.
+  if (p.covariance_sampled_2x2) {
+    const double mm = std::max(m, 2.0);
+    return {2 * mm / (mm - 1), mm - 1};
+  }
   return {2, m};  // 2|e|²/σ̂² with σ̂²/σ² ~ χ²_ν/ν → 2·F(2, ν)
 }
 

@@ -82,9 +82,10 @@ void FrfOptions::validate() const {
     throw OptionError("min_snr_db", io::format_shortest(min_snr_db), "must be finite and >= 0");
   if (!(confidence > 0 && confidence < 1))
     throw OptionError("confidence", io::format_shortest(confidence), "must be in (0, 1)");
-  if (min_periods_for_sample_variance < 2)
+  // Two periods give a rank-1 2×2 sample covariance, which no weighted fit can invert.
+  if (min_periods_for_sample_variance < 3)
     throw OptionError("min_periods_for_sample_variance",
-                      std::to_string(min_periods_for_sample_variance), "must be >= 2");
+                      std::to_string(min_periods_for_sample_variance), "must be >= 3");
   if (!std::isfinite(skew_s))
     throw OptionError("skew_s", io::format_shortest(skew_s), "must be finite");
 }

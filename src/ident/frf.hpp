@@ -62,7 +62,8 @@ inline constexpr double kNumericalFloorRelative = 1e-12;
 struct FrfOptions {
   double min_snr_db = 20;  ///< input harmonic power above the input noise floor to count as excited
   double confidence = 0.95;  ///< level of the reported intervals, in (0, 1)
-  /// Periods needed to use the per-period (co)variances; fewer: neighbouring noise bins. ≥ 2.
+  /// Periods needed to use the per-period (co)variances; fewer: neighbouring noise bins. ≥ 3
+  /// (two periods give a singular 2×2 covariance).
   int min_periods_for_sample_variance = 4;
   /// Output phasor correction e^{+j·n·ω0·skew_s}: the output acquisition path lags the input's
   /// by skew_s seconds (probe, cable, ADC pipeline); 0 = none.
