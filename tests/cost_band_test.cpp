@@ -133,7 +133,7 @@ TEST_CASE("cost band: simulated per-period covariances fall in the band 95 % of 
     const double rate = double(inside) / draws, plain = double(inside_plain_chi2) / draws;
     MESSAGE("P = " << periods << " (" << method << "): inside band " << 100 * rate << " %, inside plain chi2 "
                    << 100 * plain << " %");
-    CHECK(method == (periods <= 31 ? "monte-carlo" : "scaled-chi2"));
+    CHECK(method == (periods <= 32 ? "monte-carlo" : "scaled-chi2"));
     CHECK(std::abs(rate - 0.95) <= 0.015);
     // The control: ignoring the estimated weights rejects a right model far too often.
     if (periods <= 16) CHECK(plain < 0.80);

@@ -14,7 +14,7 @@
 /// P = 10). The band here is that of Σ_k of the per-point laws, scaled by (2K − n_θ)/(2K) for
 /// the parameters the fit absorbed (exact for known weights in the mean; first order otherwise):
 ///  - all weights known: χ²(2K − n_θ) itself, method "chi2";
-///  - every F term with d2 > 30 (P ≥ 32 periods, or the noise-bin method's ≥ 64 dof): a scaled
+///  - every F term with d2 > 30 (P ≥ 33 periods, d2 = P − 2, or the noise-bin method's ≥ 64 dof): a scaled
 ///    χ² c·χ²_ν matching the sum's mean and variance (Satterthwaite 1946, Biometrics Bull.
 ///    2(6):110–114), method "scaled-chi2";
 ///  - otherwise (heavier F tails, where two moments over-cover: 96.9 % at P = 8): the quantiles
