@@ -88,7 +88,7 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
   const double lo_q = (1 - confidence) / 2, hi_q = (1 + confidence) / 2;
   std::vector<TermLaw> laws;
   laws.reserve(points.size());
-  bool all_known = true, finite_variance = true;
+  bool all_known = true, heavy_tails = false, mean_exists = true;
   double mean = 0, variance = 0;
   for (const FrfPoint& p : points) {
     const TermLaw law = term_law(p);
@@ -99,13 +99,13 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
       continue;
     }
     all_known = false;
-    if (law.d2 <= kMonteCarloMaxD2) {
-      finite_variance = false;
-      continue;
-    }
-    // F(2, d2): mean d2/(d2 − 2), variance d2³/((d2 − 2)²(d2 − 4)) (from the F law's moments).
-    mean += law.a * law.d2 / (law.d2 - 2);
-    variance += law.a * law.a * law.d2 * law.d2 * law.d2 / ((law.d2 - 2) * (law.d2 - 2) * (law.d2 - 4));
+    heavy_tails = heavy_tails || law.d2 <= kMonteCarloMaxD2;
+    // F(2, d2): mean d2/(d2 − 2) for d2 > 2, variance d2³/((d2 − 2)²(d2 − 4)) for d2 > 4 (from
+    // the F law's moments).
+    if (law.d2 > 2) mean += law.a * law.d2 / (law.d2 - 2);
+    else mean_exists = false;
+    if (law.d2 > 4)
+      variance += law.a * law.a * law.d2 * law.d2 * law.d2 / ((law.d2 - 2) * (law.d2 - 2) * (law.d2 - 4));
   }
   // The fit absorbs n_θ of the 2K real equations; scale the sum of the K terms accordingly.
   const double absorbed = points.empty() ? 1.0 : static_cast<double>(dof) / (2.0 * static_cast<double>(points.size()));
@@ -117,7 +117,7 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
     band.upper = boost::math::quantile(chi2, hi_q);
     band.expected = dof;
     band.method = "chi2";
-  } else if (finite_variance) {
+  } else if (!heavy_tails) {
     // Satterthwaite: c·χ²_ν with c·ν = mean, 2c²ν = variance (of the scaled sum).
     const double m = absorbed * mean, v = absorbed * absorbed * variance;
     const double c = v / (2 * m), nu = 2 * m * m / v;
@@ -131,14 +131,7 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
     band.lower = absorbed * sorted_quantile(sums, lo_q);
     band.upper = absorbed * sorted_quantile(sums, hi_q);
     // With some d2 ≤ 2 the mean is infinite; the median is the honest "typical" value then.
-    double finite_mean = 0;
-    bool mean_exists = true;
-    for (const TermLaw& law : laws) {
-      if (std::isinf(law.d2)) finite_mean += 2;
-      else if (law.d2 > 2) finite_mean += law.a * law.d2 / (law.d2 - 2);
-      else mean_exists = false;
-    }
-    band.expected = absorbed * (mean_exists ? finite_mean : sorted_quantile(sums, 0.5));
+    band.expected = absorbed * (mean_exists ? mean : sorted_quantile(sums, 0.5));
     band.method = "monte-carlo";
   }
   return band;
