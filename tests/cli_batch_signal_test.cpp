@@ -6,6 +6,7 @@
 // while, watches the folder, sends SIGINT as soon as the first entry appears (the run has begun
 // writing), and then checks what is left: no `.…tmp-…` temporaries, and every file that is
 // there is whole (each JSON parses, summary.csv has one complete row per capture).
+#include "support/test_paths.hpp"
 #include <doctest/doctest.h>
 #include <fcntl.h>
 #include <signal.h>

@@ -1,6 +1,7 @@
 // `periodfit batch` as a command: exit codes (0 all pass, 1 a limit failed, 2 an error or bad
 // usage), the closing line, --quiet, load-time config errors before any file is read,
 // identical report folders across --jobs, and HTML escaping of hostile file and channel names.
+#include "support/test_paths.hpp"
 #include <doctest/doctest.h>
 
 #include <algorithm>

@@ -1,5 +1,6 @@
 // `periodfit info`: the whole text and JSON outputs are contracts, and every bad input gives one
 // `periodfit: error: …` line, exit code 2 and no partial output.
+#include "support/test_paths.hpp"
 #include <doctest/doctest.h>
 #include <sndfile.h>
 #include <sys/stat.h>

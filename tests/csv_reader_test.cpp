@@ -1,6 +1,7 @@
 // CSV import: every shape the importer recognises without flags, and every bad input with its
 // whole message. The parser takes text, so most cases feed strings; read_csv is exercised on
 // files for the OS errors and on the testdata/csv shapes.
+#include "support/test_paths.hpp"
 #include <doctest/doctest.h>
 
 #include <sys/stat.h>

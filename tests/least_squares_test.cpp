@@ -1,6 +1,7 @@
 // The Levenberg–Marquardt engine against the NIST StRD nonlinear-regression certified values
 // (NIST ITL Statistical Reference Datasets, testdata/nist-strd/, public domain), from both NIST
 // starting points, plus its statuses and option validation.
+#include "support/test_paths.hpp"
 #include <doctest/doctest.h>
 
 #include <cmath>

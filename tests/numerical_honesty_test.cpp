@@ -88,7 +88,9 @@ TEST_CASE("honesty: analyze of 1.7 periods flags few-periods and does not claim 
   s.amplitudes = {1.0, 0.2};
   s.noise_rms = 1e-3;
   write_text(dir.file("few.csv"), capture_csv(1000, {synthesize(s, 1000, 100)}));
-  const auto [r, j] = run_json("analyze '" + dir.file("few.csv") + "' --harmonics 2");
+  const auto r_j = run_json("analyze '" + dir.file("few.csv") + "' --harmonics 2");
+  const CliRun& r = r_j.first;
+  const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   const json& c = j["channels"][0];
   CHECK(has_flag(c, "few-periods"));
@@ -108,7 +110,9 @@ TEST_CASE("honesty: analyze marks a harmonic at the noise floor as not resolved,
   s.amplitudes = {1.0, 0.0, 1e-7};  // 3rd harmonic far below the noise line amplitude (~4e-4)
   s.noise_rms = 1e-2;
   write_text(dir.file("floor.csv"), capture_csv(5000, {synthesize(s, 5000, 20000)}));
-  const auto [r, j] = run_json("analyze '" + dir.file("floor.csv") + "' --harmonics 5");
+  const auto r_j = run_json("analyze '" + dir.file("floor.csv") + "' --harmonics 5");
+  const CliRun& r = r_j.first;
+  const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   const json& h = j["channels"][0]["harmonics"];
   REQUIRE(h.size() >= 3);
@@ -153,9 +157,13 @@ TEST_CASE("honesty: identify on 3 periods flags few-periods and takes variances 
     return;
   }
   TempDir dir("hon_id_few");
-  const auto [u, y] = rc_capture(10000, 100, 300, std::vector<double>(10, 0.3), 1e-3, 1e-4, 3);
+  const auto u_y = rc_capture(10000, 100, 300, std::vector<double>(10, 0.3), 1e-3, 1e-4, 3);
+  [[maybe_unused]] const auto& u = std::get<0>(u_y);
+  [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100");
+  const auto r_j = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100");
+  const CliRun& r = r_j.first;
+  const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   CHECK(has_flag(j, "few-periods"));
   CHECK(j["frf_method"].get<std::string>() == "noise-bins");
@@ -167,19 +175,27 @@ TEST_CASE("honesty: a model fitted with weights from 5 periods flags its paramet
   // Per-period covariances from P = 5 (m = 4 dof) have no finite second moment of their
   // inverse (ident/cost_band.hpp), so the parameters' first-order covariance does not exist.
   TempDir dir("hon_id_five");
-  const auto [u, y] = rc_capture(10000, 100, 500, std::vector<double>(10, 0.3), 1e-3, 1e-4, 5);
+  const auto u_y = rc_capture(10000, 100, 500, std::vector<double>(10, 0.3), 1e-3, 1e-4, 5);
+  [[maybe_unused]] const auto& u = std::get<0>(u_y);
+  [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") +
+  const auto r_j = run_json("identify '" + dir.file("rc.csv") +
                                "' --input v_in --output v_out --f0 100 --order 0/1");
+  const CliRun& r = r_j.first;
+  const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   CHECK(j["frf_method"].get<std::string>() == "per-period-covariance");
   CHECK(has_flag(j, "parameter-u-undefined"));
   CHECK(j["model"]["covariance_inflation"].get<double>() == doctest::Approx(4.0 / 1.0));
   // With 10 periods the flag is gone and the factor is m/(m − 5) = 9/4.
-  const auto [u10, y10] = rc_capture(10000, 100, 1000, std::vector<double>(10, 0.3), 1e-3, 1e-4, 10);
+  const auto u10_y10 = rc_capture(10000, 100, 1000, std::vector<double>(10, 0.3), 1e-3, 1e-4, 10);
+  [[maybe_unused]] const auto& u10 = std::get<0>(u10_y10);
+  [[maybe_unused]] const auto& y10 = std::get<1>(u10_y10);
   write_text(dir.file("rc10.csv"), capture_csv(10000, {u10, y10}, {"v_in", "v_out"}));
-  const auto [r10, j10] = run_json("identify '" + dir.file("rc10.csv") +
+  const auto r10_j10 = run_json("identify '" + dir.file("rc10.csv") +
                                    "' --input v_in --output v_out --f0 100 --order 0/1");
+  const CliRun& r10 = r10_j10.first;
+  const json& j10 = r10_j10.second;
   REQUIRE_MESSAGE(r10.exit_code == 0, describe(r10));
   CHECK(!has_flag(j10, "parameter-u-undefined"));
   CHECK(j10["model"]["covariance_inflation"].get<double>() == doctest::Approx(9.0 / 4.0));
@@ -212,9 +228,13 @@ TEST_CASE("honesty: identify lists only harmonics whose input clears the noise f
   // 40 periods of 100 samples gives a line floor ≈ 2·1e-3/√4000 ≈ 3e-5).
   std::vector<double> amps(12, 0.3);
   for (std::size_t i = 8; i < 12; ++i) amps[i] = 3e-6;
-  const auto [u, y] = rc_capture(10000, 100, 4000, amps, 1e-3, 1e-3, 5);
+  const auto u_y = rc_capture(10000, 100, 4000, amps, 1e-3, 1e-3, 5);
+  [[maybe_unused]] const auto& u = std::get<0>(u_y);
+  [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("weak.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("weak.csv") + "' --input v_in --output v_out --f0 100 --harmonics 12");
+  const auto r_j = run_json("identify '" + dir.file("weak.csv") + "' --input v_in --output v_out --f0 100 --harmonics 12");
+  const CliRun& r = r_j.first;
+  const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   for (const auto& p : j["frf"]) {
     CHECK_MESSAGE(p["input_snr_db"].get<double>() >= kMinInputSnrDb, "harmonic " << p["n"] << " listed at "
@@ -232,9 +252,13 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   TempDir dir("hon_id_cond");
   // A first-order RC (τ = 1 ms) fitted as 4/4 on 10 harmonics: 9 parameters, pole-zero pairs
   // that cancel, so the Jacobian is nearly rank-deficient.
-  const auto [u, y] = rc_capture(10000, 100, 4000, std::vector<double>(10, 0.3), 1e-3, 1e-5, 11);
+  const auto u_y = rc_capture(10000, 100, 4000, std::vector<double>(10, 0.3), 1e-3, 1e-5, 11);
+  [[maybe_unused]] const auto& u = std::get<0>(u_y);
+  [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto [r, j] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 4/4");
+  const auto r_j = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 4/4");
+  const CliRun& r = r_j.first;
+  const json& j = r_j.second;
   if (r.exit_code != 0) {
     CHECK_MESSAGE(is_clear_error(r), describe(r));
     return;
@@ -247,7 +271,9 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   else
     MESSAGE("4/4 fit came out with condition number " << cond << " (not ill-conditioned)");
   // The well-posed order on the same data is not flagged.
-  const auto [r1, j1] = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 0/1");
+  const auto r1_j1 = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 0/1");
+  const CliRun& r1 = r1_j1.first;
+  const json& j1 = r1_j1.second;
   REQUIRE_MESSAGE(r1.exit_code == 0, describe(r1));
   CHECK_FALSE(has_flag(j1, "ill-conditioned"));
   CHECK(j1["model"]["condition_number"].get<double>() < kIllConditioned);

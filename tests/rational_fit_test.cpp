@@ -51,7 +51,13 @@ std::vector<FrfPoint> points_of(const std::vector<double>& omegas, const std::ve
   for (std::size_t k = 0; k < omegas.size(); ++k) {
     const double sigma = (rel > 0 ? rel : 1e-6) * std::abs(h[k]);
     cplx v = h[k];
-    if (rel > 0) v += cplx(g(), g()) * (sigma / std::sqrt(2.0));
+    if (rel > 0) {
+      // Drawn in a fixed order (imaginary part first, as gcc evaluated the former
+      // cplx(g(), g())): argument evaluation order is unspecified, and clang's differed.
+      const double im = g();
+      const double re = g();
+      v += cplx(re, im) * (sigma / std::sqrt(2.0));
+    }
     pts.push_back(FrfPoint::circular(omegas[k], v, sigma * sigma));
   }
   return pts;

@@ -6,6 +6,7 @@
 //
 // Commands that have not landed yet (their placeholder declares no options) are skipped with a
 // visible MESSAGE naming the entry, so the catalogue never passes silently.
+#include "support/test_paths.hpp"
 #include <doctest/doctest.h>
 #include <sys/stat.h>
 
@@ -129,7 +130,9 @@ TEST_CASE("robustness: 1 and 2 samples import (with a rate) and analyze refuses 
     return;
   }
   for (const char* f : {"one.csv", "two.csv"}) {
-    const auto [r, j] = analyze(dir.file(f), "--rate 1000");
+    const auto r_j = analyze(dir.file(f), "--rate 1000");
+    [[maybe_unused]] const auto& r = std::get<0>(r_j);
+    [[maybe_unused]] const auto& j = std::get<1>(r_j);
     CHECK_MESSAGE(is_clear_error(r), f << ": " << describe(r));
   }
 }
@@ -140,7 +143,9 @@ TEST_CASE("robustness: an all-constant channel has exact statistics and no inven
   TempDir dir("rob_const");
   const std::vector<double> x(1000, 1.5);
   write_text(dir.file("const.csv"), capture_csv(1000, {x}));
-  const auto [ri, ji] = info_json(dir.file("const.csv"));
+  const auto ri_ji = info_json(dir.file("const.csv"));
+  [[maybe_unused]] const auto& ri = std::get<0>(ri_ji);
+  [[maybe_unused]] const auto& ji = std::get<1>(ri_ji);
   REQUIRE_MESSAGE(ri.exit_code == 0, describe(ri));
   const json* c = info_channel(ji);
   REQUIRE(c != nullptr);
@@ -153,7 +158,9 @@ TEST_CASE("robustness: an all-constant channel has exact statistics and no inven
     MESSAGE("SKIPPED (analyze not built yet): analyze of a constant channel");
     return;
   }
-  const auto [r, j] = analyze(dir.file("const.csv"));
+  const auto r_j = analyze(dir.file("const.csv"));
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   // Issue 3: "a channel with no periodic component is a clear error (exit 2), not garbage".
   CHECK_MESSAGE(is_clear_error(r), describe(r));
 }
@@ -169,7 +176,9 @@ TEST_CASE("robustness: DC with noise only is refused or flagged dc-only, never g
   s.amplitudes = {};
   s.noise_rms = 1e-3;
   write_text(dir.file("dc.csv"), capture_csv(1000, {synthesize(s, 1000, 4000)}));
-  const auto [r, j] = analyze(dir.file("dc.csv"));
+  const auto r_j = analyze(dir.file("dc.csv"));
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   if (r.exit_code == 0) {
     const json* c = first_channel(j);
     REQUIRE(c != nullptr);
@@ -191,7 +200,9 @@ TEST_CASE("robustness: a noise-free sine (10 whole periods, and 10.03) is analys
     Signal s;
     s.f0_hz = 50;
     write_text(dir.file("clean.csv"), capture_csv(5000, {synthesize(s, 5000, n)}));
-    const auto [r, j] = analyze(dir.file("clean.csv"));
+    const auto r_j = analyze(dir.file("clean.csv"));
+    [[maybe_unused]] const auto& r = std::get<0>(r_j);
+    [[maybe_unused]] const auto& j = std::get<1>(r_j);
     REQUIRE_MESSAGE(r.exit_code == 0, n << " samples: " << describe(r));
     const json* c = first_channel(j);
     REQUIRE(c != nullptr);
@@ -212,7 +223,9 @@ TEST_CASE("robustness: f0 at 0.49 fs is found exactly and flagged aliasing-risk"
   s.f0_hz = 490;  // fs = 1000: 0.49·fs, above the 0.45·fs harmonic limit of the default H
   s.phases_deg = {30};
   write_text(dir.file("nyq.csv"), capture_csv(1000, {synthesize(s, 1000, 3373)}));
-  const auto [r, j] = analyze(dir.file("nyq.csv"));
+  const auto r_j = analyze(dir.file("nyq.csv"));
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   if (r.exit_code != 0) {
     CHECK_MESSAGE(is_clear_error(r), describe(r));
     return;
@@ -234,7 +247,9 @@ TEST_CASE("robustness: less than one period is refused or flagged few-periods") 
   Signal s;
   s.f0_hz = 7;  // 100 samples at 1 kHz: 0.7 periods
   write_text(dir.file("short.csv"), capture_csv(1000, {synthesize(s, 1000, 100)}));
-  const auto [r, j] = analyze(dir.file("short.csv"));
+  const auto r_j = analyze(dir.file("short.csv"));
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   if (r.exit_code == 0) {
     const json* c = first_channel(j);
     REQUIRE(c != nullptr);
@@ -254,7 +269,9 @@ TEST_CASE("robustness: 1.2 periods carries the few-periods flag when analysed") 
   s.f0_hz = 12;  // 100 samples at 1 kHz: 1.2 periods
   s.noise_rms = 1e-3;
   write_text(dir.file("p12.csv"), capture_csv(1000, {synthesize(s, 1000, 100)}));
-  const auto [r, j] = analyze(dir.file("p12.csv"), "--harmonics 3");
+  const auto r_j = analyze(dir.file("p12.csv"), "--harmonics 3");
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   if (r.exit_code == 0) {
     const json* c = first_channel(j);
     REQUIRE(c != nullptr);
@@ -282,7 +299,9 @@ TEST_CASE("robustness: 10^7 periods (2.5·10^7 samples, 16-bit WAV) lock without
   TempDir dir("rob_1e7");
   write_text(dir.file("long.wav"), pcm16_wav_bytes(kFs, x));
   const auto t = std::chrono::steady_clock::now();
-  const auto [r, j] = analyze(dir.file("long.wav"), "--harmonics 1");
+  const auto r_j = analyze(dir.file("long.wav"), "--harmonics 1");
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   CHECK(seconds_since(t) < kHangSeconds * 4);
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   const json* c = first_channel(j);
@@ -307,7 +326,9 @@ TEST_CASE("robustness: a sine of amplitude 0.7·DBL_MAX: finite, correct statist
   s.amplitudes = {a};
   // 1000 samples at 10 kHz = 5 whole periods: rms of a sine over whole periods is A/√2 (closed form).
   write_text(dir.file("huge.csv"), capture_csv(10000, {synthesize(s, 10000, 1000)}));
-  const auto [ri, ji] = info_json(dir.file("huge.csv"));
+  const auto ri_ji = info_json(dir.file("huge.csv"));
+  [[maybe_unused]] const auto& ri = std::get<0>(ri_ji);
+  [[maybe_unused]] const auto& ji = std::get<1>(ri_ji);
   if (ri.exit_code == 0) {
     const json* c = info_channel(ji);
     REQUIRE(c != nullptr);
@@ -325,7 +346,9 @@ TEST_CASE("robustness: a sine of amplitude 0.7·DBL_MAX: finite, correct statist
     MESSAGE("SKIPPED (analyze not built yet): analyze near DBL_MAX");
     return;
   }
-  const auto [r, j] = analyze(dir.file("huge.csv"));
+  const auto r_j = analyze(dir.file("huge.csv"));
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   if (r.exit_code == 0) {
     const json* c = first_channel(j);
     REQUIRE(c != nullptr);
@@ -346,7 +369,9 @@ TEST_CASE("robustness: a sine of subnormal amplitude 1e-310: correct statistics,
   s.amplitudes = {a};
   write_text(dir.file("tiny.csv"), capture_csv(10000, {synthesize(s, 10000, 1000)}));
   const auto t = std::chrono::steady_clock::now();
-  const auto [ri, ji] = info_json(dir.file("tiny.csv"));
+  const auto ri_ji = info_json(dir.file("tiny.csv"));
+  [[maybe_unused]] const auto& ri = std::get<0>(ri_ji);
+  [[maybe_unused]] const auto& ji = std::get<1>(ri_ji);
   CHECK(seconds_since(t) < kHangSeconds);
   REQUIRE_MESSAGE(ri.exit_code == 0, describe(ri));
   const json* c = info_channel(ji);
@@ -360,7 +385,9 @@ TEST_CASE("robustness: a sine of subnormal amplitude 1e-310: correct statistics,
     MESSAGE("SKIPPED (analyze not built yet): analyze of subnormal values");
     return;
   }
-  const auto [r, j] = analyze(dir.file("tiny.csv"));
+  const auto r_j = analyze(dir.file("tiny.csv"));
+  [[maybe_unused]] const auto& r = std::get<0>(r_j);
+  [[maybe_unused]] const auto& j = std::get<1>(r_j);
   if (r.exit_code == 0) {
     const json* ch = first_channel(j);
     REQUIRE(ch != nullptr);
@@ -440,7 +467,9 @@ TEST_CASE("robustness: a 1 MB line (preamble text, a 10^6-digit number) is read 
   const CliRun big = run_cli("info '" + dir.file("digits.csv") + "'");
   CHECK_MESSAGE(is_clear_error(big), describe(big));
   write_text(dir.file("frac.csv"), "t (s),v (V)\n0,1\n0.001,0." + std::string(1000000, '1') + "\n0.002,3\n");
-  const auto [rf, jf] = info_json(dir.file("frac.csv"));
+  const auto rf_jf = info_json(dir.file("frac.csv"));
+  [[maybe_unused]] const auto& rf = std::get<0>(rf_jf);
+  [[maybe_unused]] const auto& jf = std::get<1>(rf_jf);
   if (rf.exit_code == 0) {
     const json* c = info_channel(jf);
     REQUIRE(c != nullptr);

@@ -71,7 +71,9 @@ TEST_CASE("svg: log axis ticks label 1-2-5 per decade over few decades, decades 
   Axis f;
   f.scale = AxisScale::log;
   f.labels = TickLabels::si_prefix;
-  const auto [lo, hi] = axis_range(f, 37, 7300);
+  const auto lo_hi = axis_range(f, 37, 7300);
+  [[maybe_unused]] const auto& lo = std::get<0>(lo_hi);
+  [[maybe_unused]] const auto& hi = std::get<1>(lo_hi);
   CHECK(lo == doctest::Approx(20));    // largest 1-2-5 value below 37
   CHECK(hi == doctest::Approx(10000)); // smallest 1-2-5 value above 7300
   CHECK(labels(axis_ticks(f, lo, hi)) ==
@@ -86,14 +88,18 @@ TEST_CASE("svg: log axis ticks label 1-2-5 per decade over few decades, decades 
 
 TEST_CASE("svg: linear ticks step 1-2-5, angles 15-30-45-90, integers for harmonic numbers") {
   Axis db;
-  const auto [lo, hi] = axis_range(db, -73.2, 2.1);
+  const auto lo_hi = axis_range(db, -73.2, 2.1);
+  [[maybe_unused]] const auto& lo = std::get<0>(lo_hi);
+  [[maybe_unused]] const auto& hi = std::get<1>(lo_hi);
   CHECK(lo == -80);
   CHECK(hi == 20);
   CHECK(labels(axis_ticks(db, lo, hi)) ==
         std::vector<std::string>{kMinus + "80", kMinus + "60", kMinus + "40", kMinus + "20", "0", "20"});
   Axis phase;
   phase.angle_steps = true;
-  const auto [plo, phi] = axis_range(phase, -350, 0);
+  const auto plo_phi = axis_range(phase, -350, 0);
+  [[maybe_unused]] const auto& plo = std::get<0>(plo_phi);
+  [[maybe_unused]] const auto& phi = std::get<1>(plo_phi);
   CHECK(plo == -360);
   CHECK(labels(axis_ticks(phase, plo, phi)) ==
         std::vector<std::string>{kMinus + "360", kMinus + "270", kMinus + "180", kMinus + "90", "0"});
@@ -183,7 +189,9 @@ TEST_CASE("svg: rendered figures are well-formed, escaped, and free of nan") {
       {"spectrum", svg_document(spectrum_figure(s))},
       {"waveform", svg_document(waveform_figure(w))},
   };
-  for (const auto& [name, svg] : svgs) {
+  for (const auto& entry : svgs) {
+    const std::string& name = entry.first;  // not a structured binding: clang 14 cannot capture one
+    const std::string& svg = entry.second;
     CAPTURE(name);
     CHECK(svg.find("<script") == std::string::npos);
     CHECK(svg.find("&lt;script&gt;alert(1)&lt;/script&gt;") != std::string::npos);

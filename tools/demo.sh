@@ -7,7 +7,7 @@ cd "$PERIODFIT_ROOT"
 source tools/deps.sh
 
 periodfit_install "${PERIODFIT_BUILD_PACKAGES[@]}"
-PERIODFIT_TARGET=periodfit periodfit_build build >/dev/null
+PERIODFIT_TARGET=periodfit periodfit_build build "${PERIODFIT_RELEASE_FLAGS[@]}" >/dev/null
 # The main job: a production run of 12 filter boards (invented scenario, testdata/demo/README.md)
 # checked against limits.toml. Two boards are out of tolerance and one file is corrupt on purpose,
 # so batch exits 2 (an ERROR row); anything above 2 would be a crash and fails the demo.

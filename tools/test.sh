@@ -1,42 +1,63 @@
 #!/usr/bin/env bash
 # Installs what the build and the tests need, builds into build/, and runs the whole suite; then
-# the same suite under AddressSanitizer + UndefinedBehaviorSanitizer (build-asan/), then, in CI or
-# when asked, each libFuzzer target (tools/fuzz.sh). Prints the time of each stage at the end.
+# the same suite under AddressSanitizer + UndefinedBehaviorSanitizer (build-asan/, clang, which
+# also holds the libFuzzer targets), then, in CI or when asked, each libFuzzer target
+# (tools/fuzz.sh). Prints the time of each stage at the end, and a warning for every stage over
+# its share of the CI budget (DEVELOPERS.md, "CI budget").
 # Usage: tools/test.sh
 #   CI=true                      warnings are errors; fuzzing runs (60 s per target)
 #   PERIODFIT_FUZZ_SECONDS=N     run the fuzz stage with N seconds per target (0 = skip it)
 #   PERIODFIT_SKIP_ASAN=1        skip the sanitizer stage (local quick runs only; CI never sets it)
+#   PERIODFIT_CCACHE=0           build without the compiler cache
 set -euo pipefail
 PERIODFIT_ROOT=$(cd "$(dirname "$0")/.." && pwd)
 cd "$PERIODFIT_ROOT"
 source tools/deps.sh
 
+# The CI budget is 20 minutes on an idle 2-core machine (DEVELOPERS.md); each stage has a share.
+# A stage over its share prints a warning: the suite must pay for what it adds.
+declare -A stage_budget=(
+  [install]=120
+  [build]=420
+  [sanitizers]=480
+  [fuzz]=180
+)
 stage_names=()
+stage_keys=()
 stage_seconds=()
 stage_start=0
 begin_stage() { stage_start=$SECONDS; echo "periodfit: == $1 ==" >&2; }
-end_stage() { stage_names+=("$1"); stage_seconds+=($((SECONDS - stage_start))); }
+end_stage() { stage_keys+=("$1"); stage_names+=("$2"); stage_seconds+=($((SECONDS - stage_start))); }
 print_times() {
-  local i
+  local i total=0 budget=0
   echo "periodfit: stage times:" >&2
   for i in "${!stage_names[@]}"; do
-    printf 'periodfit:   %-34s %5d s\n' "${stage_names[$i]}" "${stage_seconds[$i]}" >&2
+    printf 'periodfit:   %-44s %5d s  (share %4d s)\n' "${stage_names[$i]}" "${stage_seconds[$i]}" \
+      "${stage_budget[${stage_keys[$i]}]}" >&2
+    total=$((total + stage_seconds[i]))
+    budget=$((budget + stage_budget[${stage_keys[$i]}]))
+  done
+  printf 'periodfit:   %-44s %5d s  (budget %4d s)\n' "total" "$total" "$budget" >&2
+  for i in "${!stage_names[@]}"; do
+    if [ "${stage_seconds[$i]}" -gt "${stage_budget[${stage_keys[$i]}]}" ]; then
+      echo "periodfit: warning: stage '${stage_names[$i]}' took ${stage_seconds[$i]} s, over its share of ${stage_budget[${stage_keys[$i]}]} s (DEVELOPERS.md, \"CI budget\")" >&2
+    fi
   done
 }
 trap print_times EXIT
 
 begin_stage "install"
 periodfit_install "${PERIODFIT_BUILD_PACKAGES[@]}" "${PERIODFIT_TEST_PACKAGES[@]}"
-end_stage "install"
+end_stage install "install"
 
 werror=OFF
 [ "${CI:-}" = true ] && werror=ON
 jobs=$(nproc)
 
 begin_stage "build + ctest (build/)"
-periodfit_build build -DPERIODFIT_WERROR=$werror -DBUILD_TESTING=ON
+periodfit_build build -DPERIODFIT_WERROR=$werror -DBUILD_TESTING=ON "${PERIODFIT_RELEASE_FLAGS[@]}"
 ctest --test-dir build --output-on-failure -j "$jobs"
-end_stage "build + ctest (build/)"
+end_stage build "build + ctest (build/)"
 
 # --- the whole suite again under ASan + UBSan -----------------------------------------------
 # Every report is written to build-asan/sanitizer-reports/ (log_path) as well as failing the
@@ -46,10 +67,9 @@ if [ "${PERIODFIT_SKIP_ASAN:-}" = 1 ] && [ "${CI:-}" != true ]; then
   echo "periodfit: sanitizer stage SKIPPED (PERIODFIT_SKIP_ASAN=1)" >&2
 else
   begin_stage "asan+ubsan build + ctest (build-asan/)"
-  # Warnings are not errors here: the normal build already checks them, and gcc 12's flow
-  # warnings are unreliable under ASan instrumentation (a false -Wmaybe-uninitialized inside
-  # std::regex / std::function breaks a -Werror build).
-  periodfit_build build-asan -DPERIODFIT_SANITIZE=ON -DPERIODFIT_WERROR=OFF -DBUILD_TESTING=ON
+  # Warnings are not errors here: the normal build already checks them with -Werror, and flow
+  # warnings are unreliable under sanitizer instrumentation.
+  periodfit_build_sanitized build-asan -DPERIODFIT_WERROR=OFF -DBUILD_TESTING=ON
   reports="$PERIODFIT_ROOT/build-asan/sanitizer-reports"
   rm -rf "$reports"
   mkdir -p "$reports"
@@ -63,7 +83,7 @@ else
   fi
   [ "${asan_failed:-0}" = 0 ] || exit 1
   echo "periodfit: sanitizers: 0 reports" >&2
-  end_stage "asan+ubsan build + ctest (build-asan/)"
+  end_stage sanitizers "asan+ubsan build + ctest (build-asan/)"
 fi
 
 # --- fuzzing: CI, or when asked ---------------------------------------------------------------
@@ -72,7 +92,7 @@ fuzz_seconds=${PERIODFIT_FUZZ_SECONDS:-}
 if [ -z "$fuzz_seconds" ] || [ "$fuzz_seconds" = 0 ]; then
   echo "periodfit: fuzz stage not run (set PERIODFIT_FUZZ_SECONDS=N or CI=true)" >&2
 else
-  begin_stage "fuzz (build-fuzz/, ${fuzz_seconds}s per target)"
+  begin_stage "fuzz (build-asan/, ${fuzz_seconds}s per target)"
   status=0
   # CI fuzzes from a fixed seed: a landing must not depend on the luck of the draw, and a red
   # run reproduces with the same seed. Exploring with new seeds is a developer's job
@@ -84,5 +104,5 @@ else
   elif [ "$status" != 0 ]; then
     exit "$status"
   fi
-  end_stage "fuzz (build-fuzz/, ${fuzz_seconds}s per target)"
+  end_stage fuzz "fuzz (build-asan/, ${fuzz_seconds}s per target)"
 fi

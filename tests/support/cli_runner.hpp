@@ -1,5 +1,6 @@
 #pragma once
 // Runs the built periodfit binary for CLI contract tests: captures exit code, stdout, stderr.
+#include "support/test_paths.hpp"
 #include <sys/wait.h>
 
 #include <cstdio>

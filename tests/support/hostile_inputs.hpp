@@ -2,6 +2,7 @@
 // Shared by the robustness and numerical-honesty tests: writers for the capture files of the
 // hostile-input catalogue (docs/robustness.md), the verdicts "clear error" / "crashed", and
 // running periodfit as an unprivileged user when the tests run as root.
+#include "support/test_paths.hpp"
 #include <unistd.h>
 
 #include <algorithm>

@@ -1,6 +1,7 @@
 #pragma once
 // Runs a reference computation in Debian's python3 (numpy/scipy) for outside-source checks.
 // Returns nullopt when /usr/bin/python3 or the module is missing: callers MESSAGE and skip.
+#include "support/test_paths.hpp"
 #include <array>
 #include <cstdio>
 #include <memory>
