@@ -63,11 +63,12 @@ Runner add_analyze(CLI::App& app) {
     if (outputs.requested("--csv")) outputs.set("--csv", dsp::harmonics_csv(report));
     if (outputs.requested("--plot"))
       outputs.set("--plot", report::svg_document(report::analyze_spectra_figure(report)));
+    // Warnings follow a successful publication, so a failed one ends with its one error line.
+    outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
         std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n", channel.name.c_str(),
                      flag.message.c_str());
-    outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
     return to_int(ExitCode::ok);
   };
 }

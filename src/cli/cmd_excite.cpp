@@ -98,8 +98,9 @@ Runner add_excite(CLI::App& app) {
     const predict::ExciteResult r = predict::generate_excitation(opt);
     outputs.set("OUT", predict::excitation_bytes(r, a->out_path));
     if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::excitation_json(r)));
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
+    // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::excitation_text(r) : std::string());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
     return to_int(ExitCode::ok);
   };
 }

@@ -84,6 +84,8 @@ int run(const IdentifyArgs& a) {
     outputs.set("--save-model", ident::format_model_file(ident::model_file_from_fit(
                                     *r.model, source, r.fundamental.f0_hz, ident::fit_points(r.frf))));
   }
+  // Warnings follow a successful publication, so a failed one ends with its one error line.
+  outputs.publish(outputs.stdout_free() ? ident::format_identify_report(r) : std::string());
   for (const auto& flag : r.flags) {
     if (flag == "nonlinear")
       warn("nonlinear: output lines at harmonics the input does not excite (" +
@@ -104,7 +106,6 @@ int run(const IdentifyArgs& a) {
     else if (flag == "model-not-converged")
       warn("the model fit did not converge: the parameters are the best found, not an optimum");
   }
-  outputs.publish(outputs.stdout_free() ? ident::format_identify_report(r) : std::string());
   return to_int(ExitCode::ok);
 }
 

@@ -148,10 +148,11 @@ Runner add_predict(CLI::App& app) {
       }
       r = predict::predict_steady_state(a->wave, sys, a->options);
     }
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
     if (outputs.requested("--csv")) outputs.set("--csv", predict::format_predict_csv(r));
     if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r, a->list)));
+    // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
     return to_int(ExitCode::ok);
   };
 }
