@@ -113,8 +113,10 @@ TEST_CASE("outputs: a FIFO as --json is written in place; its reader gets the wh
   const std::string capture = write_capture(dir);
   const std::string fifo = dir.file("pipe");
   REQUIRE(::mkfifo(fifo.c_str(), 0600) == 0);
-  const CliRun r = run_shell("cat " + q(fifo) + " > " + q(dir.file("got.json")) + " & \"$PF\" analyze " + q(capture) +
-                             " --json " + q(fifo) + "; status=$?; wait; exit $status");
+  // Both ends under a timeout: a binary that replaced the FIFO would leave the reader waiting
+  // for a writer that never comes.
+  const CliRun r = run_shell("timeout 20 cat " + q(fifo) + " > " + q(dir.file("got.json")) + " & timeout 20 \"$PF\" analyze " +
+                             q(capture) + " --json " + q(fifo) + "; status=$?; wait; exit $status");
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
   struct stat info {};
   REQUIRE(::lstat(fifo.c_str(), &info) == 0);
