@@ -141,6 +141,13 @@ TEST_CASE("outputs: a symbolic link as an output is followed: its target is repl
   CHECK(slurp(dir.file("new.svg")).find("<svg") != std::string::npos);
   const std::vector<std::string> expected = {"dangling.svg", "link.json", "new.svg", "old.json", "x.csv"};
   CHECK(names_in(dir) == expected);
+  // A loop has no target: refused with the kernel's reason, both links left as they were.
+  fs::create_symlink("loop-b", dir.file("loop-a"));
+  fs::create_symlink("loop-a", dir.file("loop-b"));
+  const CliRun loop = run_cli("analyze " + q(capture) + " --json " + q(dir.file("loop-a")));
+  CHECK_MESSAGE(is_clear_error(loop), describe(loop));
+  CHECK(loop.err == "periodfit: error: " + dir.file("loop-a") + ": cannot write: Too many levels of symbolic links\n");
+  CHECK(fs::read_symlink(dir.file("loop-a")) == "loop-b");
 }
 
 TEST_CASE("outputs: a folder or a block device as an output is refused before any work") {

@@ -4,7 +4,6 @@
 
 #include <filesystem>
 #include <memory>
-#include <optional>
 
 #include "core/error.hpp"
 #include "io/output_file.hpp"
