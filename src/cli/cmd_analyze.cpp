@@ -11,7 +11,7 @@
 #include "dsp/analysis_output.hpp"
 #include "dsp/harmonics.hpp"
 #include "io/capture_reader.hpp"
-#include "io/output_file.hpp"
+#include "io/output_set.hpp"
 #include "io/json_writer.hpp"
 #include "report/result_plots.hpp"
 #include "report/svg_plot.hpp"
@@ -54,22 +54,21 @@ Runner add_analyze(CLI::App& app) {
       ->type_name("PATH");
   add_capture_options(app, args->read);
   return [args]() -> int {
+    // Outputs are checked before the work and published together after it: exit 2 leaves none.
+    io::OutputSet outputs({{"--json", args->json_path}, {"--csv", args->csv_path}, {"--plot", args->plot_path}},
+                          {{"FILE", args->file}});
     const Capture capture = io::read_capture(args->file, args->read);
     const dsp::AnalyzeReport report = dsp::analyze_capture(capture, args->channels, args->options);
-    // Files are written only once every channel is analysed: an error leaves no partial result.
-    if (!args->json_path.empty())
-      io::write_file_atomic(args->json_path, io::json_text(dsp::analyze_json(report)));
-    if (!args->csv_path.empty()) io::write_file_atomic(args->csv_path, dsp::harmonics_csv(report));
-    if (!args->plot_path.empty())
-      io::write_file_atomic(args->plot_path, report::svg_document(report::analyze_spectra_figure(report)));
+    if (outputs.requested("--json")) outputs.set("--json", io::json_text(dsp::analyze_json(report)));
+    if (outputs.requested("--csv")) outputs.set("--csv", dsp::harmonics_csv(report));
+    if (outputs.requested("--plot"))
+      outputs.set("--plot", report::svg_document(report::analyze_spectra_figure(report)));
+    // Warnings follow a successful publication, so a failed one ends with its one error line.
+    outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
         std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n", channel.name.c_str(),
                      flag.message.c_str());
-    if (args->json_path != "-" && args->csv_path != "-") {
-      const std::string text = dsp::analyze_text(report);
-      std::fwrite(text.data(), 1, text.size(), stdout);
-    }
     return to_int(ExitCode::ok);
   };
 }

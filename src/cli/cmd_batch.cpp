@@ -15,6 +15,7 @@
 #include "cli/commands.hpp"
 #include "core/exit_code.hpp"
 #include "io/number_format.hpp"
+#include "io/output_file.hpp"
 #include "report/table.hpp"
 
 namespace periodfit::cli {
@@ -187,8 +188,9 @@ Runner add_batch(CLI::App& app) {
                                io::format_fixed(overhead * 1e3, 1) + " ms/file\n";
       timing_line = line;
     }
-    std::fwrite(out.data(), 1, out.size(), stdout);
-    std::fflush(stdout);
+    // Checked: a table that did not arrive is exit 2 with the reason, although the report
+    // folder is complete by now (docs/robustness.md, issue 11 class 3).
+    io::write_stdout(out);
     std::fputs(timing_line.c_str(), stderr);
     return to_int(batch::batch_exit_code(r));
   };

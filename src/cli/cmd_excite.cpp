@@ -9,6 +9,7 @@
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
+#include "io/output_set.hpp"
 #include "predict/excitation.hpp"
 #include "io/json_writer.hpp"
 
@@ -85,6 +86,7 @@ Runner add_excite(CLI::App& app) {
       ->type_name("PATH");
 
   return [a]() -> int {
+    io::OutputSet outputs({{"OUT", a->out_path}, {"--json", a->json_path}}, {{"--spectrum-file", a->spectrum_path}});
     auto& opt = a->options;
     opt.phases = predict::parse_phase_rule(a->phases);
     opt.adjust = a->adjust == "rate" ? predict::LoopAdjust::rate : predict::LoopAdjust::f0;
@@ -93,16 +95,12 @@ Runner add_excite(CLI::App& app) {
                                               : predict::SampleFormat::pcm24;
     if (!a->spectrum_path.empty())
       opt.spectrum = predict::parse_amplitude_spectrum(io::read_file(a->spectrum_path), a->spectrum_path);
-    if (a->out_path == "-" && a->json_path == "-")
-      throw OptionError("--json", "-", "the signal already goes to stdout");
     const predict::ExciteResult r = predict::generate_excitation(opt);
-    predict::write_excitation(a->out_path, r);
+    outputs.set("OUT", predict::excitation_bytes(r, a->out_path));
+    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::excitation_json(r)));
+    // Warnings follow a successful publication, so a failed one ends with its one error line.
+    outputs.publish(outputs.stdout_free() ? predict::excitation_text(r) : std::string());
     for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
-    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, io::json_text(predict::excitation_json(r)));
-    if (a->out_path != "-" && a->json_path != "-") {
-      const std::string text = predict::excitation_text(r);
-      std::fwrite(text.data(), 1, text.size(), stdout);
-    }
     return to_int(ExitCode::ok);
   };
 }

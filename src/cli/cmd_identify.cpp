@@ -14,7 +14,7 @@
 #include "ident/model_file.hpp"
 #include "io/capture_reader.hpp"
 #include "io/number_format.hpp"
-#include "io/output_file.hpp"
+#include "io/output_set.hpp"
 #include "report/result_plots.hpp"
 #include "report/svg_plot.hpp"
 #include "io/json_writer.hpp"
@@ -65,6 +65,9 @@ void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning
 int run(const IdentifyArgs& a) {
   if (!a.model_path.empty() && a.options.order.empty())
     throw OptionError("--save-model", a.model_path, "needs a model: give --order M/N or --order auto");
+  // Outputs are checked before the work and published together after it: exit 2 leaves none.
+  io::OutputSet outputs({{"--json", a.json_path}, {"--save-model", a.model_path}, {"--plot", a.plot_path}},
+                        {{"FILE", a.file}, {"--output-file", a.output_file}});
   ident::IdentifyResult r;
   if (a.output_file.empty()) {
     r = ident::identify(io::read_capture(a.file, a.read), a.options);
@@ -73,17 +76,16 @@ int run(const IdentifyArgs& a) {
     read_pair(a, input, output);
     r = ident::identify(input, output, a.options);
   }
-  const bool json_to_stdout = a.json_path == "-";
-  if (!json_to_stdout) std::fputs(ident::format_identify_report(r).c_str(), stdout);
-  if (!a.json_path.empty()) io::write_file_atomic(a.json_path, io::json_text(ident::identify_json(r)));
-  if (!a.plot_path.empty())
-    io::write_file_atomic(a.plot_path, report::svg_document(report::identify_bode_figure(r)));
-  if (!a.model_path.empty() && r.model) {
+  if (outputs.requested("--json")) outputs.set("--json", io::json_text(ident::identify_json(r)));
+  if (outputs.requested("--plot")) outputs.set("--plot", report::svg_document(report::identify_bode_figure(r)));
+  if (outputs.requested("--save-model") && r.model) {
     std::string source = r.input_source;
     if (r.output_source != r.input_source) source += ", " + r.output_source;
-    ident::write_model_file(a.model_path,
-                            ident::model_file_from_fit(*r.model, source, r.fundamental.f0_hz, ident::fit_points(r.frf)));
+    outputs.set("--save-model", ident::format_model_file(ident::model_file_from_fit(
+                                    *r.model, source, r.fundamental.f0_hz, ident::fit_points(r.frf))));
   }
+  // Warnings follow a successful publication, so a failed one ends with its one error line.
+  outputs.publish(outputs.stdout_free() ? ident::format_identify_report(r) : std::string());
   for (const auto& flag : r.flags) {
     if (flag == "nonlinear")
       warn("nonlinear: output lines at harmonics the input does not excite (" +

@@ -9,7 +9,7 @@
 #include "core/exit_code.hpp"
 #include "io/capture_reader.hpp"
 #include "io/info.hpp"
-#include "io/output_file.hpp"
+#include "io/output_set.hpp"
 #include "io/json_writer.hpp"
 
 namespace periodfit::cli {
@@ -29,19 +29,19 @@ Runner add_info(CLI::App& app) {
       ->type_name("PATH");
   add_capture_options(app, args->read);
   return [args]() -> int {
+    std::vector<io::OutputSet::Named> inputs;
+    for (const auto& path : args->files) inputs.push_back({"FILE", path});
+    io::OutputSet outputs({{"--json", args->json_path}}, inputs);
     // Every file is read before anything is shown, so an error leaves no partial result.
     std::vector<io::CaptureInfo> infos;
     for (const auto& path : args->files) infos.push_back(io::describe(io::read_capture(path, args->read)));
-    if (!args->json_path.empty())
-      // Names and metadata are bytes from the file, not always UTF-8: invalid sequences are
-      // written as U+FFFD so the JSON stays valid (docs/robustness.md, entry 16).
-      io::write_file_atomic(args->json_path,
-                            io::json_text(io::info_json(infos)));
-    if (args->json_path != "-") {
-      std::string text;
+    // Names and metadata are bytes from the file, not always UTF-8: invalid sequences are
+    // written as U+FFFD so the JSON stays valid (docs/robustness.md, entry 16).
+    if (outputs.requested("--json")) outputs.set("--json", io::json_text(io::info_json(infos)));
+    std::string text;
+    if (outputs.stdout_free())
       for (std::size_t i = 0; i < infos.size(); ++i) text += (i ? "\n" : "") + io::info_text(infos[i]);
-      std::fwrite(text.data(), 1, text.size(), stdout);
-    }
+    outputs.publish(text);
     return to_int(ExitCode::ok);
   };
 }

@@ -12,7 +12,7 @@
 #include "dsp/waveforms.hpp"
 #include "ident/model_file.hpp"
 #include "io/capture_reader.hpp"
-#include "io/output_file.hpp"
+#include "io/output_set.hpp"
 #include "predict/superposition.hpp"
 #include "io/json_writer.hpp"
 
@@ -108,8 +108,8 @@ Runner add_predict(CLI::App& app) {
       ->type_name("N");
 
   return [a]() -> int {
-    if (a->json_path == "-" && a->csv_path == "-")
-      throw OptionError("--json/--csv", "-", "only one of them can go to stdout");
+    io::OutputSet outputs({{"--csv", a->csv_path}, {"--json", a->json_path}},
+                          {{"--model", a->model_path}, {"--input-file", a->input_file}});
     predict::PredictSystem sys;
     if (!a->model_path.empty()) {
       const ident::ModelFile file = ident::read_model_file(a->model_path);
@@ -148,13 +148,11 @@ Runner add_predict(CLI::App& app) {
       }
       r = predict::predict_steady_state(a->wave, sys, a->options);
     }
+    if (outputs.requested("--csv")) outputs.set("--csv", predict::format_predict_csv(r));
+    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r, a->list)));
+    // Warnings follow a successful publication, so a failed one ends with its one error line.
+    outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
     for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
-    if (!a->csv_path.empty()) io::write_file_atomic(a->csv_path, predict::format_predict_csv(r));
-    if (!a->json_path.empty()) io::write_file_atomic(a->json_path, io::json_text(predict::predict_json(r, a->list)));
-    if (a->json_path != "-" && a->csv_path != "-") {
-      const std::string text = predict::predict_text(r, a->list);
-      std::fwrite(text.data(), 1, text.size(), stdout);
-    }
     return to_int(ExitCode::ok);
   };
 }

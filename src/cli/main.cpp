@@ -1,5 +1,6 @@
 // periodfit: the command-line driver. Parses the command line, dispatches to one command, and
 // turns every library error into one `periodfit: error: …` line and exit code 2.
+#include <cerrno>
 #include <cstdio>
 #include <exception>
 #include <map>
@@ -42,9 +43,28 @@ void print_error(const std::string& message) {
   std::fprintf(stderr, "periodfit: error: %s\n", message.c_str());
 }
 
+/// The one place standard output is flushed and closed, whatever the command printed (help,
+/// the batch table, results): a write the C library buffered can fail only here (disk full
+/// behind a redirection, /dev/full), and a result that did not arrive must not exit 0
+/// (docs/robustness.md, issue 11 class 3). When the command already failed, its error line
+/// stands and no second line is added.
+int close_stdout(int exit_code) {
+  errno = 0;
+  const bool flushed = std::fflush(stdout) == 0;
+  int reason = errno;
+  const bool clean = !std::ferror(stdout);
+  errno = 0;
+  const bool closed = std::fclose(stdout) == 0;
+  if (reason == 0) reason = errno;
+  if (flushed && clean && closed) return exit_code;
+  if (exit_code != periodfit::to_int(periodfit::ExitCode::error))
+    print_error(periodfit::IoError("standard output", "cannot write", reason != 0 ? reason : EIO).what());
+  return periodfit::to_int(periodfit::ExitCode::error);
+}
+
 }  // namespace
 
-int main(int argc, char** argv) {
+static int run_main(int argc, char** argv) {
   using periodfit::ExitCode;
   using periodfit::to_int;
   periodfit::io::install_interrupt_cleanup();
@@ -88,3 +108,5 @@ int main(int argc, char** argv) {
   }
   return to_int(ExitCode::error);
 }
+
+int main(int argc, char** argv) { return close_stdout(run_main(argc, argv)); }

@@ -93,8 +93,8 @@ std::vector<double> quantize_pcm(std::span<const double> values, AudioEncoding e
   return out;
 }
 
-void write_wav(const std::string& path, std::span<const double> mono, double rate_hz,
-               const WavWriteOptions& options) {
+std::string wav_bytes(std::span<const double> mono, double rate_hz, const WavWriteOptions& options,
+                      const std::string& path) {
   if (!(rate_hz >= 1 && rate_hz <= 1e9 && rate_hz == std::floor(rate_hz)))
     throw OptionError("rate_hz", format_shortest(rate_hz), "a WAV file needs a whole number of samples per second");
   if (options.channels < 1 || options.channels > 64)
@@ -145,7 +145,12 @@ void write_wav(const std::string& path, std::span<const double> mono, double rat
     }
   }
   file.reset();  // sf_close finalises the header sizes
-  write_file_atomic(path, memory.bytes);
+  return std::move(memory.bytes);
+}
+
+void write_wav(const std::string& path, std::span<const double> mono, double rate_hz,
+               const WavWriteOptions& options) {
+  write_file_atomic(path, wav_bytes(mono, rate_hz, options, path));
 }
 
 }  // namespace periodfit::io

@@ -34,6 +34,12 @@ struct WavWriteOptions {
   int channels = 1;  ///< the mono signal is written to every channel (identical copies), >= 1
 };
 
+/// The WAV file's bytes for `mono` at `rate_hz` (a positive integer), every channel a copy;
+/// `path` names the destination in messages. Throws as write_wav, but writes nothing: a command
+/// renders every output first and publishes them together (io/output_set.hpp).
+std::string wav_bytes(std::span<const double> mono, double rate_hz, const WavWriteOptions& options,
+                      const std::string& path);
+
 /// Writes `mono` at `rate_hz` (a positive integer) to `path` ("-" = stdout) atomically. Throws
 /// OptionError for a bad rate, channel count or out-of-range value, IoError for OS failures.
 void write_wav(const std::string& path, std::span<const double> mono, double rate_hz,

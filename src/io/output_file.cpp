@@ -81,11 +81,81 @@ const mode_t g_umask = read_umask();
 constexpr std::size_t kBufferBytes = 1 << 16;
 }  // namespace
 
+OutputTarget inspect_output(const std::string& path) {
+  if (path == "-") return {OutputKind::standard_output, "-"};
+  // What the path leads to, every link followed by the kernel (including /proc's fd links,
+  // whose text is not always a path: "pipe:[…]").
+  struct stat followed {};
+  const bool exists = ::stat(path.c_str(), &followed) == 0;
+  if (!exists && errno == ELOOP) throw IoError(path, "cannot write", ELOOP);
+  if (exists) {
+    // Written in place through the path as given: renaming a file over the node would destroy
+    // it (a terminal, a null device, a FIFO someone reads).
+    if (S_ISCHR(followed.st_mode) || S_ISFIFO(followed.st_mode)) return {OutputKind::in_place, path};
+    // A result written over a block device would overwrite a disk's sectors, and a rename
+    // over a folder or socket fails late or destroys the node: refused up front.
+    if (S_ISDIR(followed.st_mode)) throw IoError(path, "cannot write", EISDIR);
+    if (!S_ISREG(followed.st_mode)) {
+      const char* what = S_ISBLK(followed.st_mode) ? "a block device" : S_ISSOCK(followed.st_mode) ? "a socket" : "not a file";
+      throw Error(path + ": cannot write: " + what +
+                  " (outputs go to regular files, character devices, FIFOs or standard output)");
+    }
+  }
+  // A regular file or a new name: find where the rename must land by following symbolic links
+  // by hand (realpath() fails on a link to a name that does not exist yet), so the link's
+  // target is replaced and the link stays. 40 hops is the kernel's own limit (MAXSYMLINKS,
+  // path_resolution(7)).
+  std::filesystem::path current(path);
+  for (int hop = 0;; ++hop) {
+    struct stat info {};
+    if (::lstat(current.c_str(), &info) != 0) {
+      if (exists) break;  // the kernel found a file the link text does not name (see below)
+      return {OutputKind::replace, current.string()};
+    }
+    if (!S_ISLNK(info.st_mode)) {
+      if (!exists || (info.st_dev == followed.st_dev && info.st_ino == followed.st_ino))
+        return {OutputKind::replace, current.string()};
+      break;
+    }
+    if (hop == 40) throw IoError(path, "cannot write", ELOOP);
+    std::string link(static_cast<std::size_t>(info.st_size > 0 ? info.st_size : 255) + 1, '\0');
+    const ssize_t n = ::readlink(current.c_str(), link.data(), link.size());
+    if (n < 0) throw IoError(path, "cannot write", errno);
+    link.resize(static_cast<std::size_t>(n));
+    const std::filesystem::path next(link);
+    current = next.is_absolute() ? next : current.parent_path() / next;
+  }
+  // A /proc fd link to a deleted file, or a link changed while we looked: no name to rename
+  // onto that is surely the file the path means.
+  throw Error(path + ": cannot write: the link does not lead to a file name that can be replaced");
+}
+
+void write_stdout(std::string_view bytes) {
+  if (!bytes.empty() && std::fwrite(bytes.data(), 1, bytes.size(), stdout) != bytes.size())
+    throw IoError("standard output", "cannot write", errno);
+  if (std::fflush(stdout) != 0) throw IoError("standard output", "cannot write", errno);
+}
+
 AtomicFile::AtomicFile(std::string path) : path_(std::move(path)), slot_(kSlots) {
-  if (path_ == "-") return;
-  const std::filesystem::path target(path_);
-  const auto folder = target.has_parent_path() ? target.parent_path() : std::filesystem::path(".");
-  std::string tmp = (folder / ("." + target.filename().string() + ".tmp-XXXXXX")).string();
+  const OutputTarget target = inspect_output(path_);
+  kind_ = target.kind;
+  target_ = target.resolved;
+  if (kind_ == OutputKind::standard_output) return;
+  if (kind_ == OutputKind::in_place) {
+    // No O_CREAT (the node exists), no O_TRUNC (meaningless for a device or FIFO), O_NOCTTY so
+    // a terminal never becomes the controlling one.
+    for (;;) {
+      fd_ = ::open(target_.c_str(), O_WRONLY | O_CLOEXEC | O_NOCTTY);
+      if (fd_ >= 0 || errno != EINTR) break;
+    }
+    if (fd_ < 0) throw IoError(path_, "cannot open", errno);
+    buffer_ = std::make_unique<char[]>(kBufferBytes);
+    return;
+  }
+  const std::filesystem::path destination(target_);
+  const auto folder =
+      destination.has_parent_path() ? destination.parent_path() : std::filesystem::path(".");
+  std::string tmp = (folder / ("." + destination.filename().string() + ".tmp-XXXXXX")).string();
   // A signal between mkostemp and track_temp would leave one empty temporary; blocking the
   // cleanup signals for those few instructions closes the gap.
   sigset_t cleanup_signals, previous;
@@ -122,11 +192,14 @@ void AtomicFile::flush_buffer() {
 }
 
 void AtomicFile::write(std::string_view bytes) {
-  if (temp_.empty()) {
-    std::fwrite(bytes.data(), 1, bytes.size(), stdout);
+  if (failed_ || finished_) throw IoError(path_, "cannot write", EBADF);
+  if (kind_ == OutputKind::standard_output) {
+    if (!bytes.empty() && std::fwrite(bytes.data(), 1, bytes.size(), stdout) != bytes.size()) {
+      failed_ = true;
+      throw IoError("standard output", "cannot write", errno);
+    }
     return;
   }
-  if (failed_ || committed_) throw IoError(path_, "cannot write", EBADF);
   if (bytes.size() <= kBufferBytes - buffered_) {
     std::memcpy(buffer_.get() + buffered_, bytes.data(), bytes.size());
     buffered_ += bytes.size();
@@ -142,17 +215,21 @@ void AtomicFile::write(std::string_view bytes) {
   }
 }
 
-void AtomicFile::commit() {
-  if (temp_.empty()) {
-    std::fflush(stdout);
+void AtomicFile::finish() {
+  if (failed_ || finished_) throw IoError(path_, "cannot write", EBADF);
+  if (kind_ == OutputKind::standard_output) {
+    if (std::fflush(stdout) != 0) {
+      failed_ = true;
+      throw IoError("standard output", "cannot write", errno);
+    }
+    finished_ = true;
     return;
   }
-  if (failed_ || committed_) throw IoError(path_, "cannot write", EBADF);
   flush_buffer();
   // fsync before the rename: otherwise a crash soon after can leave the new name on an empty
   // file (ext4/xfs delayed allocation), which is the half-written state this class exists to
-  // rule out.
-  const bool synced = ::fsync(fd_) == 0;
+  // rule out. A device or FIFO has nothing to sync (fsync fails with EINVAL there).
+  const bool synced = kind_ != OutputKind::replace || ::fsync(fd_) == 0;
   const int sync_errno = errno;
   const bool closed = ::close(fd_) == 0;
   const int close_errno = errno;
@@ -161,13 +238,23 @@ void AtomicFile::commit() {
     failed_ = true;
     throw IoError(path_, "cannot write", synced ? close_errno : sync_errno);
   }
-  if (::rename(temp_.c_str(), path_.c_str()) != 0) {
+  finished_ = true;
+}
+
+void AtomicFile::publish() {
+  if (failed_ || !finished_ || committed_) throw IoError(path_, "cannot write", EBADF);
+  if (kind_ == OutputKind::replace && ::rename(temp_.c_str(), target_.c_str()) != 0) {
     failed_ = true;
     throw IoError(path_, "cannot write", errno);
   }
   committed_ = true;
   untrack_temp(slot_);
   slot_ = kSlots;
+}
+
+void AtomicFile::commit() {
+  finish();
+  publish();
 }
 
 void write_file_atomic(const std::string& path, std::string_view content) {

@@ -307,7 +307,7 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
   return r;
 }
 
-void write_excitation(const std::string& path, const ExciteResult& r) {
+std::string excitation_bytes(const ExciteResult& r, const std::string& path) {
   const std::size_t total = r.sample_count();
   if (r.format == SampleFormat::text) {
     std::string out = "time_s";
@@ -325,8 +325,7 @@ void write_excitation(const std::string& path, const ExciteResult& r) {
       }
       out += '\n';
     }
-    io::write_file_atomic(path, out);
-    return;
+    return out;
   }
   std::vector<double> all(total);
   for (std::size_t k = 0; k < total; ++k) all[k] = r.period[k % r.period.size()];
@@ -335,7 +334,11 @@ void write_excitation(const std::string& path, const ExciteResult& r) {
                : r.format == SampleFormat::pcm24 ? io::AudioEncoding::pcm24
                                                  : io::AudioEncoding::float32;
   w.channels = r.channels;
-  io::write_wav(path, all, r.rate_hz, w);
+  return io::wav_bytes(all, r.rate_hz, w, path);
+}
+
+void write_excitation(const std::string& path, const ExciteResult& r) {
+  io::write_file_atomic(path, excitation_bytes(r, path));
 }
 
 std::vector<std::pair<int, double>> parse_amplitude_spectrum(std::string_view text, std::string_view name) {

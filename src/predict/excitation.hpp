@@ -135,6 +135,10 @@ struct ExciteResult {
 /// Builds the excitation (one period; the file repeats it `periods` times).
 ExciteResult generate_excitation(const ExciteOptions& options);
 
+/// The bytes write_excitation writes (`path` names the destination in messages), for a caller
+/// that publishes several outputs together (io/output_set.hpp).
+std::string excitation_bytes(const ExciteResult& result, const std::string& path);
+
 /// Writes the WAV (libsndfile) or CSV `time_s,value` (`time_s,value_1,…` for several channels)
 /// file; path "-" = stdout. Atomic.
 void write_excitation(const std::string& path, const ExciteResult& result);
