@@ -5,12 +5,14 @@
 #include <doctest/doctest.h>
 
 #include <algorithm>
+#include <chrono>
 #include <filesystem>
 #include <fstream>
 #include <string>
 #include <vector>
 
 #include "batch/config.hpp"
+#include "batch/file_analysis.hpp"
 #include "batch/runner.hpp"
 #include "batch_fixture.hpp"
 #include "core/error.hpp"
@@ -198,4 +200,76 @@ TEST_CASE("batch: a model limit without a model order is a load-time error") {
     CHECK(std::string(e.what()) ==
           "c.toml:3:1: dc_gain needs a fitted model: set order = \"M/N\" or \"auto\" in [analysis]");
   }
+}
+
+namespace {
+
+// The best of a few runs: the least disturbed by other processes on the machine.
+double best_seconds_of_measurements_json(const MeasurementSet& set, std::size_t& size) {
+  double best = 1e300;
+  for (int run = 0; run < 5; ++run) {
+    const auto start = std::chrono::steady_clock::now();
+    size = measurements_json(set).size();
+    best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
+  }
+  return best;
+}
+
+MeasurementSet measurements_of(std::size_t channels) {
+  MeasurementSet set;
+  for (std::size_t c = 0; c < channels; ++c)
+    for (int n = 1; n <= 4; ++n)
+      set.set(measurement_key("amplitude", "ch" + std::to_string(c), n), Quantity::symmetric(1.0 / n, 0.01));
+  return set;
+}
+
+}  // namespace
+
+TEST_CASE("batch: the per-file measurements JSON grows linearly with channels and freq_hz limits") {
+  // Issue 11, class 6: filling the ordered JSON object key by key searched every key already
+  // there, so 4x the keys cost 16x the time. Linear cost makes the ratio about 4 (a little over
+  // from cache effects); the bound is the geometric middle between linear (4) and quadratic
+  // (16), so neither a loaded machine nor the sanitizer build can push a linear ratio across.
+  constexpr double kMaxRatio = 8;
+  // Below this the whole 4N call is too short for the ratio to mean anything (timer and
+  // scheduler noise); the quadratic version takes about 0.5 s for 4N here.
+  constexpr double kNoiseFloor_s = 0.03;
+  constexpr std::size_t kChannels = 1250;  // x 4 harmonics = 5000 keys, then 20 000
+  const MeasurementSet small = measurements_of(kChannels), large = measurements_of(4 * kChannels);
+  std::size_t small_size = 0, large_size = 0;
+  const double t_small = best_seconds_of_measurements_json(small, small_size);
+  const double t_large = best_seconds_of_measurements_json(large, large_size);
+  CHECK(small_size == 4 * kChannels);
+  CHECK(large_size == 16 * kChannels);
+  const double ratio = t_large / std::max(t_small, 1e-9);
+  CAPTURE(t_small);
+  CAPTURE(t_large);
+  CHECK((ratio < kMaxRatio || t_large < kNoiseFloor_s));
+  // Same content and order as the MeasurementSet (sorted keys), each {value, lo95, hi95}.
+  const auto j = measurements_json(small);
+  auto it = small.values().begin();
+  bool same = true;
+  for (const auto& [key, value] : j.items()) {
+    same = same && key == it->first && value["value"] == it->second.value && value["lo95"] == it->second.lo95;
+    ++it;
+  }
+  CHECK(same);
+  CHECK(j.begin().key() == "amplitude[channel=ch0,n=1]");
+}
+
+TEST_CASE("batch: a zero scale factor is a load-time error naming the key and its line") {
+  // Issue 11, class 10: scale = 0 passed the load check and every file became an ERROR row.
+  try {
+    parse_batch_config("[read]\nscale.v_out = 0\n", "c.toml");
+    FAIL("no error");
+  } catch (const InputError& e) {
+    CHECK(std::string(e.what()) == "c.toml:2:15: scale.v_out must be a finite, non-zero factor");
+  }
+  try {
+    parse_batch_config("[read.scale]\nv_in = 1\nv_out = 0.0\n", "c.toml");
+    FAIL("no error");
+  } catch (const InputError& e) {
+    CHECK(std::string(e.what()) == "c.toml:3:9: scale.v_out must be a finite, non-zero factor");
+  }
+  CHECK(parse_batch_config("[read]\nscale.v_out = -10\n", "c.toml").read.scales.front().second == -10);
 }

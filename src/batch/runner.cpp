@@ -64,14 +64,6 @@ std::string index_prefix(std::size_t i) {
   return std::string(s.size() < 4 ? 4 - s.size() : 0, '0') + s;
 }
 
-json quantity_json(const Quantity& q) {
-  json j;
-  j["value"] = q.value;
-  j["lo95"] = q.has_interval() ? json(q.lo95) : json(nullptr);
-  j["hi95"] = q.has_interval() ? json(q.hi95) : json(nullptr);
-  return j;
-}
-
 json limit_json(const Limit& l, std::size_t index) {
   json j;
   j["index"] = index + 1;
@@ -198,9 +190,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   for (std::size_t i = 0; i < w.result.limits.size(); ++i)
     limits.push_back(outcome_json(config.limits[i], w.result.limits[i], i));
   d["limits"] = std::move(limits);
-  json measurements = json::object();
-  for (const auto& [key, q] : analysis.measurements.values()) measurements[key] = quantity_json(q);
-  d["measurements"] = std::move(measurements);
+  d["measurements"] = measurements_json(analysis.measurements);
   d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
   return w;
 }
