@@ -6,6 +6,7 @@
 #include <string>
 
 #include "cli/commands.hpp"
+#include "report/safe_text.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
@@ -97,7 +98,7 @@ Runner add_excite(CLI::App& app) {
       throw OptionError("--json", "-", "the signal already goes to stdout");
     const predict::ExciteResult r = predict::generate_excitation(opt);
     predict::write_excitation(a->out_path, r);
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     if (!a->json_path.empty()) io::write_file_atomic(a->json_path, io::json_text(predict::excitation_json(r)));
     if (a->out_path != "-" && a->json_path != "-") {
       const std::string text = predict::excitation_text(r);

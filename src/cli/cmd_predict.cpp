@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "report/safe_text.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "dsp/harmonics.hpp"
@@ -148,7 +149,7 @@ Runner add_predict(CLI::App& app) {
       }
       r = predict::predict_steady_state(a->wave, sys, a->options);
     }
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     if (!a->csv_path.empty()) io::write_file_atomic(a->csv_path, predict::format_predict_csv(r));
     if (!a->json_path.empty()) io::write_file_atomic(a->json_path, io::json_text(predict::predict_json(r, a->list)));
     if (a->json_path != "-" && a->csv_path != "-") {
