@@ -14,6 +14,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 #include <filesystem>
 #include <nlohmann/json.hpp>
@@ -40,7 +41,18 @@ struct Interrupted {
   int status = 0;                        ///< waitpid status
 };
 
-Interrupted run_and_interrupt(const std::string& captures, const std::string& report) {
+// The run's staging folder `.<name>.run-XXXXXX` beside the report folder, once it holds a
+// per-file JSON (batch/report_folder.hpp): the run is writing.
+bool staging_has_output(const fs::path& report) {
+  std::error_code ec;
+  const std::string prefix = "." + report.filename().string() + ".run-";
+  for (auto it = fs::directory_iterator(report.parent_path(), ec); !ec && it != fs::directory_iterator(); it.increment(ec))
+    if (it->path().filename().string().starts_with(prefix) && !fs::is_empty(it->path() / "files", ec) && !ec)
+      return true;
+  return false;
+}
+
+Interrupted run_and_interrupt(const std::string& captures, const std::string& report, int signal_number = SIGINT) {
   std::vector<std::string> args = {PERIODFIT_EXE, "batch", captures, "--report", report, "--jobs", "2", "--quiet"};
   std::vector<char*> argv;
   for (auto& a : args) argv.push_back(a.data());
@@ -62,12 +74,12 @@ Interrupted run_and_interrupt(const std::string& captures, const std::string& re
       return result;
     }
     std::error_code ec;
-    if (fs::exists(report, ec) && !fs::is_empty(report, ec)) break;
+    if (staging_has_output(report)) break;
     if (std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count() > kStartTimeoutSeconds) break;
     std::this_thread::sleep_for(std::chrono::microseconds(200));
   }
   result.signalled_while_writing = true;
-  ::kill(pid, SIGINT);
+  ::kill(pid, signal_number);
   ::waitpid(pid, &result.status, 0);
   return result;
 }
@@ -75,6 +87,11 @@ Interrupted run_and_interrupt(const std::string& captures, const std::string& re
 /// Problems with what a (possibly interrupted) batch left in `report`; empty = clean.
 std::vector<std::string> leftovers(const fs::path& report, std::size_t captures) {
   std::vector<std::string> problems;
+  for (const auto& entry : fs::directory_iterator(report.parent_path())) {
+    const std::string name = entry.path().filename().string();
+    if (name.find(".run-") != std::string::npos || name.find(".old-") != std::string::npos)
+      problems.push_back("staging folder left: " + name);
+  }
   if (!fs::exists(report)) return problems;
   for (const auto& entry : fs::recursive_directory_iterator(report)) {
     const std::string name = entry.path().filename().string();
@@ -143,4 +160,47 @@ TEST_CASE("batch: SIGINT while the report folder is being written leaves no part
     if (interrupted > 0) break;
   }
   CHECK_MESSAGE(interrupted > 0, "batch finished every time before SIGINT arrived: the test did not interrupt a write");
+}
+
+TEST_CASE("batch: an interrupted re-run leaves the earlier report folder exactly as it was") {
+  // Issue 11, class 4: SIGINT/SIGTERM/SIGHUP during a re-run left the old summary beside new
+  // per-file JSON, and temporaries. The run builds a staging folder and swaps it in at the end,
+  // so the report folder is the earlier run's, byte for byte.
+  if (!command_has_option("batch", "--report")) {
+    MESSAGE("SKIPPED (batch not built yet)");
+    return;
+  }
+  TempDir dir("batch_rerun_signal");
+  const fs::path small = dir.path / "small", large = dir.path / "large", report = dir.path / "report";
+  fs::create_directories(small);
+  fs::create_directories(large);
+  constexpr std::size_t kCaptures = 120;  // enough that the run is still writing when signalled
+  for (std::size_t i = 0; i < kCaptures; ++i) {
+    Signal s;
+    s.f0_hz = 50 + 0.01 * static_cast<double>(i);
+    s.amplitudes = {1.0, 0.1};
+    s.seed = static_cast<unsigned>(i + 1);
+    char name[32];
+    std::snprintf(name, sizeof name, "unit_%04zu.csv", i);
+    write_text((large / name).string(), capture_csv(2000, {synthesize(s, 2000, 4000)}, {"v"}));
+    if (i < 2) write_text((small / name).string(), capture_csv(2000, {synthesize(s, 2000, 4000)}, {"v"}));
+  }
+  const CliRun first = run_cli("batch " + small.string() + " --report " + report.string() + " --quiet");
+  REQUIRE(first.exit_code == 0);
+  const auto snapshot = [&] {
+    std::vector<std::pair<std::string, std::string>> out;
+    for (const auto& e : fs::recursive_directory_iterator(report))
+      out.emplace_back(fs::relative(e.path(), report).string(), e.is_regular_file() ? slurp(e.path()) : "");
+    std::sort(out.begin(), out.end());
+    return out;
+  };
+  const auto before = snapshot();
+  for (int signal_number : {SIGINT, SIGTERM, SIGHUP}) {
+    CAPTURE(signal_number);
+    const Interrupted r = run_and_interrupt(large.string(), report.string(), signal_number);
+    CHECK(r.signalled_while_writing);
+    CHECK((WIFSIGNALED(r.status) && WTERMSIG(r.status) == signal_number));
+    for (const auto& p : leftovers(report, 2)) FAIL_CHECK(p);
+    CHECK(snapshot() == before);
+  }
 }

@@ -148,8 +148,14 @@ class Loader {
       if (c.read.rate_hz < 0) fail(n, "rate_hz must be >= 0 (0 = from the file)");
     }
     if (const auto* n = t.get("scale"))
-      for (const auto& [key, value] : table(*n, "scale"))
-        c.read.scales.emplace_back(std::string(key.str()), number(value, "scale." + std::string(key.str())));
+      for (const auto& [key, value] : table(*n, "scale")) {
+        const std::string name = "scale." + std::string(key.str());
+        const double factor = number(value, name);
+        // The same check as --scale (io::apply_read_options), made here so the error points at
+        // the config line instead of surfacing per file as an ERROR row.
+        if (factor == 0) fail(&value, name + " must be a finite, non-zero factor");
+        c.read.scales.emplace_back(std::string(key.str()), factor);
+      }
     if (const auto* n = t.get("unit"))
       for (const auto& [key, value] : table(*n, "unit"))
         c.read.units.emplace_back(std::string(key.str()), string(value, "unit." + std::string(key.str())));

@@ -50,6 +50,10 @@ std::vector<std::string> analysis_key_names(const BatchConfig& config);
 /// The analysis settings as "name → value" rows for the report header.
 std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const BatchConfig& config);
 
+/// The "measurements" object of the per-file JSON: {key: {value, lo95, hi95}} in key order.
+/// Linear in the number of measurements (channels × harmonics, freq_hz limits).
+nlohmann::ordered_json measurements_json(const MeasurementSet& measurements);
+
 /// The 95 % coverage factor used for model-derived quantities (see the header comment).
 double model_coverage_factor();
 

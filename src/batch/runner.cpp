@@ -16,11 +16,13 @@
 #include <thread>
 
 #include "batch/file_analysis.hpp"
+#include "batch/report_folder.hpp"
 #include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "io/json_writer.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
+#include "report/safe_text.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::batch {
@@ -64,14 +66,6 @@ std::string index_prefix(std::size_t i) {
   return std::string(s.size() < 4 ? 4 - s.size() : 0, '0') + s;
 }
 
-json quantity_json(const Quantity& q) {
-  json j;
-  j["value"] = q.value;
-  j["lo95"] = q.has_interval() ? json(q.lo95) : json(nullptr);
-  j["hi95"] = q.has_interval() ? json(q.hi95) : json(nullptr);
-  return j;
-}
-
 json limit_json(const Limit& l, std::size_t index) {
   json j;
   j["index"] = index + 1;
@@ -98,14 +92,6 @@ json outcome_json(const Limit& l, const LimitOutcome& o, std::size_t index) {
   j["measured"] = o.measured_text;
   j["verdict"] = o.verdict;
   return j;
-}
-
-// RFC 4180 field: quoted when it holds a comma, quote, CR or LF.
-std::string csv_field(const std::string& s) {
-  if (s.find_first_of(",\"\r\n") == std::string::npos) return s;
-  std::string out = "\"";
-  for (char c : s) out += c == '"' ? std::string("\"\"") : std::string(1, c);
-  return out + "\"";
 }
 
 std::string failing_text(const Limit& l, const LimitOutcome& o) {
@@ -139,6 +125,9 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     analysis = analyse_file(path, config);
   } catch (const Error& e) {
     w.result.error = e.what();
+    std::error_code ec;
+    if (fs::is_symlink(fs::symlink_status(path, ec)) && !fs::exists(path, ec))
+      w.result.error += " (a symbolic link to " + fs::read_symlink(path, ec).string() + ", which does not exist)";
   } catch (const std::bad_alloc&) {
     w.result.error = "out of memory";
   } catch (const std::exception& e) {
@@ -198,23 +187,21 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   for (std::size_t i = 0; i < w.result.limits.size(); ++i)
     limits.push_back(outcome_json(config.limits[i], w.result.limits[i], i));
   d["limits"] = std::move(limits);
-  json measurements = json::object();
-  for (const auto& [key, q] : analysis.measurements.values()) measurements[key] = quantity_json(q);
-  d["measurements"] = std::move(measurements);
+  d["measurements"] = measurements_json(analysis.measurements);
   d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
   return w;
 }
 
 std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& config) {
   std::string out = "path,status";
-  for (const auto& key : analysis_key_names(config)) out += "," + csv_field(key);
+  for (const auto& key : analysis_key_names(config)) out += "," + report::csv_cell(key);
   for (std::size_t i = 0; i < config.limits.size(); ++i)
-    out += "," + csv_field("limit" + std::to_string(i + 1) + ":" + config.limits[i].key());
+    out += "," + report::csv_cell("limit" + std::to_string(i + 1) + ":" + config.limits[i].key());
   out += ",failing_limits,message\n";
   for (const auto& w : works) {
     const FileResult& r = w.result;
-    out += csv_field(r.path) + "," + report::status_text(r.status);
-    for (const auto& [key, value] : r.key_results) out += "," + csv_field(value);
+    out += report::csv_cell(r.path) + "," + report::status_text(r.status);
+    for (const auto& [key, value] : r.key_results) out += "," + report::csv_cell(value);
     for (std::size_t i = 0; i < config.limits.size(); ++i) {
       std::string cell;
       if (i < r.limits.size() && r.limits[i].evaluated)
@@ -225,7 +212,7 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
     for (std::size_t i = 0; i < r.limits.size(); ++i)
       if (!r.limits[i].passed)
         failing += (failing.empty() ? "" : "; ") + failing_text(config.limits[i], r.limits[i]);
-    out += "," + csv_field(failing) + "," + csv_field(r.error) + "\n";
+    out += "," + report::csv_cell(failing) + "," + report::csv_cell(r.error) + "\n";
   }
   return out;
 }
@@ -283,8 +270,17 @@ void BatchOptions::validate() const {
 }
 
 std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
-                                       const FileSelection& selection) {
+                                       const FileSelection& selection, const std::string& report_dir) {
   std::vector<std::string> found;
+  // The report folder of an earlier run (when it lies inside an input folder) is never read as
+  // captures: its summary.csv is not a capture. periodfit's other entries beside it (the
+  // staging folder, the lock) are hidden names, skipped like every hidden entry.
+  std::error_code report_ec;
+  const fs::path report = report_dir.empty() ? fs::path() : fs::canonical(report_dir, report_ec);
+  const auto is_report = [&](const fs::path& folder) {
+    std::error_code e2;
+    return !report.empty() && !report_ec && fs::equivalent(folder, report, e2);
+  };
   for (const auto& input : inputs) {
     std::error_code ec;
     const fs::file_status st = fs::status(input, ec);
@@ -293,14 +289,21 @@ std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
       found.push_back(input);
       continue;
     }
+    if (is_report(input)) continue;
     const auto take = [&](const fs::directory_entry& e) {
       std::error_code e2;
-      if (e.is_regular_file(e2) && selected(e.path(), selection)) found.push_back(e.path().string());
+      if (!selected(e.path(), selection)) return;
+      // A dangling symbolic link that matches is taken too, so it becomes an ERROR row that
+      // says so, instead of a capture that silently goes missing from the run.
+      if (e.is_regular_file(e2) || (e.is_symlink(e2) && !fs::exists(e.path(), e2)))
+        found.push_back(e.path().string());
     };
     if (selection.recursive) {
       for (auto it = fs::recursive_directory_iterator(input, fs::directory_options::skip_permission_denied, ec);
            !ec && it != fs::recursive_directory_iterator(); it.increment(ec)) {
-        if (it->path().filename().string().starts_with(".") && it->is_directory()) {
+        std::error_code e2;
+        if (it->is_directory(e2) &&
+            (it->path().filename().string().starts_with(".") || is_report(it->path()))) {
           it.disable_recursion_pending();
           continue;
         }
@@ -331,11 +334,13 @@ BatchResult run_batch(const BatchOptions& options) {
   const auto elapsed = [&] {
     return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   };
-  const std::vector<std::string> paths = find_captures(options.inputs, options.config.files);
+  const std::vector<std::string> paths =
+      find_captures(options.inputs, options.config.files, options.report_dir);
 
-  std::error_code ec;
-  fs::create_directories(fs::path(options.report_dir) / "files", ec);
-  if (ec) throw IoError(options.report_dir, "cannot create", ec.value());
+  // Everything is written into a staging folder that replaces the report folder whole at the
+  // end (batch/report_folder.hpp); an error or an interrupt before then leaves it untouched.
+  ReportFolder folder(options.report_dir);
+  const fs::path staging(folder.staging());
 
   BatchResult result;
   result.report_dir = options.report_dir;
@@ -348,7 +353,7 @@ BatchResult run_batch(const BatchOptions& options) {
   // timing. As soon as a file is done its JSON is written and its report section (text and
   // plots, tens of kB) is rendered into the spill file, so memory does not grow with the
   // number of files; report.html is assembled from the spill file in path order at the end.
-  io::ScratchFile sections(options.report_dir);
+  io::ScratchFile sections(folder.staging());
   std::vector<FileDone> works(paths.size());
   std::atomic<std::size_t> next{0};
   std::size_t done = 0;
@@ -366,7 +371,7 @@ BatchResult run_batch(const BatchOptions& options) {
       try {
         {
           FileWork w = process(i, paths[i], options);
-          io::write_file_atomic((fs::path(options.report_dir) / w.result.json_file).string(),
+          io::write_file_atomic((staging / w.result.json_file).string(),
                                 io::json_text(w.document));
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_report_section(w.section, i + 1));
@@ -415,12 +420,8 @@ BatchResult run_batch(const BatchOptions& options) {
       case report::FileStatus::error: ++result.errors; break;
     }
   }
-  const fs::path dir(options.report_dir);
-  result.summary_csv = (dir / "summary.csv").string();
-  result.summary_json = (dir / "summary.json").string();
-  result.report_html = (dir / "report.html").string();
-  io::write_file_atomic(result.summary_csv, summary_csv(works, options.config));
-  io::write_file_atomic(result.summary_json, io::json_text(summary_json(works, result, options)));
+  io::write_file_atomic((staging / "summary.csv").string(), summary_csv(works, options.config));
+  io::write_file_atomic((staging / "summary.json").string(), io::json_text(summary_json(works, result, options)));
 
   report::ReportOverview overview;
   overview.title = options.config.title;
@@ -430,12 +431,17 @@ BatchResult run_batch(const BatchOptions& options) {
   overview.settings.emplace_back("limits", std::to_string(options.config.limits.size()));
   overview.settings.emplace_back("plots", plot_selection_name(options.config.plots));
   for (auto& w : works) overview.rows.push_back(std::move(w.row));
-  io::AtomicFile page(result.report_html);
+  io::AtomicFile page((staging / "report.html").string());
   report::write_html_report(
       overview,
       [&](std::size_t i, const report::HtmlSink& sink) { sections.copy(works[i].section, sink); },
       [&](std::string_view bytes) { page.write(bytes); });
   page.commit();
+  folder.publish();
+  const fs::path dir(options.report_dir);
+  result.summary_csv = (dir / "summary.csv").string();
+  result.summary_json = (dir / "summary.json").string();
+  result.report_html = (dir / "report.html").string();
 
   for (auto& w : works) {
     result.analysis_s += w.result.analysis_s;

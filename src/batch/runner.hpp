@@ -2,8 +2,10 @@
 /// Running one characterisation over folders of captures: list the files (sorted by path),
 /// analyse them on a pool of threads, evaluate the limits, and write the outputs into the
 /// report folder — summary.csv, summary.json, files/NNNN-<name>.json per file and report.html
-/// (docs/batch-output.md). Every output goes through io::AtomicFile (temporary file + rename),
-/// so a killed run leaves either the previous file or the new one, never half.
+/// (docs/batch-output.md). The outputs are written into a staging folder that replaces the
+/// report folder whole when the run is complete (batch/report_folder.hpp): the report folder is
+/// the complete result of one run, or as it was before — never a mix, never half a file; a
+/// second run into the same folder at the same time is refused.
 ///
 /// Memory: a file's report section (text and plots) is rendered as soon as the file is done and
 /// spilled to an unnamed scratch file (io::ScratchFile) in the report folder; the run keeps
@@ -74,10 +76,13 @@ struct BatchResult {
 };
 
 /// The captures a batch would take from `inputs`: regular files named directly, and the files
-/// in each folder matching `selection`, sorted by path, duplicates removed. Throws IoError for
-/// an input that does not exist and InputError when nothing is found.
+/// in each folder matching `selection` (dangling symbolic links included, so they become ERROR
+/// rows), sorted by path, duplicates removed. Hidden entries and the folder `report_dir` (an
+/// earlier run's report inside an input folder) are not searched. Throws IoError for an input
+/// that does not exist and InputError when nothing is found.
 std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
-                                       const FileSelection& selection);
+                                       const FileSelection& selection,
+                                       const std::string& report_dir = {});
 
 /// Runs the batch (see the header). Throws only for problems of the run itself (bad options, an
 /// unwritable report folder); problems of single files become ERROR rows.

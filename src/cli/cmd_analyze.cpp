@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "cli/capture_options.hpp"
+#include "report/safe_text.hpp"
 #include "cli/commands.hpp"
 #include "core/exit_code.hpp"
 #include "dsp/analysis_output.hpp"
@@ -67,8 +68,9 @@ Runner add_analyze(CLI::App& app) {
     outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
-        std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n", channel.name.c_str(),
-                     flag.message.c_str());
+        std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n",
+                     report::terminal_text(channel.name, false).c_str(),
+                     report::terminal_text(flag.message, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

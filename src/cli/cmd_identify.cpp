@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "cli/capture_options.hpp"
+#include "report/safe_text.hpp"
 #include "cli/commands.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
@@ -60,7 +61,7 @@ void read_pair(const IdentifyArgs& a, Capture& input, Capture& output) {
   io::apply_read_options(output, out_opts);
 }
 
-void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", message.c_str()); }
+void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(message, false).c_str()); }
 
 int run(const IdentifyArgs& a) {
   if (!a.model_path.empty() && a.options.order.empty())

@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "report/safe_text.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "dsp/harmonics.hpp"
@@ -152,7 +153,7 @@ Runner add_predict(CLI::App& app) {
     if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r, a->list)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", w.c_str());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

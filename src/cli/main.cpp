@@ -10,6 +10,7 @@
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
+#include "report/safe_text.hpp"
 
 namespace {
 
@@ -40,7 +41,8 @@ constexpr const char* kExitCodes =
     "2 error: bad usage, unreadable or invalid input.";
 
 void print_error(const std::string& message) {
-  std::fprintf(stderr, "periodfit: error: %s\n", message.c_str());
+  // The message may quote input text (names, cells, paths): one line, controls shown as \xHH.
+  std::fprintf(stderr, "periodfit: error: %s\n", periodfit::report::terminal_text(message, false).c_str());
 }
 
 /// The one place standard output is flushed and closed, whatever the command printed (help,

@@ -5,21 +5,12 @@
 #include <string>
 
 #include "io/number_format.hpp"
+#include "report/safe_text.hpp"
 #include "report/table.hpp"
 #include "io/json_writer.hpp"
 
 namespace periodfit::dsp {
 namespace {
-
-std::string csv_field(const std::string& s) {
-  if (s.find_first_of(",\"\n\r") == std::string::npos) return s;
-  std::string out = "\"";
-  for (char c : s) {
-    if (c == '"') out += '"';
-    out += c;
-  }
-  return out + "\"";
-}
 
 std::string shortest(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
 
@@ -138,7 +129,7 @@ std::string harmonics_csv(const AnalyzeReport& r) {
   std::string out = "channel,unit,n,freq_hz,amplitude,amplitude_u,phase_deg,phase_u_deg,significant\n";
   for (const auto& c : r.channels)
     for (const auto& h : c.harmonics)
-      out += csv_field(c.name) + "," + csv_field(c.unit) + "," + std::to_string(h.n) + "," +
+      out += report::csv_cell(c.name) + "," + report::csv_cell(c.unit) + "," + std::to_string(h.n) + "," +
              shortest(h.freq_hz) + "," + shortest(h.amplitude) + "," + shortest(h.amplitude_u) + "," +
              shortest(h.phase_deg) + "," + shortest(h.phase_u_deg) + "," +
              (h.significant ? "yes" : "no") + "\n";

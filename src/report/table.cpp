@@ -3,6 +3,8 @@
 #include <algorithm>
 #include <cassert>
 
+#include "report/safe_text.hpp"
+
 namespace periodfit::report {
 
 namespace {
@@ -15,6 +17,8 @@ std::size_t display_width(const std::string& s) {
 
 void Table::add_row(std::vector<std::string> cells) {
   assert(cells.size() == columns_.size());
+  // Cells carry input text (channel names, paths, messages): shown, never obeyed by the terminal.
+  for (auto& cell : cells) cell = terminal_text(cell, false);
   rows_.push_back(std::move(cells));
 }
 
@@ -49,11 +53,13 @@ std::string Table::render(int indent) const {
 std::string render_key_values(const std::vector<std::pair<std::string, std::string>>& rows,
                               int indent) {
   std::size_t key_width = 0;
-  for (const auto& [key, value] : rows) key_width = std::max(key_width, display_width(key));
+  for (const auto& [key, value] : rows) key_width = std::max(key_width, display_width(terminal_text(key, false)));
   const std::string lead(static_cast<std::size_t>(std::max(indent, 0)), ' ');
   std::string out;
-  for (const auto& [key, value] : rows)
+  for (const auto& [raw_key, raw_value] : rows) {
+    const std::string key = terminal_text(raw_key, false), value = terminal_text(raw_value, false);
     out += lead + key + std::string(key_width - display_width(key) + 2, ' ') + value + '\n';
+  }
   return out;
 }
 
