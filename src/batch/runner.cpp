@@ -17,6 +17,7 @@
 
 #include "batch/file_analysis.hpp"
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
 #include "io/json_writer.hpp"
 #include "io/output_file.hpp"
@@ -140,7 +141,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   } catch (const Error& e) {
     w.result.error = e.what();
   } catch (const std::bad_alloc&) {
-    w.result.error = "out of memory";
+    w.result.error = OutOfMemoryError("analysing " + path).what();
   } catch (const std::exception& e) {
     w.result.error = std::string("internal error: ") + e.what();
   }

@@ -9,6 +9,7 @@
 #include <string_view>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/audio_reader.hpp"
 #include "io/csv_reader.hpp"
 #include "io/number_format.hpp"
@@ -86,11 +87,12 @@ void apply_read_options(Capture& capture, const ReadOptions& options) {
   for (std::size_t i = 0; i < united.size(); ++i) capture.channels[united[i]].unit = options.units[i].second;
 }
 
-Capture read_capture(const std::string& path, const ReadOptions& options) {
+namespace {
+Capture read_capture_unguarded(const std::string& path, const ReadOptions& options) {
   validate(options);
   const Probe p = probe(path);
   // A pipe or device is read whole, once; a regular file is streamed by its reader.
-  const std::string bytes = p.regular ? std::string() : read_file(path);
+  const std::string bytes = p.regular ? std::string() : read_file(path, max_piped_capture_bytes());
   const std::string_view head = p.regular ? std::string_view(p.head) : std::string_view(bytes).substr(0, 16);
   Capture capture;
   if (looks_like_audio(head, path)) {
@@ -109,6 +111,12 @@ Capture read_capture(const std::string& path, const ReadOptions& options) {
     throw InputError(path, 0, 0, e.what());
   }
   return capture;
+}
+
+}  // namespace
+
+Capture read_capture(const std::string& path, const ReadOptions& options) {
+  return with_memory_step("reading " + path, [&] { return read_capture_unguarded(path, options); });
 }
 
 }  // namespace periodfit::io
