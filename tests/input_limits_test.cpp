@@ -46,10 +46,10 @@ TEST_CASE("input limits: JSON nesting up to the limit passes, one more level is 
 }
 
 TEST_CASE("input limits: the issue's 50 000-deep model file is a located error, not a stack overflow") {
-  // The first '[' of model.num is byte 49 (0-based); level 65 is 62 brackets later (2 levels are
-  // the document and model objects): column 49 + 62 + 1 = 112.
+  // The first '[' of model.num is byte 55 (0-based; the 55-byte prefix above); level 65 is 62
+  // brackets later (2 levels are the document and model objects): column 55 + 62 + 1 = 118.
   CHECK_THROWS_WITH_AS(ident::parse_model_file(deep_model(50'000), "deep.model.json"),
-                       "deep.model.json:1:112: nested more than 64 levels deep (the limit for periodfit's input files)",
+                       "deep.model.json:1:118: nested more than 64 levels deep (the limit for periodfit's input files)",
                        InputError);
   // At the limit the nesting check passes and the schema check answers.
   CHECK_THROWS_WITH_AS(ident::parse_model_file(deep_model(62), "d.model.json"),

@@ -628,12 +628,12 @@ TEST_CASE("robustness: a 50 000-deep model file and a 50 000-part dotted TOML ke
   for (int i = 0; i < 50'000; ++i) num += ']';
   write_text(dir.file("deep.model.json"),
              R"({"format":"periodfit-model","version":1,"model":{"num":)" + num + R"(,"den":[1000,1]}})");
-  // Column 112: level 65 of the nesting check (io/input_limits.hpp), see input_limits_test.
+  // Column 118: level 65 of the nesting check (io/input_limits.hpp), see input_limits_test.
   const CliRun model = run_cli("predict --model '" + dir.file("deep.model.json") + "' --wave sine --f0 1000");
   CHECK(model.exit_code == 2);
   CHECK(model.out.empty());
   CHECK(model.err == "periodfit: error: " + dir.file("deep.model.json") +
-                         ":1:112: nested more than 64 levels deep (the limit for periodfit's input files)\n");
+                         ":1:118: nested more than 64 levels deep (the limit for periodfit's input files)\n");
 
   std::string key;
   for (int i = 0; i < 50'000; ++i) key += i ? ".a" : "a";
@@ -689,19 +689,27 @@ TEST_CASE("robustness: sizes asked for by options are refused before allocation,
                      "highest periodfit evaluates))\n");
 }
 
-TEST_CASE("robustness: an endless device as a capture is refused at the piped-input bound, naming it") {
-  // Under `ulimit -v` the budget is half the address-space limit (core/memory_budget.hpp), so the
-  // bound is reached after a few tens of MB instead of gigabytes. A sanitizer build reserves
-  // terabytes of shadow memory and cannot start under such a limit: then this is skipped, visibly.
+TEST_CASE("robustness: an endless device or pipe as a capture is refused early, naming it") {
+  // Binary: capture text never holds a NUL byte, so /dev/zero is refused at its first byte.
+  const auto t = std::chrono::steady_clock::now();
+  const CliRun zero = run_cli("info /dev/zero");
+  CHECK(seconds_since(t) < kHangSeconds);
+  CHECK(zero.exit_code == 2);
+  CHECK(zero.err == "periodfit: error: /dev/zero: holds a NUL byte at byte 0: neither CSV text nor an audio format "
+                    "periodfit reads\n");
+
+  // Endless text: refused at the piped-input bound. Under `ulimit -v` the budget is half the
+  // address-space limit (core/memory_budget.hpp), so the bound is reached after a few tens of MB
+  // instead of gigabytes. A sanitizer build reserves terabytes of shadow memory and cannot start
+  // under such a limit: then this part is skipped, visibly.
   const std::string limit = "ulimit -v 400000 && ";  // 409.6 MB address space
   if (run_shell(limit + "\"$PF\" --version").exit_code != 0) {
     MESSAGE("skipped: periodfit does not start under ulimit -v (a sanitizer build)");
     return;
   }
-  const auto t = std::chrono::steady_clock::now();
-  const CliRun r = run_shell(limit + "\"$PF\" info /dev/zero");
+  const CliRun text = run_shell(limit + "yes 1,2 | \"$PF\" info /dev/stdin");
   CHECK(seconds_since(t) < kHangSeconds);
-  CHECK(r.exit_code == 2);
+  CHECK(text.exit_code == 2);
   // 409.6 MB / 2 (budget) / 5 (text plus parsed samples, io/input_limits.hpp) = 41 MB.
-  CHECK(r.err == "periodfit: error: /dev/zero: larger than the 41 MB limit for this input\n");
+  CHECK(text.err == "periodfit: error: /dev/stdin: larger than the 41 MB limit for this input\n");
 }
