@@ -712,4 +712,13 @@ TEST_CASE("robustness: an endless device or pipe as a capture is refused early, 
   CHECK(text.exit_code == 2);
   // 409.6 MB / 2 (budget) / 5 (text plus parsed samples, io/input_limits.hpp) = 41 MB.
   CHECK(text.err == "periodfit: error: /dev/stdin: larger than the 41 MB limit for this input\n");
+
+  // One excitation period of 10^9 samples (32 GB at 32 B per sample) against the 205 MB budget.
+  TempDir dir("rob_excite");
+  const CliRun excite = run_shell(limit + "\"$PF\" excite '" + dir.file("e.wav") + "' --rate 1e12");
+  CHECK(excite.exit_code == 2);
+  CHECK(excite.err == "periodfit: error: invalid option: rate_hz = 1e+12 (one period of 1e+09 samples at f0 = 1000 Hz "
+                      "needs about 32 GB, more than the 205 MB memory budget (half of the address-space limit, "
+                      "ulimit -v))\n");
+  CHECK_FALSE(std::filesystem::exists(dir.file("e.wav")));
 }
