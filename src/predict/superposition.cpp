@@ -438,8 +438,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     if (const auto over = over_memory_budget(samples * kBytesPerPredictedSample))
       throw OptionError(options.rate_hz > 0 ? "rate_hz" : "periods",
                         options.rate_hz > 0 ? num(rate) : std::to_string(options.periods),
-                        io::format_significant(samples, 3) + " samples (" + num(options.periods) + " periods at " +
-                            num(rate) + " Hz) need " + *over);
+                        io::format_significant(samples, 3) + " samples need " + *over);
   };
   if (folded) {
     check_samples(m_round * options.periods);
