@@ -137,7 +137,8 @@ TEST_CASE("lock: invalid options name the field, value and constraint") {
   CHECK_NOTHROW(dsp::validate(o));  // the defaults are valid
   o.max_harmonic = -1;
   CHECK_THROWS_WITH_AS(dsp::validate(o),
-                       "invalid option: max_harmonic = -1 (must be between 0 (automatic) and 100000)",
+                       "invalid option: max_harmonic = -1 (must be between 0 (automatic) and 2000 (fit time grows as "
+                       "H³; dsp/period_lock.hpp))",
                        OptionError);
   o = {};
   o.f0_hz = -2;

@@ -618,3 +618,121 @@ TEST_CASE("robustness: every kept fuzz input (tests/regressions/) is a result or
   }
   MESSAGE("replayed " << replayed << " fuzz-found inputs from tests/regressions/");
 }
+
+// ---- Issue 11, class 1: deep nesting is a located error before any recursive parser --------
+
+TEST_CASE("robustness: a 50 000-deep model file and a 50 000-part dotted TOML key are located errors") {
+  TempDir dir("rob_deep");
+  std::string num;
+  for (int i = 0; i < 50'000; ++i) num += '[';
+  for (int i = 0; i < 50'000; ++i) num += ']';
+  write_text(dir.file("deep.model.json"),
+             R"({"format":"periodfit-model","version":1,"model":{"num":)" + num + R"(,"den":[1000,1]}})");
+  // Column 118: level 65 of the nesting check (io/input_limits.hpp), see input_limits_test.
+  const CliRun model = run_cli("predict --model '" + dir.file("deep.model.json") + "' --wave sine --f0 1000");
+  CHECK(model.exit_code == 2);
+  CHECK(model.out.empty());
+  CHECK(model.err == "periodfit: error: " + dir.file("deep.model.json") +
+                         ":1:118: nested more than 64 levels deep (the limit for periodfit's input files)\n");
+
+  std::string key;
+  for (int i = 0; i < 50'000; ++i) key += i ? ".a" : "a";
+  write_text(dir.file("deep.toml"), key + " = 1\n");
+  std::filesystem::create_directories(dir.path / "in");
+  const CliRun config = run_cli("batch '" + dir.file("in") + "' --config '" + dir.file("deep.toml") +
+                                "' --report '" + dir.file("report") + "'");
+  CHECK(config.exit_code == 2);
+  CHECK(config.err == "periodfit: error: " + dir.file("deep.toml") +
+                          ":1:128: a dotted key with more than 64 parts (the limit for periodfit's config files)\n");
+  CHECK_FALSE(std::filesystem::exists(dir.path / "report"));
+}
+
+// ---- Issue 11, class 5: every requested size is checked before it is allocated -------------
+
+TEST_CASE("robustness: sizes asked for by options are refused before allocation, naming option and bound") {
+  TempDir dir("rob_sizes");
+  Signal s;
+  s.f0_hz = 50;
+  write_text(dir.file("ten.csv"), capture_csv(1000, {synthesize(s, 1000, 200)}, {"v"}));  // 10 periods
+  const std::string file = dir.file("ten.csv");
+
+  // 2·10^9 samples per period × 10 periods × 32 B is 640 GB, over any machine's budget.
+  const CliRun grid = run_cli("analyze '" + file + "' --samples-per-period 2000000000");
+  CHECK(grid.exit_code == 2);
+  CHECK_MESSAGE(grid.err.rfind("periodfit: error: invalid option: samples_per_period = 2000000000 (the locked grid "
+                               "of 10 periods × 2000000000 samples needs about 640 GB, more than the ",
+                               0) == 0,
+                grid.err);
+
+  const CliRun harmonics = run_cli("analyze '" + file + "' --harmonics 20000");
+  CHECK(harmonics.exit_code == 2);
+  CHECK(harmonics.err == "periodfit: error: invalid option: max_harmonic = 20000 (must be between 0 (automatic) and "
+                         "2000 (fit time grows as H³; dsp/period_lock.hpp))\n");
+
+  // 10^12 samples × 88 B (kBytesPerPredictedSample, predict/superposition.cpp) = 88 TB.
+  const CliRun samples =
+      run_cli("predict --num 1 --den 1,1 --wave sine --f0 1 --rate 1e12 --csv '" + dir.file("p.csv") + "'");
+  CHECK(samples.exit_code == 2);
+  CHECK_MESSAGE(
+      samples.err.rfind("periodfit: error: invalid option: rate_hz = 1e+12 (1e+12 samples need about 88 TB, more than ", 0) == 0,
+      samples.err);
+  CHECK_FALSE(std::filesystem::exists(dir.file("p.csv")));
+
+  std::string den;
+  for (int i = 0; i < 2000; ++i) den += i ? ",1" : "1";
+  const auto t = std::chrono::steady_clock::now();
+  const CliRun order = run_cli("predict --num 1 --den " + den + " --wave sine --f0 1");
+  CHECK(seconds_since(t) < kHangSeconds);
+  CHECK(order.exit_code == 2);
+  CHECK(order.err == "periodfit: error: invalid option: den = 2000 coefficients (at most 101 (degree 100, the "
+                     "highest periodfit evaluates))\n");
+}
+
+TEST_CASE("robustness: endless devices and pipes, tall CSVs and huge excite periods are refused naming input and bound") {
+  // Binary: capture text never holds a NUL byte, so /dev/zero is refused at its first byte.
+  const auto t = std::chrono::steady_clock::now();
+  const CliRun zero = run_cli("info /dev/zero");
+  CHECK(seconds_since(t) < kHangSeconds);
+  CHECK(zero.exit_code == 2);
+  CHECK(zero.err == "periodfit: error: /dev/zero: holds a NUL byte at byte 0: neither CSV text nor an audio format "
+                    "periodfit reads\n");
+
+  // Endless text: refused at the piped-input bound. Under `ulimit -v` the budget is half the
+  // address-space limit (core/memory_budget.hpp), so the bound is reached after a few tens of MB
+  // instead of gigabytes. A sanitizer build reserves terabytes of shadow memory and cannot start
+  // under such a limit: then this part is skipped, visibly.
+  const std::string limit = "ulimit -v 400000 && ";  // 409.6 MB address space
+  if (run_shell(limit + "\"$PF\" --version").exit_code != 0) {
+    MESSAGE("skipped: periodfit does not start under ulimit -v (a sanitizer build)");
+    return;
+  }
+  const CliRun text = run_shell(limit + "yes 1,2 | \"$PF\" info /dev/stdin");
+  CHECK(seconds_since(t) < kHangSeconds);
+  CHECK(text.exit_code == 2);
+  // 409.6 MB / 2 (budget) / 5 (text plus parsed samples, io/input_limits.hpp) = 41 MB.
+  CHECK(text.err == "periodfit: error: /dev/stdin: larger than the 41 MB limit for this input\n");
+
+  // One excitation period of 10^9 samples (32 GB at 32 B per sample) against the 205 MB budget.
+  TempDir dir("rob_excite");
+  const CliRun excite = run_shell(limit + "\"$PF\" excite '" + dir.file("e.wav") + "' --rate 1e12");
+  CHECK(excite.exit_code == 2);
+  CHECK(excite.err == "periodfit: error: invalid option: rate_hz = 1e+12 (one period of 1e+09 samples at f0 = 1000 Hz "
+                      "needs about 32 GB, more than the 205 MB memory budget (half of the address-space limit, "
+                      "ulimit -v))\n");
+  CHECK_FALSE(std::filesystem::exists(dir.file("e.wav")));
+
+  // A 300 kB CSV whose lines × channels of samples, reserved up front, exceed the budget: a
+  // header of 100 channels, one row, then 300 000 blank lines (each may have been a row).
+  std::string wide = "t";
+  for (int c = 0; c < 100; ++c) wide += ",c" + std::to_string(c);
+  wide += "\n0";
+  for (int c = 0; c < 100; ++c) wide += ",1";
+  wide += "\n" + std::string(300'000, '\n');
+  write_text(dir.file("tall.csv"), wide);
+  const CliRun tall = run_shell(limit + "\"$PF\" info '" + dir.file("tall.csv") + "'");
+  CHECK(tall.exit_code == 2);
+  // 300 002 lines from the data row on × 100 channels × 8 B = 240 MB.
+  CHECK(tall.err == "periodfit: error: " + dir.file("tall.csv") +
+                        ": 300002 lines × 100 channels of samples need about 240 MB, more than the 205 MB memory "
+                        "budget (half of the address-space limit, ulimit -v)\n");
+}

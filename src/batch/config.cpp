@@ -7,6 +7,8 @@
 #include <toml++/toml.h>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
+#include "io/input_limits.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
 
@@ -291,6 +293,13 @@ void AnalyzeSettings::validate() const {
 }
 
 BatchConfig parse_batch_config(std::string_view text, const std::string& source) {
+  // Bounded before toml++ sees the text: it builds (and destroys) nested tables recursively,
+  // one level per dotted-key part, so depth is a stack-size question (io/input_limits.hpp).
+  if (text.size() > io::kMaxTextFileBytes)
+    throw InputError(source, 0, 0,
+                     "larger than the " + format_bytes(static_cast<double>(io::kMaxTextFileBytes)) +
+                         " limit for a config file");
+  io::check_toml_nesting(text, source);
   toml::table root;
   try {
     root = toml::parse(text, source);
@@ -302,7 +311,8 @@ BatchConfig parse_batch_config(std::string_view text, const std::string& source)
 }
 
 BatchConfig load_batch_config(const std::string& path) {
-  return parse_batch_config(io::read_file(path), path);
+  return with_memory_step("reading the config " + path,
+                          [&] { return parse_batch_config(io::read_file(path, io::kMaxTextFileBytes), path); });
 }
 
 void revalidate_limits(BatchConfig& config) {

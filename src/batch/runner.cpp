@@ -18,6 +18,7 @@
 #include "batch/file_analysis.hpp"
 #include "batch/report_folder.hpp"
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
 #include "io/json_writer.hpp"
 #include "io/output_file.hpp"
@@ -129,7 +130,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     if (fs::is_symlink(fs::symlink_status(path, ec)) && !fs::exists(path, ec))
       w.result.error += " (a symbolic link to " + fs::read_symlink(path, ec).string() + ", which does not exist)";
   } catch (const std::bad_alloc&) {
-    w.result.error = "out of memory";
+    w.result.error = OutOfMemoryError("analysing " + path).what();
   } catch (const std::exception& e) {
     w.result.error = std::string("internal error: ") + e.what();
   }

@@ -8,6 +8,7 @@
 
 #include "cli/commands.hpp"
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
 #include "report/safe_text.hpp"
@@ -96,15 +97,20 @@ static int run_main(int argc, char** argv) {
     print_error(message + " (see periodfit --help)");
     return to_int(ExitCode::error);
   }
+  std::string command = "periodfit";
   try {
     for (const auto& [sub, run] : runners)
-      if (sub->parsed()) return run();
+      if (sub->parsed()) {
+        command = sub->get_name();
+        return run();
+      }
     print_error("no command given (see periodfit --help)");
     return to_int(ExitCode::error);
   } catch (const periodfit::Error& e) {
     print_error(e.what());
   } catch (const std::bad_alloc&) {
-    print_error("out of memory");
+    // Library steps that can run out name themselves (with_memory_step); this is the fallback.
+    print_error(periodfit::OutOfMemoryError("running " + command).what());
   } catch (const std::exception& e) {
     print_error(std::string("internal error: ") + e.what());
   }

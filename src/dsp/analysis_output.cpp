@@ -1,6 +1,8 @@
 // JSON, CSV and text renderings of an analysis (see analysis_output.hpp, docs/analyze-json.md).
 #include "dsp/analysis_output.hpp"
 
+#include "core/memory_budget.hpp"
+
 #include <cmath>
 #include <string>
 
@@ -42,7 +44,9 @@ AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::str
     for (const auto& sel : channels) indices.push_back(capture.channel_index(sel));
   }
   for (std::size_t i : indices)
-    r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+    with_memory_step("analysing channel \"" + capture.channels[i].name + "\" of " + capture.source, [&] {
+      r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+    });
   return r;
 }
 

@@ -15,6 +15,7 @@
 #include <vector>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "dsp/fft_plan.hpp"
 #include "io/number_format.hpp"
 
@@ -595,9 +596,10 @@ void validate(const LockOptions& o) {
     throw OptionError("f0_hint_hz", str(o.f0_hint_hz), "must be >= 0; 0 = estimate");
   if (!std::isfinite(o.f0_hz) || o.f0_hz < 0)
     throw OptionError("f0_hz", str(o.f0_hz), "must be >= 0; 0 = estimate");
-  if (o.max_harmonic < 0 || o.max_harmonic > 100000)
+  if (o.max_harmonic < 0 || o.max_harmonic > kMaxHarmonic)
     throw OptionError("max_harmonic", std::to_string(o.max_harmonic),
-                      "must be between 0 (automatic) and 100000");
+                      "must be between 0 (automatic) and " + std::to_string(kMaxHarmonic) +
+                          " (fit time grows as H³; dsp/period_lock.hpp)");
   if (!(o.rel_tolerance > 0 && o.rel_tolerance <= 1e-3))
     throw OptionError("rel_tolerance", str(o.rel_tolerance), "must be > 0 and <= 1e-3");
   if (!std::isfinite(o.f0_start_hz) || o.f0_start_hz < 0)
@@ -873,6 +875,14 @@ PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& 
   if (periods < 1)
     throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
                         " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");
+  // Bounded before allocation (issue 11, class 5): the grid (P·M doubles), one period's model
+  // and the per-period transforms of period_spectra (M complex values), counted as four doubles
+  // per grid sample, a margin for what the caller derives from the grid.
+  const double grid_bytes = 4.0 * 8.0 * static_cast<double>(m) * static_cast<double>(periods);
+  if (const auto over = over_memory_budget(grid_bytes))
+    throw OptionError("samples_per_period", std::to_string(m),
+                      "the locked grid of " + std::to_string(periods) + " periods × " + std::to_string(m) +
+                          " samples needs " + *over);
   PeriodGrid g;
   g.f0_hz = f0;
   g.samples_per_period = m;

@@ -6,6 +6,7 @@
 #include <numbers>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
 #include "io/json_writer.hpp"
@@ -223,7 +224,8 @@ IdentifyResult identify(const Capture& capture, const IdentifyOptions& options) 
   if (iu == iy)
     throw AnalysisError(capture.source + ": input and output are the same channel \"" +
                         capture.channels[iu].name + "\"");
-  return run({&capture, &capture.channels[iu]}, {&capture, &capture.channels[iy]}, options);
+  return with_memory_step("identifying from " + capture.source,
+                          [&] { return run({&capture, &capture.channels[iu]}, {&capture, &capture.channels[iy]}, options); });
 }
 
 IdentifyResult identify(const Capture& input_capture, const Capture& output_capture,

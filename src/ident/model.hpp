@@ -5,10 +5,18 @@
 /// (i = 0…M), A(s) = Σ a_i s^i (i = 0…N) with a_N = 1 (monic). Coefficients are in ascending
 /// powers of s with s in rad/s (SI), whatever scaling the fit used internally.
 #include <complex>
+#include <cstddef>
 #include <string>
 #include <vector>
 
 namespace periodfit::ident {
+
+/// Highest polynomial degree of B(s) or A(s) accepted from a file or the command line. Poles
+/// come from the eigenvalues of A's companion matrix, O(N³) (Golub & Van Loan, Matrix
+/// Computations, §7.5): degree 2000 took over 60 s (issue 11, class 5), degree 100 takes
+/// milliseconds. Coefficients in powers of s are hopelessly ill-conditioned long before
+/// degree 100 (the fit itself stops at 12 for an automatic order), so no real model is refused.
+inline constexpr std::size_t kMaxModelDegree = 100;
 
 struct RationalModel {
   std::vector<double> num;   ///< b_0 … b_M

@@ -8,6 +8,8 @@
 #include <utility>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
+#include "io/input_limits.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/json_writer.hpp"
@@ -175,6 +177,11 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
     if (bracket != std::string::npos) why = why.substr(bracket + 2);
     return why;
   };
+  // Bounded before the recursive reader sees the text: nlohmann::json copies and destroys nested
+  // values recursively, so depth is a stack-size question (input_limits.hpp).
+  if (text.size() > io::kMaxTextFileBytes)
+    rd.fail("larger than the " + format_bytes(static_cast<double>(io::kMaxTextFileBytes)) + " limit for a model file");
+  io::check_json_nesting(text, name);
   try {
     doc = json::parse(text);
   } catch (const json::parse_error& e) {
@@ -225,6 +232,11 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
   RationalModel& m = f.model;
   m.num = rd.numbers(rd.member(model, "num", "model.num"), "model.num");
   m.den = rd.numbers(rd.member(model, "den", "model.den"), "model.den");
+  for (const auto& [coefficients, key] : {std::pair{&m.num, "model.num"}, std::pair{&m.den, "model.den"}})
+    if (coefficients->size() > kMaxModelDegree + 1)
+      rd.fail("\"" + std::string(key) + "\" has " + std::to_string(coefficients->size()) +
+              " coefficients, more than the " + std::to_string(kMaxModelDegree + 1) + " of degree " +
+              std::to_string(kMaxModelDegree) + ", the highest periodfit evaluates (ident/model.hpp)");
   if (m.den.size() < 2) rd.fail("\"model.den\" must have at least 2 coefficients (a0, a1), found 1");
   if (m.den.back() != 1)
     rd.fail("\"model.den\" must be monic (last coefficient 1), found " + io::format_shortest(m.den.back()));
@@ -299,6 +311,9 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
   return f;
 }
 
-ModelFile read_model_file(const std::string& path) { return parse_model_file(io::read_file(path), path); }
+ModelFile read_model_file(const std::string& path) {
+  return with_memory_step("reading the model file " + path,
+                          [&] { return parse_model_file(io::read_file(path, io::kMaxTextFileBytes), path); });
+}
 
 }  // namespace periodfit::ident

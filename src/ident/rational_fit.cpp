@@ -441,6 +441,8 @@ ModelOrder parse_model_order(std::string_view text, std::string_view field) {
   if (slash == std::string_view::npos || !parse_int(text.substr(0, slash), o.num) ||
       !parse_int(text.substr(slash + 1), o.den) || o.num < 0 || o.den < 1)
     throw OptionError(field, text, "must be M/N with M >= 0 and N >= 1, e.g. 1/2");
+  if (static_cast<std::size_t>(o.num) > kMaxModelDegree || static_cast<std::size_t>(o.den) > kMaxModelDegree)
+    throw OptionError(field, text, "degrees must be at most " + std::to_string(kMaxModelDegree) + " (ident/model.hpp)");
   return o;
 }
 

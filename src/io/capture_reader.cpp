@@ -9,6 +9,7 @@
 #include <string_view>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/audio_reader.hpp"
 #include "io/csv_reader.hpp"
 #include "io/number_format.hpp"
@@ -53,6 +54,48 @@ Probe probe(const std::string& path) {
   return p;
 }
 
+// A pipe or device, read whole (what is read from it is gone) up to max_piped_capture_bytes().
+// Capture text never holds a NUL byte, so once the first bytes show no audio magic number a NUL
+// ends the read at once: an endless binary device (/dev/zero, /dev/urandom) is refused in
+// microseconds instead of after gigabytes (issue 11, class 5).
+std::string read_piped(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) throw IoError(path, "cannot open", errno);
+  const std::size_t limit = max_piped_capture_bytes();
+  std::string bytes;
+  char buffer[1 << 16];
+  bool text = false;  // decided once 16 bytes (the longest magic number looked at) have arrived
+  for (;;) {
+    const ssize_t n = ::read(fd, buffer, sizeof buffer);
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      const int read_errno = errno;
+      ::close(fd);
+      throw IoError(path, "cannot read", read_errno);
+    }
+    if (n == 0) break;
+    const std::size_t before = bytes.size();
+    if (static_cast<std::size_t>(n) > limit - before) {
+      ::close(fd);
+      throw InputError(path, 0, 0,
+                       "larger than the " + format_bytes(static_cast<double>(limit)) + " limit for this input");
+    }
+    bytes.append(buffer, static_cast<std::size_t>(n));
+    if (!text && bytes.size() >= 16) text = !looks_like_audio(std::string_view(bytes).substr(0, 16), path);
+    if (text) {
+      const std::size_t from = before >= 16 ? before : 0;
+      if (const auto nul = bytes.find('\0', from); nul != std::string::npos) {
+        ::close(fd);
+        throw InputError(path, 0, 0,
+                         "holds a NUL byte at byte " + std::to_string(nul) +
+                             ": neither CSV text nor an audio format periodfit reads");
+      }
+    }
+  }
+  ::close(fd);
+  return bytes;
+}
+
 void validate(const ReadOptions& options) {
   if (!std::isfinite(options.rate_hz) || options.rate_hz < 0)
     throw OptionError("rate_hz", format_shortest(options.rate_hz),
@@ -86,11 +129,12 @@ void apply_read_options(Capture& capture, const ReadOptions& options) {
   for (std::size_t i = 0; i < united.size(); ++i) capture.channels[united[i]].unit = options.units[i].second;
 }
 
-Capture read_capture(const std::string& path, const ReadOptions& options) {
+namespace {
+Capture read_capture_unguarded(const std::string& path, const ReadOptions& options) {
   validate(options);
   const Probe p = probe(path);
   // A pipe or device is read whole, once; a regular file is streamed by its reader.
-  const std::string bytes = p.regular ? std::string() : read_file(path);
+  const std::string bytes = p.regular ? std::string() : read_piped(path);
   const std::string_view head = p.regular ? std::string_view(p.head) : std::string_view(bytes).substr(0, 16);
   Capture capture;
   if (looks_like_audio(head, path)) {
@@ -109,6 +153,12 @@ Capture read_capture(const std::string& path, const ReadOptions& options) {
     throw InputError(path, 0, 0, e.what());
   }
   return capture;
+}
+
+}  // namespace
+
+Capture read_capture(const std::string& path, const ReadOptions& options) {
+  return with_memory_step("reading " + path, [&] { return read_capture_unguarded(path, options); });
 }
 
 }  // namespace periodfit::io

@@ -22,6 +22,7 @@
 #include <unordered_set>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
 
@@ -51,6 +52,14 @@ constexpr std::size_t kSampleBytes = 1 << 20;
 constexpr std::size_t kConfirmLines = 8;
 // Without a header, a first column is time only if it increases uniformly over these rows.
 constexpr std::size_t kTimeHeuristicRows = 64;
+// Most columns a capture may have: ten times the 10^5 columns the catalogue imports
+// (docs/robustness.md, entry 14), while every column costs ~230 B of bookkeeping (name, unit, a
+// field per dialect tried, a channel) before its first sample: a one-row file of 5·10^6 columns
+// took 1.15 GB before this bound (issue 11, class 5); 2^20 columns cost ~250 MB. Checked while
+// a line is split, so a wider line is refused before its fields are held.
+constexpr std::size_t kMaxColumns = std::size_t{1} << 20;
+// Thrown by split_fields past kMaxColumns; turned into an InputError naming the line.
+struct TooManyFields {};
 // Mapped pages behind the parse are released in steps of this size (bounded RSS).
 constexpr std::size_t kReleaseBytes = std::size_t{8} << 20;
 
@@ -321,6 +330,7 @@ bool split_fields(std::string_view s, const Dialect& d, std::vector<Field>& out)
       i = j;
     }
     out.push_back(std::move(f));
+    if (out.size() > kMaxColumns) throw TooManyFields{};
     if (runs) continue;
     if (i >= n) break;
     ++i;  // the delimiter
@@ -891,6 +901,10 @@ Capture Parser::run() {
   std::size_t channels = 0;
   for (const auto& c : columns_)
     if (c.channel >= 0) ++channels;
+  // Every line left may be a row: the samples reserved below are that bound times the channels.
+  if (const auto over = over_memory_budget(static_cast<double>(rows_bound) * static_cast<double>(channels) * 8.0))
+    fail(0, 0,
+         std::to_string(rows_bound) + " lines × " + std::to_string(channels) + " channels of samples need " + *over);
   capture_.channels.resize(channels);
   for (const auto& c : columns_) {
     if (c.channel < 0) continue;
@@ -1174,9 +1188,32 @@ class MappedFile {
 
 }  // namespace
 
+// Runs the parser; a line split into more than kMaxColumns fields becomes an InputError at the
+// first line that holds that many separators of one kind.
+Capture run_bounded(std::string_view text, std::string_view name, const CsvOptions& options, const Release& release) {
+  try {
+    return Parser(text, name, options, release).run();
+  } catch (const TooManyFields&) {
+    std::size_t line = 1;
+    for (std::size_t at = 0; at < text.size();) {
+      const std::size_t end = std::min(text.find('\n', at), text.size());
+      const std::string_view row = text.substr(at, end - at);
+      for (const char separator : {',', ';', '\t', ' '})
+        if (static_cast<std::size_t>(std::count(row.begin(), row.end(), separator)) >= kMaxColumns)
+          throw InputError(std::string(name), line, 0,
+                           "more than " + std::to_string(kMaxColumns) +
+                               " columns (the most periodfit reads; io/csv_reader.cpp)");
+      at = end + 1;
+      ++line;
+    }
+    throw InputError(std::string(name), 0, 0,
+                     "a line has more than " + std::to_string(kMaxColumns) + " columns (the most periodfit reads)");
+  }
+}
+
 Capture parse_csv(std::string_view text, std::string_view name, const CsvOptions& options) {
   const Release none;
-  return Parser(text, name, options, none).run();
+  return run_bounded(text, name, options, none);
 }
 
 Capture read_csv(const std::string& path, const CsvOptions& options) {
@@ -1195,7 +1232,7 @@ Capture read_csv(const std::string& path, const CsvOptions& options) {
   if (!S_ISREG(info.st_mode) || info.st_size == 0) {
     // Pipes and devices have no size to map; an empty file has nothing to map.
     ::close(fd);
-    const std::string bytes = read_file(path);
+    const std::string bytes = read_file(path, max_piped_capture_bytes());
     return parse_csv(bytes, path, options);
   }
   const auto size = static_cast<std::size_t>(info.st_size);
@@ -1216,7 +1253,7 @@ Capture read_csv(const std::string& path, const CsvOptions& options) {
                                       std::to_string(size) + " bytes when opened); read it again once it is complete");
   };
   try {
-    Capture capture = Parser(file.text(), path, options, release).run();
+    Capture capture = run_bounded(file.text(), path, options, release);
     if (file.truncated()) throw truncated_error();
     return capture;
   } catch (const Error&) {

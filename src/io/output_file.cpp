@@ -10,10 +10,12 @@
 #include <cerrno>
 #include <csignal>
 #include <cstdio>
+#include <cstdint>
 #include <cstring>
 #include <filesystem>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 
 namespace periodfit::io {
 
@@ -273,7 +275,7 @@ void install_interrupt_cleanup() {
   }
 }
 
-std::string read_file(const std::string& path) {
+std::string read_file(const std::string& path, std::size_t max_bytes) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) throw IoError(path, "cannot open", errno);
   struct stat info {};
@@ -281,7 +283,13 @@ std::string read_file(const std::string& path) {
     ::close(fd);
     throw IoError(path, "cannot read", EISDIR);
   }
+  const auto too_large = [&] {
+    ::close(fd);
+    throw InputError(path, 0, 0,
+                     "larger than the " + format_bytes(static_cast<double>(max_bytes)) + " limit for this input");
+  };
   std::string bytes;
+  if (info.st_size > 0 && static_cast<std::uint64_t>(info.st_size) > max_bytes) too_large();
   if (info.st_size > 0) bytes.reserve(static_cast<std::size_t>(info.st_size));
   char buffer[1 << 16];
   for (;;) {
@@ -293,6 +301,7 @@ std::string read_file(const std::string& path) {
       throw IoError(path, "cannot read", read_errno);
     }
     if (n == 0) break;
+    if (static_cast<std::size_t>(n) > max_bytes - bytes.size()) too_large();
     bytes.append(buffer, static_cast<std::size_t>(n));
   }
   ::close(fd);

@@ -20,6 +20,8 @@
 #include <string>
 #include <string_view>
 
+#include "io/input_limits.hpp"
+
 namespace periodfit::io {
 
 /// How an output path is written, decided from what it is now (see the header comment).
@@ -104,6 +106,8 @@ void write_file_atomic(const std::string& path, std::string_view content);
 void install_interrupt_cleanup();
 
 /// Whole file as bytes; IoError names the path and reason (missing, a directory, permission).
-std::string read_file(const std::string& path);
+/// More than `max_bytes` (a pipe or device never ends: /dev/zero) is an InputError naming the
+/// path and the limit, raised before the excess is held in memory.
+std::string read_file(const std::string& path, std::size_t max_bytes = kMaxTextFileBytes);
 
 }  // namespace periodfit::io

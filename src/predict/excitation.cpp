@@ -9,6 +9,7 @@
 #include <set>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "dsp/fft_plan.hpp"
 #include "io/audio_writer.hpp"
 #include "io/number_format.hpp"
@@ -173,6 +174,12 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
     throw OptionError("f0_hz", num(o.f0_hz), "must be at most half the sample rate (" + num(o.rate_hz) + " Hz)");
   if (m_real > kMaxFileSamples)
     throw OptionError("f0_hz", num(o.f0_hz), "gives more than 1e9 samples per period at " + num(o.rate_hz) + " Hz");
+  // One period is built in memory (the unit-scale period, its complex spectrum and a scaled
+  // copy: counted as 32 B per sample) before the file repeats it; bounded against the memory
+  // budget before allocation (issue 11, class 5).
+  if (const auto over = over_memory_budget(32.0 * m_real))
+    throw OptionError("rate_hz", num(o.rate_hz),
+                      "one period of " + num(m_real) + " samples at f0 = " + num(o.f0_hz) + " Hz needs " + *over);
   const int m = static_cast<int>(m_real);
   r.samples_per_period = m;
   if (std::abs(ratio - m_real) <= kWholeRelative * m_real) {

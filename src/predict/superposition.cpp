@@ -8,6 +8,7 @@
 #include <numbers>
 
 #include "core/error.hpp"
+#include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
 #include "io/json_writer.hpp"
@@ -23,6 +24,9 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kMarginalPoleRelative = 1e-12;
 /// rate/f0 within this relative distance of an integer M counts as M samples per period.
 constexpr double kIntegerRateRelative = 1e-9;
+// Memory per predicted sample: value and uncertainty (16 B) plus its CSV line, three shortest
+// round-trip doubles with separators (≤ 3·24 B); counted against core/memory_budget.hpp.
+constexpr double kBytesPerPredictedSample = 16 + 72;
 /// Ripple grid: at least this many points per period of the highest output harmonic.
 constexpr int kDensePointsPerHighestHarmonic = 8;
 constexpr int kDenseMaxPoints = 1 << 22;
@@ -148,6 +152,11 @@ ident::RationalModel model_from_coefficients(std::vector<double> num_c, std::vec
                       "the highest-power coefficient a" + std::to_string(den_c.size() - 1) +
                           " must be nonzero; drop trailing zeros to lower the order");
   if (!(std::isfinite(delay_s) && delay_s >= 0)) throw OptionError("delay_s", num(delay_s), "must be >= 0");
+  for (const auto& [coefficients, field] : {std::pair{&num_c, "num"}, std::pair{&den_c, "den"}})
+    if (coefficients->size() > ident::kMaxModelDegree + 1)
+      throw OptionError(field, std::to_string(coefficients->size()) + " coefficients",
+                        "at most " + std::to_string(ident::kMaxModelDegree + 1) + " (degree " +
+                            std::to_string(ident::kMaxModelDegree) + ", the highest periodfit evaluates)");
   ident::RationalModel m;
   for (double& v : num_c) v /= lead;
   for (double& v : den_c) v /= lead;
@@ -424,7 +433,15 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
   const bool folded = m_round >= 1 && std::abs(per_period - m_round) <= kIntegerRateRelative * per_period &&
                       m_round * options.periods <= 1e9;
   std::size_t count = 0;
+  // Bounded before allocation (issue 11, class 5).
+  const auto check_samples = [&](double samples) {
+    if (const auto over = over_memory_budget(samples * kBytesPerPredictedSample))
+      throw OptionError(options.rate_hz > 0 ? "rate_hz" : "periods",
+                        options.rate_hz > 0 ? num(rate) : std::to_string(options.periods),
+                        io::format_significant(samples, 3) + " samples need " + *over);
+  };
   if (folded) {
+    check_samples(m_round * options.periods);
     const auto m = static_cast<std::size_t>(m_round);
     count = m * static_cast<std::size_t>(options.periods);
     r.sampling_method = "folded-dft";
@@ -459,6 +476,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
       for (std::size_t k = 0; k < count; ++k) r.value_u[k] = std::sqrt(std::max(0.0, var[k % m]));
     }
   } else {
+    check_samples(std::ceil(options.periods * per_period - 1e-9));
     count = static_cast<std::size_t>(std::ceil(options.periods * per_period - 1e-9));
     const double work = static_cast<double>(count) * static_cast<double>(terms.size() + 1) *
                         static_cast<double>(1 + (r.has_uncertainty ? params + 1 : 0));
@@ -485,7 +503,8 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
                                    const PredictOptions& options) {
   options.validate();
   const dsp::SeriesTruncation input = dsp::truncate_series(wave, options.truncation);
-  PredictResult r = predict_steady_state(input, system, options);
+  PredictResult r = with_memory_step("predicting the steady-state output",
+                                     [&] { return predict_steady_state(input, system, options); });
   const ident::RationalModel* model =
       system.model && !system.model->den.empty() ? &*system.model : nullptr;
   bool tail_diverges = false;

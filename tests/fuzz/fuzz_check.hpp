@@ -7,6 +7,7 @@
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
+#include <string>
 #include <string_view>
 
 #include "core/capture.hpp"
@@ -31,6 +32,35 @@ inline void check_capture(const Capture& c) {
     for (double v : ch.samples)
       if (!std::isfinite(v)) __builtin_trap();
   }
+}
+
+/// Structure-aware nesting mode (issue 11, class 1): an input that starts with byte 0x01 is
+/// `0x01, d_hi, d_lo, shape, payload…`. The target wraps the payload in depth = d_hi·256 + d_lo
+/// levels of the shape it chooses, so libFuzzer explores depths from 0 to 65 535 around any
+/// payload (random bytes alone would rarely nest more than a few levels).
+struct Nested {
+  bool active = false;
+  std::size_t depth = 0;
+  std::uint8_t shape = 0;
+  std::string_view payload;
+};
+inline Nested nested_mode(const std::uint8_t* data, std::size_t size) {
+  Nested n;
+  if (size < 4 || data[0] != 0x01) return n;
+  n.active = true;
+  n.depth = std::size_t{data[1]} << 8 | data[2];
+  n.shape = data[3];
+  n.payload = as_text(data + 4, size - 4);
+  return n;
+}
+/// `open` repeated depth times, the payload, then `close` repeated depth times.
+inline std::string wrap(std::size_t depth, std::string_view open, std::string_view payload, std::string_view close) {
+  std::string text;
+  text.reserve(depth * (open.size() + close.size()) + payload.size());
+  for (std::size_t i = 0; i < depth; ++i) text += open;
+  text += payload;
+  for (std::size_t i = 0; i < depth; ++i) text += close;
+  return text;
 }
 
 }  // namespace periodfit::fuzz
