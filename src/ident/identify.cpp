@@ -107,7 +107,12 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     return dsp::period_spectra(lock_grid(y_samples, fit_y), harmonics);
   });
   const dsp::PeriodSpectra su = dsp::period_spectra(lock_grid(in.channel->samples, fit_u), harmonics);
-  const dsp::PeriodSpectra sy = output_spectra.get();
+  dsp::PeriodSpectra sy;
+  try {
+    sy = output_spectra.get();
+  } catch (const AnalysisError& e) {
+    throw AnalysisError(out.capture->source + ": output channel \"" + out.channel->name + "\": " + e.what());
+  }
   try {
     r.frf = compute_frf(su, sy, options.frf);
   } catch (const AnalysisError& e) {

@@ -11,7 +11,9 @@
 #include <cerrno>
 #include <cstdint>
 #include <cstring>
+#include <cstdio>
 #include <functional>
+#include <limits>
 #include <memory>
 #include <optional>
 
@@ -66,6 +68,32 @@ constexpr unsigned char kW64Data[16] = {'d', 'a', 't', 'a', 0xF3, 0xAC, 0xD3, 0x
 // RIFF/RIFX/RF64/BW64 (WAV), FORM (AIFF/AIFC) and W64: walks the chunks up to the sample
 // data and compares the declared data size with what the file holds. nullopt = consistent or
 // a container this walk does not know (libsndfile then judges it alone).
+/// The IEEE 754 80-bit extended value AIFF stores its sample rate in (AIFF 1.3, COMM chunk):
+/// sign and 15-bit exponent (bias 16383), then a 64-bit mantissa with an explicit integer bit.
+/// NaN for the all-ones exponent (inf and NaN both), so the caller refuses it.
+double extended80(const unsigned char* p) {
+  const int sign_exp = static_cast<int>(be(p, 2));
+  const int exponent = sign_exp & 0x7FFF;
+  const std::uint64_t mantissa = be(p + 2, 8);
+  if (exponent == 0x7FFF) return std::numeric_limits<double>::quiet_NaN();
+  const double magnitude = std::ldexp(static_cast<double>(mantissa), exponent - 16383 - 63);
+  return (sign_exp & 0x8000) ? -magnitude : magnitude;
+}
+
+/// The sample rate an AIFF's COMM chunk states, when it is not a positive finite number of
+/// hertz that libsndfile's conversion to an integer keeps (libsndfile would otherwise analyse
+/// the file at a rate it made up, issue 11 class 7).
+std::optional<std::string> aiff_rate_problem(double rate) {
+  if (std::isfinite(rate) && rate >= 1 && rate <= 2147483647.0) return std::nullopt;
+  std::string text = std::isnan(rate) ? "not a number" : std::isinf(rate) ? "infinite" : [&] {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%.6g Hz", rate);
+    return std::string(buf);
+  }();
+  return "the AIFF header's sample rate is " + text +
+         " (must be a finite rate of at least 1 Hz): the header is corrupt";
+}
+
 std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& read) {
   unsigned char head[16] = {};
   if (size < 16 || !read(0, head, 16)) {
@@ -122,6 +150,11 @@ std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& r
       const std::uint64_t held = size - (pos + 8);
       if (declared > held) return cut_in_data(declared, held);
       return std::nullopt;
+    }
+    if (aiff && id == "COMM") {
+      unsigned char comm[18];
+      if (chunk < 18 || pos + 26 > size || !read(pos + 8, comm, 18)) return cut_in_header(size);
+      if (auto problem = aiff_rate_problem(extended80(comm + 8))) return problem;
     }
     if (aiff && id == "SSND") {
       const std::uint64_t held = size - (pos + 8);
