@@ -270,7 +270,7 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
                    dir.file("fast.csv") + ")");
   // 3 harmonics (1, 3, 5) excited; 3/4 has 8 parameters: 2K ≥ 9 needs K ≥ 5.
   expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --harmonics 5 --order 3/4",
-               "model order 3/4 needs at least 5 excited harmonics; the input excites 3 (n = 1, 3, 5)");
+               dir.file("rc.csv") + ": model order 3/4 needs at least 5 excited harmonics; the input excites 3 (n = 1, 3, 5)");
   expect_error("identify " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
                "invalid option: --save-model = " + dir.file("m.json") + " (needs a model: give --order M/N or --order auto)");
   expect_error("identify " + rc + " --input v_in --output v_ot",

@@ -384,7 +384,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
     two[2] = cd(0, 0.2);
     const auto x2 = synthesise(two, 1e-4, rng);
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(x2, x2, "two.csv"), o),
-                         "model order 2/3 needs at least 4 excited harmonics; the input excites 2 (n = 1, 2)",
+                         "two.csv: model order 2/3 needs at least 4 excited harmonics; the input excites 2 (n = 1, 2)",
                          AnalysisError);
   }
   SUBCASE("unknown channel") {

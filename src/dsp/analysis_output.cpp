@@ -50,8 +50,15 @@ AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::str
   } else {
     for (const auto& sel : channels) indices.push_back(capture.channel_index(sel));
   }
-  for (std::size_t i : indices)
-    r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+  // analyze_channel names the channel; the file is named here, so every analysis error says
+  // where the data came from (issue 11, class 10).
+  for (std::size_t i : indices) {
+    try {
+      r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+    } catch (const AnalysisError& e) {
+      throw AnalysisError(capture.source + ": " + e.what());
+    }
+  }
   return r;
 }
 

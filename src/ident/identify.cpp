@@ -116,7 +116,11 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   try {
     r.frf = compute_frf(su, sy, options.frf);
   } catch (const AnalysisError& e) {
-    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
+    const std::string output_name = out.capture->source == ci.source
+                                        ? "\"" + out.channel->name + "\""
+                                        : "\"" + out.channel->name + "\" of " + out.capture->source;
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\", output channel " +
+                        output_name + ": " + e.what());
   }
   r.linearity = check_linearity(r.frf, sy, options.linearity);
   for (const auto& f : r.frf.flags) r.flags.push_back(f);
@@ -133,12 +137,16 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     if (have < needed) {
       std::vector<int> ns;
       for (const auto& p : r.frf.points) ns.push_back(p.n);
-      throw AnalysisError("model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
+      throw AnalysisError(ci.source + ": model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
                           (fit.estimate_delay ? " with delay" : "") + " needs at least " +
                           std::to_string(needed) + " excited harmonics; the input excites " +
                           std::to_string(have) + " (n = " + list_harmonics(ns) + ")");
     }
-    r.model = fit_rational(fit_points(r.frf), fit);
+    try {
+      r.model = fit_rational(fit_points(r.frf), fit);
+    } catch (const AnalysisError& e) {
+      throw AnalysisError(ci.source + ": model fit: " + e.what());
+    }
     r.model_confidence = fit.confidence;
     if (!r.model->adequate) {
       r.flags.push_back("model-inadequate");
