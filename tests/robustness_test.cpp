@@ -618,3 +618,57 @@ TEST_CASE("robustness: every kept fuzz input (tests/regressions/) is a result or
   }
   MESSAGE("replayed " << replayed << " fuzz-found inputs from tests/regressions/");
 }
+
+// ---- issue 11, class 7: invented numbers at the edges of the number range ------------------
+
+TEST_CASE("robustness: a sub-normal time step is refused, never analysed at an infinite rate") {
+  TempDir dir("rob_subnormal_dt");
+  // 4.94e-324 is the smallest sub-normal double (IEEE 754 binary64): 1/Δt overflows to inf.
+  std::string text = "time,v\n";
+  for (int k = 0; k < 64; ++k) text += std::to_string(k) + "e-324," + std::to_string(std::sin(k * 0.3)) + "\n";
+  write_text(dir.file("tiny.csv"), text);
+  const CliRun r = run_cli("analyze '" + dir.file("tiny.csv") + "'");
+  CHECK(r.exit_code == 2);
+  CHECK_MESSAGE(r.err.find("the sample rate works out to") != std::string::npos, describe(r));
+  CHECK(r.out.empty());
+}
+
+TEST_CASE("robustness: a --scale that overflows a sample is refused, not read as inf") {
+  TempDir dir("rob_scale_overflow");
+  write_text(dir.file("c.csv"), capture_csv(1000, {synthesize(Signal{}, 1000, 200)}));
+  const CliRun r = run_cli("info '" + dir.file("c.csv") + "' --scale ch0=1e308");
+  CHECK(r.exit_code == 2);
+  CHECK_MESSAGE(r.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(r));
+}
+
+TEST_CASE("robustness: predict refuses outputs beyond the double range and uncountable sample counts") {
+  const CliRun big = run_cli("predict --num 1000 --den 1000,1 --wave sine --amplitude 1e308 --f0 10 --json -");
+  CHECK(big.exit_code == 2);
+  CHECK_MESSAGE(big.out.find("inf") == std::string::npos, big.out);
+  CHECK_MESSAGE(big.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(big));
+  // 1e154 is within range and its square is not: rms = A/√2 (closed form for a sine) is finite.
+  const CliRun ok = run_cli("predict --num 1 --den 1 --wave sine --amplitude 1e200 --f0 10 --json -");
+  CHECK_MESSAGE(ok.exit_code == 0, describe(ok));
+  const json j = json::parse(ok.out, nullptr, false);
+  CHECK_MESSAGE(all_numbers_finite(j), ok.out.substr(0, 400));
+  const CliRun fast = run_cli("predict --num 1 --den 1 --wave sine --amplitude 1 --f0 10 --rate 1e21 --csv -");
+  CHECK(fast.exit_code == 2);
+  CHECK(fast.out.empty());
+  CHECK_MESSAGE(fast.err.find("choose a lower rate or fewer periods") != std::string::npos, describe(fast));
+}
+
+TEST_CASE("robustness: identify refuses a skew longer than the record") {
+  TempDir dir("rob_skew");
+  Signal u;
+  u.f0_hz = 50;
+  u.amplitudes = {1, 0.5, 0.25};
+  u.noise_rms = 1e-3;
+  Signal y = u;
+  y.seed = 2;
+  write_text(dir.file("io.csv"), capture_csv(5000, {synthesize(u, 5000, 2000), synthesize(y, 5000, 2000)}));
+  const CliRun r = run_cli("identify '" + dir.file("io.csv") + "' --input ch0 --output ch1 --skew 1e300");
+  CHECK(r.exit_code == 2);
+  CHECK_MESSAGE(r.err.find("invalid option: skew_s = 1e+300 (must not exceed the record's length") !=
+                    std::string::npos,
+                describe(r));
+}

@@ -4,6 +4,7 @@
 #include <cmath>
 #include <string>
 
+#include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
 #include "io/json_writer.hpp"
