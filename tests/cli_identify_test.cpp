@@ -282,7 +282,7 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
   for (std::size_t k = 0; k < clean.y.size(); ++k) clean.y[k] = 2 * clean.u[k];
   write_text(dir.file("gain.csv"), csv({&clean.u, &clean.y}, {"v_in", "v_out"}));
   expect_error("identify " + q(dir.file("gain.csv")) + " --input v_in --output v_out --f0-hint 50 --order 1/1",
-               "the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data cannot "
+               dir.file("gain.csv") + ": model fit: the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data cannot "
                "determine this many coefficients; lower the order)");
   CHECK_FALSE(std::filesystem::exists(dir.file("m.json")));
 }

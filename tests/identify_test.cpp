@@ -418,7 +418,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
     for (auto& v : y_clean) v *= 2;
     o.order = "1/1";
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(clean, y_clean, "gain.csv"), o),
-                         "the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data "
+                         "gain.csv: model fit: the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data "
                          "cannot determine this many coefficients; lower the order)",
                          AnalysisError);
   }
@@ -524,8 +524,9 @@ TEST_CASE("identify: a constant, zero or noise-only output is refused as carryin
   const std::vector<double> zero(x.size(), 0.0);
   std::normal_distribution<double> noise(0.0, 1e-3);
   std::vector<double> noisy(x.size());
+  const std::vector<const std::vector<double>*> outputs = {&constant, &zero, &noisy};
   for (double& v : noisy) v = 0.5 + noise(rng);
-  for (const auto* y : {&constant, &zero, &noisy}) {
+  for (const auto* y : outputs) {
     CAPTURE((*y)[0]);
     try {
       const auto r = ident::identify(two_channel(x, *y, "dead.csv"), o);

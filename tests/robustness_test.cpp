@@ -623,9 +623,16 @@ TEST_CASE("robustness: every kept fuzz input (tests/regressions/) is a result or
 
 TEST_CASE("robustness: a sub-normal time step is refused, never analysed at an infinite rate") {
   TempDir dir("rob_subnormal_dt");
-  // 4.94e-324 is the smallest sub-normal double (IEEE 754 binary64): 1/Δt overflows to inf.
+  // Times from the smallest normal double 2^-1022 in steps of the smallest sub-normal 2^-1074
+  // (IEEE 754 binary64): every time is a normal number, the step is sub-normal, and the rate
+  // (N − 1)/(t_last − t_0) overflows to inf.
   std::string text = "time,v\n";
-  for (int k = 0; k < 64; ++k) text += std::to_string(k) + "e-324," + std::to_string(std::sin(k * 0.3)) + "\n";
+  char buf[64];
+  for (int k = 0; k < 64; ++k) {
+    std::snprintf(buf, sizeof buf, "%.17g,%.6f\n",
+                  DBL_MIN + k * std::numeric_limits<double>::denorm_min(), std::sin(k * 0.3));
+    text += buf;
+  }
   write_text(dir.file("tiny.csv"), text);
   const CliRun r = run_cli("analyze '" + dir.file("tiny.csv") + "'");
   CHECK(r.exit_code == 2);
@@ -635,7 +642,9 @@ TEST_CASE("robustness: a sub-normal time step is refused, never analysed at an i
 
 TEST_CASE("robustness: a --scale that overflows a sample is refused, not read as inf") {
   TempDir dir("rob_scale_overflow");
-  write_text(dir.file("c.csv"), capture_csv(1000, {synthesize(Signal{}, 1000, 200)}));
+  Signal s;
+  s.amplitudes = {10};  // 10·1e308 overflows
+  write_text(dir.file("c.csv"), capture_csv(1000, {synthesize(s, 1000, 200)}));
   const CliRun r = run_cli("info '" + dir.file("c.csv") + "' --scale ch0=1e308");
   CHECK(r.exit_code == 2);
   CHECK_MESSAGE(r.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(r));

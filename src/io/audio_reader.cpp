@@ -167,10 +167,12 @@ std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& r
       // At the end of the file that costs nothing; before another chunk it shifts every later
       // chunk by one byte, which must be said as such, not as a cut file.
       const std::uint64_t unpadded = pos + 8 + chunk;
-      unsigned char id_at[4];
+      // A plausible chunk header: a printable four-character code and a size within the file.
+      unsigned char at_head[8];
       const auto fourcc = [&](std::uint64_t at) {
-        if (at + 4 > size || !read(at, id_at, 4)) return false;
-        return std::all_of(id_at, id_at + 4, [](unsigned char c) { return c >= 0x20 && c <= 0x7E; });
+        if (at + 8 > size || !read(at, at_head, 8)) return false;
+        return std::all_of(at_head, at_head + 4, [](unsigned char c) { return c >= 0x20 && c <= 0x7E; }) &&
+               (u32(at_head + 4) <= size - (at + 8) || u32(at_head + 4) == 0xFFFFFFFFu);
       };
       const std::string what = "odd-sized chunk without its pad byte: the \"" + std::string(id) +
                                "\" chunk at byte " + std::to_string(pos) + " holds " +
