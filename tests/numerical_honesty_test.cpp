@@ -340,3 +340,60 @@ TEST_CASE("honesty: analyze results are invariant to the amplitude unit from 1e-
     }
   }
 }
+
+#include "ident/identify.hpp"
+
+TEST_CASE("honesty: identify results are invariant to the channels' units from 1e-160 to 1e150") {
+  Signal u;
+  u.f0_hz = 50;
+  u.amplitudes = {1, 0.5, 0.3, 0.2};
+  u.phases_deg = {0, -40, 75, 130};
+  u.noise_rms = 1e-3;
+  Signal y = u;
+  y.amplitudes = {0.5, 0.2, 0.1, 0.05};
+  y.phases_deg = {-10, -60, 40, 80};
+  y.seed = 2;
+  const double fs = 5000;
+  const std::vector<double> xu = synthesize(u, fs, 2000), xy = synthesize(y, fs, 2000);
+  periodfit::ident::IdentifyOptions o;
+  o.input_channel = "u";
+  o.output_channel = "y";
+  o.max_harmonic = 4;
+  const auto identify = [&](double su, double sy) {
+    periodfit::Capture c;
+    c.source = "scaled.csv";
+    c.format = "test";
+    c.sample_rate_hz = fs;
+    c.channels = {{"u", "V", {}}, {"y", "A", {}}};
+    for (double v : xu) c.channels[0].samples.push_back(v * su);
+    for (double v : xy) c.channels[1].samples.push_back(v * sy);
+    return periodfit::ident::identify(c, o);
+  };
+  const periodfit::ident::IdentifyResult ref = identify(1, 1);
+  REQUIRE(ref.frf.points.size() == 4);
+  // Input and output in units up to 1e160 apart; H = Y/U itself must stay where its variance
+  // (|H|²·relative u², ~1e-9 here) is a normal double, so |H| within about 1e±140.
+  const std::pair<double, double> scales[] = {{1e-160, 1e-160}, {1e150, 1e150}, {1e100, 1e20}, {1e-160, 1e-100}};
+  for (const auto& scale : scales) {
+    const double su = scale.first, sy = scale.second;
+    CAPTURE(su);
+    CAPTURE(sy);
+    const periodfit::ident::IdentifyResult r = identify(su, sy);
+    CHECK(relatively_close(r.fundamental.f0_hz, ref.fundamental.f0_hz, kUnitInvariance));
+    CHECK(r.fundamental.f0_u_hz > 0);
+    CHECK(relatively_close(r.fundamental.f0_u_hz, ref.fundamental.f0_u_hz, kUnitInvariance));
+    REQUIRE(r.frf.points.size() == ref.frf.points.size());
+    const double gain = sy / su;  // H = Y/U in the new units
+    for (std::size_t k = 0; k < r.frf.points.size(); ++k) {
+      CAPTURE(k);
+      const auto& p = r.frf.points[k];
+      const auto& q = ref.frf.points[k];
+      CHECK(relatively_close(p.mag / gain, q.mag, kUnitInvariance));
+      CHECK(p.mag_u > 0);
+      CHECK(relatively_close(p.mag_u / gain, q.mag_u, kUnitInvariance));
+      CHECK(std::abs(p.phase_deg - q.phase_deg) <= kUnitInvariancePhaseDeg);
+      CHECK(relatively_close(p.phase_u_deg, q.phase_u_deg, kUnitInvariance));
+      CHECK(relatively_close(p.input_snr_db, q.input_snr_db, kUnitInvariance));
+    }
+  }
+}

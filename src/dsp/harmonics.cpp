@@ -138,8 +138,13 @@ ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
                                 const AnalyzeOptions& options) {
   validate(options);
   double peak = 0;
-  for (double v : channel.samples) peak = std::max(peak, std::abs(v));
-  if (!(peak > 0) || !std::isfinite(peak)) return analyze_unit_scaled(channel, fs, t0, options);
+  bool constant = true;
+  for (double v : channel.samples) {
+    peak = std::max(peak, std::abs(v));
+    constant = constant && v == channel.samples.front();
+  }
+  // A constant channel is refused by the fit quoting its value, which must be the file's.
+  if (!(peak > 0) || !std::isfinite(peak) || constant) return analyze_unit_scaled(channel, fs, t0, options);
   const int exponent = std::ilogb(peak) + 1;  // peak·2^-exponent in [0.5, 1)
   if (exponent == 0) return analyze_unit_scaled(channel, fs, t0, options);
   Channel scaled{channel.name, channel.unit, {}};
