@@ -222,3 +222,125 @@ TEST_CASE("audio: parse_audio decodes bytes in memory like a file") {
                        "the file holds 15)",
                        InputError);
 }
+
+// ---- issue 11, classes 7 and 10: rates that are no rates, odd chunks, BW64 ---------------------
+
+namespace {
+
+void put_le32(std::string& s, std::uint32_t v) {
+  for (int i = 0; i < 4; ++i) s += static_cast<char>((v >> (8 * i)) & 0xFF);
+}
+void put_be32(std::string& s, std::uint32_t v) {
+  for (int i = 3; i >= 0; --i) s += static_cast<char>((v >> (8 * i)) & 0xFF);
+}
+
+/// A mono 16-bit AIFF of 4 frames whose COMM chunk states `rate80` (10 bytes, 80-bit extended).
+std::string aiff_with_rate(const std::string& rate80) {
+  std::string comm = "COMM";
+  put_be32(comm, 18);
+  comm += std::string("\x00\x01", 2);  // channels
+  put_be32(comm, 4);                   // frames
+  comm += std::string("\x00\x10", 2);  // 16 bits
+  comm += rate80;
+  std::string ssnd = "SSND";
+  put_be32(ssnd, 8 + 8);
+  ssnd += std::string(8, '\0');  // offset, block size
+  ssnd += std::string("\x10\x00\xF0\x00\x10\x00\xF0\x00", 8);
+  std::string body = "AIFF" + comm + ssnd;
+  std::string file = "FORM";
+  put_be32(file, static_cast<std::uint32_t>(body.size()));
+  return file + body;
+}
+
+/// A mono 16-bit RIFF WAV at 8000 Hz with `extra` chunks between fmt and data, 4 samples.
+std::string wav_with(const std::string& extra, const std::string& marker = "RIFF") {
+  std::string fmt = "fmt ";
+  put_le32(fmt, 16);
+  fmt += std::string("\x01\x00\x01\x00", 4);
+  put_le32(fmt, 8000);
+  put_le32(fmt, 16000);
+  fmt += std::string("\x02\x00\x10\x00", 4);
+  std::string data = "data";
+  put_le32(data, 8);
+  data += std::string("\x00\x10\x00\xF0\x00\x10\x00\xF0", 8);
+  const std::string body = "WAVE" + fmt + extra + data;
+  std::string file = marker;
+  put_le32(file, static_cast<std::uint32_t>(body.size()));
+  return file + body;
+}
+
+std::string parse_message(const std::string& bytes, const std::string& name) {
+  try {
+    io::parse_audio(bytes, name);
+  } catch (const Error& e) {
+    return e.what();
+  }
+  return "(no error)";
+}
+
+}  // namespace
+
+TEST_CASE("audio: an AIFF sample rate of NaN or 0 is a corrupt header, not an invented rate") {
+  // 80-bit extended (AIFF 1.3): all-ones exponent with a non-zero fraction is NaN; all zero is 0.
+  const std::string nan80("\x7F\xFF\xC0\x00\x00\x00\x00\x00\x00\x00", 10);
+  const std::string zero80(10, '\0');
+  // 8000 = 1.953125·2^12: exponent 16383 + 12 = 0x400B, mantissa 0xFA00… (integer bit set).
+  const std::string rate8000("\x40\x0B\xFA\x00\x00\x00\x00\x00\x00\x00", 10);
+  CHECK(parse_message(aiff_with_rate(nan80), "nan.aiff") ==
+        "nan.aiff: the AIFF header's sample rate is not a number (must be a finite rate of at least 1 "
+        "Hz): the header is corrupt");
+  CHECK(parse_message(aiff_with_rate(zero80), "zero.aiff") ==
+        "zero.aiff: the AIFF header's sample rate is 0 Hz (must be a finite rate of at least 1 Hz): the "
+        "header is corrupt");
+  const Capture ok = io::parse_audio(aiff_with_rate(rate8000), "ok.aiff");
+  CHECK(ok.sample_rate_hz == 8000);
+}
+
+TEST_CASE("audio: an odd chunk without its pad byte is named as such, not as a cut file") {
+  std::string list = "LIST";
+  put_le32(list, 5);
+  list += "INFOx";  // 5 bytes, no pad byte
+  CHECK(parse_message(wav_with(list), "odd.wav") ==
+        "odd.wav: odd-sized chunk without its pad byte: the \"LIST\" chunk at byte 36 holds 5 bytes "
+        "(RIFF and AIFF require the pad), so every chunk after it is one byte off; rewrite the file "
+        "with the pad byte");
+  // With its pad byte the same file reads.
+  const Capture padded = io::parse_audio(wav_with(list + '\0'), "padded.wav");
+  CHECK(padded.sample_count() == 4);
+}
+
+TEST_CASE("audio: BW64 (ITU-R BS.2088) reads like RF64, from memory and from a file") {
+  // RF64/BW64 layout (EBU Tech 3306): marker, 0xFFFFFFFF, WAVE, ds64 with the 64-bit sizes.
+  std::string fmt = "fmt ";
+  put_le32(fmt, 16);
+  fmt += std::string("\x01\x00\x01\x00", 4);
+  put_le32(fmt, 8000);
+  put_le32(fmt, 16000);
+  fmt += std::string("\x02\x00\x10\x00", 4);
+  const std::string samples("\x00\x10\x00\xF0\x00\x10\x00\xF0", 8);
+  std::string data = "data";
+  put_le32(data, 0xFFFFFFFFu);
+  data += samples;
+  const auto file_of = [&](const std::string& marker) {
+    std::string ds64 = "ds64";
+    put_le32(ds64, 28);
+    const std::uint64_t riff_size = 4 + 36 + fmt.size() + data.size();
+    for (std::uint64_t v : {riff_size, std::uint64_t{8}, std::uint64_t{4}})
+      for (int i = 0; i < 8; ++i) ds64 += static_cast<char>((v >> (8 * i)) & 0xFF);
+    put_le32(ds64, 0);
+    std::string f = marker;
+    put_le32(f, 0xFFFFFFFFu);
+    return f + "WAVE" + ds64 + fmt + data;
+  };
+  const Capture rf = io::parse_audio(file_of("RF64"), "a.rf64");
+  const Capture bw = io::parse_audio(file_of("BW64"), "a.wav");
+  CHECK(bw.format == "bw64");
+  REQUIRE(bw.channels.size() == 1);
+  CHECK(bw.channels[0].samples == rf.channels[0].samples);
+  CHECK(bw.sample_rate_hz == 8000);
+  test::TempDir dir("audio_bw64");
+  test::write_text(dir.file("b.wav"), file_of("BW64"));
+  const Capture from_file = io::read_capture(dir.file("b.wav"));
+  CHECK(from_file.format == "bw64");
+  CHECK(from_file.channels[0].samples == rf.channels[0].samples);
+}

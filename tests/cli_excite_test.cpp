@@ -138,3 +138,14 @@ TEST_CASE("cli excite: bad input gives one error line and exit code 2") {
   }
   CHECK_FALSE(std::filesystem::exists(out));  // nothing written on error
 }
+
+TEST_CASE("cli excite: every option at its default writes a valid file (issue 11, class 10)") {
+  test::TempDir dir("cli_excite_defaults");
+  const auto r = run_cli("excite '" + dir.file("x.wav") + "'");
+  CHECK_MESSAGE(r.exit_code == 0, r.err);
+  CHECK(r.err.empty());
+  // The defaults (ExciteOptions: 1 kHz, harmonics 1-20, 48 kHz): 20 kHz lies below 24 kHz.
+  const auto back = run_cli("info '" + dir.file("x.wav") + "' --json -");
+  CHECK_MESSAGE(back.exit_code == 0, back.err);
+  CHECK(back.out.find("48000") != std::string::npos);
+}

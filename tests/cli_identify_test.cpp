@@ -270,7 +270,7 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
                    dir.file("fast.csv") + ")");
   // 3 harmonics (1, 3, 5) excited; 3/4 has 8 parameters: 2K ≥ 9 needs K ≥ 5.
   expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --harmonics 5 --order 3/4",
-               "model order 3/4 needs at least 5 excited harmonics; the input excites 3 (n = 1, 3, 5)");
+               dir.file("rc.csv") + ": model order 3/4 needs at least 5 excited harmonics; the input excites 3 (n = 1, 3, 5)");
   expect_error("identify " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
                "invalid option: --save-model = " + dir.file("m.json") + " (needs a model: give --order M/N or --order auto)");
   expect_error("identify " + rc + " --input v_in --output v_ot",
@@ -282,7 +282,7 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
   for (std::size_t k = 0; k < clean.y.size(); ++k) clean.y[k] = 2 * clean.u[k];
   write_text(dir.file("gain.csv"), csv({&clean.u, &clean.y}, {"v_in", "v_out"}));
   expect_error("identify " + q(dir.file("gain.csv")) + " --input v_in --output v_out --f0-hint 50 --order 1/1",
-               "the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data cannot "
+               dir.file("gain.csv") + ": model fit: the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data cannot "
                "determine this many coefficients; lower the order)");
   CHECK_FALSE(std::filesystem::exists(dir.file("m.json")));
 }

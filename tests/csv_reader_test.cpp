@@ -343,3 +343,31 @@ TEST_CASE("csv: a large file streams with exact values and row count") {
   // (no doubling growth): capacity is the line count after the data start, plus one.
   CHECK(c.channels[0].samples.capacity() <= c.sample_count() + 1);
 }
+
+// ---- issue 11, class 10: messages that mislead -----------------------------------------------
+
+TEST_CASE("csv: time headers in min and h are time, scaled to seconds") {
+  // 1 min = 60 s, 1 h = 3600 s (SI brochure, 9th ed., Table 8: non-SI units accepted for use).
+  const Capture m = parse_csv("time (min),v\n0,1\n0.5,2\n1,3\n", "m.csv");
+  REQUIRE(m.channels.size() == 1);
+  CHECK(near(m.sample_rate_hz, 1.0 / 30));
+  const Capture h = parse_csv("t [h],v\n0,1\n0.25,2\n0.5,3\n", "h.csv");
+  REQUIRE(h.channels.size() == 1);
+  CHECK(near(h.sample_rate_hz, 1.0 / 900));
+}
+
+TEST_CASE("csv: a preamble beyond the detection limit is named as such, not as 'no data rows'") {
+  std::string text;
+  for (int i = 0; i < 2100; ++i) text += "note " + std::to_string(i) + " of a long preamble\n";
+  text += "v\n1\n2\n3\n";
+  CHECK(message_of(text) ==
+        "in.csv: no data rows within the first 2000 lines, where the data are looked for: the preamble "
+        "(header text above the data) exceeds that limit; shorten it");
+}
+
+TEST_CASE("csv: a NUL byte in a bad cell appears escaped in the message, which goes on after it") {
+  const std::string text = std::string("v\n1\n2\nab") + '\0' + "cd\n4\n";
+  const std::string what = message_of(text);
+  CHECK_MESSAGE(what.find("ab\\x00cd") != std::string::npos, what);
+  CHECK(what.find('\0') == std::string::npos);
+}

@@ -384,7 +384,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
     two[2] = cd(0, 0.2);
     const auto x2 = synthesise(two, 1e-4, rng);
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(x2, x2, "two.csv"), o),
-                         "model order 2/3 needs at least 4 excited harmonics; the input excites 2 (n = 1, 2)",
+                         "two.csv: model order 2/3 needs at least 4 excited harmonics; the input excites 2 (n = 1, 2)",
                          AnalysisError);
   }
   SUBCASE("unknown channel") {
@@ -418,7 +418,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
     for (auto& v : y_clean) v *= 2;
     o.order = "1/1";
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(clean, y_clean, "gain.csv"), o),
-                         "the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data "
+                         "gain.csv: model fit: the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data "
                          "cannot determine this many coefficients; lower the order)",
                          AnalysisError);
   }
@@ -508,4 +508,36 @@ TEST_CASE("identify: default options are valid; invalid ones name field, value a
   o = {};
   o.f0_hz = -5;
   CHECK_THROWS_WITH_AS(o.validate(), "invalid option: f0_hz = -5 (must be finite and >= 0 (0 = estimate))", OptionError);
+}
+
+// Issue 11, class 8: an output without a response at the excited lines is refused in plain
+// words; before, a constant output gave |H| ≈ 1e-17 with an interval excluding 0 and an
+// "adequate" model, and a zero output a covariance error.
+TEST_CASE("identify: a constant, zero or noise-only output is refused as carrying no response") {
+  Phasors u(6, 0.0);
+  for (int n = 1; n <= 5; ++n) u[std::size_t(n)] = std::polar(0.3, -n * (n - 1) * kPi / 5);
+  std::mt19937_64 rng(1101);
+  auto o = options();
+  o.order = "0/3";
+  const auto x = synthesise(u, 1e-4, rng);
+  const std::vector<double> constant(x.size(), 0.75);
+  const std::vector<double> zero(x.size(), 0.0);
+  std::normal_distribution<double> noise(0.0, 1e-3);
+  std::vector<double> noisy(x.size());
+  const std::vector<const std::vector<double>*> outputs = {&constant, &zero, &noisy};
+  for (double& v : noisy) v = 0.5 + noise(rng);
+  for (const auto* y : outputs) {
+    CAPTURE((*y)[0]);
+    try {
+      const auto r = ident::identify(two_channel(x, *y, "dead.csv"), o);
+      FAIL("identify returned a result (status " << r.status << ") for an output without response");
+    } catch (const AnalysisError& e) {
+      const std::string what = e.what();
+      CHECK_MESSAGE(what.find("dead.csv: ") == 0, what);
+      CHECK_MESSAGE(what.find("output channel \"v_out\"") != std::string::npos, what);
+      CHECK_MESSAGE(what.find("the output carries no response at the excited harmonics (n = 1, 2, 3, 4, 5)") !=
+                        std::string::npos,
+                    what);
+    }
+  }
 }

@@ -278,3 +278,122 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   CHECK_FALSE(has_flag(j1, "ill-conditioned"));
   CHECK(j1["model"]["condition_number"].get<double>() < kIllConditioned);
 }
+
+// ---- issue 11, class 7: results do not depend on the amplitude unit -------------------------
+
+#include "core/capture.hpp"
+#include "dsp/harmonics.hpp"
+
+namespace {
+
+/// Scaling by a decimal factor rounds every sample to 2^-53 ≈ 1.1e-16 relative (IEEE 754
+/// round-to-nearest); the fit's Gram matrix (condition ≲ 1e3, dsp/period_lock.hpp) and the
+/// Gauss–Newton stop at 1e-12 relative change in f0 amplify that to well under 1e-9.
+constexpr double kUnitInvariance = 1e-9;
+/// Phases in degrees: the same 1e-9 relative, on angles of at most 180°.
+constexpr double kUnitInvariancePhaseDeg = 180 * kUnitInvariance;
+
+bool relatively_close(double a, double b, double rel) {
+  return std::abs(a - b) <= rel * std::max(std::abs(a), std::abs(b));
+}
+
+}  // namespace
+
+TEST_CASE("honesty: analyze results are invariant to the amplitude unit from 1e-160 to 1e150") {
+  Signal s;
+  s.dc = 0.2;
+  s.f0_hz = 50.3;
+  s.amplitudes = {1.0, 0.01, 0.003};
+  s.phases_deg = {10, -40, 75};
+  s.noise_rms = 1e-3;
+  const double fs = 1000;
+  const std::vector<double> base = synthesize(s, fs, 2000);
+  const auto analyse = [&](double scale) {
+    periodfit::Channel ch{"v", "V", {}};
+    for (double v : base) ch.samples.push_back(v * scale);
+    return periodfit::dsp::analyze_channel(ch, fs, 0.0);
+  };
+  const periodfit::dsp::ChannelAnalysis ref = analyse(1.0);
+  for (double scale : {1e-160, 1e150, 1e-300, 1e300}) {
+    CAPTURE(scale);
+    const periodfit::dsp::ChannelAnalysis a = analyse(scale);
+    CHECK(relatively_close(a.fundamental.f0_hz, ref.fundamental.f0_hz, kUnitInvariance));
+    CHECK(a.fundamental.f0_u_hz > 0);
+    CHECK(relatively_close(a.fundamental.f0_u_hz, ref.fundamental.f0_u_hz, kUnitInvariance));
+    CHECK(relatively_close(a.distortion.thd, ref.distortion.thd, kUnitInvariance));
+    CHECK(relatively_close(a.distortion.snr_db, ref.distortion.snr_db, kUnitInvariance));
+    CHECK(relatively_close(a.dc / scale, ref.dc, kUnitInvariance));
+    CHECK(a.dc_u > 0);
+    CHECK(relatively_close(a.dc_u / scale, ref.dc_u, kUnitInvariance));
+    CHECK(relatively_close(a.noise_rms / scale, ref.noise_rms, kUnitInvariance));
+    REQUIRE(a.harmonics.size() == ref.harmonics.size());
+    for (std::size_t k = 0; k < a.harmonics.size(); ++k) {
+      CAPTURE(k);
+      const auto& line = a.harmonics[k];
+      const auto& r = ref.harmonics[k];
+      CHECK(line.amplitude_u > 0);
+      CHECK(line.phase_u_deg > 0);
+      CHECK(relatively_close(line.amplitude / scale, r.amplitude, kUnitInvariance));
+      CHECK(relatively_close(line.amplitude_u / scale, r.amplitude_u, kUnitInvariance));
+      CHECK(std::abs(line.phase_deg - r.phase_deg) <= kUnitInvariancePhaseDeg);
+      CHECK(relatively_close(line.phase_u_deg, r.phase_u_deg, kUnitInvariance));
+    }
+  }
+}
+
+#include "ident/identify.hpp"
+
+TEST_CASE("honesty: identify results are invariant to the channels' units from 1e-160 to 1e150") {
+  Signal u;
+  u.f0_hz = 50;
+  u.amplitudes = {1, 0.5, 0.3, 0.2};
+  u.phases_deg = {0, -40, 75, 130};
+  u.noise_rms = 1e-3;
+  Signal y = u;
+  y.amplitudes = {0.5, 0.2, 0.1, 0.05};
+  y.phases_deg = {-10, -60, 40, 80};
+  y.seed = 2;
+  const double fs = 5000;
+  const std::vector<double> xu = synthesize(u, fs, 2000), xy = synthesize(y, fs, 2000);
+  periodfit::ident::IdentifyOptions o;
+  o.input_channel = "u";
+  o.output_channel = "y";
+  o.max_harmonic = 4;
+  const auto identify = [&](double su, double sy) {
+    periodfit::Capture c;
+    c.source = "scaled.csv";
+    c.format = "test";
+    c.sample_rate_hz = fs;
+    c.channels = {{"u", "V", {}}, {"y", "A", {}}};
+    for (double v : xu) c.channels[0].samples.push_back(v * su);
+    for (double v : xy) c.channels[1].samples.push_back(v * sy);
+    return periodfit::ident::identify(c, o);
+  };
+  const periodfit::ident::IdentifyResult ref = identify(1, 1);
+  REQUIRE(ref.frf.points.size() == 4);
+  // Input and output in units up to 1e160 apart; H = Y/U itself must stay where its variance
+  // (|H|²·relative u², ~1e-9 here) is a normal double, so |H| within about 1e±140.
+  const std::pair<double, double> scales[] = {{1e-160, 1e-160}, {1e150, 1e150}, {1e100, 1e20}, {1e-160, 1e-100}};
+  for (const auto& scale : scales) {
+    const double su = scale.first, sy = scale.second;
+    CAPTURE(su);
+    CAPTURE(sy);
+    const periodfit::ident::IdentifyResult r = identify(su, sy);
+    CHECK(relatively_close(r.fundamental.f0_hz, ref.fundamental.f0_hz, kUnitInvariance));
+    CHECK(r.fundamental.f0_u_hz > 0);
+    CHECK(relatively_close(r.fundamental.f0_u_hz, ref.fundamental.f0_u_hz, kUnitInvariance));
+    REQUIRE(r.frf.points.size() == ref.frf.points.size());
+    const double gain = sy / su;  // H = Y/U in the new units
+    for (std::size_t k = 0; k < r.frf.points.size(); ++k) {
+      CAPTURE(k);
+      const auto& p = r.frf.points[k];
+      const auto& q = ref.frf.points[k];
+      CHECK(relatively_close(p.mag / gain, q.mag, kUnitInvariance));
+      CHECK(p.mag_u > 0);
+      CHECK(relatively_close(p.mag_u / gain, q.mag_u, kUnitInvariance));
+      CHECK(std::abs(p.phase_deg - q.phase_deg) <= kUnitInvariancePhaseDeg);
+      CHECK(relatively_close(p.phase_u_deg, q.phase_u_deg, kUnitInvariance));
+      CHECK(relatively_close(p.input_snr_db, q.input_snr_db, kUnitInvariance));
+    }
+  }
+}

@@ -736,3 +736,67 @@ TEST_CASE("robustness: endless devices and pipes, tall CSVs and huge excite peri
                         ": 300002 lines × 100 channels of samples need about 240 MB, more than the 205 MB memory "
                         "budget (half of the address-space limit, ulimit -v)\n");
 }
+
+// ---- issue 11, class 7: invented numbers at the edges of the number range ------------------
+
+TEST_CASE("robustness: a sub-normal time step is refused, never analysed at an infinite rate") {
+  TempDir dir("rob_subnormal_dt");
+  // Times from the smallest normal double 2^-1022 in steps of the smallest sub-normal 2^-1074
+  // (IEEE 754 binary64): every time is a normal number, the step is sub-normal, and the rate
+  // (N − 1)/(t_last − t_0) overflows to inf.
+  std::string text = "time,v\n";
+  char buf[64];
+  for (int k = 0; k < 64; ++k) {
+    std::snprintf(buf, sizeof buf, "%.17g,%.6f\n",
+                  DBL_MIN + k * std::numeric_limits<double>::denorm_min(), std::sin(k * 0.3));
+    text += buf;
+  }
+  write_text(dir.file("tiny.csv"), text);
+  const CliRun r = run_cli("analyze '" + dir.file("tiny.csv") + "'");
+  CHECK(r.exit_code == 2);
+  CHECK_MESSAGE(r.err.find("the sample rate works out to") != std::string::npos, describe(r));
+  CHECK(r.out.empty());
+}
+
+TEST_CASE("robustness: a --scale that overflows a sample is refused, not read as inf") {
+  TempDir dir("rob_scale_overflow");
+  Signal s;
+  s.amplitudes = {10};  // 10·1e308 overflows
+  write_text(dir.file("c.csv"), capture_csv(1000, {synthesize(s, 1000, 200)}));
+  const CliRun r = run_cli("info '" + dir.file("c.csv") + "' --scale ch0=1e308");
+  CHECK(r.exit_code == 2);
+  CHECK_MESSAGE(r.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(r));
+}
+
+TEST_CASE("robustness: predict refuses outputs beyond the double range and uncountable sample counts") {
+  const CliRun big = run_cli("predict --num 1000 --den 1000,1 --wave sine --amplitude 1e308 --f0 10 --json -");
+  CHECK(big.exit_code == 2);
+  CHECK_MESSAGE(big.out.find("inf") == std::string::npos, big.out);
+  CHECK_MESSAGE(big.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(big));
+  // 1e154 is within range and its square is not: rms = A/√2 (closed form for a sine) is finite.
+  const CliRun ok = run_cli("predict --num 1 --den 1 --wave sine --amplitude 1e200 --f0 10 --json -");
+  CHECK_MESSAGE(ok.exit_code == 0, describe(ok));
+  const json j = json::parse(ok.out, nullptr, false);
+  CHECK_MESSAGE(all_numbers_finite(j), ok.out.substr(0, 400));
+  const CliRun fast = run_cli("predict --num 1 --den 1 --wave sine --amplitude 1 --f0 10 --rate 1e21 --csv -");
+  CHECK(fast.exit_code == 2);
+  CHECK(fast.out.empty());
+  // The memory budget refuses it first (issue 11, class 5), naming the sample count.
+  CHECK_MESSAGE(fast.err.find("rate_hz = 1e+21 (1e+20 samples need") != std::string::npos, describe(fast));
+}
+
+TEST_CASE("robustness: identify refuses a skew longer than the record") {
+  TempDir dir("rob_skew");
+  Signal u;
+  u.f0_hz = 50;
+  u.amplitudes = {1, 0.5, 0.25};
+  u.noise_rms = 1e-3;
+  Signal y = u;
+  y.seed = 2;
+  write_text(dir.file("io.csv"), capture_csv(5000, {synthesize(u, 5000, 2000), synthesize(y, 5000, 2000)}));
+  const CliRun r = run_cli("identify '" + dir.file("io.csv") + "' --input ch0 --output ch1 --skew 1e300");
+  CHECK(r.exit_code == 2);
+  CHECK_MESSAGE(r.err.find("invalid option: skew_s = 1e+300 (must not exceed the record's length") !=
+                    std::string::npos,
+                describe(r));
+}

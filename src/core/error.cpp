@@ -35,6 +35,16 @@ std::size_t edit_distance(std::string_view a, std::string_view b) {
 }
 }  // namespace
 
+std::string escape_nul(std::string_view message) {
+  std::string out;
+  out.reserve(message.size());
+  for (char c : message) {
+    if (c == '\0') out += "\\x00";
+    else out += c;
+  }
+  return out;
+}
+
 InputError::InputError(std::string path, std::size_t line, std::size_t column,
                        std::string message)
     : Error(located(path, line, column, message)),

@@ -10,10 +10,14 @@
 
 namespace periodfit {
 
+/// `message` with every NUL byte written as the four characters \x00: what() is a C string,
+/// so a NUL from a file's bytes would cut the message there (issue 11, class 10).
+std::string escape_nul(std::string_view message);
+
 /// Base of every error the library reports to a user.
 class Error : public std::runtime_error {
  public:
-  explicit Error(const std::string& message) : std::runtime_error(message) {}
+  explicit Error(const std::string& message) : std::runtime_error(escape_nul(message)) {}
 };
 
 /// A problem in an input file. what() reads `path:line:column: message` (line/column omitted

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <string>
 
+#include "core/error.hpp"
 #include "io/number_format.hpp"
 #include "report/safe_text.hpp"
 #include "report/table.hpp"
@@ -43,9 +44,15 @@ AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::str
   } else {
     for (const auto& sel : channels) indices.push_back(capture.channel_index(sel));
   }
+  // analyze_channel names the channel; the file is named here, so every analysis error says
+  // where the data came from (issue 11, class 10).
   for (std::size_t i : indices)
     with_memory_step("analysing channel \"" + capture.channels[i].name + "\" of " + capture.source, [&] {
-      r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+      try {
+        r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
+      } catch (const AnalysisError& e) {
+        throw AnalysisError(capture.source + ": " + e.what());
+      }
     });
   return r;
 }

@@ -91,9 +91,78 @@ void validate(const AnalyzeOptions& o) {
     throw OptionError("significance", io::format_shortest(o.significance), "must be > 0");
 }
 
+namespace {
+
+ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0,
+                                    const AnalyzeOptions& options);
+
+/// Multiplies every result in the channel's unit by 2^exponent (exact; ldexp, since 2^exponent
+/// itself may not be representable for a peak near the ends of the double range).
+void scale_results(ChannelAnalysis& a, int exponent) {
+  const auto up = [exponent](double& v) { v = std::ldexp(v, exponent); };
+  up(a.fundamental.residual_rms);
+  up(a.dc);
+  up(a.dc_u);
+  up(a.rms);
+  up(a.peak_abs);
+  for (auto& line : a.harmonics) {
+    up(line.amplitude);
+    up(line.amplitude_u);
+    line.phasor = {std::ldexp(line.phasor.real(), exponent), std::ldexp(line.phasor.imag(), exponent)};
+  }
+  up(a.noise_rms);
+  up(a.noise_floor);
+}
+
+bool all_finite(const ChannelAnalysis& a) {
+  bool ok = std::isfinite(a.fundamental.f0_hz) && std::isfinite(a.fundamental.f0_u_hz) &&
+            std::isfinite(a.fundamental.residual_rms) && std::isfinite(a.dc) && std::isfinite(a.dc_u) &&
+            std::isfinite(a.rms) && std::isfinite(a.peak_abs) && std::isfinite(a.noise_rms) &&
+            std::isfinite(a.noise_floor) && std::isfinite(a.distortion.thd) &&
+            std::isfinite(a.distortion.thd_n);
+  for (const auto& line : a.harmonics)
+    ok = ok && std::isfinite(line.amplitude) && std::isfinite(line.amplitude_u) &&
+         std::isfinite(line.phase_deg) && std::isfinite(line.phase_u_deg);
+  return ok;
+}
+
+}  // namespace
+
+// The numerics (sums of squares, variances, the Gram matrix) square the samples, so values
+// beyond ~1e154 overflow and values below ~1e-154 underflow into sub-normals, which silently
+// turned uncertainties into 0 (issue 11, class 7). The channel is therefore analysed in a unit
+// where its peak is in [0.5, 1): multiplying by a power of two only changes the exponent, so it
+// is exact (IEEE 754 §5.3.3 scaleB) and every result is the one of the unit-scaled channel,
+// scaled back the same exact way. Ratios (THD, SNR, dBc), f0 and phases are unchanged by it.
 ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
                                 const AnalyzeOptions& options) {
   validate(options);
+  double peak = 0;
+  bool constant = true;
+  for (double v : channel.samples) {
+    peak = std::max(peak, std::abs(v));
+    constant = constant && v == channel.samples.front();
+  }
+  // A constant channel is refused by the fit quoting its value, which must be the file's.
+  if (!(peak > 0) || !std::isfinite(peak) || constant) return analyze_unit_scaled(channel, fs, t0, options);
+  const int exponent = std::ilogb(peak) + 1;  // peak·2^-exponent in [0.5, 1)
+  if (exponent == 0) return analyze_unit_scaled(channel, fs, t0, options);
+  Channel scaled{channel.name, channel.unit, {}};
+  scaled.samples.reserve(channel.samples.size());
+  for (double v : channel.samples) scaled.samples.push_back(std::ldexp(v, -exponent));
+  ChannelAnalysis out = analyze_unit_scaled(scaled, fs, t0, options);
+  scale_results(out, exponent);
+  if (!all_finite(out))
+    throw AnalysisError("channel \"" + channel.name + "\": the results exceed the range of double " +
+                        "precision numbers (peak " + io::format_significant(peak, 4) +
+                        "); give the data in a larger unit");
+  return out;
+}
+
+namespace {
+
+ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0,
+                                    const AnalyzeOptions& options) {
   ChannelAnalysis out;
   out.name = channel.name;
   out.unit = channel.unit;
@@ -279,5 +348,7 @@ ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
   }
   return out;
 }
+
+}  // namespace
 
 }  // namespace periodfit::dsp

@@ -15,6 +15,12 @@ namespace {
 
 constexpr double kDegPerRad = 180.0 / std::numbers::pi;
 
+/// The output responds when |Ȳ_n| exceeds this many standard deviations of its noise floor at
+/// one excited line at least: 3σ, the analyze significance default (common practice for a
+/// detection). For a noise-only output |Ȳ_n|²/σ² is exponential (circular Gaussian noise), so
+/// a line passes by chance with probability e^{-9} ≈ 1.2e-4.
+constexpr double kOutputResponseSigmas = 3;
+
 /// Relative mismatch of f0 between the two spectra that still counts as "the same grid".
 constexpr double kSameF0Relative = 1e-12;
 
@@ -121,6 +127,17 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
                         std::to_string(options.min_periods_for_sample_variance) +
                         " whole periods are needed");
 
+  // The deskew is for acquisition paths (probe, cable, ADC pipeline), which lag by far less
+  // than a record. A longer skew is a typo or a unit mix-up, and an enormous one only rotates
+  // the phases by the rounding of skew_s itself (its last bit, 2^-53·|skew|, turns harmonic n
+  // by n·ω0·2^-53·|skew| rad), which no uncertainty accounts for (issue 11, class 7).
+  const double record_s = double(input.periods) / input.f0_hz;
+  if (!(std::abs(options.skew_s) <= record_s))
+    throw OptionError("skew_s", io::format_shortest(options.skew_s),
+                      "must not exceed the record's length of " + io::format_significant(record_s, 6) +
+                          " s (" + std::to_string(input.periods) + " periods of " +
+                          io::format_significant(input.f0_hz, 9) + " Hz)");
+
   FrfResult r;
   r.method = per_period ? "per-period-covariance" : "noise-bins";
   r.f0_hz = input.f0_hz;
@@ -206,7 +223,11 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     }
     // No estimate is more precise than the computation: noise-free (synthetic) records get
     // the numerical floor instead of a zero variance, which no weighted fit could use.
-    const double floor_re_im = 0.5 * std::pow(kNumericalFloorRelative * std::max(pt.mag, 1e-300), 2);
+    // The rounding of both records carries into H = Y/U as well: an output at its rounding
+    // level (a constant or zero output) has |H| ≈ 1e-17 with this much spread, not none.
+    const double floor_re_im =
+        0.5 * std::max(std::pow(kNumericalFloorRelative * pt.mag, 2),
+                       (output_numerical_floor + std::norm(h) * input_numerical_floor) / std::norm(u));
     if (pt.var_re < floor_re_im || pt.var_im < floor_re_im) {
       pt.var_re = std::max(pt.var_re, floor_re_im);
       pt.var_im = std::max(pt.var_im, floor_re_im);
@@ -234,6 +255,23 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     throw AnalysisError("FRF: no excited harmonic: no input harmonic 1…" +
                         std::to_string(input.max_harmonic) + " exceeds the input noise floor by " +
                         io::format_shortest(options.min_snr_db) + " dB");
+  // An output with nothing at the excited lines (a constant, zero or noise-only channel) gives
+  // |H| of rounding or noise; a ratio of those is not a response, and a model fitted to it
+  // would be invented (issue 11, class 8). The output must stand out of its own noise (or
+  // rounding) floor at one line at least, by kOutputResponseSigmas standard deviations.
+  bool responds = false;
+  for (const auto& pt : r.points)
+    responds = responds || std::norm(pt.y) > kOutputResponseSigmas * kOutputResponseSigmas *
+                                                 r.output_noise_floor[static_cast<std::size_t>(pt.n)];
+  if (!responds) {
+    std::string ns;
+    for (const auto& pt : r.points) ns += (ns.empty() ? "" : ", ") + std::to_string(pt.n);
+    throw AnalysisError("the output carries no response at the excited harmonics (n = " + ns +
+                        "): at none of them does it rise above its own noise or rounding level by " +
+                        io::format_shortest(kOutputResponseSigmas) +
+                        " standard deviations (the output is constant, zero or noise); check that "
+                        "the output channel is the DUT's output");
+  }
   return r;
 }
 

@@ -33,8 +33,13 @@
 /// of (kNumericalFloorRelative·max_n|U_n|)² (n = 0…H), so noise-free synthetic records do not "excite"
 /// harmonics that carry only rounding.
 ///
-/// A point's (Re, Im) variances are never below ½(kNumericalFloorRelative·|H|)² (flag
-/// "numerical-floor"): a noise-free record gets the computation's precision, not zero.
+/// A point's (Re, Im) variances are never below ½·max((ε·|H|)², ((ε·max|Y|)² + |H|²·(ε·max|U|)²)/|U_n|²)
+/// with ε = kNumericalFloorRelative and the maxima over n = 0…H (flag "numerical-floor"): a
+/// noise-free record gets the computation's precision, not zero, and a line where the output
+/// is only rounding (|H| ≈ 1e-17) gets the spread of that rounding.
+///
+/// An output that rises above its noise (or rounding) floor by 3σ at no excited line carries no
+/// response: AnalysisError, since |H| would be a ratio of noise (issue 11, class 8).
 ///
 /// Misuse: the first-order formula holds when the input SNR at each point is high (≳ 20 dB,
 /// hence the default); below that H = Y/U is biased and the intervals are too narrow. The

@@ -46,6 +46,62 @@ struct Selected {
   const Channel* channel;
 };
 
+/// The exponent e with max|x|·2^-e in [0.5, 1); 0 for an all-zero, non-finite or constant
+/// channel (a constant one is refused by the fit with its value, which must be the file's).
+int unit_exponent(const std::vector<double>& x) {
+  if (x.empty() || std::all_of(x.begin(), x.end(), [&](double v) { return v == x.front(); })) return 0;
+  double peak = 0;
+  for (double v : x) peak = std::max(peak, std::abs(v));
+  return peak > 0 && std::isfinite(peak) ? std::ilogb(peak) + 1 : 0;
+}
+
+std::vector<double> scaled_by(const std::vector<double>& x, int exponent) {
+  std::vector<double> out;
+  out.reserve(x.size());
+  for (double v : x) out.push_back(std::ldexp(v, exponent));
+  return out;
+}
+
+std::complex<double> ldexp(std::complex<double> z, int e) {
+  return {std::ldexp(z.real(), e), std::ldexp(z.imag(), e)};
+}
+
+/// The FRF and linearity of channels analysed at 2^-eu and 2^-ey back in the channels' units:
+/// H scales by 2^(eu−ey), its variances by the square (ldexp: exact); phases, SNRs, dB levels
+/// relative to the output and degrees of freedom do not change.
+void scale_back(FrfResult& frf, LinearityResult& linearity, int eu, int ey) {
+  const int g = ey - eu;
+  for (auto& p : frf.points) {
+    p.u = ldexp(p.u, eu);
+    p.y = ldexp(p.y, ey);
+    p.h = ldexp(p.h, g);
+    p.re = std::ldexp(p.re, g);
+    p.im = std::ldexp(p.im, g);
+    p.mag = std::ldexp(p.mag, g);
+    p.mag_db = 20 * std::log10(p.mag);
+    p.mag_u = std::ldexp(p.mag_u, g);
+    p.mag_lo = std::ldexp(p.mag_lo, g);
+    p.mag_hi = std::ldexp(p.mag_hi, g);
+    p.var_h = std::ldexp(p.var_h, 2 * g);
+    p.var_re = std::ldexp(p.var_re, 2 * g);
+    p.var_im = std::ldexp(p.var_im, 2 * g);
+    p.cov_re_im = std::ldexp(p.cov_re_im, 2 * g);
+  }
+  for (double& v : frf.input_noise_floor) v = std::ldexp(v, 2 * eu);
+  for (double& v : frf.output_noise_floor) v = std::ldexp(v, 2 * ey);
+  for (auto* lines : {&linearity.odd, &linearity.even})
+    for (auto& line : *lines) line.amplitude = std::ldexp(line.amplitude, ey);
+}
+
+bool frf_finite(const FrfResult& frf) {
+  bool ok = true;
+  for (const auto& p : frf.points)
+    ok = ok && std::isfinite(p.mag) && std::isfinite(p.mag_hi) && std::isfinite(p.var_h) &&
+         std::isfinite(p.var_re) && std::isfinite(p.var_im) && std::isfinite(std::abs(p.u)) &&
+         std::isfinite(std::abs(p.y)) && p.var_h > 0;
+  return ok;
+}
+
 IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   options.validate();
   const Capture& ci = *in.capture;
@@ -72,13 +128,21 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   lock.f0_hz = options.f0_hz;
   lock.f0_hint_hz = options.f0_hint_hz;
   lock.max_harmonic = options.max_harmonic;
+  // Each channel is analysed in a unit where its peak is in [0.5, 1): a power of two, so the
+  // scaling is exact, and sums of squares neither overflow (peaks beyond ~1e154) nor sink into
+  // sub-normals (below ~1e-154), which had made f0_u 0 and shifted f0 (issue 11, class 7).
+  const int eu = unit_exponent(in.channel->samples);
+  const int ey = unit_exponent(out.channel->samples);
+  const std::vector<double> u_samples = scaled_by(in.channel->samples, -eu);
+  const std::vector<double> y_scaled = scaled_by(out.channel->samples, -ey);
   dsp::HarmonicFit fit_u;
   try {
-    fit_u = dsp::fit_harmonics(in.channel->samples, fs, ci.t0_s, lock);
+    fit_u = dsp::fit_harmonics(u_samples, fs, ci.t0_s, lock);
   } catch (const AnalysisError& e) {
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
   }
   r.fundamental = fit_u.fundamental;
+  r.fundamental.residual_rms = std::ldexp(r.fundamental.residual_rms, eu);
   const double f0 = r.fundamental.f0_hz;
   if (!(f0 > 0) || !std::isfinite(f0))
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
@@ -101,20 +165,35 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   };
   // The output's fit and both grids are independent once f0 is known: the output is locked on
   // a second thread (the lock stage is thread-safe: cached FFTW plans behind a lock).
-  const std::vector<double>& y_samples = out.channel->samples;
+  const std::vector<double>& y_samples = y_scaled;
   const double y_t0 = out.capture->t0_s;
   auto output_spectra = std::async(std::launch::async, [&, forced] {
     const dsp::HarmonicFit fit_y = dsp::fit_harmonics(y_samples, fs, y_t0, forced);
     return dsp::period_spectra(lock_grid(y_samples, fit_y), harmonics);
   });
-  const dsp::PeriodSpectra su = dsp::period_spectra(lock_grid(in.channel->samples, fit_u), harmonics);
-  const dsp::PeriodSpectra sy = output_spectra.get();
+  const dsp::PeriodSpectra su = dsp::period_spectra(lock_grid(u_samples, fit_u), harmonics);
+  dsp::PeriodSpectra sy;
+  try {
+    sy = output_spectra.get();
+  } catch (const AnalysisError& e) {
+    throw AnalysisError(out.capture->source + ": output channel \"" + out.channel->name + "\": " + e.what());
+  }
   try {
     r.frf = compute_frf(su, sy, options.frf);
   } catch (const AnalysisError& e) {
-    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
+    const std::string output_name = out.capture->source == ci.source
+                                        ? "\"" + out.channel->name + "\""
+                                        : "\"" + out.channel->name + "\" of " + out.capture->source;
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\", output channel " +
+                        output_name + ": " + e.what());
   }
   r.linearity = check_linearity(r.frf, sy, options.linearity);
+  scale_back(r.frf, r.linearity, eu, ey);
+  if (!frf_finite(r.frf))
+    throw AnalysisError(ci.source + ": the frequency response between input channel \"" + in.channel->name +
+                        "\" and output channel \"" + out.channel->name +
+                        "\" (or its variance) exceeds the range of double precision numbers; give the "
+                        "channels in units closer to each other (--scale)");
   for (const auto& f : r.frf.flags) r.flags.push_back(f);
   if (r.linearity.nonlinear) r.flags.push_back("nonlinear");
 
@@ -129,12 +208,16 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     if (have < needed) {
       std::vector<int> ns;
       for (const auto& p : r.frf.points) ns.push_back(p.n);
-      throw AnalysisError("model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
+      throw AnalysisError(ci.source + ": model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
                           (fit.estimate_delay ? " with delay" : "") + " needs at least " +
                           std::to_string(needed) + " excited harmonics; the input excites " +
                           std::to_string(have) + " (n = " + list_harmonics(ns) + ")");
     }
-    r.model = fit_rational(fit_points(r.frf), fit);
+    try {
+      r.model = fit_rational(fit_points(r.frf), fit);
+    } catch (const AnalysisError& e) {
+      throw AnalysisError(ci.source + ": model fit: " + e.what());
+    }
     r.model_confidence = fit.confidence;
     if (!r.model->adequate) {
       r.flags.push_back("model-inadequate");

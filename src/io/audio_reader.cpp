@@ -11,7 +11,9 @@
 #include <cerrno>
 #include <cstdint>
 #include <cstring>
+#include <cstdio>
 #include <functional>
+#include <limits>
 #include <memory>
 #include <optional>
 
@@ -66,6 +68,32 @@ constexpr unsigned char kW64Data[16] = {'d', 'a', 't', 'a', 0xF3, 0xAC, 0xD3, 0x
 // RIFF/RIFX/RF64/BW64 (WAV), FORM (AIFF/AIFC) and W64: walks the chunks up to the sample
 // data and compares the declared data size with what the file holds. nullopt = consistent or
 // a container this walk does not know (libsndfile then judges it alone).
+/// The IEEE 754 80-bit extended value AIFF stores its sample rate in (AIFF 1.3, COMM chunk):
+/// sign and 15-bit exponent (bias 16383), then a 64-bit mantissa with an explicit integer bit.
+/// NaN for the all-ones exponent (inf and NaN both), so the caller refuses it.
+double extended80(const unsigned char* p) {
+  const int sign_exp = static_cast<int>(be(p, 2));
+  const int exponent = sign_exp & 0x7FFF;
+  const std::uint64_t mantissa = be(p + 2, 8);
+  if (exponent == 0x7FFF) return std::numeric_limits<double>::quiet_NaN();
+  const double magnitude = std::ldexp(static_cast<double>(mantissa), exponent - 16383 - 63);
+  return (sign_exp & 0x8000) ? -magnitude : magnitude;
+}
+
+/// The sample rate an AIFF's COMM chunk states, when it is not a positive finite number of
+/// hertz that libsndfile's conversion to an integer keeps (libsndfile would otherwise analyse
+/// the file at a rate it made up, issue 11 class 7).
+std::optional<std::string> aiff_rate_problem(double rate) {
+  if (std::isfinite(rate) && rate >= 1 && rate <= 2147483647.0) return std::nullopt;
+  std::string text = std::isnan(rate) ? "not a number" : std::isinf(rate) ? "infinite" : [&] {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%.6g Hz", rate);
+    return std::string(buf);
+  }();
+  return "the AIFF header's sample rate is " + text +
+         " (must be a finite rate of at least 1 Hz): the header is corrupt";
+}
+
 std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& read) {
   unsigned char head[16] = {};
   if (size < 16 || !read(0, head, 16)) {
@@ -123,12 +151,39 @@ std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& r
       if (declared > held) return cut_in_data(declared, held);
       return std::nullopt;
     }
+    if (aiff && id == "COMM") {
+      unsigned char comm[18];
+      if (chunk < 18 || pos + 26 > size || !read(pos + 8, comm, 18)) return cut_in_header(size);
+      if (auto problem = aiff_rate_problem(extended80(comm + 8))) return problem;
+    }
     if (aiff && id == "SSND") {
       const std::uint64_t held = size - (pos + 8);
       if (chunk > held) return cut_in_data(chunk >= 8 ? chunk - 8 : 0, held >= 8 ? held - 8 : 0);
       return std::nullopt;
     }
-    const std::uint64_t next = pos + 8 + chunk + (chunk & 1);
+    std::uint64_t next = pos + 8 + chunk + (chunk & 1);
+    if ((chunk & 1) && pos + 8 + chunk <= size) {
+      // RIFF and AIFF pad an odd chunk to an even size; some writers leave the pad byte out.
+      // At the end of the file that costs nothing; before another chunk it shifts every later
+      // chunk by one byte, which must be said as such, not as a cut file.
+      const std::uint64_t unpadded = pos + 8 + chunk;
+      // A plausible chunk header: a printable four-character code and a size within the file.
+      unsigned char at_head[8];
+      const auto fourcc = [&](std::uint64_t at) {
+        if (at + 8 > size || !read(at, at_head, 8)) return false;
+        return std::all_of(at_head, at_head + 4, [](unsigned char c) { return c >= 0x20 && c <= 0x7E; }) &&
+               (u32(at_head + 4) <= size - (at + 8) || u32(at_head + 4) == 0xFFFFFFFFu);
+      };
+      const std::string what = "odd-sized chunk without its pad byte: the \"" + std::string(id) +
+                               "\" chunk at byte " + std::to_string(pos) + " holds " +
+                               std::to_string(chunk) + " bytes";
+      if (unpadded == size)
+        return what + " and ends the file, and no " + (aiff ? "SSND" : "data") +
+               " chunk came before it: the file holds no samples";
+      if (!fourcc(next) && fourcc(unpadded))
+        return what + " (RIFF and AIFF require the pad), so every chunk after it is one byte off; "
+                      "rewrite the file with the pad byte";
+    }
     if (next > size) return cut_in_header(size);
     pos = next;
   }
@@ -267,6 +322,49 @@ bool looks_like_audio(std::string_view head, std::string_view path) {
   return std::find(std::begin(kExtensions), std::end(kExtensions), ext) != std::end(kExtensions);
 }
 
+namespace {
+
+// BW64 (ITU-R BS.2088) is RF64 (EBU Tech 3306) under another marker: same ds64 and chunk
+// layout. libsndfile 1.2 knows only the RF64 marker, so a BW64 file is handed to it through
+// virtual I/O that shows "RF64" in the first four bytes and the file as it is everywhere else.
+struct Bw64File {
+  int fd = -1;
+  sf_count_t size = 0;
+  sf_count_t position = 0;
+};
+sf_count_t bw64_length(void* user) { return static_cast<Bw64File*>(user)->size; }
+sf_count_t bw64_seek(sf_count_t offset, int whence, void* user) {
+  auto* f = static_cast<Bw64File*>(user);
+  sf_count_t target = offset;
+  if (whence == SEEK_CUR) target = f->position + offset;
+  if (whence == SEEK_END) target = f->size + offset;
+  f->position = std::clamp<sf_count_t>(target, 0, f->size);
+  return f->position;
+}
+sf_count_t bw64_read(void* out, sf_count_t count, void* user) {
+  auto* f = static_cast<Bw64File*>(user);
+  const sf_count_t n = std::max<sf_count_t>(0, std::min(count, f->size - f->position));
+  sf_count_t done = 0;
+  while (done < n) {
+    const ssize_t got = ::pread(f->fd, static_cast<char*>(out) + done, static_cast<std::size_t>(n - done),
+                                static_cast<off_t>(f->position + done));
+    if (got < 0 && errno == EINTR) continue;
+    if (got <= 0) break;
+    done += got;
+  }
+  static constexpr char kRf64[4] = {'R', 'F', '6', '4'};
+  for (sf_count_t i = f->position; i < f->position + done && i < 4; ++i)
+    static_cast<char*>(out)[i - f->position] = kRf64[i];
+  f->position += done;
+  return done;
+}
+sf_count_t bw64_write(const void*, sf_count_t, void*) { return 0; }
+sf_count_t bw64_tell(void* user) { return static_cast<Bw64File*>(user)->position; }
+
+bool is_bw64(std::string_view head) { return head.substr(0, 4) == "BW64"; }
+
+}  // namespace
+
 Capture read_audio(const std::string& path) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) throw IoError(path, "cannot open", errno);
@@ -286,6 +384,29 @@ Capture read_audio(const std::string& path) {
     ::close(fd);
     throw InputError(path, 0, 0, *problem);
   }
+  char head[4] = {};
+  if (size >= 4 && read_at(0, head, 4) && is_bw64(std::string_view(head, 4))) {
+    Bw64File bw{fd, static_cast<sf_count_t>(size), 0};
+    SF_VIRTUAL_IO io{bw64_length, bw64_seek, bw64_read, bw64_write, bw64_tell};
+    SF_INFO info{};
+    SndFile file(sf_open_virtual(&io, SFM_READ, &info, &bw));
+    if (!file) {
+      ::close(fd);
+      open_failed(path);
+    }
+    Capture capture;
+    try {
+      capture = decode(file.get(), info, path, size);
+    } catch (...) {
+      file.reset();
+      ::close(fd);
+      throw;
+    }
+    file.reset();
+    ::close(fd);
+    capture.format = "bw64";
+    return capture;
+  }
   SF_INFO info{};
   // close_desc = true: libsndfile owns the descriptor from here on.
   SndFile file(sf_open_fd(fd, SFM_READ, &info, SF_TRUE));
@@ -301,12 +422,21 @@ Capture parse_audio(std::string_view bytes, std::string_view name) {
     return true;
   };
   if (auto problem = container_problem(bytes.size(), read_at)) throw InputError(source, 0, 0, *problem);
+  // BW64 read as RF64 (see Bw64File): a copy with the RF64 marker.
+  std::string patched;
+  if (is_bw64(bytes)) {
+    patched.assign(bytes);
+    patched.replace(0, 4, "RF64");
+    bytes = patched;
+  }
   SF_VIRTUAL_IO io{memory_length, memory_seek, memory_read, memory_write, memory_tell};
   Memory memory{bytes, 0};
   SF_INFO info{};
   SndFile file(sf_open_virtual(&io, SFM_READ, &info, &memory));
   if (!file) open_failed(source);
-  return decode(file.get(), info, source, bytes.size());
+  Capture capture = decode(file.get(), info, source, bytes.size());
+  if (!patched.empty()) capture.format = "bw64";
+  return capture;
 }
 
 }  // namespace periodfit::io

@@ -124,6 +124,16 @@ void apply_read_options(Capture& capture, const ReadOptions& options) {
   std::vector<std::size_t> scaled, united;
   for (const auto& [channel, factor] : options.scales) scaled.push_back(capture.channel_index(channel));
   for (const auto& [channel, unit] : options.units) united.push_back(capture.channel_index(channel));
+  // A scale may carry a sample past the double range; inf is an invented value, not data.
+  for (std::size_t i = 0; i < scaled.size(); ++i) {
+    const Channel& ch = capture.channels[scaled[i]];
+    for (std::size_t k = 0; k < ch.samples.size(); ++k)
+      if (!std::isfinite(ch.samples[k] * options.scales[i].second))
+        throw OptionError("scale " + options.scales[i].first, format_shortest(options.scales[i].second),
+                          "sample " + std::to_string(k) + " of channel " + ch.name + " (" +
+                              format_shortest(ch.samples[k]) +
+                              ") times the factor exceeds the range of double precision numbers");
+  }
   for (std::size_t i = 0; i < scaled.size(); ++i)
     for (double& v : capture.channels[scaled[i]].samples) v *= options.scales[i].second;
   for (std::size_t i = 0; i < united.size(); ++i) capture.channels[united[i]].unit = options.units[i].second;
@@ -152,6 +162,12 @@ Capture read_capture_unguarded(const std::string& path, const ReadOptions& optio
   } catch (const UnknownNameError& e) {
     throw InputError(path, 0, 0, e.what());
   }
+  // Every reader must give a positive, finite rate: a sub-normal time step makes 1/Δt = inf,
+  // and an audio header may hold any bit pattern (issue 11, class 7).
+  if (!std::isfinite(capture.sample_rate_hz) || !(capture.sample_rate_hz > 0))
+    throw InputError(path, 0, 0,
+                     "the sample rate works out to " + format_shortest(capture.sample_rate_hz) +
+                         " Hz, which is not a positive finite number; give it with --rate HZ");
   return capture;
 }
 

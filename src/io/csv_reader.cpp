@@ -166,7 +166,8 @@ constexpr UnitWord kUnitWords[] = {
     {"s", "s", 1},          {"ms", "ms", 1e-3},      {"us", "us", 1e-6},
     {"\xC2\xB5s", "\xC2\xB5s", 1e-6},                {"ns", "ns", 1e-9},
     {"ps", "ps", 1e-12},    {"sec", "s", 1},         {"second", "s", 1},
-    {"seconds", "s", 1},    {"V", "V", 0},           {"mV", "mV", 0},
+    {"seconds", "s", 1},    {"min", "min", 60},      {"h", "h", 3600},
+    {"V", "V", 0},           {"mV", "mV", 0},
     {"uV", "uV", 0},        {"\xC2\xB5V", "\xC2\xB5V", 0},   {"kV", "kV", 0},
     {"Volt", "V", 0},       {"Volts", "V", 0},       {"volt", "V", 0},
     {"volts", "V", 0},      {"A", "A", 0},           {"mA", "mA", 0},
@@ -749,7 +750,7 @@ void Parser::choose_time_column(const std::vector<const Line*>& content, bool ha
     if (time_factor_ == 0)
       throw InputError(name_, header_line_, 0,
                        "time column " + quoted(columns_[*time_column_].name) + " has unit " +
-                           quoted(columns_[*time_column_].unit) + " (expected s, ms, us, ns or ps)");
+                           quoted(columns_[*time_column_].unit) + " (expected h, min, s, ms, us, ns or ps)");
     return;
   }
   if (columns_.size() < 2) return;  // a lone column is data
@@ -793,6 +794,9 @@ Capture Parser::run() {
 
   // Sample the first lines for detection.
   std::vector<SampleLine> sample;
+  // Set when detection stopped at its line or byte limit with text left: "no data rows"
+  // then means "none within the limit", and the message must say so.
+  std::string sample_limit;
   {
     LineCursor cursor(text_, start, 0);
     Line line;
@@ -803,10 +807,21 @@ Capture Parser::run() {
       sample.push_back({line, kind == LineKind::comment});
       if (kind == LineKind::content) ++content_lines;
     }
+    if (cursor.position() < text_.size())
+      sample_limit = content_lines >= kSampleLines
+                         ? "the first " + std::to_string(kSampleLines) + " lines"
+                         : "the first " + std::to_string(kSampleBytes >> 20) + " MiB";
   }
+  const auto no_rows_in_sample = [&] {
+    fail(0, 0,
+         "no data rows within " + sample_limit +
+             ", where the data are looked for: the preamble (header text above the data) exceeds "
+             "that limit; shorten it");
+  };
   std::vector<const Line*> content;
   for (const auto& s : sample)
     if (!s.comment) content.push_back(&s.line);
+  if (content.empty() && !sample_limit.empty()) no_rows_in_sample();
   if (content.empty()) fail(0, 0, "no data rows (the file holds only comments)");
   if (text_.find('\n') == std::string_view::npos && text_.find('\r') != std::string_view::npos)
     fail(0, 0, "lines end in a lone carriage return (CR); convert the line ends to LF or CRLF");
@@ -823,6 +838,7 @@ Capture Parser::run() {
     if (!best || key(*c) > key(*best)) best = std::move(c);
   }
   if (!best) {
+    if (!sample_limit.empty()) no_rows_in_sample();
     const Line& last = *content.back();
     if (content.size() == 1) fail(0, 0, "no data rows below the header on line " + std::to_string(last.number));
     fail(0, 0,

@@ -75,7 +75,9 @@ std::string_view sample_format_name(SampleFormat format);
 struct ExciteOptions {
   /// "multisine" or a wave kind of dsp::wave_kind_names() other than "harmonics".
   std::string signal = "multisine";
-  std::string harmonics = "1-100";  ///< multisine: the harmonic list (see parse_harmonic_list)
+  /// multisine: the harmonic list (see parse_harmonic_list); the default, 1 kHz … 20 kHz, lies
+  /// below half the default rate, so `excite OUT` works with every option left at its default
+  std::string harmonics = "1-20";
   bool odd_only = false;            ///< multisine: keep odd harmonics only
   int skip_every = 0;               ///< multisine: 0 = none; K >= 2 = odd, every K-th odd skipped
   /// multisine: relative amplitude per harmonic (n, a_n > 0); empty = flat. Every selected

@@ -197,6 +197,25 @@ void PredictOptions::validate() const {
   if (!(max_direct_terms > 0)) throw OptionError("max_direct_terms", num(max_direct_terms), "must be > 0");
 }
 
+namespace {
+
+/// An output beyond the double range (an amplitude near 1e308 through a gain above 1, or its
+/// squares in the uncertainty propagation) would print inf: it is refused instead.
+void check_finite(const PredictResult& r) {
+  bool ok = std::isfinite(r.dc) && std::isfinite(r.dc_u) && std::isfinite(r.rms) && std::isfinite(r.rms_u) &&
+            std::isfinite(r.min) && std::isfinite(r.max) && std::isfinite(r.ripple_pp) &&
+            std::isfinite(r.ripple_pp_u) && std::isfinite(r.thd) && std::isfinite(r.thd_u);
+  for (const auto& h : r.harmonics_out)
+    ok = ok && std::isfinite(h.amplitude) && std::isfinite(h.amplitude_u) && std::isfinite(h.phase_u_deg);
+  for (double v : r.value) ok = ok && std::isfinite(v);
+  for (double v : r.value_u) ok = ok && std::isfinite(v);
+  if (!ok)
+    throw AnalysisError("the predicted output exceeds the range of double precision numbers (about "
+                        "1.8e308, squares included); give the input amplitude in a larger unit");
+}
+
+}  // namespace
+
 PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const PredictSystem& system,
                                    const PredictOptions& options) {
   options.validate();
@@ -346,16 +365,29 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
   }
 
   // dc, RMS, THD and their uncertainties.
-  double ac = 0, distortion = 0;
+  double distortion = 0;
   std::complex<double> y1 = 0;
   for (const auto& t : terms) {
-    ac += std::norm(t.y) / 2;
     if (t.n == 1) y1 = t.y;
     else distortion += std::norm(t.y);
   }
-  r.rms = std::sqrt(r.dc * r.dc + ac);
-  r.thd_defined = std::abs(y1) > 0;
-  r.thd = r.thd_defined ? std::sqrt(distortion) / std::abs(y1) : 0;
+  // Sums of squares overflow for amplitudes beyond ~1e154: RMS and THD are computed on the
+  // phasors divided by the largest of them (a power of two, exact), then scaled back.
+  double largest = std::abs(r.dc);
+  for (const auto& t : terms) largest = std::max(largest, std::abs(t.y));
+  const int unit_exp = largest > 0 && std::isfinite(largest) ? std::ilogb(largest) + 1 : 0;
+  {
+    double ac_s = 0, distortion_s = 0;
+    for (const auto& t : terms) {
+      const std::complex<double> ys{std::ldexp(t.y.real(), -unit_exp), std::ldexp(t.y.imag(), -unit_exp)};
+      ac_s += std::norm(ys) / 2;
+      if (t.n != 1) distortion_s += std::norm(ys);
+    }
+    const double dc_s = std::ldexp(r.dc, -unit_exp);
+    r.rms = std::ldexp(std::sqrt(dc_s * dc_s + ac_s), unit_exp);
+    r.thd_defined = std::abs(y1) > 0;
+    r.thd = r.thd_defined ? std::sqrt(distortion_s) / std::ldexp(std::abs(y1), -unit_exp) : 0;
+  }
   if (!r.thd_defined) {
     r.flags.push_back("no-fundamental");
   }
@@ -476,8 +508,16 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
       for (std::size_t k = 0; k < count; ++k) r.value_u[k] = std::sqrt(std::max(0.0, var[k % m]));
     }
   } else {
-    check_samples(std::ceil(options.periods * per_period - 1e-9));
-    count = static_cast<std::size_t>(std::ceil(options.periods * per_period - 1e-9));
+    // Counted in double first: a rate like 1e21 Hz gives more samples than size_t holds, and
+    // the cast of such a value is undefined (it gave 0, a header-only CSV; issue 11, class 7).
+    const double count_d = std::ceil(options.periods * per_period - 1e-9);
+    check_samples(count_d);
+    if (!(count_d <= options.max_direct_terms))
+      throw AnalysisError("the rate " + num(rate) + " Hz asks for " + num(count_d) + " samples over " +
+                          std::to_string(options.periods) + " period(s) of " + num(f0) +
+                          " Hz, more than the " + num(options.max_direct_terms) +
+                          " that can be evaluated; choose a lower rate or fewer periods");
+    count = static_cast<std::size_t>(count_d);
     const double work = static_cast<double>(count) * static_cast<double>(terms.size() + 1) *
                         static_cast<double>(1 + (r.has_uncertainty ? params + 1 : 0));
     if (work > options.max_direct_terms)
@@ -496,6 +536,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
   }
   r.time_s.resize(count);
   for (std::size_t k = 0; k < count; ++k) r.time_s[k] = static_cast<double>(k) / rate;
+  check_finite(r);
   return r;
 }
 
