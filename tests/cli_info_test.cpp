@@ -5,6 +5,7 @@
 #include <sndfile.h>
 #include <sys/stat.h>
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <nlohmann/json.hpp>
@@ -32,27 +33,39 @@ std::string q(const std::string& path) { return "'" + path + "'"; }
 
 }  // namespace
 
-TEST_CASE("cli info: aligned text with channels, rate, samples, duration, t0, statistics, metadata") {
+TEST_CASE("cli info: record, clock, and per channel fundamental, dc, ac rms, span, code step, flat samples") {
   const TempDir dir("cli_info_text");
   write_text(dir.file("small.csv"), kSmall);
   const auto r = run_cli("info " + q(dir.file("small.csv")));
   CHECK(r.exit_code == 0);
   CHECK(r.err == "");
+  // v = 1, 2, 3, 4: mean 2.5, total rms sqrt(7.5) = 2.73861, ac rms sqrt(1.25) = 1.11803
+  // (closed forms); the code step is the lattice the values sit on, log2(span/step + 1) bits.
   CHECK(r.out == dir.file("small.csv") +
+                     "  (csv, 2 channels)\n"
+                     "  record  4 samples at 4 Hz = 1 s, first sample at t = 0 s\n"
+                     "  clock   from the time column: 3 steps, each within 0 s of the mean step (rms 0 s); "
+                     "times printed to 0.01 s\n"
                      "\n"
-                     "  format       csv\n"
-                     "  channels     2 (v, i)\n"
-                     "  sample rate  4 Hz\n"
-                     "  samples      4\n"
-                     "  duration     1 s\n"
-                     "  t0           0 s\n"
+                     "  v [V]\n"
+                     "    fundamental   none found (the record has 4 samples; at least 8 are needed to find a "
+                     "fundamental)\n"
+                     "    dc            2.5 V\n"
+                     "    ac rms        1.11803 V (total rms 2.73861 V)\n"
+                     "    span          1 V to 4 V\n"
+                     "    code step     1 V (2 bits to code the span), 4 distinct levels\n"
+                     "    flat samples  0\n"
                      "\n"
-                     "  channel  unit   min  max  mean      rms\n"
-                     "  -------  ----  ----  ---  ----  -------\n"
-                     "  v        V        1    4   2.5  2.73861\n"
-                     "  i        A     -0.5  0.5     0      0.5\n"
+                     "  i [A]\n"
+                     "    fundamental   none found (the record has 4 samples; at least 8 are needed to find a "
+                     "fundamental)\n"
+                     "    dc            0 A\n"
+                     "    ac rms        0.5 A (total rms 0.5 A)\n"
+                     "    span          -0.5 A to 0.5 A\n"
+                     "    code step     1 A (1 bits to code the span), 2 distinct levels\n"
+                     "    flat samples  0\n"
                      "\n"
-                     "  metadata\n"
+                     "  preamble\n"
                      "    Operator  Bench 3\n");
 }
 
@@ -68,7 +81,11 @@ TEST_CASE("cli info: --json - writes only the JSON, keys in the documented order
   std::vector<std::string> keys;
   for (const auto& item : f.items()) keys.push_back(item.key());
   CHECK(keys == std::vector<std::string>{"source", "format", "sample_rate_hz", "t0_s", "samples", "duration_s",
-                                         "channels", "metadata"});
+                                         "rate_source", "time_steps", "step_deviation_rms_s",
+                                         "step_deviation_max_s", "time_printed_resolution_s", "channels",
+                                         "metadata"});
+  CHECK(f["rate_source"] == "time-column");
+  CHECK(f["time_steps"] == 3);
   CHECK(f["source"] == dir.file("small.csv"));
   CHECK(f["sample_rate_hz"].get<double>() == 4.0);  // 3 steps / 0.75 s
   CHECK(f["samples"] == 4);
@@ -80,6 +97,13 @@ TEST_CASE("cli info: --json - writes only the JSON, keys in the documented order
   CHECK(v["max"].get<double>() == 4.0);
   CHECK(v["mean"].get<double>() == 2.5);
   CHECK(v["rms"].get<double>() == std::sqrt(7.5));  // sums of small integers are exact
+  CHECK(v["ac_rms"].get<double>() == std::sqrt(1.25));
+  CHECK(v["code_step"].get<double>() == 1.0);
+  CHECK(v["levels"] == 4);
+  CHECK(v["flat_at_extremes"] == 0);
+  CHECK(v["f0_hz"].is_null());
+  CHECK(v["periods"].is_null());
+  CHECK(v["f0_note"] == "the record has 4 samples; at least 8 are needed to find a fundamental");
   CHECK(f["metadata"] == nlohmann::ordered_json::parse(R"([{"key": "Operator", "value": "Bench 3"}])"));
 }
 
@@ -90,9 +114,10 @@ TEST_CASE("cli info: --json PATH writes the file and still prints the text; seve
   const auto r = run_cli("info " + q(dir.file("a.csv")) + " " + q(dir.file("b.csv")) + " --json " +
                          q(dir.file("info.json")));
   REQUIRE(r.exit_code == 0);
-  CHECK(r.out.find(dir.file("a.csv") + "\n") == 0);
-  CHECK(r.out.find("\n\n" + dir.file("b.csv") + "\n  format       csv\n  channels     1 (x)\n  sample rate  1000 Hz\n") !=
-        std::string::npos);
+  CHECK(r.out.find(dir.file("a.csv") + "  (csv, 2 channels)\n") == 0);
+  CHECK(r.out.find("\n\n" + dir.file("b.csv") +
+                   "  (csv, 1 channel)\n  record  2 samples at 1000 Hz = 0.002 s, first sample at t = 0 s\n"
+                   "  clock   stated in the preamble (no time column)\n") != std::string::npos);
   const auto j = nlohmann::ordered_json::parse(periodfit::test::slurp(dir.file("info.json")));
   REQUIRE(j["files"].size() == 2);
   CHECK(j["files"][1]["channels"][0]["rms"].get<double>() == 1.0);
@@ -135,9 +160,72 @@ TEST_CASE("cli info: a WAV file shows full-scale units") {
   sf_close(f);
   const auto r = run_cli("info " + q(dir.file("tone.wav")));
   CHECK(r.exit_code == 0);
-  CHECK(r.out.find("  format       wav\n  channels     1 (ch0)\n  sample rate  8000 Hz\n  samples      4\n"
-                   "  duration     0.0005 s\n") != std::string::npos);
-  CHECK(r.out.find("  ch0      FS    -0.5  0.5     0  0.5\n") != std::string::npos);
+  CHECK(r.out.find("  (wav, 1 channel)\n  record  4 samples at 8000 Hz = 0.0005 s, first sample at t = 0 s\n"
+                   "  clock   from the audio header\n\n  ch0 [FS]\n") != std::string::npos);
+  CHECK(r.out.find("    span          -0.5 FS to 0.5 FS\n    code step     1 FS (1 bits to code the span), 2 distinct levels\n") !=
+        std::string::npos);
+}
+
+TEST_CASE("cli info: a clipped 16-bit tone shows its periods, the code step and the flat samples") {
+  const TempDir dir("cli_info_clipped");
+  SF_INFO info{};
+  info.samplerate = 8000;
+  info.channels = 1;
+  info.format = SF_FORMAT_WAV | SF_FORMAT_PCM_16;
+  // 100 Hz for 0.5 s = 50 periods, 0.8 FS clipped at ±0.5 FS (16384 codes): every clipped sample
+  // sits in a run of about 22 (80 samples per period), so all of them count as flat.
+  std::vector<short> codes(4000);
+  std::size_t clipped = 0;
+  for (std::size_t k = 0; k < codes.size(); ++k) {
+    const double v = 0.8 * std::sin(2 * 3.141592653589793 * 100.0 * static_cast<double>(k) / 8000.0);
+    const double c = std::clamp(v, -0.5, 0.5);
+    if (c != v) ++clipped;
+    codes[k] = static_cast<short>(std::lround(c * 32768.0));
+  }
+  SNDFILE* f = sf_open(dir.file("clip.wav").c_str(), SFM_WRITE, &info);
+  REQUIRE(f);
+  sf_write_short(f, codes.data(), static_cast<sf_count_t>(codes.size()));
+  sf_close(f);
+  const auto r = run_cli("info " + q(dir.file("clip.wav")) + " --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto ch = nlohmann::ordered_json::parse(r.out)["files"][0]["channels"][0];
+  // One PCM16 code is 2^-15 FS (the reader's code / 0x8000 normalisation, docs/capture-formats.md).
+  CHECK(ch["code_step"].get<double>() == 1.0 / 32768.0);
+  CHECK(ch["flat_at_extremes"].get<std::size_t>() == clipped);
+  REQUIRE(ch["f0_hz"].is_number());
+  // The coarse-plus-sine-fit fundamental of a noise-free tone: 100 Hz to far better than 1e-6.
+  CHECK(std::fabs(ch["f0_hz"].get<double>() - 100.0) < 1e-6);
+  CHECK(std::fabs(ch["periods"].get<double>() - 50.0) < 1e-6);
+  const auto text = run_cli("info " + q(dir.file("clip.wav")));
+  CHECK(text.out.find("    fundamental   100 Hz: 50 periods in the record\n") != std::string::npos);
+  CHECK(text.out.find("    flat samples  " + std::to_string(clipped) +
+                      " held at the min or max in runs of 3 or more (clipping, or flat tops by design)\n") !=
+        std::string::npos);
+}
+
+TEST_CASE("cli info: a time column's step deviations are reported with the printed resolution") {
+  const TempDir dir("cli_info_clock");
+  // Steps of 1 ms with every fourth time printed 20 ns late (within the reader's 1e-4 relative
+  // uniformity): steps deviate by +20 ns and -20 ns from the mean 1 ms.
+  std::string csv = "t,x\n";
+  for (int k = 0; k < 200; ++k) {
+    const double t = 1e-3 * k + (k % 4 == 3 ? 20e-9 : 0.0);
+    char line[64];
+    std::snprintf(line, sizeof line, "%.9f,%d\n", t, (k % 10) - 5);
+    csv += line;
+  }
+  write_text(dir.file("clock.csv"), csv);
+  const auto r = run_cli("info " + q(dir.file("clock.csv")) + " --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto f = nlohmann::ordered_json::parse(r.out)["files"][0];
+  CHECK(f["rate_source"] == "time-column");
+  CHECK(f["time_steps"] == 199);
+  // Largest deviation 20 ns (a late time's two steps are +20 and -20 ns about a mean step
+  // within 0.1 ns of 1 ms); printed to 1e-9 s.
+  CHECK(std::fabs(f["step_deviation_max_s"].get<double>() - 20e-9) < 0.5e-9);
+  CHECK(f["step_deviation_rms_s"].get<double>() > 5e-9);
+  CHECK(f["step_deviation_rms_s"].get<double>() < 20e-9);
+  CHECK(std::fabs(f["time_printed_resolution_s"].get<double>() - 1e-9) < 1e-15);
 }
 
 TEST_CASE("cli info: bad inputs give one error line, exit 2, and no output") {

@@ -1,4 +1,5 @@
-// periodfit info FILE…: the layout and statistics of captures, as aligned text and/or JSON.
+// periodfit info FILE…: what a bench user checks of a capture before analysing it (length in
+// periods, clock regularity, code step, flat samples, dc and rms), as text and/or JSON.
 #include <cstdio>
 #include <memory>
 #include <string>
@@ -7,6 +8,7 @@
 #include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
 #include "core/exit_code.hpp"
+#include "dsp/capture_survey.hpp"
 #include "io/capture_reader.hpp"
 #include "io/info.hpp"
 #include "io/output_set.hpp"
@@ -34,7 +36,7 @@ Runner add_info(CLI::App& app) {
     io::OutputSet outputs({{"--json", args->json_path}}, inputs);
     // Every file is read before anything is shown, so an error leaves no partial result.
     std::vector<io::CaptureInfo> infos;
-    for (const auto& path : args->files) infos.push_back(io::describe(io::read_capture(path, args->read)));
+    for (const auto& path : args->files) infos.push_back(dsp::survey_capture(io::read_capture(path, args->read)));
     // Names and metadata are bytes from the file, not always UTF-8: invalid sequences are
     // written as U+FFFD so the JSON stays valid (docs/robustness.md, entry 16).
     if (outputs.requested("--json")) outputs.set("--json", io::json_text(io::info_json(infos)));

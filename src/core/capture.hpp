@@ -16,6 +16,19 @@ struct Channel {
   std::vector<double> samples;  ///< one value per sample instant
 };
 
+/// Where a capture's sample rate came from and, for a CSV time column, how regular its steps
+/// were (what `info` reports as the clock's regularity). Deviations are of each step
+/// t_k − t_{k−1} from the mean step; they include the rounding of the printed times, whose
+/// finest printed unit is given so a reader can tell rounding from jitter.
+struct TimeBase {
+  enum class Source { time_column, preamble, rate_option, audio_header };
+  Source source = Source::audio_header;
+  std::size_t steps = 0;              ///< time-column steps seen (0 without a time column)
+  double step_deviation_rms_s = 0;    ///< RMS of (step − mean step), Welford's running variance
+  double step_deviation_max_s = 0;    ///< largest |step − mean step|
+  double printed_resolution_s = 0;    ///< finest unit of the printed times (0 when not known)
+};
+
 struct Capture {
   std::string source;           ///< path or test name the data came from
   std::string format;           ///< "csv", "wav", "flac", … (what the importer recognised)
@@ -23,6 +36,7 @@ struct Capture {
   double t0_s = 0;              ///< time of the first sample relative to the file's origin
   std::vector<Channel> channels;  ///< data channels; a CSV time column is not a channel
   std::vector<std::pair<std::string, std::string>> metadata;  ///< preamble key/values, in order
+  TimeBase time_base;           ///< where the rate came from; the time column's regularity
 
   std::size_t sample_count() const { return channels.empty() ? 0 : channels.front().samples.size(); }
   double duration_s() const { return sample_rate_hz > 0 ? double(sample_count()) / sample_rate_hz : 0; }

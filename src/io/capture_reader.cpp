@@ -119,7 +119,11 @@ void validate(const ReadOptions& options) {
 
 void apply_read_options(Capture& capture, const ReadOptions& options) {
   validate(options);
-  if (options.rate_hz > 0) capture.sample_rate_hz = options.rate_hz;
+  if (options.rate_hz > 0) {
+    capture.sample_rate_hz = options.rate_hz;
+    capture.time_base = TimeBase{};
+    capture.time_base.source = TimeBase::Source::rate_option;
+  }
   // Resolve every selector before changing anything, so a bad name leaves the capture as is.
   std::vector<std::size_t> scaled, united;
   for (const auto& [channel, factor] : options.scales) scaled.push_back(capture.channel_index(channel));

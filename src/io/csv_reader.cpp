@@ -15,6 +15,7 @@
 #include <cerrno>
 #include <charconv>
 #include <cmath>
+#include <limits>
 #include <cstring>
 #include <functional>
 #include <optional>
@@ -367,6 +368,15 @@ class TimeCheck {
     } else {
       const double step = t - last_;
       if (!(step > 0)) return Verdict::not_increasing;
+      // Welford's running mean and variance of the steps (stable where E[s²] − E[s]² would
+      // cancel: deviations are ~1e-7 of a step), and the extreme steps, for info's report.
+      ++steps_;
+      const double delta = step - step_mean_;
+      step_mean_ += delta / static_cast<double>(steps_);
+      step_m2_ += delta * (step - step_mean_);
+      step_min_ = steps_ == 1 ? step : std::min(step_min_, step);
+      step_max_ = steps_ == 1 ? step : std::max(step_max_, step);
+      finest_ = std::min(finest_, resolution(text));
       if (count_ >= 2) {
         const double mean = (last_ - first_) / static_cast<double>(count_ - 1);
         last_mean_ = mean;
@@ -394,6 +404,17 @@ class TimeCheck {
   double last() const { return last_; }
   double mean_step() const { return last_mean_; }
   double rate_hz() const { return static_cast<double>(count_ - 1) / (last_ - first_); }
+  /// The regularity of the steps seen (Capture::time_base), source left to the caller.
+  TimeBase regularity() const {
+    TimeBase b;
+    b.steps = steps_;
+    if (steps_ > 0) {
+      b.step_deviation_rms_s = std::sqrt(step_m2_ / static_cast<double>(steps_));
+      b.step_deviation_max_s = std::max(step_max_ - step_mean_, step_mean_ - step_min_);
+      b.printed_resolution_s = std::isfinite(finest_) ? finest_ : 0;
+    }
+    return b;
+  }
   /// Relative uncertainty of rate_hz() from the rounding of the first and last value.
   double rate_rounding() const {
     return 0.5 * (resolution(first_text_) + resolution(last_text_)) / (last_ - first_);
@@ -406,6 +427,9 @@ class TimeCheck {
   double factor_;
   std::size_t count_ = 0;
   double first_ = 0, last_ = 0, last_mean_ = 0;
+  std::size_t steps_ = 0;
+  double step_mean_ = 0, step_m2_ = 0, step_min_ = 0, step_max_ = 0;
+  double finest_ = std::numeric_limits<double>::infinity();
   std::string_view first_text_, last_text_;
 };
 
@@ -938,8 +962,11 @@ Capture Parser::run() {
   if (time_column_) capture_.t0_s = time_.first();
   if (options_.rate_hz > 0) {
     capture_.sample_rate_hz = options_.rate_hz;
+    capture_.time_base.source = TimeBase::Source::rate_option;
   } else if (time_column_ && time_.count() >= 2) {
     capture_.sample_rate_hz = time_.rate_hz();
+    capture_.time_base = time_.regularity();
+    capture_.time_base.source = TimeBase::Source::time_column;
     if (stated) {
       const double tolerance = kStatedRateAgreement + time_.rate_rounding();
       if (std::fabs(stated->rate_hz - capture_.sample_rate_hz) > tolerance * capture_.sample_rate_hz)
@@ -950,6 +977,7 @@ Capture Parser::run() {
     }
   } else if (stated) {
     capture_.sample_rate_hz = stated->rate_hz;
+    capture_.time_base.source = TimeBase::Source::preamble;
   } else {
     fail(0, 0,
          std::string("no sample rate: ") +

@@ -30,7 +30,24 @@ class CompensatedSum {
   double carry_ = 0;
 };
 
+// Values within this fraction of the span of a lattice point count as on it: far below any
+// code step (a 24-bit converter's is 6e-8 of full scale) and above the rounding of parsed
+// decimal text (1e-16 relative).
+constexpr double kLatticeTolerance = 1e-10;
+// A lattice finer than 2^-32 of the span is not a converter's: the values are continuous.
+constexpr int kFinestLatticeBits = 32;
+
 }  // namespace
+
+const char* rate_source_code(TimeBase::Source source) {
+  switch (source) {
+    case TimeBase::Source::time_column: return "time-column";
+    case TimeBase::Source::preamble: return "preamble";
+    case TimeBase::Source::rate_option: return "rate-option";
+    case TimeBase::Source::audio_header: return "audio-header";
+  }
+  return "audio-header";
+}
 
 ChannelStats channel_stats(const Channel& channel) {
   assert(!channel.samples.empty());
@@ -57,6 +74,51 @@ ChannelStats channel_stats(const Channel& channel) {
   const auto n = static_cast<double>(channel.samples.size());
   s.mean = sum.value() / n * scale;
   s.rms = std::sqrt(squares.value() / n) * scale;
+  // The ac part as a second, centred pass: rms² − mean² cancels when dc dominates.
+  const double centre = s.mean / scale;
+  CompensatedSum centred;
+  for (double x : channel.samples) {
+    const double y = x / scale - centre;
+    centred.add(y * y);
+  }
+  s.ac_rms = std::sqrt(centred.value() / n) * scale;
+
+  // The code step: the lattice every value sits on (values = offset + integer × step), found
+  // as the greatest common divisor of the differences between sorted distinct values (Euclid's
+  // algorithm on reals, with a tolerance). A smooth tone skips codes, so the smallest difference
+  // seen overstates the step; the GCD does not. Continuous values (no lattice finer than
+  // kFinestLatticeBits over the span) report 0.
+  std::vector<double> sorted(channel.samples);
+  std::sort(sorted.begin(), sorted.end());
+  s.levels = sorted.empty() ? 0 : 1;
+  const double span = s.max - s.min;
+  const double tolerance = kLatticeTolerance * span;
+  auto real_gcd = [tolerance](double a, double b) {
+    while (b > tolerance) {
+      const double r = std::fmod(a, b);
+      a = b;
+      b = std::min(r, b - r) > tolerance ? r : 0;
+    }
+    return a;
+  };
+  double step = 0;
+  for (std::size_t i = 1; i < sorted.size(); ++i) {
+    if (sorted[i] == sorted[i - 1]) continue;
+    ++s.levels;
+    const double d = sorted[i] - sorted[i - 1];
+    step = step == 0 ? d : real_gcd(std::max(step, d), std::min(step, d));
+  }
+  s.code_step = std::isfinite(step) && step > std::ldexp(span, -kFinestLatticeBits) ? step : 0;
+
+  if (s.min < s.max) {
+    const auto& x = channel.samples;
+    for (std::size_t i = 0; i < x.size();) {
+      std::size_t j = i + 1;
+      while (j < x.size() && x[j] == x[i]) ++j;
+      if (j - i >= kFlatRun && (x[i] == s.min || x[i] == s.max)) s.flat_at_extremes += j - i;
+      i = j;
+    }
+  }
   return s;
 }
 
@@ -70,6 +132,7 @@ CaptureInfo describe(const Capture& capture) {
   info.duration_s = capture.duration_s();
   for (const auto& channel : capture.channels) info.channels.push_back(channel_stats(channel));
   info.metadata = capture.metadata;
+  info.time_base = capture.time_base;
   return info;
 }
 
@@ -81,6 +144,11 @@ nlohmann::ordered_json info_json(const CaptureInfo& info) {
   j["t0_s"] = info.t0_s;
   j["samples"] = info.samples;
   j["duration_s"] = info.duration_s;
+  j["rate_source"] = rate_source_code(info.time_base.source);
+  j["time_steps"] = info.time_base.steps;
+  j["step_deviation_rms_s"] = info.time_base.step_deviation_rms_s;
+  j["step_deviation_max_s"] = info.time_base.step_deviation_max_s;
+  j["time_printed_resolution_s"] = info.time_base.printed_resolution_s;
   j["channels"] = nlohmann::ordered_json::array();
   for (const auto& c : info.channels) {
     nlohmann::ordered_json cj;
@@ -90,6 +158,13 @@ nlohmann::ordered_json info_json(const CaptureInfo& info) {
     cj["max"] = c.max;
     cj["mean"] = c.mean;
     cj["rms"] = c.rms;
+    cj["ac_rms"] = c.ac_rms;
+    cj["code_step"] = c.code_step;
+    cj["levels"] = c.levels;
+    cj["flat_at_extremes"] = c.flat_at_extremes;
+    cj["f0_hz"] = c.f0_hz ? nlohmann::ordered_json(*c.f0_hz) : nlohmann::ordered_json(nullptr);
+    cj["periods"] = c.f0_hz ? nlohmann::ordered_json(*c.f0_hz * info.duration_s) : nlohmann::ordered_json(nullptr);
+    cj["f0_note"] = c.f0_note;
     j["channels"].push_back(std::move(cj));
   }
   j["metadata"] = nlohmann::ordered_json::array();
@@ -106,39 +181,76 @@ nlohmann::ordered_json info_json(const std::vector<CaptureInfo>& files) {
   return j;
 }
 
+namespace {
+
+std::string with_unit(double v, const std::string& unit) {
+  return format_significant(v) + (unit.empty() ? "" : " " + unit);
+}
+
+std::string clock_line(const CaptureInfo& info) {
+  const TimeBase& b = info.time_base;
+  switch (b.source) {
+    case TimeBase::Source::rate_option: return "given on the command line (--rate)";
+    case TimeBase::Source::preamble: return "stated in the preamble (no time column)";
+    case TimeBase::Source::audio_header: return "from the audio header";
+    case TimeBase::Source::time_column: break;
+  }
+  std::string line = "from the time column: " + std::to_string(b.steps) + " steps, each within " +
+                     format_significant(b.step_deviation_max_s, 2) + " s of the mean step (rms " +
+                     format_significant(b.step_deviation_rms_s, 2) + " s)";
+  if (b.printed_resolution_s > 0)
+    line += "; times printed to " + format_significant(b.printed_resolution_s, 2) + " s";
+  return line;
+}
+
+}  // namespace
+
 std::string info_text(const CaptureInfo& info) {
-  // The summary line names at most kListedNames channels; the table below lists them all.
-  constexpr std::size_t kListedNames = 8;
-  std::string names;
-  for (std::size_t i = 0; i < info.channels.size() && i < kListedNames; ++i)
-    names += (i ? ", " : "") + info.channels[i].name;
-  if (info.channels.size() > kListedNames)
-    names += ", … " + std::to_string(info.channels.size() - kListedNames) + " more";
-  std::string out = info.source + "\n";
+  // A block per file, then a few lines per channel: what a bench user checks before analysing
+  // (is the record long enough, is the clock regular, is the resolution enough, is it clipped).
+  std::string out = info.source + "  (" + info.format + ", " + std::to_string(info.channels.size()) +
+                    (info.channels.size() == 1 ? " channel)\n" : " channels)\n");
   out += report::render_key_values(
       {
-          {"format", info.format},
-          {"channels", std::to_string(info.channels.size()) + " (" + names + ")"},
-          {"sample rate", format_significant(info.sample_rate_hz, 9) + " Hz"},
-          {"samples", std::to_string(info.samples)},
-          {"duration", format_significant(info.duration_s, 9) + " s"},
-          {"t0", format_significant(info.t0_s, 9) + " s"},
+          {"record", std::to_string(info.samples) + " samples at " + format_significant(info.sample_rate_hz, 9) +
+                         " Hz = " + format_significant(info.duration_s, 9) + " s, first sample at t = " +
+                         format_significant(info.t0_s, 9) + " s"},
+          {"clock", clock_line(info)},
       },
       2);
-  out += "\n";
-  using Align = report::Table::Align;
-  report::Table table({{"channel", Align::left},
-                       {"unit", Align::left},
-                       {"min", Align::right},
-                       {"max", Align::right},
-                       {"mean", Align::right},
-                       {"rms", Align::right}});
-  for (const auto& c : info.channels)
-    table.add_row({c.name, c.unit.empty() ? "-" : c.unit, format_significant(c.min),
-                   format_significant(c.max), format_significant(c.mean), format_significant(c.rms)});
-  out += table.render(2);
+  for (const auto& c : info.channels) {
+    out += "\n  " + c.name + (c.unit.empty() ? " (no unit)" : " [" + c.unit + "]") + "\n";
+    std::string fundamental;
+    if (c.f0_hz)
+      fundamental = format_significant(*c.f0_hz, 7) + " Hz: " +
+                    format_significant(*c.f0_hz * info.duration_s, 4) + " periods in the record";
+    else
+      fundamental = "none found" + (c.f0_note.empty() ? std::string() : " (" + c.f0_note + ")");
+    std::string step;
+    if (c.levels <= 1)
+      step = "one level only (constant)";
+    else if (c.code_step == 0)
+      step = "none: the values are continuous (" + std::to_string(c.levels) + " distinct levels)";
+    else
+      step = with_unit(c.code_step, c.unit) + " (" + format_significant(std::log2((c.max - c.min) / c.code_step + 1), 3) +
+             " bits to code the span), " + std::to_string(c.levels) + " distinct levels";
+    std::string flat = std::to_string(c.flat_at_extremes);
+    if (c.flat_at_extremes > 0)
+      flat += " held at the min or max in runs of " + std::to_string(kFlatRun) +
+              " or more (clipping, or flat tops by design)";
+    out += report::render_key_values(
+        {
+            {"fundamental", fundamental},
+            {"dc", with_unit(c.mean, c.unit)},
+            {"ac rms", with_unit(c.ac_rms, c.unit) + " (total rms " + with_unit(c.rms, c.unit) + ")"},
+            {"span", with_unit(c.min, c.unit) + " to " + with_unit(c.max, c.unit)},
+            {"code step", step},
+            {"flat samples", flat},
+        },
+        4);
+  }
   if (!info.metadata.empty()) {
-    out += "\n  metadata\n";
+    out += "\n  preamble\n";
     out += report::render_key_values(info.metadata, 4);
   }
   return out;
