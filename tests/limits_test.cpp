@@ -129,7 +129,10 @@ TEST_CASE("limits: malformed limits are load-time errors naming the field") {
         "limits.toml:5:10: expect applies to yes/no results (model_adequate, linear); dc_gain "
         "takes nominal \xC2\xB1 tolerance or min/max");
   CHECK(load_error(head + "result = \"dc_gain\"\nnominal = \"one\"\ntolerance = 1\n") ==
-        "limits.toml:5:11: nominal: expected a number, found a string");
+        "limits.toml:5:11: nominal = \"one\": expected a number with its unit, e.g. \"8 %\", "
+        "\"-40 dB\", \"1.2 kHz\"");
+  CHECK(load_error(head + "result = \"dc_gain\"\nnominal = true\ntolerance = 1\n") ==
+        "limits.toml:5:11: nominal: expected a number or a string with a unit (\"8 %\"), found a boolean");
   CHECK(load_error(head + "result = \"dc_gain\"\nnominal = 1\ntolerence = 0.1\n") ==
         "limits.toml:6:1: unknown key \"tolerence\" in [[limit]] (did you mean \"tolerance\"?)");
   CHECK(load_error(head + "nominal = 1\n") ==
