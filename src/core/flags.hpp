@@ -1,6 +1,7 @@
 #pragma once
 /// The flags an analysis can raise, each with its severity and one sentence for people: the
-/// one table that the batch verdict (batch/runner), the docs (docs/flags.md) and the tests read.
+/// one table that the batch verdict (batch/runner), the docs (docs/batch-config.md, "[verdict]")
+/// and the tests read.
 ///
 /// Severity says what a flag does to the numbers of the result that carries it:
 /// - `invalidates`: the numbers cannot be trusted (the waveform was not what was measured, or the
