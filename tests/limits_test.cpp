@@ -298,6 +298,15 @@ TEST_CASE("limits: bounds written with their unit convert to SI and are shown as
   CHECK(l.lo == doctest::Approx(1195).epsilon(kConversionTolerance));
   CHECK(l.hi == doctest::Approx(1205).epsilon(kConversionTolerance));
   CHECK(l.allowed_text() == "1.2 kHz \xC2\xB1 5 Hz");
+  // A prefix alone takes the result's unit: "1.25k" = 1250 Hz, shown as kHz.
+  l = loaded("result = \"f0_hz\"\nmax = \"1.25k\"\n");
+  CHECK(l.hi == doctest::Approx(1250).epsilon(kConversionTolerance));
+  CHECK(l.display_unit == "kHz");
+  // A tolerance in % on a ratio result is in percentage points: 5 % ± 1 % = 0.04 … 0.06.
+  l = loaded("result = \"thd\"\nnominal = \"5 %\"\ntolerance = \"1 %\"\n");
+  CHECK(l.lo == doctest::Approx(0.04).epsilon(kConversionTolerance));
+  CHECK(l.hi == doctest::Approx(0.06).epsilon(kConversionTolerance));
+  CHECK(l.allowed_text() == "5 % \xC2\xB1 1 %");
   l = loaded("result = \"delay_s\"\nmax = \"250 us\"\n", "identify");
   CHECK(l.hi == doctest::Approx(2.5e-4).epsilon(kConversionTolerance));
   l = loaded("result = \"amplitude\"\nharmonic = 1\nnominal = 1\ntolerance = \"20 mV\"\n");

@@ -189,6 +189,9 @@ std::variant<Written, std::string> parse_written(const ResultInfo& info, const s
     return message;
   }
   w.scale = *scale;
+  // "1.2k" on a result in Hz or s: shown as "kHz" beside the measured value.
+  if ((info.unit == "Hz" || info.unit == "s") && !w.token.empty() && prefix_factor(w.token))
+    w.token += std::string(info.unit);
   return w;
 }
 
