@@ -57,3 +57,16 @@ TEST_CASE("flags: a batch row's channel prefix is stripped to the code") {
   CHECK(flag_code("a: b: drift") == "drift");  // a channel name may hold ": "
   CHECK(flag_code("nonlinear") == "nonlinear");
 }
+
+TEST_CASE("flags: the severity table in docs/batch-config.md is the library's table") {
+  std::ifstream in(fs::path(PERIODFIT_SOURCE_DIR) / "docs" / "batch-config.md");
+  const std::regex row(R"(^\| `([a-z0-9-]+)` \| (invalidates|caution|info) \| )");
+  std::vector<std::pair<std::string, std::string>> documented;
+  for (std::string line; std::getline(in, line);) {
+    std::smatch m;
+    if (std::regex_search(line, m, row)) documented.emplace_back(m[1], m[2]);
+  }
+  std::vector<std::pair<std::string, std::string>> library;
+  for (const auto& f : flag_catalogue()) library.emplace_back(std::string(f.code), severity_name(f.severity));
+  CHECK(documented == library);
+}
