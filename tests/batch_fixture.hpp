@@ -3,6 +3,7 @@
 // H(s) = g/((s/ωn)² + 2ζ s/ωn + 1), driven by an odd multisine (harmonics 1, 3, … 49 of f0,
 // Schroeder phases), recorded as a two-channel CSV with a time column. The output is the exact
 // periodic steady state (each harmonic scaled by H(jnω0)), plus seeded Gaussian noise.
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <cstdio>
@@ -55,6 +56,32 @@ inline void write_lowpass_csv(const std::string& path, const LowpassCapture& c) 
     x += noise(rng);
     y += noise(rng);
     std::snprintf(line, sizeof line, "%.9f,%.7e,%.7e\n", t, x, y);
+    out << line;
+  }
+}
+
+/// A one-channel capture for analyze-mode batches: a1·cos(ωt) + a3·cos(3ωt) in volts, so its THD
+/// is a3/a1 exactly (IEEE Std 1241 THD of a two-line signal), optionally clipped at ±clip_v
+/// (0 = not clipped), noise-free, written with 9 significant digits.
+struct SineCapture {
+  double f0_hz = 1200;
+  double fs_hz = 48000;
+  int samples = 960;   ///< 24 periods
+  double a1_v = 1;
+  double a3_v = 0.093; ///< THD 9.3 %
+  double clip_v = 0;
+};
+
+inline void write_sine_csv(const std::string& path, const SineCapture& c) {
+  std::ofstream out(path, std::ios::binary);
+  out << "time (s),v (V)\n";
+  char line[96];
+  for (int k = 0; k < c.samples; ++k) {
+    const double t = k / c.fs_hz;
+    const double w = 2 * std::numbers::pi * c.f0_hz * t;
+    double x = c.a1_v * std::cos(w) + c.a3_v * std::cos(3 * w);
+    if (c.clip_v > 0) x = std::clamp(x, -c.clip_v, c.clip_v);
+    std::snprintf(line, sizeof line, "%.9g,%.9g\n", t, x);
     out << line;
   }
 }

@@ -8,6 +8,8 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <cmath>
+#include <nlohmann/json.hpp>
 #include <chrono>
 #include <filesystem>
 #include <fstream>
@@ -21,6 +23,8 @@
 #include "report/table.hpp"
 #include "batch_fixture.hpp"
 #include "core/error.hpp"
+#include "core/flags.hpp"
+#include "io/number_format.hpp"
 #include "support/cli_runner.hpp"
 
 using namespace periodfit;
@@ -155,21 +159,267 @@ TEST_CASE("batch: outputs are byte-identical for --jobs 1 and --jobs 2") {
   }
 }
 
-TEST_CASE("batch: summary.csv has one row per file with the limit columns") {
+namespace {
+
+// RFC 4180 cells of one CSV line (quotes doubled inside quoted cells).
+std::vector<std::string> csv_cells(const std::string& line) {
+  std::vector<std::string> cells(1);
+  bool quoted = false;
+  for (std::size_t i = 0; i < line.size(); ++i) {
+    const char c = line[i];
+    if (quoted && c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
+      cells.back() += '"';
+      ++i;
+    } else if (c == '"') {
+      quoted = !quoted;
+    } else if (c == ',' && !quoted) {
+      cells.emplace_back();
+    } else {
+      cells.back() += c;
+    }
+  }
+  return cells;
+}
+
+std::vector<std::string> csv_lines(const std::string& csv) {
+  std::vector<std::string> lines;
+  std::size_t at = 0;
+  while (at < csv.size()) {
+    const std::size_t nl = csv.find('\n', at);
+    lines.push_back(csv.substr(at, nl - at));
+    at = nl == std::string::npos ? csv.size() : nl + 1;
+  }
+  return lines;
+}
+
+std::string limit_header(int k, const std::string& key) {
+  const std::string p = "limit" + std::to_string(k) + ":";
+  return p + key + "," + p + "u," + p + "k," + p + "lo95," + p + "hi95," + p + "min," + p + "max," + p +
+         "allowed," + p + "passed," + p + "verdict," + p + "margin," + p + "margin_fraction";
+}
+
+// Margins by hand (docs/batch-output.md): distance to the nearest bound; over hi − lo.
+double margin_two_sided(double v, double lo, double hi) { return std::min(v - lo, hi - v); }
+
+// Shortest round-trip text parses back to the very double it was written from.
+constexpr double kRoundTrip = 0;
+// The analysed value against its closed form: the capture is written with 9 significant digits.
+constexpr double kNineDigits = 1e-7;
+
+}  // namespace
+
+TEST_CASE("batch: summary.csv header and a row, cell by cell, with margins by hand and true/false booleans") {
   Boards boards;
   periodfit::test::TempDir out("batch_csv");
   run_batch(options_for(boards, out.path.string(), 1));
-  const std::string csv = slurp(out.path / "report" / "summary.csv");
-  const std::string header = csv.substr(0, csv.find('\n'));
-  CHECK(header ==
-        "path,status,f0_hz,excited,order,dc_gain,delay_s,cost_ratio,adequate,linear,"
-        "limit1:dc_gain,limit2:natural_frequency_hz[pole=1],limit3:damping[pole=1],"
-        "failing_limits,message");
-  std::size_t rows = 0;
-  for (char c : csv) rows += c == '\n' ? 1u : 0u;
-  CHECK(rows == 6);  // header + 5 files
-  CHECK(csv.find(",FAIL,") != std::string::npos);
-  CHECK(csv.find("natural_frequency_hz of pole 1 = 1") != std::string::npos);
+  const auto lines = csv_lines(slurp(out.path / "report" / "summary.csv"));
+  REQUIRE(lines.size() == 6);  // header + 5 files
+  CHECK(lines[0] == "path,status,f0_hz,excited,order,dc_gain,delay_s,cost_ratio,adequate,linear," +
+                        limit_header(1, "dc_gain") + "," + limit_header(2, "natural_frequency_hz[pole=1]") +
+                        "," + limit_header(3, "damping[pole=1]") +
+                        ",flags,failing_flags,failing_limits,message");
+  // board_a: the textbook filter (g = 1, fn = 1000 Hz, ζ = 0.5), passing every limit.
+  const auto c = csv_cells(lines[1]);
+  REQUIRE(c.size() == 10 + 3 * 12 + 4);
+  CHECK(c[0] == (boards.dir.path / "board_a.csv").string());
+  CHECK(c[1] == "PASS");
+  CHECK(std::stod(c[2]) == doctest::Approx(100.013).epsilon(1e-6));  // the fixture's f0
+  CHECK(c[3] == "25");                                               // odd harmonics 1 … 49
+  CHECK(c[4] == "0/2");
+  CHECK(c[5] == c[10]);  // the dc_gain key column is limit 1's value
+  CHECK(c[6] == "0");    // no delay estimated
+  CHECK(std::stod(c[7]) > 0);
+  // Booleans: true/false in every machine output. This capture's 0/2 fit sits near the lower
+  // edge of its cost band (cost 38.4, band 39.8 … 117), so which one it is stays open here; an
+  // inadequate model carries the caution flag model-inadequate, which does not fail the file.
+  CHECK((c[8] == "true" || c[8] == "false"));
+  CHECK(c[9] == "true");
+  // limit 1: dc_gain 1 ± 0.02 with guard band; k is the model's normal 95 % factor.
+  const double g = std::stod(c[10]), gu = std::stod(c[11]), gk = std::stod(c[12]);
+  CHECK(g == doctest::Approx(1).epsilon(0.02));
+  CHECK(gu > 0);
+  CHECK(gk == model_coverage_factor());
+  CHECK(std::stod(c[13]) == doctest::Approx(g - gk * gu).epsilon(1e-12));
+  CHECK(std::stod(c[14]) == doctest::Approx(g + gk * gu).epsilon(1e-12));
+  CHECK(c[15] == "0.98");
+  CHECK(c[16] == "1.02");
+  CHECK(c[17] == "1 \xC2\xB1 0.02 (guard band: 95 % interval inside)");
+  CHECK(c[18] == "true");
+  CHECK(c[19] == "pass");
+  CHECK(std::stod(c[20]) == doctest::Approx(margin_two_sided(g, 0.98, 1.02)).epsilon(1e-12));
+  CHECK(std::stod(c[21]) == doctest::Approx(margin_two_sided(g, 0.98, 1.02) / 0.04).epsilon(1e-9));
+  // limit 2: fn 1000 ± 5 % = 950 … 1050.
+  const double fn = std::stod(c[22]);
+  CHECK(fn == doctest::Approx(1000).epsilon(0.05));
+  CHECK(c[27] == "950");
+  CHECK(c[28] == "1050");
+  CHECK(c[29] == "1000 Hz \xC2\xB1 5 %");
+  CHECK(c[30] == "true");
+  CHECK(c[31] == "pass");
+  CHECK(std::stod(c[32]) == doctest::Approx(margin_two_sided(fn, 950, 1050)).epsilon(1e-12));
+  CHECK(std::stod(c[33]) == doctest::Approx(margin_two_sided(fn, 950, 1050) / 100).epsilon(1e-9));
+  // limit 3: ζ 0.45 … 0.55.
+  const double z = std::stod(c[34]);
+  CHECK(c[39] == "0.45");
+  CHECK(c[40] == "0.55");
+  CHECK(c[41] == "0.45 \xE2\x80\xA6 0.55");
+  CHECK(c[42] == "true");
+  CHECK(std::stod(c[44]) == doctest::Approx(margin_two_sided(z, 0.45, 0.55)).epsilon(1e-12));
+  CHECK(std::stod(c[45]) == doctest::Approx(margin_two_sided(z, 0.45, 0.55) / 0.1).epsilon(1e-9));
+  // At most the caution flag, nothing failing, no message.
+  CHECK(c[46] == (c[8] == "false" ? "model-inadequate" : ""));
+  CHECK(c[47] == "");
+  CHECK(c[48] == "");
+  CHECK(c[49] == "");
+  // board_b fails the corner limit: passed false, a negative margin (outside).
+  const auto b = csv_cells(lines[2]);
+  CHECK(b[1] == "FAIL");
+  CHECK(b[30] == "false");
+  CHECK(b[31] == "fail: outside the range");
+  CHECK(std::stod(b[32]) < 0);
+  CHECK(b[48].rfind("natural_frequency_hz of pole 1 = 1", 0) == 0);
+}
+
+TEST_CASE("batch: limits written in %, dB, kHz and mV; a 9.3 % THD fails 8 %, the whole row by hand") {
+  periodfit::test::TempDir dir("batch_units");
+  test::SineCapture s;  // 1 V at 1.2 kHz with a 93 mV third harmonic: THD 0.093 (IEEE Std 1241)
+  test::write_sine_csv(dir.file("a.csv"), s);
+  BatchOptions o;
+  o.inputs = {dir.file("a.csv")};
+  o.report_dir = dir.file("report");
+  o.jobs = 1;
+  o.config = parse_batch_config(R"([[limit]]
+result = "thd"
+max = "8 %"
+[[limit]]
+result = "thd"
+max = "-20 dB"
+[[limit]]
+result = "f0_hz"
+nominal = "1.2 kHz"
+tolerance = "5 Hz"
+[[limit]]
+result = "amplitude"
+harmonic = 1
+nominal = "1 V"
+tolerance = "20 mV"
+)",
+                                "units.toml");
+  const BatchResult r = run_batch(o);
+  CHECK(batch_exit_code(r) == ExitCode::fail);
+  const auto lines = csv_lines(slurp(dir.path / "report" / "summary.csv"));
+  REQUIRE(lines.size() == 2);
+  CHECK(lines[0] == "path,status,channel,f0_hz,rms,thd,sinad_db," + limit_header(1, "thd") + "," +
+                        limit_header(2, "thd") + "," + limit_header(3, "f0_hz") + "," +
+                        limit_header(4, "amplitude[n=1]") + ",flags,failing_flags,failing_limits,message");
+  const auto c = csv_cells(lines[1]);
+  REQUIRE(c.size() == 7 + 4 * 12 + 4);
+  CHECK(c[0] == dir.file("a.csv"));
+  CHECK(c[1] == "FAIL");
+  CHECK(c[2] == "v");
+  CHECK(std::stod(c[3]) == doctest::Approx(1200).epsilon(kNineDigits));
+  // RMS of a1·cos + a3·cos(3·): √((a1² + a3²)/2).
+  CHECK(std::stod(c[4]) == doctest::Approx(std::sqrt((1 + 0.093 * 0.093) / 2)).epsilon(kNineDigits));
+  const double thd = std::stod(c[5]);
+  CHECK(thd == doctest::Approx(0.093).epsilon(kNineDigits));
+  // SINAD of a noise-free two-line signal: 20·log10(1/THD) (IEEE Std 1241).
+  CHECK(std::stod(c[6]) == doctest::Approx(-20 * std::log10(0.093)).epsilon(kNineDigits));
+  // limit 1: thd ≤ 8 % fails; no uncertainty for THD, so u, k, lo95, hi95 are empty.
+  const std::vector<std::string> l1(c.begin() + 7, c.begin() + 19);
+  const double m1 = 0.08 - thd;  // by hand: negative, outside
+  CHECK(l1 == std::vector<std::string>{c[5], "", "", "", "", "", "0.08", "\xE2\x89\xA4 8 %", "false",
+                                       "fail: outside the range", io::format_shortest(m1),
+                                       io::format_shortest(m1 / 0.08)});
+  // limit 2: thd ≤ −20 dB = 0.1 (20·log10 of an amplitude ratio) passes.
+  const std::vector<std::string> l2(c.begin() + 19, c.begin() + 31);
+  const double hi2 = std::pow(10.0, -20.0 / 20);
+  CHECK(l2 == std::vector<std::string>{c[5], "", "", "", "", "", io::format_shortest(hi2),
+                                       "\xE2\x89\xA4 \xE2\x88\x92" "20 dB", "true", "pass",
+                                       io::format_shortest(hi2 - thd), io::format_shortest((hi2 - thd) / hi2)});
+  // limit 3: f0 1.2 kHz ± 5 Hz = 1195 … 1205 Hz; f0's interval is value ± 1.96·u.
+  const double f0 = std::stod(c[31]);
+  CHECK(c[31] == c[3]);
+  CHECK(std::stod(c[33]) == doctest::Approx(1.959963984540054));
+  CHECK(std::stod(c[34]) == doctest::Approx(f0 - std::stod(c[33]) * std::stod(c[32])).epsilon(1e-12));
+  CHECK(c[36] == "1195");
+  CHECK(c[37] == "1205");
+  CHECK(c[38] == "1.2 kHz \xC2\xB1 5 Hz");
+  CHECK(c[39] == "true");
+  CHECK(std::stod(c[41]) == doctest::Approx(margin_two_sided(f0, 1195, 1205)).epsilon(1e-12));
+  CHECK(std::stod(c[42]) == doctest::Approx(margin_two_sided(f0, 1195, 1205) / 10).epsilon(1e-9));
+  // limit 4: amplitude 1 V ± 20 mV = 0.98 … 1.02 V.
+  const double a1 = std::stod(c[43]);
+  CHECK(a1 == doctest::Approx(1).epsilon(kNineDigits));
+  CHECK(c[48] == "0.98");
+  CHECK(c[49] == "1.02");
+  CHECK(c[50] == "1 V \xC2\xB1 20 mV");
+  CHECK(c[51] == "true");
+  CHECK(std::stod(c[53]) == doctest::Approx(margin_two_sided(a1, 0.98, 1.02)).epsilon(1e-12));
+  // flags, failing_flags, failing_limits (the value in the unit of the limit), message.
+  CHECK(c[55] == "");
+  CHECK(c[56] == "");
+  CHECK(c[57] == "thd = 9.3 % (no uncertainty known), allowed \xE2\x89\xA4 8 %");
+  CHECK(c[58] == "");
+  CHECK(kRoundTrip == 0);
+}
+
+TEST_CASE("batch: a clipped capture fails by default and passes when the config allows the flag") {
+  periodfit::test::TempDir dir("batch_clipped");
+  test::SineCapture s;
+  s.f0_hz = 50;  // 200 samples per period: flat runs of tens of samples at the clip level
+  s.fs_hz = 10000;
+  s.samples = 2000;
+  s.a3_v = 0;
+  s.clip_v = 0.8;
+  test::write_sine_csv(dir.file("clipped.csv"), s);
+  s.clip_v = 0;
+  test::write_sine_csv(dir.file("clean.csv"), s);
+  BatchOptions o;
+  o.inputs = {dir.path.string()};
+  o.report_dir = dir.file("report");
+  o.jobs = 1;
+  o.config = parse_batch_config("", "default.toml");  // no limits: only flags can fail a file
+  BatchResult r = run_batch(o);
+  REQUIRE(r.files.size() == 2);
+  CHECK(r.files[0].status == report::FileStatus::pass);  // clean.csv
+  CHECK(r.files[0].flags.empty());
+  CHECK(r.files[1].status == report::FileStatus::fail);  // clipped.csv
+  CHECK(r.files[1].flags == std::vector<std::string>{"v: clipped"});
+  CHECK(r.files[1].failing_flags == std::vector<std::string>{"v: clipped"});
+  CHECK(batch_exit_code(r) == ExitCode::fail);
+  CHECK(file_reason(r.files[1], o.config) == "flag v: clipped (invalidates)");
+  auto lines = csv_lines(slurp(dir.path / "report" / "summary.csv"));
+  REQUIRE(lines.size() == 3);
+  CHECK(lines[0] == "path,status,channel,f0_hz,rms,thd,sinad_db,flags,failing_flags,failing_limits,message");
+  auto c = csv_cells(lines[2]);
+  REQUIRE(c.size() == 11);
+  CHECK(c[0] == dir.file("clipped.csv"));
+  CHECK(c[1] == "FAIL");
+  CHECK(c[7] == "v: clipped");
+  CHECK(c[8] == "v: clipped");
+  CHECK(c[9] == "");
+  CHECK(c[10] == "");
+  const auto summary = nlohmann::json::parse(slurp(dir.path / "report" / "summary.json"));
+  CHECK(summary["fail_on_flags"] == nlohmann::json(invalidating_flags()));
+  CHECK(summary["files"][1]["flags"] == nlohmann::json::array({"v: clipped"}));
+  CHECK(summary["files"][1]["failing_flags"] == nlohmann::json::array({"v: clipped"}));
+  const std::string html = slurp(dir.path / "report" / "report.html");
+  CHECK(html.find("<th>flags</th><th>failing flags and limits (measured)</th>") != std::string::npos);
+  CHECK(html.find("<td class=\"msg\">v: clipped (invalidates)</td><td class=\"msg\">flag v: clipped "
+                  "(invalidates)</td>") != std::string::npos);
+
+  // Allowing it: the config lists the flags that fail a file, and clipped is not among them.
+  o.config = parse_batch_config("[verdict]\nfail_on_flags = [\"aliasing-risk\"]\n", "allow.toml");
+  r = run_batch(o);
+  CHECK(r.files[1].status == report::FileStatus::pass);
+  CHECK(r.files[1].flags == std::vector<std::string>{"v: clipped"});  // still shown
+  CHECK(r.files[1].failing_flags.empty());
+  CHECK(batch_exit_code(r) == ExitCode::ok);
+  lines = csv_lines(slurp(dir.path / "report" / "summary.csv"));
+  c = csv_cells(lines[2]);
+  CHECK(c[1] == "PASS");
+  CHECK(c[7] == "v: clipped");
+  CHECK(c[8] == "");
 }
 
 TEST_CASE("batch: plots only for failed files when asked") {

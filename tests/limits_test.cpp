@@ -129,7 +129,10 @@ TEST_CASE("limits: malformed limits are load-time errors naming the field") {
         "limits.toml:5:10: expect applies to yes/no results (model_adequate, linear); dc_gain "
         "takes nominal \xC2\xB1 tolerance or min/max");
   CHECK(load_error(head + "result = \"dc_gain\"\nnominal = \"one\"\ntolerance = 1\n") ==
-        "limits.toml:5:11: nominal: expected a number, found a string");
+        "limits.toml:5:11: nominal = \"one\": expected a number with its unit, e.g. \"8 %\", "
+        "\"-40 dB\", \"1.2 kHz\"");
+  CHECK(load_error(head + "result = \"dc_gain\"\nnominal = true\ntolerance = 1\n") ==
+        "limits.toml:5:11: nominal: expected a number or a string with a unit (\"8 %\"), found a boolean");
   CHECK(load_error(head + "result = \"dc_gain\"\nnominal = 1\ntolerence = 0.1\n") ==
         "limits.toml:6:1: unknown key \"tolerence\" in [[limit]] (did you mean \"tolerance\"?)");
   CHECK(load_error(head + "nominal = 1\n") ==
@@ -262,4 +265,166 @@ TEST_CASE("limits: every catalogue entry is reachable in some mode and has a des
     CHECK_MESSAGE(!r.description.empty(), r.name);
     CHECK(find_result(r.name) == &r);
   }
+}
+
+namespace {
+// Doubles from unit conversion: one rounding of a product or a power of ten.
+constexpr double kConversionTolerance = 1e-12;
+
+Limit loaded(const std::string& body, const std::string& mode = "analyze") {
+  const auto c = parse_batch_config("[analysis]\nmode = \"" + mode + "\"\n" +
+                                        (mode == "identify" ? "order = \"0/2\"\n" : "") + "[[limit]]\n" + body,
+                                    "limits.toml");
+  REQUIRE(c.limits.size() == 1);
+  return c.limits[0];
+}
+}  // namespace
+
+TEST_CASE("limits: bounds written with their unit convert to SI and are shown as written") {
+  // % of a ratio: 8 % = 0.08.
+  Limit l = loaded("result = \"thd\"\nmax = \"8 %\"\n");
+  CHECK(l.hi == doctest::Approx(0.08).epsilon(kConversionTolerance));
+  CHECK(std::isinf(l.lo));
+  CHECK(l.allowed_text() == "\xE2\x89\xA4 8 %");
+  // dB of an amplitude ratio: 20·log10, so −40 dB = 0.01 (IEC 60027-3 field quantity).
+  l = loaded("result = \"thd\"\nmax = \"-40 dB\"\n");
+  CHECK(l.hi == doctest::Approx(0.01).epsilon(kConversionTolerance));
+  CHECK(l.allowed_text() == "\xE2\x89\xA4 \xE2\x88\x92" "40 dB");
+  // A dB result takes dB as it is.
+  l = loaded("result = \"mag_db\"\nharmonic = 1\nmin = \"-40 dB\"\n", "identify");
+  CHECK(l.lo == -40);
+  // SI prefixes: 1.2 kHz = 1200 Hz, 250 us = 2.5e-4 s, 20 mV = 0.02 V.
+  l = loaded("result = \"f0_hz\"\nnominal = \"1.2 kHz\"\ntolerance = \"5 Hz\"\n");
+  CHECK(l.lo == doctest::Approx(1195).epsilon(kConversionTolerance));
+  CHECK(l.hi == doctest::Approx(1205).epsilon(kConversionTolerance));
+  CHECK(l.allowed_text() == "1.2 kHz \xC2\xB1 5 Hz");
+  // A prefix alone takes the result's unit: "1.25k" = 1250 Hz, shown as kHz.
+  l = loaded("result = \"f0_hz\"\nmax = \"1.25k\"\n");
+  CHECK(l.hi == doctest::Approx(1250).epsilon(kConversionTolerance));
+  CHECK(l.display_unit == "kHz");
+  // A tolerance in % on a ratio result is in percentage points: 5 % ± 1 % = 0.04 … 0.06.
+  l = loaded("result = \"thd\"\nnominal = \"5 %\"\ntolerance = \"1 %\"\n");
+  CHECK(l.lo == doctest::Approx(0.04).epsilon(kConversionTolerance));
+  CHECK(l.hi == doctest::Approx(0.06).epsilon(kConversionTolerance));
+  CHECK(l.allowed_text() == "5 % \xC2\xB1 1 %");
+  l = loaded("result = \"delay_s\"\nmax = \"250 us\"\n", "identify");
+  CHECK(l.hi == doctest::Approx(2.5e-4).epsilon(kConversionTolerance));
+  l = loaded("result = \"amplitude\"\nharmonic = 1\nnominal = 1\ntolerance = \"20 mV\"\n");
+  CHECK(l.lo == doctest::Approx(0.98).epsilon(kConversionTolerance));
+  CHECK(l.unit_base == "V");
+  CHECK(l.allowed_text() == "1 \xC2\xB1 20 mV");
+  // Degrees and radians: π/2 rad = 90°.
+  l = loaded("result = \"phase_deg\"\nharmonic = 1\nmin = \"-5 deg\"\nmax = \"1.5707963267948966 rad\"\n");
+  CHECK(l.lo == -5);
+  CHECK(l.hi == doctest::Approx(90).epsilon(kConversionTolerance));
+  // A dB tolerance about an amplitude ratio is a factor: −40 dB ± 2 dB = 10^(−42/20) … 10^(−38/20).
+  l = loaded("result = \"mag\"\nharmonic = 1\nnominal = \"-40 dB\"\ntolerance = \"2 dB\"\n", "identify");
+  CHECK(l.lo == doctest::Approx(std::pow(10.0, -42.0 / 20)).epsilon(kConversionTolerance));
+  CHECK(l.hi == doctest::Approx(std::pow(10.0, -38.0 / 20)).epsilon(kConversionTolerance));
+  CHECK(l.allowed_text() == "\xE2\x88\x92" "40 dB \xC2\xB1 2 dB");
+}
+
+TEST_CASE("limits: a bare THD bound above 1 is refused with how to write it") {
+  const std::string head = "[analysis]\nmode = \"analyze\"\n[[limit]]\nresult = \"thd\"\n";
+  CHECK(load_error(head + "max = 8\n") ==
+        "limits.toml:5:7: thd max = 8 is a ratio of 8 (800 %); write \"8 %\" or 0.08");
+  CHECK(load_error(head + "nominal = 0.05\ntolerance = 2\n") ==
+        "limits.toml:6:13: thd tolerance = 2 is a ratio of 2 (200 %); write \"2 %\" or 0.02");
+  CHECK(load_error("[analysis]\nmode = \"identify\"\norder = \"0/2\"\n[[limit]]\nresult = \"damping\"\n"
+                   "pole = 1\nmin = 5\n") ==
+        "limits.toml:7:7: damping min = 5 is a ratio of 5 (500 %); write \"5 %\" or 0.05");
+  // The same numbers written with their unit, or as ratios, load.
+  CHECK(load_error(head + "max = \"800 %\"\n") == "(no error)");
+  CHECK(load_error(head + "max = 0.08\n") == "(no error)");
+}
+
+TEST_CASE("limits: a unit that does not fit the result is refused, naming what fits") {
+  const std::string head = "[analysis]\nmode = \"analyze\"\n[[limit]]\n";
+  CHECK(load_error(head + "result = \"thd\"\nmax = \"8 kHz\"\n") ==
+        "limits.toml:5:7: max = \"8 kHz\": unit \"kHz\" does not fit thd; write a bare ratio, or a "
+        "string in %, ppm or dB (20\xC2\xB7log10 of the ratio)");
+  CHECK(load_error(head + "result = \"f0_hz\"\nnominal = 50\ntolerance = \"1 %\"\n") ==
+        "limits.toml:6:13: tolerance = \"1 %\": unit \"%\" does not fit f0_hz; write a bare number in "
+        "Hz, or a string in Hz with an SI prefix (\"1.2 kHz\") (a tolerance relative to the nominal "
+        "is tolerance_pct = 1)");
+  CHECK(load_error(head + "result = \"dc\"\nmax = \"5 %\"\n") ==
+        "limits.toml:5:7: max = \"5 %\": unit \"%\" does not fit dc; write a bare number in the "
+        "channel's unit, or a string in that unit with an SI prefix (\"2 mV\")");
+  CHECK(load_error(head + "result = \"dc\"\nmin = \"1 mV\"\nmax = \"2 mA\"\n") ==
+        "limits.toml:6:7: max is in A, another bound in V");
+  CHECK(load_error("[analysis]\nmode = \"identify\"\norder = \"0/2\"\n[[limit]]\nresult = \"damping\"\n"
+                   "pole = 1\nmin = \"-3 dB\"\n") ==
+        "limits.toml:7:7: min = \"-3 dB\": unit \"dB\" does not fit damping; write a bare ratio, or a "
+        "string in % or ppm");
+}
+
+TEST_CASE("limits: 8 % fails a 9.3 % THD, shown in %, with margins by hand") {
+  const Limit l = loaded("result = \"thd\"\nmax = \"8 %\"\n");
+  MeasurementSet m;
+  m.set("thd", Quantity{0.093});
+  const LimitOutcome o = evaluate_limit(l, m);
+  CHECK_FALSE(o.passed);
+  CHECK(o.verdict == "fail: outside the range");
+  CHECK(o.measured_text == "9.3 % (no uncertainty known)");
+  // By hand: 0.08 − 0.093 = −0.013 (outside: negative); one-sided width |0.08|: −0.013/0.08.
+  CHECK(o.margin == doctest::Approx(-0.013).epsilon(kConversionTolerance));
+  CHECK(o.margin_fraction == doctest::Approx(-0.1625).epsilon(kConversionTolerance));
+
+  // Two-sided: 1 ± 0.02 at 1.005 ± 0.004 (k = 2): nearest bound 1.02, margin 0.015, width 0.04.
+  Limit g;
+  g.result = "dc_gain";
+  g.nominal = 1.0;
+  g.tolerance = 0.02;
+  g = finished(g);
+  m.set("dc_gain", Quantity::from_u(1.005, 0.002, 2));
+  const LimitOutcome two = evaluate_limit(g, m);
+  CHECK(two.passed);
+  CHECK(two.measured_text == "1.005 (95 %: 1.001 \xE2\x80\xA6 1.009, k = 2)");
+  CHECK(two.margin == doctest::Approx(0.015).epsilon(kConversionTolerance));
+  CHECK(two.margin_fraction == doctest::Approx(0.375).epsilon(kConversionTolerance));
+  // A bound at zero has no one-sided width: the fraction is undefined, the margin is not.
+  Limit z;
+  z.result = "delay_s";
+  z.min = 0.0;
+  z = finished(z);
+  m.set("delay_s", Quantity{1e-3});
+  const LimitOutcome zo = evaluate_limit(z, m);
+  CHECK(zo.margin == doctest::Approx(1e-3));
+  CHECK(std::isnan(zo.margin_fraction));
+  // Yes/no results have no margin.
+  Limit yn;
+  yn.result = "linear";
+  yn.expect = true;
+  yn = finished(yn);
+  m.set("linear", Quantity::exact(1));
+  CHECK(std::isnan(evaluate_limit(yn, m).margin));
+}
+
+TEST_CASE("limits: a limit in volts is checked against the channel's unit") {
+  const Limit l = loaded("result = \"dc\"\nmax = \"2 mV\"\n");
+  CHECK(l.hi == doctest::Approx(0.002).epsilon(kConversionTolerance));
+  MeasurementSet m;
+  m.set("dc", Quantity::from_u(0.0015, 0.0001, 2));
+  m.set_channel_unit("", "V");
+  const LimitOutcome ok = evaluate_limit(l, m);
+  CHECK(ok.passed);
+  CHECK(ok.measured_text == "1.5 mV (95 %: 1.3 \xE2\x80\xA6 1.7, k = 2)");
+  m.set_channel_unit("", "A");
+  CHECK(evaluate_limit(l, m).verdict == "fail: the limit is in V, but the channel's unit is A");
+  m.set_channel_unit("", "");
+  CHECK(evaluate_limit(l, m).verdict ==
+        "fail: the limit is in V, but the channel's unit is not known (set it in [read] unit)");
+}
+
+TEST_CASE("limits: [verdict] fail_on_flags replaces the default; unknown flags are refused") {
+  auto c = parse_batch_config("", "limits.toml");
+  CHECK(c.fail_on_flags == invalidating_flags());
+  c = parse_batch_config("[verdict]\nfail_on_flags = [\"aliasing-risk\", \"few-periods\"]\n", "limits.toml");
+  CHECK(c.fail_on_flags == std::vector<std::string>{"aliasing-risk", "few-periods"});
+  c = parse_batch_config("[verdict]\nfail_on_flags = []\n", "limits.toml");
+  CHECK(c.fail_on_flags.empty());
+  const std::string e = load_error("[verdict]\nfail_on_flags = [\"cliped\"]\n");
+  CHECK(e.rfind("limits.toml:2:18: unknown flag \"cliped\" (did you mean \"clipped\"? flags: clipped, ", 0) == 0);
+  CHECK(load_error("[verdict]\nfail_on_flag = []\n") ==
+        "limits.toml:2:1: unknown key \"fail_on_flag\" in [verdict] (did you mean \"fail_on_flags\"?)");
 }

@@ -9,6 +9,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "io/input_limits.hpp"
+#include "core/flags.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
 
@@ -113,11 +114,12 @@ class Loader {
   BatchConfig load(const toml::table& root) {
     BatchConfig c;
     c.source = source_;
-    check_keys(root, {"files", "read", "analysis", "report", "limit"}, "the config");
+    check_keys(root, {"files", "read", "analysis", "report", "verdict", "limit"}, "the config");
     if (const auto* node = root.get("files")) load_files(table(*node, "files"), c);
     if (const auto* node = root.get("read")) load_read(table(*node, "read"), c);
     if (const auto* node = root.get("analysis")) load_analysis(table(*node, "analysis"), c);
     if (const auto* node = root.get("report")) load_report(table(*node, "report"), c);
+    if (const auto* node = root.get("verdict")) load_verdict(table(*node, "verdict"), c);
     if (const auto* node = root.get("limit")) {
       const auto* array = node->as_array();
       if (!array || !array->is_array_of_tables())
@@ -213,6 +215,23 @@ class Loader {
     if (const auto* n = t.get("title")) c.title = string(*n, "title");
   }
 
+  void load_verdict(const toml::table& t, BatchConfig& c) const {
+    check_keys(t, {"fail_on_flags"}, "[verdict]");
+    if (const auto* n = t.get("fail_on_flags")) {
+      const auto* array = n->as_array();
+      if (!array) fail(n, "fail_on_flags: expected an array of flag names, found " + type_name(*n));
+      std::vector<std::string> known;
+      for (const auto& f : flag_catalogue()) known.emplace_back(f.code);
+      c.fail_on_flags.clear();
+      for (const auto& element : *array) {
+        const std::string code = string(element, "fail_on_flags");
+        if (!find_flag(code)) fail(&element, UnknownNameError("flag", code, known).what());
+        if (std::find(c.fail_on_flags.begin(), c.fail_on_flags.end(), code) == c.fail_on_flags.end())
+          c.fail_on_flags.push_back(code);
+      }
+    }
+  }
+
   Limit load_limit(const toml::table& t, AnalysisMode mode) const {
     check_keys(t,
                {"result", "label", "channel", "harmonic", "freq_hz", "pole", "nominal", "tolerance",
@@ -229,11 +248,24 @@ class Loader {
     if (const auto* n = t.get("harmonic")) l.harmonic = integer(*n, "harmonic");
     if (const auto* n = t.get("freq_hz")) l.freq_hz = number(*n, "freq_hz");
     if (const auto* n = t.get("pole")) l.pole = integer(*n, "pole");
-    if (const auto* n = t.get("nominal")) l.nominal = number(*n, "nominal");
-    if (const auto* n = t.get("tolerance")) l.tolerance = number(*n, "tolerance");
+    // A bound is a bare number in the result's SI unit or a string with its unit ("8 %"),
+    // which finish_limit converts.
+    const auto bound = [&](const char* key, std::optional<double>& slot) {
+      const auto* n = t.get(key);
+      if (!n) return;
+      if (const auto* text = n->as_string())
+        l.written[key] = text->get();
+      else if (n->is_number())
+        slot = number(*n, key);
+      else
+        fail(n, std::string(key) + ": expected a number or a string with a unit (\"8 %\"), found " +
+                    type_name(*n));
+    };
+    bound("nominal", l.nominal);
+    bound("tolerance", l.tolerance);
     if (const auto* n = t.get("tolerance_pct")) l.tolerance_pct = number(*n, "tolerance_pct");
-    if (const auto* n = t.get("min")) l.min = number(*n, "min");
-    if (const auto* n = t.get("max")) l.max = number(*n, "max");
+    bound("min", l.min);
+    bound("max", l.max);
     if (const auto* n = t.get("expect")) l.expect = boolean(*n, "expect");
     if (const auto* n = t.get("guard_band")) l.guard_band = boolean(*n, "guard_band");
     if (const auto problem = finish_limit(l, mode)) {

@@ -15,6 +15,7 @@
 #include <vector>
 
 #include "batch/limits.hpp"
+#include "core/flags.hpp"
 #include "ident/identify.hpp"
 #include "io/capture_reader.hpp"
 
@@ -56,6 +57,9 @@ struct BatchConfig {
   PlotSelection plots = PlotSelection::all;
   std::string title = "periodfit batch report";  ///< heading of report.html
   std::vector<Limit> limits;  ///< finished (lo/hi derived) for `mode`
+  /// Flag codes (core/flags.hpp) that fail a file whatever its limits say; `[verdict]
+  /// fail_on_flags`. Default: every flag of severity `invalidates`.
+  std::vector<std::string> fail_on_flags = invalidating_flags();
 };
 
 /// Parses config text; `source` names it in error messages.

@@ -51,6 +51,15 @@ void add_key_text(FileAnalysis& a, std::string name, std::string label, std::str
   a.keys.push_back({std::move(name), std::move(label), text, text});
 }
 
+// A yes/no key: `true`/`false` for machines, yes/no for people; nullopt = `none_text` for
+// people and an empty cell for machines.
+void add_key_bool(FileAnalysis& a, std::string name, std::string label, std::optional<bool> value,
+                  const std::string& none_text) {
+  a.keys.push_back({std::move(name), std::move(label),
+                    value ? (*value ? "true" : "false") : "",
+                    value ? (*value ? "yes" : "no") : none_text});
+}
+
 // H and 95 % intervals of |H| and ∠H from a fitted model at f, u by first-order propagation of
 // the parameter covariance: var|H| = gᵀCg with g_i = Re(H̄·∂H/∂θ_i)/|H|, var∠H = hᵀCh with
 // h_i = Im(H̄·∂H/∂θ_i)/|H|² (the linearisation of |H| and arg H; GUM, JCGM 100 §5.1.2).
@@ -94,11 +103,16 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   const double k = model_coverage_factor();
 
   const double f0 = r.fundamental.f0_hz;
-  m.set("f0_hz", Quantity::symmetric(f0, kNormal95 * r.fundamental.f0_u_hz));
+  m.set("f0_hz", Quantity::from_u(f0, r.fundamental.f0_u_hz, kNormal95));
+  const double kf = r.frf.coverage_factor;
   for (const auto& p : r.frf.points) {
-    m.set(measurement_key("mag", {}, p.n), {p.mag, p.mag_lo, p.mag_hi});
-    m.set(measurement_key("mag_db", {}, p.n), db_quantity(p.mag, p.mag_lo, p.mag_hi));
-    m.set(measurement_key("phase_deg", {}, p.n), {p.phase_deg, p.phase_lo_deg, p.phase_hi_deg});
+    m.set(measurement_key("mag", {}, p.n), {p.mag, p.mag_lo, p.mag_hi, p.mag_u, kf});
+    Quantity db = db_quantity(p.mag, p.mag_lo, p.mag_hi);
+    db.u = p.mag_db_u;  // the dB interval maps the linear one; u is that of the dB value
+    db.k = kf;
+    m.set(measurement_key("mag_db", {}, p.n), db);
+    m.set(measurement_key("phase_deg", {}, p.n),
+          {p.phase_deg, p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg, kf});
   }
   if (r.linearity.status != "untested") m.set("linear", Quantity::exact(r.linearity.nonlinear ? 0 : 1));
 
@@ -106,8 +120,8 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   if (r.model) {
     const ident::RationalFitResult& fit = *r.model;
     order_text = std::to_string(fit.order.num) + "/" + std::to_string(fit.order.den);
-    if (fit.dc_gain_defined) m.set("dc_gain", Quantity::symmetric(fit.dc_gain, k * fit.dc_gain_u));
-    m.set("delay_s", Quantity::symmetric(fit.delay_s, k * fit.delay_u_s));
+    if (fit.dc_gain_defined) m.set("dc_gain", Quantity::from_u(fit.dc_gain, fit.dc_gain_u, k));
+    m.set("delay_s", Quantity::from_u(fit.delay_s, fit.delay_u_s, k));
     // Over the cost a right model is expected to reach (dof with known weights, more when the
     // weights were estimated from few periods), so ≈ 1 means "as good as the noise allows".
     if (fit.dof > 0 && fit.cost_expected > 0)
@@ -119,7 +133,7 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
       ++entry;
       const auto kk = [&](double u) { return pole.uncertainty_defined ? k * u : std::nan(""); };
       const auto q = [&](double v, double u) {
-        return pole.uncertainty_defined ? Quantity::symmetric(v, kk(u)) : Quantity{v};
+        return pole.uncertainty_defined ? Quantity::from_u(v, u, k) : Quantity{v};
       };
       const double to_hz = 1 / (2 * std::numbers::pi);
       if (pole.is_real) {
@@ -147,12 +161,15 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
       const ModelPoint p = model_point(fit.model, *limit.freq_hz);
       const double mag = std::abs(p.h);
       const double mu = k * p.mag_u;
-      m.set(measurement_key("mag", {}, {}, limit.freq_hz), Quantity::symmetric(mag, mu));
-      m.set(measurement_key("mag_db", {}, {}, limit.freq_hz),
-            std::isfinite(mu) ? db_quantity(mag, mag - mu, mag + mu) : Quantity{db_quantity(mag, 0, 0).value});
+      m.set(measurement_key("mag", {}, {}, limit.freq_hz), Quantity::from_u(mag, p.mag_u, k));
+      Quantity db = std::isfinite(mu) ? db_quantity(mag, mag - mu, mag + mu) : Quantity{db_quantity(mag, 0, 0).value};
+      if (std::isfinite(mu) && mag > 0) {
+        db.u = 20 / std::numbers::ln10 * p.mag_u / mag;  // first-order dB of the linear u
+        db.k = k;
+      }
+      m.set(measurement_key("mag_db", {}, {}, limit.freq_hz), db);
       m.set(measurement_key("phase_deg", {}, {}, limit.freq_hz),
-            Quantity::symmetric(std::arg(p.h) * 180 / std::numbers::pi,
-                                k * p.phase_u_rad * 180 / std::numbers::pi));
+            Quantity::from_u(std::arg(p.h) * 180 / std::numbers::pi, p.phase_u_rad * 180 / std::numbers::pi, k));
     }
   }
 
@@ -166,9 +183,12 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   add_key(a, "dc_gain", "dc gain", value_of("dc_gain"), "");
   add_key(a, "delay_s", "delay", r.model ? value_of("delay_s") : std::nan(""), "s");
   add_key(a, "cost_ratio", "cost/expected", value_of("model_cost_ratio"), "");
-  add_key_text(a, "adequate", "adequate", r.model ? (r.model->adequate ? "yes" : "no") : "");
-  add_key_text(a, "linear", "linear",
-               r.linearity.status == "untested" ? "untested" : (r.linearity.nonlinear ? "no" : "yes"));
+  // Machine columns write booleans as true/false (docs/batch-output.md); people read yes/no.
+  add_key_bool(a, "adequate", "adequate",
+               r.model ? std::optional<bool>(r.model->adequate) : std::nullopt, "");
+  add_key_bool(a, "linear", "linear",
+               r.linearity.status == "untested" ? std::nullopt : std::optional<bool>(!r.linearity.nonlinear),
+               "untested");
 
   // The report section's rows, poles first collected above; put the overview before them.
   std::vector<std::pair<std::string, std::string>> rows;
@@ -209,8 +229,9 @@ void measure_channel(const dsp::ChannelAnalysis& c, const std::string& channel, 
   const auto put = [&](const char* name, Quantity q, std::optional<int> n = {}) {
     if (std::isfinite(q.value)) m.set(measurement_key(name, channel, n), q);
   };
-  put("f0_hz", Quantity::symmetric(c.fundamental.f0_hz, kNormal95 * c.fundamental.f0_u_hz));
-  put("dc", Quantity::symmetric(c.dc, k * c.dc_u));
+  m.set_channel_unit(channel, c.unit);
+  put("f0_hz", Quantity::from_u(c.fundamental.f0_hz, c.fundamental.f0_u_hz, kNormal95));
+  put("dc", Quantity::from_u(c.dc, c.dc_u, k));
   put("rms", Quantity{c.rms});
   put("thd", Quantity{c.distortion.thd});
   put("thd_n", Quantity{c.distortion.thd_n});
@@ -219,8 +240,8 @@ void measure_channel(const dsp::ChannelAnalysis& c, const std::string& channel, 
   put("enob_bits", Quantity{c.distortion.enob_bits});
   put("crest_factor", Quantity{c.crest_factor});
   for (const auto& h : c.harmonics) {
-    put("amplitude", Quantity::symmetric(h.amplitude, k * h.amplitude_u), h.n);
-    put("phase_deg", Quantity::symmetric(h.phase_deg, k * h.phase_u_deg), h.n);
+    put("amplitude", Quantity::from_u(h.amplitude, h.amplitude_u, k), h.n);
+    put("phase_deg", Quantity::from_u(h.phase_deg, h.phase_u_deg, k), h.n);
   }
 }
 

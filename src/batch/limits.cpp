@@ -1,7 +1,10 @@
 #include "batch/limits.hpp"
 
+#include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <numbers>
+#include <variant>
 
 #include "core/error.hpp"
 #include "io/number_format.hpp"
@@ -20,24 +23,24 @@ const std::vector<ResultInfo> kCatalogue = {
     {"rms", kChannelUnit, Selector::none, true, false, false, false,
      "RMS over whole periods, dc included"},
     {"thd", "", Selector::none, true, false, false, false,
-     "total harmonic distortion relative to the fundamental, as a ratio"},
+     "total harmonic distortion relative to the fundamental, as a ratio", true, 1},
     {"thd_n", "", Selector::none, true, false, false, false,
-     "THD+N relative to the fundamental's RMS, as a ratio"},
+     "THD+N relative to the fundamental's RMS, as a ratio", true, 1},
     {"sinad_db", "dB", Selector::none, true, false, false, false, "SINAD, IEEE Std 1241"},
     {"snr_db", "dB", Selector::none, true, false, false, false,
      "signal-to-noise ratio excluding dc and harmonics"},
     {"enob_bits", "bit", Selector::none, true, false, false, false,
      "effective number of bits, (SINAD − 1.76)/6.02"},
-    {"crest_factor", "", Selector::none, true, false, false, false, "max |x| over RMS"},
+    {"crest_factor", "", Selector::none, true, false, false, false, "max |x| over RMS", true},
     {"amplitude", kChannelUnit, Selector::harmonic, true, false, false, false,
      "peak amplitude of harmonic n"},
     {"mag", "", Selector::harmonic_or_frequency, false, true, false, false,
-     "|H| at harmonic n (measured) or at freq_hz (fitted model), output unit per input unit"},
+     "|H| at harmonic n (measured) or at freq_hz (fitted model), output unit per input unit", true},
     {"mag_db", "dB", Selector::harmonic_or_frequency, false, true, false, false,
      "20·log10 |H| at harmonic n (measured) or at freq_hz (fitted model)"},
     {"phase_deg", "\xC2\xB0", Selector::harmonic_or_frequency, true, true, false, true,
      "analyze: phase of harmonic n; identify: ∠H at harmonic n or at freq_hz (model)"},
-    {"dc_gain", "", Selector::none, false, true, false, false, "model gain at s = 0, b0/a0"},
+    {"dc_gain", "", Selector::none, false, true, false, false, "model gain at s = 0, b0/a0", true},
     {"delay_s", "s", Selector::none, false, true, false, false,
      "model dead time T (0 unless the delay is estimated)"},
     {"time_constant_s", "s", Selector::pole, false, true, false, false,
@@ -45,7 +48,7 @@ const std::vector<ResultInfo> kCatalogue = {
     {"natural_frequency_hz", "Hz", Selector::pole, false, true, false, false,
      "|p|/2π of pole entry k (for a real pole its corner frequency)"},
     {"damping", "", Selector::pole, false, true, false, false,
-     "damping ratio ζ = −Re p/|p| of pole entry k when it is a complex pair"},
+     "damping ratio ζ = −Re p/|p| of pole entry k when it is a complex pair", false, 1},
     {"q_factor", "", Selector::pole, false, true, false, false,
      "Q = 1/(2ζ) of pole entry k when it is a complex pair"},
     {"model_cost_ratio", "", Selector::none, false, true, false, false,
@@ -73,6 +76,124 @@ std::vector<std::string> catalogue_names() {
 }
 
 bool finite(const std::optional<double>& v) { return !v || std::isfinite(*v); }
+
+// ---- units in limits --------------------------------------------------------------------
+
+// How a unit written in a limit maps onto the result's SI unit.
+struct Scale {
+  double factor = 1;  // SI = number · factor
+  bool db = false;    // SI = 10^(number/20): dB of an amplitude ratio
+  std::string base{};  // channel-unit results: the unit without its prefix ("V" of "mV")
+};
+
+// SI prefixes (BIPM, The International System of Units, 9th ed., Table 7) in the range limits
+// use; "u", "µ" (micro sign) and "μ" (Greek mu) all mean micro.
+std::optional<double> prefix_factor(std::string_view p) {
+  if (p == "p") return 1e-12;
+  if (p == "n") return 1e-9;
+  if (p == "u" || p == "\xC2\xB5" || p == "\xCE\xBC") return 1e-6;
+  if (p == "m") return 1e-3;
+  if (p == "k") return 1e3;
+  if (p == "M") return 1e6;
+  if (p == "G") return 1e9;
+  return std::nullopt;
+}
+
+std::optional<double> prefixed(std::string_view token, std::string_view base) {
+  if (token == base) return 1.0;
+  if (token.size() > base.size() && token.substr(token.size() - base.size()) == base)
+    return prefix_factor(token.substr(0, token.size() - base.size()));
+  return std::nullopt;
+}
+
+std::string accepted_units(const ResultInfo& info) {
+  const std::string_view u = info.unit;
+  if (u.empty())
+    return info.amplitude_ratio ? "a bare ratio, or a string in %, ppm or dB (20·log10 of the ratio)"
+                                : "a bare ratio, or a string in % or ppm";
+  if (u == "Hz") return "a bare number in Hz, or a string in Hz with an SI prefix (\"1.2 kHz\")";
+  if (u == "s") return "a bare number in s, or a string in s with an SI prefix (\"250 us\", \"3 ms\")";
+  if (u == "dB") return "a bare number in dB, or a string in dB";
+  if (u == "bit") return "a bare number of bits, or a string in bit";
+  if (u == "\xC2\xB0") return "a bare number in degrees, or a string in deg, \xC2\xB0 or rad";
+  return "a bare number in the channel's unit, or a string in that unit with an SI prefix (\"2 mV\")";
+}
+
+std::optional<Scale> unit_scale(const ResultInfo& info, std::string_view token) {
+  const std::string_view u = info.unit;
+  if (token.empty()) return Scale{};
+  if (u.empty()) {
+    if (token == "%") return Scale{1e-2};
+    if (token == "ppm") return Scale{1e-6};
+    if (token == "dB" && info.amplitude_ratio) return Scale{1, true};
+    return std::nullopt;
+  }
+  if (u == "Hz" || u == "s") {
+    if (const auto f = prefixed(token, u)) return Scale{*f};
+    if (const auto f = prefix_factor(token)) return Scale{*f};  // "1.2k": the prefix alone
+    return std::nullopt;
+  }
+  if (u == "dB") return token == "dB" ? std::optional<Scale>(Scale{}) : std::nullopt;
+  if (u == "bit") return token == "bit" || token == "bits" ? std::optional<Scale>(Scale{}) : std::nullopt;
+  if (u == "\xC2\xB0") {
+    if (token == "deg" || token == "\xC2\xB0") return Scale{};
+    if (token == "rad") return Scale{180 / std::numbers::pi};
+    if (token == "mrad") return Scale{0.18 / std::numbers::pi};
+    return std::nullopt;
+  }
+  // The channel's unit, checked against each file's channel when the limit is evaluated.
+  if (token == "%" || token == "ppm" || token == "dB") return std::nullopt;
+  if (token.size() > 1) {
+    std::size_t first = (static_cast<unsigned char>(token[0]) >= 0x80) ? 2 : 1;
+    if (token.size() > first)
+      if (const auto f = prefix_factor(token.substr(0, first)))
+        return Scale{*f, false, std::string(token.substr(first))};
+  }
+  return Scale{1, false, std::string(token)};
+}
+
+struct Written {
+  double number = 0;
+  Scale scale;
+  std::string token;
+  double si() const { return scale.db ? std::pow(10.0, number / 20) : number * scale.factor; }
+};
+
+std::string trim(std::string_view s) {
+  while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
+  while (!s.empty() && (s.back() == ' ' || s.back() == '\t')) s.remove_suffix(1);
+  return std::string(s);
+}
+
+// "8 %", "-40 dB", "−40 dB", "1.2 kHz", "5deg": a number, then the unit.
+std::variant<Written, std::string> parse_written(const ResultInfo& info, const std::string& field,
+                                                 const std::string& text) {
+  std::string t = trim(text);
+  if (t.rfind("\xE2\x88\x92", 0) == 0) t.replace(0, 3, "-");  // typographic minus
+  const char* begin = t.c_str();
+  const char* end = begin + t.size();
+  if (begin != end && *begin == '+') ++begin;
+  Written w;
+  const auto [ptr, ec] = std::from_chars(begin, end, w.number);
+  const std::string quoted = field + " = \"" + text + "\"";
+  if (ec != std::errc() || !std::isfinite(w.number))
+    return quoted + ": expected a number with its unit, e.g. \"8 %\", \"-40 dB\", \"1.2 kHz\"";
+  w.token = trim(std::string_view(ptr, static_cast<std::size_t>(end - ptr)));
+  const auto scale = unit_scale(info, w.token);
+  if (!scale) {
+    std::string message = quoted + ": unit \"" + w.token + "\" does not fit " + std::string(info.name) +
+                          "; write " + accepted_units(info);
+    if (field == "tolerance" && w.token == "%")
+      message += " (a tolerance relative to the nominal is tolerance_pct = " +
+                 io::format_shortest(w.number) + ")";
+    return message;
+  }
+  w.scale = *scale;
+  // "1.2k" on a result in Hz or s: shown as "kHz" beside the measured value.
+  if ((info.unit == "Hz" || info.unit == "s") && !w.token.empty() && prefix_factor(w.token))
+    w.token += std::string(info.unit);
+  return w;
+}
 
 }  // namespace
 
@@ -123,21 +244,36 @@ std::string Limit::describe() const {
 std::string Limit::allowed_text() const {
   const ResultInfo* info = find_result(result);
   const std::string unit = unit_suffix(info);
+  // A bound written with its unit is shown as written (typographic minus); a bare one with the
+  // result's SI unit.
+  const auto shown = [&](const char* field, double value, bool with_unit) {
+    const auto it = written.find(field);
+    if (it != written.end()) return with_minus(trim(it->second));
+    return format_limit_number(value) + (with_unit ? unit : "");
+  };
+  const bool any_written = !written.empty();
   std::string t;
   if (expect)
     t = *expect ? "yes" : "no";
   else if (nominal && tolerance)
-    t = format_limit_number(*nominal) + " \xC2\xB1 " + format_limit_number(*tolerance) + unit;
+    t = any_written ? shown("nominal", *nominal, true) + " \xC2\xB1 " + shown("tolerance", *tolerance, true)
+                    : format_limit_number(*nominal) + " \xC2\xB1 " + format_limit_number(*tolerance) + unit;
   else if (nominal && tolerance_pct)
-    t = format_limit_number(*nominal) + unit + " \xC2\xB1 " + format_limit_number(*tolerance_pct) + " %";
+    t = shown("nominal", *nominal, true) + " \xC2\xB1 " + format_limit_number(*tolerance_pct) + " %";
   else if (min && max)
-    t = format_limit_number(*min) + " \xE2\x80\xA6 " + format_limit_number(*max) + unit;
+    t = any_written ? shown("min", *min, true) + " \xE2\x80\xA6 " + shown("max", *max, true)
+                    : format_limit_number(*min) + " \xE2\x80\xA6 " + format_limit_number(*max) + unit;
   else if (min)
-    t = "\xE2\x89\xA5 " + format_limit_number(*min) + unit;
+    t = "\xE2\x89\xA5 " + shown("min", *min, true);
   else if (max)
-    t = "\xE2\x89\xA4 " + format_limit_number(*max) + unit;
+    t = "\xE2\x89\xA4 " + shown("max", *max, true);
   if (guard_band) t += " (guard band: 95 % interval inside)";
   return t;
+}
+
+double Limit::to_display(double si) const {
+  if (display_db) return si > 0 ? 20 * std::log10(si) : -std::numeric_limits<double>::infinity();
+  return si / display_factor;
 }
 
 std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
@@ -179,6 +315,50 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
   if (limit.freq_hz && !(std::isfinite(*limit.freq_hz) && *limit.freq_hz > 0))
     return LimitProblem{"freq_hz", "freq_hz = " + format_limit_number(*limit.freq_hz) +
                                        " (must be a finite frequency > 0)"};
+  // Bounds written with a unit: converted to SI here (again on revalidation, from the text).
+  limit.display_unit.clear();
+  limit.display_factor = 1;
+  limit.display_db = false;
+  limit.unit_base.clear();
+  bool tolerance_db = false;
+  for (const std::string field : {"min", "max", "nominal", "tolerance"}) {
+    const auto it = limit.written.find(field);
+    if (it == limit.written.end()) continue;
+    if (info->yes_no) return LimitProblem{field, r + " is a yes/no result: use expect, not " + field};
+    const auto parsed = parse_written(*info, field, it->second);
+    if (const auto* message = std::get_if<std::string>(&parsed)) return LimitProblem{field, *message};
+    const Written& w = std::get<Written>(parsed);
+    if (!w.scale.base.empty()) {
+      if (!limit.unit_base.empty() && limit.unit_base != w.scale.base)
+        return LimitProblem{field, field + " is in " + w.scale.base + ", another bound in " + limit.unit_base};
+      limit.unit_base = w.scale.base;
+    }
+    std::optional<double>& slot = field == "min"       ? limit.min
+                                  : field == "max"     ? limit.max
+                                  : field == "nominal" ? limit.nominal
+                                                       : limit.tolerance;
+    // A tolerance in dB on an amplitude ratio is a factor 10^(±t/20) about the nominal, not a
+    // ratio to add: it is kept in dB and applied below.
+    tolerance_db = tolerance_db || (field == "tolerance" && w.scale.db);
+    slot = field == "tolerance" && w.scale.db ? w.number : w.si();
+    if (limit.display_unit.empty() && field != "tolerance" && !w.token.empty()) {
+      limit.display_unit = w.token;
+      limit.display_factor = w.scale.factor;
+      limit.display_db = w.scale.db;
+    }
+  }
+  // A bare number far outside what the result can take is most likely written in another unit
+  // (a THD of 8 meant as 8 %): refused, with the two ways to say what was meant.
+  for (const auto& [name, value] : {std::pair{"nominal", &limit.nominal},
+                                    std::pair{"tolerance", &limit.tolerance},
+                                    std::pair{"min", &limit.min}, std::pair{"max", &limit.max}}) {
+    if (!*value || limit.written.count(name) || !(**value > info->bare_max)) continue;
+    const double v = **value;
+    return LimitProblem{name, r + " " + name + " = " + io::format_shortest(v) + " is a ratio of " +
+                                  io::format_shortest(v) + " (" + io::format_shortest(v * 100) +
+                                  " %); write \"" + io::format_shortest(v) + " %\" or " +
+                                  io::format_shortest(v / 100)};
+  }
   // The range.
   for (const auto& [name, value] : {std::pair{"nominal", &limit.nominal},
                                     std::pair{"tolerance", &limit.tolerance},
@@ -220,6 +400,13 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
       return LimitProblem{limit.tolerance ? "tolerance" : "tolerance_pct",
                           std::string(limit.tolerance ? "tolerance" : "tolerance_pct") + " = " +
                               format_limit_number(tol) + " (must be >= 0)"};
+    if (tolerance_db) {
+      const double a = *limit.nominal * std::pow(10.0, -tol / 20);
+      const double b = *limit.nominal * std::pow(10.0, tol / 20);
+      limit.lo = std::min(a, b);
+      limit.hi = std::max(a, b);
+      return std::nullopt;
+    }
     const double half = limit.tolerance ? tol : std::abs(*limit.nominal) * tol / 100.0;
     limit.lo = *limit.nominal - half;
     limit.hi = *limit.nominal + half;
@@ -266,11 +453,36 @@ LimitOutcome evaluate_limit(const Limit& limit, const MeasurementSet& measured) 
     }
   }
   out.measured = v;
-  const std::string unit = unit_suffix(info);
-  out.measured_text = format_limit_number(v.value) + unit;
-  if (v.has_interval() && !(v.lo95 == v.value && v.hi95 == v.value))
-    out.measured_text += " (95 %: " + format_limit_number(v.lo95) + " \xE2\x80\xA6 " +
-                         format_limit_number(v.hi95) + ")";
+  // Shown in the unit the limit was written in; the interval with its coverage factor when the
+  // analysis gives one (JCGM 100 §6.2: an expanded interval states its level and k).
+  const std::string unit = limit.display_unit.empty() ? unit_suffix(info) : " " + limit.display_unit;
+  out.measured_text = format_limit_number(limit.to_display(v.value)) + unit;
+  if (!v.has_interval())
+    out.measured_text += " (no uncertainty known)";
+  else if (!(v.lo95 == v.value && v.hi95 == v.value))
+    out.measured_text += " (95 %: " + format_limit_number(limit.to_display(v.lo95)) + " \xE2\x80\xA6 " +
+                         format_limit_number(limit.to_display(v.hi95)) +
+                         (std::isfinite(v.k) ? ", k = " + io::format_significant(v.k, 3) : std::string()) +
+                         ")";
+  if (!limit.unit_base.empty()) {
+    const std::string channel_unit = measured.channel_unit(limit.channel);
+    if (channel_unit != limit.unit_base) {
+      out.verdict = "fail: the limit is in " + limit.unit_base + ", " +
+                    (channel_unit.empty() || channel_unit == "-"
+                         ? std::string("but the channel's unit is not known (set it in [read] unit)")
+                         : "but the channel's unit is " + channel_unit);
+      return out;
+    }
+  }
+  // Margin: distance to the nearest finite bound; its fraction of the tolerance width.
+  const double to_lo = std::isfinite(limit.lo) ? v.value - limit.lo : std::numeric_limits<double>::infinity();
+  const double to_hi = std::isfinite(limit.hi) ? limit.hi - v.value : std::numeric_limits<double>::infinity();
+  out.margin = std::min(to_lo, to_hi);
+  const double width = std::isfinite(limit.lo) && std::isfinite(limit.hi) ? limit.hi - limit.lo
+                       : std::isfinite(limit.lo)                          ? std::abs(limit.lo)
+                                                                          : std::abs(limit.hi);
+  if (std::isfinite(out.margin) && width > 0) out.margin_fraction = out.margin / width;
+  if (!std::isfinite(out.margin)) out.margin = std::nan("");
   const bool value_inside = v.value >= limit.lo && v.value <= limit.hi;
   if (!value_inside) {
     out.verdict = "fail: outside the range";

@@ -71,6 +71,11 @@ json limit_json(const Limit& l, std::size_t index) {
   json j;
   j["index"] = index + 1;
   j["result"] = l.result;
+  const ResultInfo* info = find_result(l.result);
+  j["unit"] = info && !info->yes_no ? std::string(info->unit) : std::string();
+  json written = json::object();
+  for (const auto& [field, text] : l.written) written[field] = text;
+  j["written"] = std::move(written);
   j["key"] = l.key();
   j["label"] = l.label;
   j["description"] = l.describe();
@@ -81,22 +86,42 @@ json limit_json(const Limit& l, std::size_t index) {
   return j;
 }
 
+json number_or_null(double v) { return std::isfinite(v) ? io::json_number(v) : json(nullptr); }
+
+bool yes_no(const Limit& l) {
+  const ResultInfo* info = find_result(l.result);
+  return info && info->yes_no;
+}
+
 json outcome_json(const Limit& l, const LimitOutcome& o, std::size_t index) {
   json j;
   j["index"] = index + 1;
   j["key"] = l.key();
   j["passed"] = o.passed;
   j["evaluated"] = o.evaluated;
-  j["value"] = o.evaluated ? io::json_number(o.measured.value) : json(nullptr);
-  j["lo95"] = o.evaluated && o.measured.has_interval() ? io::json_number(o.measured.lo95) : json(nullptr);
-  j["hi95"] = o.evaluated && o.measured.has_interval() ? io::json_number(o.measured.hi95) : json(nullptr);
+  if (o.evaluated && yes_no(l))
+    j["value"] = o.measured.value != 0;
+  else
+    j["value"] = o.evaluated ? io::json_number(o.measured.value) : json(nullptr);
+  const bool interval = o.evaluated && !yes_no(l) && o.measured.has_interval();
+  j["u"] = o.evaluated && !yes_no(l) ? number_or_null(o.measured.u) : json(nullptr);
+  j["k"] = interval ? number_or_null(o.measured.k) : json(nullptr);
+  j["lo95"] = interval ? io::json_number(o.measured.lo95) : json(nullptr);
+  j["hi95"] = interval ? io::json_number(o.measured.hi95) : json(nullptr);
+  j["min"] = yes_no(l) ? json(nullptr) : number_or_null(l.lo);
+  j["max"] = yes_no(l) ? json(nullptr) : number_or_null(l.hi);
+  j["allowed"] = l.allowed_text();
+  j["margin"] = number_or_null(o.margin);
+  j["margin_fraction"] = number_or_null(o.margin_fraction);
   j["measured"] = o.measured_text;
   j["verdict"] = o.verdict;
   return j;
 }
 
-std::string failing_text(const Limit& l, const LimitOutcome& o) {
-  return l.describe() + " = " + o.measured_text + ", allowed " + l.allowed_text();
+std::string flags_text(const std::vector<std::string>& flags) {
+  std::string out;
+  for (const auto& f : flags) out += (out.empty() ? "" : "; ") + f;
+  return out;
 }
 
 /// Everything one worker produces for one file; the section and the JSON leave memory as soon
@@ -151,14 +176,27 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
       report::ReportLimit row{limit.describe(), o.measured_text, limit.allowed_text(), o.verdict,
                               !o.passed};
       if (!o.passed) {
-        w.section.failing.push_back(failing_text(limit, o));
+        w.section.failing.push_back(failing_limit_text(limit, o));
       }
       w.section.limits.push_back(std::move(row));
       w.result.limits.push_back(std::move(o));
     }
+    // Flags reach the verdict: a flag whose code the config lists fails the file whatever the
+    // limits say, because the numbers the limits read cannot be trusted (core/flags.hpp).
+    w.result.flags = analysis.flags;
+    for (const auto& flag : analysis.flags) {
+      const std::string code(flag_code(flag));
+      w.section.flags.push_back(flag + " (" +
+                                (find_flag(code) ? severity_name(find_flag(code)->severity) : "unknown") + ")");
+      if (std::find(config.fail_on_flags.begin(), config.fail_on_flags.end(), code) == config.fail_on_flags.end())
+        continue;
+      w.result.failing_flags.push_back(flag);
+      w.section.failing.insert(w.section.failing.begin() + static_cast<std::ptrdiff_t>(w.result.failing_flags.size() - 1),
+                               failing_flag_text(flag));
+      all_passed = false;
+    }
     w.result.status = all_passed ? report::FileStatus::pass : report::FileStatus::fail;
     w.section.status = w.result.status;
-    w.result.flags = analysis.flags;
     for (const auto& k : analysis.keys) w.result.key_results.emplace_back(k.name, k.machine);
     std::string line;
     for (const auto& k : analysis.keys)
@@ -184,6 +222,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   d["error"] = w.result.error.empty() ? json(nullptr) : json(w.result.error);
   d["mode"] = mode_name(config.mode);
   d["flags"] = w.result.flags;
+  d["failing_flags"] = w.result.failing_flags;
   json limits = json::array();
   for (std::size_t i = 0; i < w.result.limits.size(); ++i)
     limits.push_back(outcome_json(config.limits[i], w.result.limits[i], i));
@@ -193,26 +232,54 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   return w;
 }
 
+// Per limit K: its value column (named by its key, as before), then u, k, lo95, hi95, min, max
+// (SI), allowed (as written), passed, verdict, margin, margin_fraction (docs/batch-output.md).
+constexpr const char* kLimitColumns[] = {"u",   "k",       "lo95",    "hi95",   "min",
+                                         "max", "allowed", "passed",  "verdict", "margin",
+                                         "margin_fraction"};
+
+std::string csv_number(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
+
 std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& config) {
   std::string out = "path,status";
   for (const auto& key : analysis_key_names(config)) out += "," + report::csv_cell(key);
-  for (std::size_t i = 0; i < config.limits.size(); ++i)
-    out += "," + report::csv_cell("limit" + std::to_string(i + 1) + ":" + config.limits[i].key());
-  out += ",failing_limits,message\n";
+  for (std::size_t i = 0; i < config.limits.size(); ++i) {
+    const std::string prefix = "limit" + std::to_string(i + 1) + ":";
+    out += "," + report::csv_cell(prefix + config.limits[i].key());
+    for (const char* column : kLimitColumns) out += "," + report::csv_cell(prefix + column);
+  }
+  out += ",flags,failing_flags,failing_limits,message\n";
   for (const auto& w : works) {
     const FileResult& r = w.result;
     out += report::csv_cell(r.path) + "," + report::status_text(r.status);
     for (const auto& [key, value] : r.key_results) out += "," + report::csv_cell(value);
     for (std::size_t i = 0; i < config.limits.size(); ++i) {
-      std::string cell;
-      if (i < r.limits.size() && r.limits[i].evaluated)
-        cell = io::format_shortest(r.limits[i].measured.value);
-      out += "," + cell;
+      const Limit& l = config.limits[i];
+      const bool have = i < r.limits.size();
+      const bool measured = have && r.limits[i].evaluated;
+      const Quantity q = measured ? r.limits[i].measured : Quantity{};
+      const bool interval = measured && !yes_no(l) && q.has_interval();
+      if (measured && yes_no(l))
+        out += std::string(",") + (q.value != 0 ? "true" : "false");
+      else
+        out += "," + csv_number(q.value);
+      out += "," + (measured && !yes_no(l) ? csv_number(q.u) : "");
+      out += "," + (interval ? csv_number(q.k) : "");
+      out += "," + (interval ? csv_number(q.lo95) : "");
+      out += "," + (interval ? csv_number(q.hi95) : "");
+      out += "," + (yes_no(l) ? "" : csv_number(l.lo));
+      out += "," + (yes_no(l) ? "" : csv_number(l.hi));
+      out += "," + report::csv_cell(l.allowed_text());
+      out += "," + (have ? std::string(r.limits[i].passed ? "true" : "false") : "");
+      out += "," + (have ? report::csv_cell(r.limits[i].verdict) : "");
+      out += "," + (have ? csv_number(r.limits[i].margin) : "");
+      out += "," + (have ? csv_number(r.limits[i].margin_fraction) : "");
     }
     std::string failing;
     for (std::size_t i = 0; i < r.limits.size(); ++i)
       if (!r.limits[i].passed)
-        failing += (failing.empty() ? "" : "; ") + failing_text(config.limits[i], r.limits[i]);
+        failing += (failing.empty() ? "" : "; ") + failing_limit_text(config.limits[i], r.limits[i]);
+    out += "," + report::csv_cell(flags_text(r.flags)) + "," + report::csv_cell(flags_text(r.failing_flags));
     out += "," + report::csv_cell(failing) + "," + report::csv_cell(r.error) + "\n";
   }
   return out;
@@ -231,6 +298,7 @@ json summary_json(const std::vector<FileDone>& works, const BatchResult& result,
                  {"pass", result.passed},
                  {"fail", result.failed},
                  {"error", result.errors}};
+  j["fail_on_flags"] = config.fail_on_flags;
   json limits = json::array();
   for (std::size_t i = 0; i < config.limits.size(); ++i) limits.push_back(limit_json(config.limits[i], i));
   j["limits"] = std::move(limits);
@@ -246,10 +314,15 @@ json summary_json(const std::vector<FileDone>& works, const BatchResult& result,
     for (const auto& [key, value] : r.key_results) keys[key] = value;
     f["key_results"] = std::move(keys);
     json failing = json::array();
-    for (std::size_t i = 0; i < r.limits.size(); ++i)
-      if (!r.limits[i].passed) failing.push_back(outcome_json(config.limits[i], r.limits[i], i));
+    json outcomes = json::array();
+    for (std::size_t i = 0; i < r.limits.size(); ++i) {
+      outcomes.push_back(outcome_json(config.limits[i], r.limits[i], i));
+      if (!r.limits[i].passed) failing.push_back(outcomes.back());
+    }
+    f["limits"] = std::move(outcomes);
     f["failing"] = std::move(failing);
     f["flags"] = r.flags;
+    f["failing_flags"] = r.failing_flags;
     files.push_back(std::move(f));
   }
   j["files"] = std::move(files);
@@ -450,6 +523,25 @@ BatchResult run_batch(const BatchOptions& options) {
   }
   result.elapsed_s = elapsed();
   return result;
+}
+
+std::string failing_limit_text(const Limit& l, const LimitOutcome& o) {
+  return l.describe() + " = " + o.measured_text + ", allowed " + l.allowed_text();
+}
+
+std::string failing_flag_text(const std::string& flag) {
+  const FlagInfo* info = find_flag(flag_code(flag));
+  return "flag " + flag + " (" + (info ? severity_name(info->severity) : "unknown") + ")";
+}
+
+std::string file_reason(const FileResult& file, const BatchConfig& config) {
+  if (!file.error.empty()) return file.error;
+  std::vector<std::string> reasons;
+  for (const auto& flag : file.failing_flags) reasons.push_back(failing_flag_text(flag));
+  for (std::size_t i = 0; i < file.limits.size() && i < config.limits.size(); ++i)
+    if (!file.limits[i].passed) reasons.push_back(failing_limit_text(config.limits[i], file.limits[i]));
+  if (reasons.empty()) return "";
+  return reasons.front() + (reasons.size() > 1 ? " (+" + std::to_string(reasons.size() - 1) + " more)" : "");
 }
 
 ExitCode batch_exit_code(const BatchResult& result) {

@@ -58,7 +58,9 @@ struct FileResult {
   std::string path;                 ///< as found (folder argument joined with the relative path)
   report::FileStatus status = report::FileStatus::error;
   std::string error;                ///< the message when status is ERROR
-  std::vector<std::string> flags;   ///< analysis flags (nonlinear, few-periods, clipped, …)
+  std::vector<std::string> flags;   ///< analysis flags (nonlinear, few-periods, v_out: clipped, …)
+  /// The flags that fail this file (those whose code is in config.fail_on_flags), as in `flags`
+  std::vector<std::string> failing_flags;
   std::vector<std::pair<std::string, std::string>> key_results;  ///< summary columns, in order
   std::vector<LimitOutcome> limits; ///< one per config limit, in config order
   std::string json_file;            ///< per-file JSON, relative to the report folder
@@ -88,7 +90,18 @@ std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
 /// unwritable report folder); problems of single files become ERROR rows.
 BatchResult run_batch(const BatchOptions& options);
 
-/// 0 all passed, 1 some limit failed (no errors), 2 some file had an error.
+/// Why a file did not pass, for one line on a terminal: its error, else its first failing flag
+/// ("flag v_out: clipped (invalidates)"), else its first failing limit with the value, its 95 %
+/// interval and the allowed range; "(+N more)" when there are more. "" for a PASS.
+std::string file_reason(const FileResult& file, const BatchConfig& config);
+
+/// One failing limit for people: "thd = 9.3 % (no uncertainty known), allowed ≤ 8 %".
+std::string failing_limit_text(const Limit& limit, const LimitOutcome& outcome);
+
+/// One failing flag for people: "flag v_out: clipped (invalidates)".
+std::string failing_flag_text(const std::string& flag);
+
+/// 0 all passed, 1 some limit or flag failed (no errors), 2 some file had an error.
 ExitCode batch_exit_code(const BatchResult& result);
 
 /// "N pass, N fail, N error".

@@ -159,17 +159,14 @@ Runner add_batch(CLI::App& app) {
     if (!b.quiet) {
       report::Table table({{"file", report::Table::Align::left},
                            {"status", report::Table::Align::left},
-                           {"failing limits / message", report::Table::Align::left}});
+                           {"flags", report::Table::Align::left},
+                           {"why not PASS (value, 95 % interval, allowed range) / message",
+                            report::Table::Align::left}});
       for (const auto& f : r.files) {
-        std::string why = f.error;
-        std::size_t failing = 0;
-        for (std::size_t i = 0; i < f.limits.size(); ++i)
-          if (!f.limits[i].passed) {
-            if (failing++ == 0)
-              why = b.run.config.limits[i].describe() + " = " + f.limits[i].measured_text;
-          }
-        if (failing > 1) why += " (+" + std::to_string(failing - 1) + " more)";
-        table.add_row({f.path, report::status_text(f.status), why});
+        std::string flags;
+        for (const auto& flag : f.flags) flags += (flags.empty() ? "" : ", ") + flag;
+        table.add_row({f.path, report::status_text(f.status), flags.empty() ? "-" : flags,
+                       batch::file_reason(f, b.run.config)});
       }
       out += table.render();
       out += "report: " + r.report_html + "\n";

@@ -38,7 +38,7 @@ constexpr Command kCommands[] = {
 };
 
 constexpr const char* kExitCodes =
-    "Exit codes: 0 success (batch: all passed), 1 batch: a limit failed, "
+    "Exit codes: 0 success (batch: all passed), 1 batch: a limit or a flag failed, "
     "2 error: bad usage, unreadable or invalid input.";
 
 void print_error(const std::string& message) {

@@ -82,6 +82,7 @@ ReportRow report_row(const ReportFile& file) {
   row.status = file.status;
   row.key_results = file.key_results;
   row.failing = file.failing;
+  row.flags = file.flags;
   if (file.status == FileStatus::error && !file.messages.empty()) row.error = file.messages.front();
   return row;
 }
@@ -144,7 +145,7 @@ void write_html_report(const ReportOverview& overview,
   if (!overview.settings.empty()) html += key_value_table(overview.settings, "settings");
 
   html += "<h2 id=\"overview\">Overview</h2>\n<table class=\"overview\">\n<thead><tr><th>#</th>"
-          "<th>file</th><th>status</th><th>key results</th><th>failing limits (measured)</th>"
+          "<th>file</th><th>status</th><th>key results</th><th>flags</th><th>failing flags and limits (measured)</th>"
           "</tr></thead>\n<tbody>\n";
   sink(html);
   for (std::size_t i = 0; i < overview.rows.size(); ++i) {
@@ -152,6 +153,8 @@ void write_html_report(const ReportOverview& overview,
     html = "<tr><td class=\"num\">" + std::to_string(i + 1) + "</td><td class=\"path\"><a href=\"#file-" +
            std::to_string(i + 1) + "\">" + xml_escape(f.path) + "</a></td><td>" + badge(f.status) +
            "</td><td>" + xml_escape(f.key_results) + "</td><td class=\"msg\">";
+    for (std::size_t k = 0; k < f.flags.size(); ++k) html += (k ? "<br>" : "") + xml_escape(f.flags[k]);
+    html += "</td><td class=\"msg\">";
     for (std::size_t k = 0; k < f.failing.size(); ++k)
       html += (k ? "<br>" : "") + xml_escape(f.failing[k]);
     html += xml_escape(f.error);

@@ -45,7 +45,8 @@ struct ReportFile {
   std::string path;
   FileStatus status = FileStatus::pass;
   std::string key_results;  ///< one line for the overview table
-  std::vector<std::string> failing;  ///< one entry per failing limit, with its measured value
+  std::vector<std::string> failing;  ///< one entry per failing flag and failing limit, with its measured value
+  std::vector<std::string> flags;    ///< every flag with its severity: "v_out: clipped (invalidates)"
   std::vector<std::pair<std::string, std::string>> results;   ///< result name → value text
   std::vector<ReportLimit> limits;
   std::vector<std::string> messages;  ///< the error message, warnings and flags
@@ -65,6 +66,7 @@ struct ReportRow {
   FileStatus status = FileStatus::pass;
   std::string key_results;
   std::vector<std::string> failing;  ///< as ReportFile::failing
+  std::vector<std::string> flags;    ///< as ReportFile::flags
   std::string error;                 ///< shown for an ERROR file: its first message
 };
 

@@ -1,0 +1,87 @@
+#include "core/flags.hpp"
+
+namespace periodfit {
+
+namespace {
+
+// Severities are decided by what the flag's test establishes (docs/flags.md gives the reasons):
+// a clipped or aliased record is not the waveform the harmonics describe, an unconverged fit is
+// not the least-squares estimate, and a channel without a harmonic above the noise has only
+// noise for its harmonic figures; the others qualify numbers that still hold.
+const std::vector<FlagInfo> kFlags = {
+    {"clipped", FlagSeverity::invalidates, "analyze",
+     "samples sit at the record's extreme in flat runs: the harmonics describe the flattened "
+     "waveform, not the signal"},
+    {"aliasing-risk", FlagSeverity::invalidates, "analyze",
+     "a significant harmonic above 0.4·fs within 60 dB of the fundamental: harmonics beyond fs/2 "
+     "may have folded onto the reported ones"},
+    {"not-converged", FlagSeverity::invalidates, "analyze",
+     "the f0 fit stopped without converging: f0, and every harmonic taken at its multiples, may be off"},
+    {"dc-only", FlagSeverity::invalidates, "analyze",
+     "no harmonic stands out of the noise: f0 and the harmonic figures (THD, SINAD, amplitudes, "
+     "phases) are noise"},
+    {"model-not-converged", FlagSeverity::invalidates, "identify",
+     "the model fit stopped without converging: its parameters are not the least-squares estimate"},
+    {"few-periods", FlagSeverity::caution, "analyze, identify",
+     "few periods in the record (analyze: < 2; identify: < 4 whole periods, noise from the bins "
+     "between harmonics): the figures rest on little data"},
+    {"drift", FlagSeverity::caution, "analyze",
+     "f0 differs between the halves of the record: the figures are averages over the record"},
+    {"nonlinear", FlagSeverity::caution, "identify",
+     "output power above the noise at harmonics the input does not excite: the FRF holds for this "
+     "excitation level only"},
+    {"model-inadequate", FlagSeverity::caution, "identify",
+     "the model's cost lies outside the band a correct model reaches: model-derived numbers are "
+     "those of an approximation"},
+    {"unstable-pole", FlagSeverity::caution, "identify",
+     "the fitted model has a pole in the right half-plane"},
+    {"ill-conditioned", FlagSeverity::caution, "identify",
+     "the fit's scaled Jacobian has a condition number above 1e10: the parameters' uncertainties "
+     "are not reliable"},
+    {"parameter-u-undefined", FlagSeverity::caution, "identify",
+     "weights from 6 periods or fewer: the parameters' variance does not exist to first order, and "
+     "their u carries only the first-moment correction"},
+    {"numerical-floor", FlagSeverity::info, "identify",
+     "a noise-free record: some variances were raised to the numerical floor (1e-12 of |H|)"},
+    {"truncation-visible", FlagSeverity::caution, "predict",
+     "the harmonic series was cut where the waveform still carries visible energy: samples, min, "
+     "max and ripple show the truncation"},
+    {"gibbs", FlagSeverity::info, "predict",
+     "the waveform has jumps: a truncated series overshoots near them (Gibbs phenomenon)"},
+    {"no-fundamental", FlagSeverity::info, "predict",
+     "the predicted output has no line at the fundamental: its THD is undefined"},
+};
+
+}  // namespace
+
+const char* severity_name(FlagSeverity severity) {
+  switch (severity) {
+    case FlagSeverity::invalidates: return "invalidates";
+    case FlagSeverity::caution: return "caution";
+    case FlagSeverity::info: return "info";
+  }
+  return "invalidates";
+}
+
+const std::vector<FlagInfo>& flag_catalogue() { return kFlags; }
+
+const FlagInfo* find_flag(std::string_view code) {
+  for (const auto& f : kFlags)
+    if (f.code == code) return &f;
+  return nullptr;
+}
+
+std::string_view flag_code(std::string_view flag) {
+  // Codes never hold ':'; a channel name before ": " may.
+  const auto at = flag.rfind(": ");
+  return at == std::string_view::npos ? flag : flag.substr(at + 2);
+}
+
+std::vector<std::string> invalidating_flags() {
+  std::vector<std::string> out;
+  for (const auto& f : kFlags)
+    if (f.severity == FlagSeverity::invalidates) out.emplace_back(f.code);
+  return out;
+}
+
+}  // namespace periodfit
