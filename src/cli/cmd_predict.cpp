@@ -41,16 +41,17 @@ Runner add_predict(CLI::App& app) {
   auto& o = a->options;
   // System.
   auto* model = app.add_option("--model", a->model_path, "model file written by identify (may hold measured FRF points)")
-                    ->type_name("FILE");
+                    ->type_name("FILE")->group("system");
   // The system as text: docs/system-expression.md (grammar, columns in error messages).
   auto* system = app.add_option("--system", a->system,
                                 "H(s) as a rational expression in s (rad/s), e.g. \"1/(1 + 1e-3*s)\" or "
                                 "\"w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200\" (docs/system-expression.md)")
-                     ->type_name("EXPR");
+                     ->type_name("EXPR")->group("system");
   model->excludes(system);
   app.add_option("--delay", a->delay_s, "dead time T of H(s)·e^{-sT} for --system, seconds")
       ->capture_default_str()
       ->type_name("S")
+      ->group("system")
       ->needs(system);
   // Named for what it picks, so it cannot be mistaken for the system description above.
   app.add_option("--response-from", a->response_from,
@@ -58,8 +59,11 @@ Runner add_predict(CLI::App& app) {
                  "(measured points where they exist, the model elsewhere)")
       ->capture_default_str()
       ->check(CLI::IsMember({"model", "measured"}))
+      ->type_name("model|measured")
+      ->group("system")
       ->needs(model);
   // Input.
+  app.option_defaults()->group("input");
   auto* wave = app.add_option("--wave", a->wave_kind,
                               "input waveform: sine, square, triangle, sawtooth, half-wave, full-wave, pulse "
                               "(docs/waveforms.md)")
@@ -87,6 +91,7 @@ Runner add_predict(CLI::App& app) {
   wave->excludes(terms)->excludes(input);
   terms->excludes(input);
   // Output.
+  app.option_defaults()->group("output");
   app.add_option("--harmonics", o.truncation.harmonics,
                  "input harmonics used; 0 = automatic (input energy left out below the bound); a capture: "
                  "harmonics analysed")
