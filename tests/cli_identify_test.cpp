@@ -291,8 +291,12 @@ TEST_CASE("cli identify: --help shows the library defaults") {
   const auto r = run_cli("identify --help");
   CHECK(r.exit_code == 0);
   // Defaults come from ident::IdentifyOptions / FrfOptions (min_snr_db = 20, channels 0 and 1).
-  CHECK(r.out.find("  --min-snr DB=20 ") != std::string::npos);
-  CHECK(r.out.find("  --input CH=0 ") != std::string::npos);
-  CHECK(r.out.find("  --output CH=1 ") != std::string::npos);
+  const std::string indent(28, ' ');  // the help's option column (cli/usage.cpp kLabelWidth)
+  CHECK(r.out.find("  --min-snr DB              input power above the input noise floor, in dB, for a harmonic to count\n" +
+                   indent + "as excited\n" + indent + "default 20\n") != std::string::npos);
+  CHECK(r.out.find("  --input CH                DUT input channel, by name or 0-based index\n" + indent + "default 0\n") !=
+        std::string::npos);
+  CHECK(r.out.find("  --output CH               DUT output channel, by name or 0-based index\n" + indent +
+                   "default 1\n") != std::string::npos);
   CHECK(r.out.find("  --order M/N|auto ") != std::string::npos);
 }

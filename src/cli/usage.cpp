@@ -93,15 +93,16 @@ std::string name_list(const std::set<CLI::Option*>& opts) {
   return out;
 }
 
-std::string row(const std::string& left, const std::string& text, const std::string& notes = {}) {
+std::string row(const std::string& left, const std::string& text, const std::string& notes = {},
+                std::size_t width = kLabelWidth) {
   std::string out = "  " + left;
-  if (out.size() + 2 > kLabelWidth) {
-    out += "\n" + std::string(kLabelWidth, ' ');
+  if (out.size() + 2 > width) {
+    out += "\n" + std::string(width, ' ');
   } else {
-    out += std::string(kLabelWidth - out.size(), ' ');
+    out += std::string(width - out.size(), ' ');
   }
-  out += fill(text, kLabelWidth, kLabelWidth) + "\n";
-  if (!notes.empty()) out += std::string(kLabelWidth, ' ') + fill(notes, kLabelWidth, kLabelWidth) + "\n";
+  out += fill(text, width, width) + "\n";
+  if (!notes.empty()) out += std::string(width, ' ') + fill(notes, width, width) + "\n";
   return out;
 }
 
@@ -139,7 +140,9 @@ class HelpFormatter : public CLI::FormatterBase {
     if (!app->get_description().empty()) out += fill(app->get_description(), 0, 0) + "\n\n";
     if (!commands.empty()) {
       out += "commands:\n";
-      for (const CLI::App* c : commands) out += row(c->get_name(), c->get_description());
+      std::size_t width = 0;  // command names are short: their column is as wide as the longest
+      for (const CLI::App* c : commands) width = std::max(width, c->get_name().size() + 4);
+      for (const CLI::App* c : commands) out += row(c->get_name(), c->get_description(), {}, width);
       out += "\n" + fill("`" + name + " COMMAND --help` lists a command's options.", 0, 0) + "\n\n";
     }
     bool any_positional = false;
