@@ -127,19 +127,14 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
               q(pole.time_constant_s, pole.time_constant_u_s));
         m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
               q(std::abs(pole.value.real()) * to_hz, pole.re_u * to_hz));
-        a.result_rows.emplace_back("pole " + std::to_string(entry),
-                                   "real, \xCF\x84 = " + pm(pole.time_constant_s, kk(pole.time_constant_u_s), "s"));
+        // The report's pole rows read like identify's pole table: frequency first, standard u.
+        a.result_rows.emplace_back("pole " + std::to_string(entry), ident::root_summary(pole));
       } else {
         m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
               q(pole.natural_frequency_rad_s * to_hz, pole.natural_frequency_u_rad_s * to_hz));
         m.set(measurement_key("damping", {}, {}, {}, entry), q(pole.damping_ratio, pole.damping_ratio_u));
         m.set(measurement_key("q_factor", {}, {}, {}, entry), q(pole.q_factor, pole.q_factor_u));
-        a.result_rows.emplace_back(
-            "pole " + std::to_string(entry),
-            "complex pair, fn = " +
-                pm(pole.natural_frequency_rad_s * to_hz, kk(pole.natural_frequency_u_rad_s) * to_hz, "Hz") +
-                ", \xCE\xB6 = " + pm(pole.damping_ratio, kk(pole.damping_ratio_u), "") +
-                ", Q = " + pm(pole.q_factor, kk(pole.q_factor_u), ""));
+        a.result_rows.emplace_back("pole " + std::to_string(entry), ident::root_summary(pole));
       }
     }
     for (const auto& limit : config.limits) {
