@@ -115,6 +115,7 @@ TEST_CASE("cli usage: each kind of usage error is one line naming the option and
       {"predcit --wave sine",
        "periodfit: error: unknown command \"predcit\"; did you mean predict? (commands: info, analyze, identify, "
        "predict, excite, batch)\n"},
+      {"--verison", "periodfit: error: unknown option --verison; did you mean --version?\n"},
       // unknown option: did-you-mean by edit distance over the command's own options
       {"predict --system '1/(1 + s)' --wave sine --rat 1000", "periodfit: error: unknown option --rat; did you mean --rate?\n"},
       {"predict --system '1/(1 + s)' --wave sine --respons-from measured",

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <complex>
 #include <numbers>
+#include <random>
 #include <string>
 #include <vector>
 
@@ -153,4 +154,40 @@ TEST_CASE("system expression: text over the length bound is refused before it is
   const ident::ExpressionError e = error_of(long_text);
   CHECK(e.expression_column() == 4097);
   CHECK(e.expected() == "expression longer than 4096 characters");
+}
+
+TEST_CASE("system expression: random edits of valid text parse or are refused with a column inside it") {
+  // A cheap stand-in for fuzzing (fixed seed, std::mt19937 is fully specified by the standard):
+  // every outcome is a model or an ExpressionError whose column lies within the text + 1.
+  const std::string seeds[] = {"0.8*w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200", "1/(1 + 0.68e-3*s)",
+                               "(s^2 + w^2)/(s + 1)^3; w = 2; k = w^-1"};
+  const std::string alphabet = "0123456789.eE+-*/^() ;=swpi_x\t#";
+  std::mt19937 rng(14);
+  int parsed = 0, refused = 0;
+  for (int trial = 0; trial < 3000; ++trial) {
+    std::string text = seeds[static_cast<std::size_t>(trial) % 3];
+    const int edits = 1 + static_cast<int>(rng() % 4);
+    for (int e = 0; e < edits && !text.empty(); ++e) {
+      const std::size_t at = rng() % text.size();
+      const char c = alphabet[rng() % alphabet.size()];
+      switch (rng() % 3) {
+        case 0: text[at] = c; break;
+        case 1: text.insert(text.begin() + static_cast<std::ptrdiff_t>(at), c); break;
+        default: text.erase(at, 1); break;
+      }
+    }
+    try {
+      const auto r = parse_system_expression(text);
+      ++parsed;
+      REQUIRE_FALSE(r.model.den.empty());
+      CHECK(r.model.den.back() == 1);
+    } catch (const ident::ExpressionError& e) {
+      ++refused;
+      INFO(text);
+      CHECK(e.expression_column() >= 1);
+      CHECK(e.expression_column() <= text.size() + 1);
+    }
+  }
+  CHECK(parsed > 0);   // the edits leave some text valid …
+  CHECK(refused > 0);  // … and break most of it
 }

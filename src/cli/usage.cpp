@@ -276,7 +276,8 @@ std::string usage_error_message(const CLI::ParseError& error, CLI::App& app, con
     if (starts_with(message, "A subcommand")) {
       // A word where the command belongs is a misspelt command, not a missing one.
       for (const auto& a : args)
-        if (!a.empty() && a[0] != '-') return extras_message(app, nullptr, {a});
+        if (!a.empty() && (a[0] != '-' || !find_option(app, a.substr(0, a.find('=')))))
+          return extras_message(app, nullptr, {a});
       return "no command given; commands: " + command_list(app);
     }
     if (ends_with(message, " is required")) {
