@@ -159,9 +159,13 @@ class HelpFormatter : public CLI::FormatterBase {
       if (o->nonpositional() && !o->get_group().empty() &&
           std::find(groups.begin(), groups.end(), o->get_group()) == groups.end())
         groups.push_back(o->get_group());
+    // A command that names its groups (predict: system, input, output) lists them first and the
+    // rest (--help at least) after them.
+    const auto general = std::find(groups.begin(), groups.end(), std::string("Options"));
+    if (general != groups.end() && groups.size() > 1) std::rotate(general, general + 1, groups.end());
     for (const auto& g : groups) {
       std::string heading = g;
-      if (heading == "Options") heading = "options";  // the parser's default group
+      if (heading == "Options") heading = groups.size() > 1 ? "other options" : "options";  // the parser's default group
       out += heading + ":\n";
       for (const CLI::Option* o : options)
         if (o->nonpositional() && o->get_group() == g) out += row(option_label(o), describe_option(o), option_notes(o));

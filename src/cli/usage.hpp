@@ -7,7 +7,7 @@
 ///
 /// Usage errors (stderr, exit 2): the argument parser's exceptions are turned into one line
 /// naming the option and what it expects, e.g. `--rate: "1MQ" is not a number`,
-/// `unknown option --nmu; did you mean --num?` (edit distance over the command's options,
+/// `unknown option --rat; did you mean --rate?` (edit distance over the command's options,
 /// core/error.hpp nearest_name), `no command given; commands: info, analyze, …`.
 #include <CLI/CLI.hpp>
 #include <memory>
