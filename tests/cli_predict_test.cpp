@@ -184,3 +184,19 @@ TEST_CASE("cli predict: bad input gives one error line and exit code 2") {
     CHECK(r.err == c.err);
   }
 }
+
+TEST_CASE("cli predict: --system takes the issue's second-order section with a named constant, and --delay") {
+  // At ω = ωn: H(jωn) = 0.8·ωn²/(2ζωn·jωn) = −j·0.8/(2ζ): gain 0.8/0.7, phase −90° (closed form).
+  const auto r = run_cli("predict --system '0.8*w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200' --wave sine --f0 1200 "
+                         "--json -");
+  REQUIRE(r.exit_code == 0);
+  const auto h1 = nlohmann::json::parse(r.out)["harmonics"][0];
+  CHECK(h1["gain_magnitude"].get<double>() == doctest::Approx(0.8 / 0.7).epsilon(kJsonRel));
+  CHECK(h1["gain_phase_deg"].get<double>() == doctest::Approx(-90).epsilon(kJsonRel));
+  // Dead time T adds −360°·f·T: 1000/(1000 + s) at ωτ = 1 with T = 100 µs → −45° − 5.7296°.
+  const auto d = run_cli("predict --system '1000/(1000 + s)' --delay 1e-4 --wave sine --f0 159.15494309189535 --json -");
+  REQUIRE(d.exit_code == 0);
+  const auto g1 = nlohmann::json::parse(d.out)["harmonics"][0];
+  CHECK(g1["gain_magnitude"].get<double>() == doctest::Approx(1 / std::sqrt(2.0)).epsilon(kJsonRel));
+  CHECK(g1["gain_phase_deg"].get<double>() == doctest::Approx(-45 - 360 * 159.15494309189535 * 1e-4).epsilon(kJsonRel));
+}
