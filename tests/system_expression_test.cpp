@@ -136,7 +136,8 @@ TEST_CASE("system expression: malformed text names what was expected and the col
       {"1; w = s", 8, "\"w\" must be a number, not a function of s"},
       {"1; w 2", 6, "expected \"=\" after the name \"w\", found \"2\""},
       {"1e", 3, "expected the digits of an exponent after \"1e\""},
-      {"1e999", 1, "number 1e999 is out of range (largest about 1.8e308)"},
+      {"1e999", 1, "number 1e999 is out of range for a double (about 2.2e-308 to 1.8e308 in magnitude, or 0)"},
+      {"1/(1 + 1e-999*s)", 8, "number 1e-999 is out of range for a double (about 2.2e-308 to 1.8e308 in magnitude, or 0)"},
       {"1 # 2", 3, "unexpected character \"#\" (expected a number, a name, + - * / ^ ( ) or ; name = value)"},
       {"s^2^3", 4, "a power of a power needs parentheses: write (a^m)^n"},
   };

@@ -79,11 +79,10 @@ std::vector<Token> tokenize(std::string_view text, const std::string& source) {
         j = k;
       }
       Token t{Kind::number, std::string(text.substr(i, j - i)), 0, column};
-      // strtod, not from_chars: the spelling is already validated, and strtod reports
-      // overflow through errno/HUGE_VAL on every standard library the suite is built with.
-      t.value = std::strtod(t.text.c_str(), nullptr);
-      if (!std::isfinite(t.value))
-        throw ExpressionError(source, column, "number " + t.text + " is out of range (largest about 1.8e308)");
+      // from_chars: independent of the C locale's decimal point; the spelling is validated above.
+      const auto [end, ec] = std::from_chars(t.text.data(), t.text.data() + t.text.size(), t.value);
+      if (ec != std::errc{} || end != t.text.data() + t.text.size() || !std::isfinite(t.value))
+        throw ExpressionError(source, column, "number " + t.text + " is out of range for a double (about 2.2e-308 to 1.8e308 in magnitude, or 0)");
       out.push_back(std::move(t));
       i = j;
       continue;
