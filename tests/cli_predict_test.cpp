@@ -161,6 +161,8 @@ TEST_CASE("cli predict: bad input gives one error line and exit code 2") {
       {"predict --system '1/(1 + 0.001*s' --wave sine",
        "periodfit: error: --system: unbalanced parentheses: expected \")\" for the \"(\" at column 3, found end of "
        "expression at column 15\n"},
+      {"predict --system '' --wave sine",
+       "periodfit: error: --system: expected an expression, found end of expression at column 1\n"},
       {"predict --system '1/(s - 1)' --wave sine",
        "periodfit: error: the model has a pole at 1+0j rad/s, not in the open left half-plane: it has no periodic "
        "steady state\n"},

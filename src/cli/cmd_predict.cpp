@@ -112,7 +112,7 @@ Runner add_predict(CLI::App& app) {
       ->capture_default_str()
       ->type_name("N");
 
-  return [a]() -> int {
+  return [a, system]() -> int {
     io::OutputSet outputs({{"--csv", a->csv_path}, {"--json", a->json_path}},
                           {{"--model", a->model_path}, {"--input-file", a->input_file}});
     predict::PredictSystem sys;
@@ -123,7 +123,7 @@ Runner add_predict(CLI::App& app) {
       sys.prefer_measured = a->response_from == "measured";
       if (sys.prefer_measured && file.frf.empty())
         throw InputError(a->model_path, 0, 0, "--response-from measured: the model file holds no measured FRF points");
-    } else if (!a->system.empty()) {
+    } else if (system->count() > 0) {  // an empty --system "" is the parser's error, not "none given"
       ident::SystemExpressionOptions so;
       so.source = "--system";
       const ident::SystemExpressionResult parsed = ident::parse_system_expression(a->system, so);
