@@ -199,5 +199,5 @@ TEST_CASE("cli analyze: --help shows the defaults from the options struct") {
   CHECK(r.exit_code == 0);
   for (const char* opt : {"--channel", "--f0", "--f0-hint", "--harmonics", "--json", "--csv", "--samples-per-period"})
     CHECK(r.out.find(opt) != std::string::npos);
-  CHECK(r.out.find("=0") != std::string::npos);  // e.g. --harmonics N=0 (automatic)
+  CHECK(r.out.find("default 0\n") != std::string::npos);  // e.g. --harmonics N, default 0 (automatic)
 }

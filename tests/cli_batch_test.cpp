@@ -76,7 +76,7 @@ TEST_CASE("cli batch: bad usage and bad configs exit 2 with one message, before 
   write_text(dir.file("in/x.csv"), "not read\n");
   auto r = run_cli("batch " + q(dir.file("in")));
   CHECK(r.exit_code == 2);
-  CHECK(r.err == "periodfit: error: --report is required (see periodfit --help)\n");
+  CHECK(r.err == "periodfit: error: periodfit batch needs --report OUTDIR: folder for summary.csv, summary.json, files/*.json, report.html\n");
 
   write_text(dir.file("bad.toml"), "[analysis]\nmode = \"identify\"\norder = \"0/2\"\n\n[[limit]]\nresult = \"dampng\"\npole = 1\nmin = 0.4\n");
   r = run_cli("batch " + q(dir.file("in")) + " --config " + q(dir.file("bad.toml")) + " --report " +

@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "ident/model_file.hpp"
+#include "io/number_format.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
 
@@ -291,8 +292,44 @@ TEST_CASE("cli identify: --help shows the library defaults") {
   const auto r = run_cli("identify --help");
   CHECK(r.exit_code == 0);
   // Defaults come from ident::IdentifyOptions / FrfOptions (min_snr_db = 20, channels 0 and 1).
-  CHECK(r.out.find("  --min-snr DB=20 ") != std::string::npos);
-  CHECK(r.out.find("  --input CH=0 ") != std::string::npos);
-  CHECK(r.out.find("  --output CH=1 ") != std::string::npos);
+  const std::string indent(28, ' ');  // the help's option column (cli/usage.cpp kLabelWidth)
+  CHECK(r.out.find("  --min-snr DB              input power above the input noise floor, in dB, for a harmonic to count\n" +
+                   indent + "as excited\n" + indent + "default 20\n") != std::string::npos);
+  CHECK(r.out.find("  --input CH                DUT input channel, by name or 0-based index\n" + indent + "default 0\n") !=
+        std::string::npos);
+  CHECK(r.out.find("  --output CH               DUT output channel, by name or 0-based index\n" + indent +
+                   "default 1\n") != std::string::npos);
   CHECK(r.out.find("  --order M/N|auto ") != std::string::npos);
+}
+
+TEST_CASE("cli identify: the text lists poles frequency first in Hz with u=; rad/s stay in the JSON") {
+  const TempDir dir("cli_identify_roots");
+  auto s = rc_square(12, 1e-3, 2);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const std::string args = "identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 --order 0/1";
+  const auto text = run_cli(args);
+  const auto json = run_cli(args + " --json -");
+  REQUIRE(text.exit_code == 0);
+  REQUIRE(json.exit_code == 0);
+  const auto pole = nlohmann::json::parse(json.out)["model"]["poles"][0];
+  // The same fit printed twice: corner frequency |p|/2π and τ = −1/p from the JSON's rad/s values
+  // (closed forms), in the text's 6 and 2 significant digits.
+  const double re = pole["re"].get<double>(), re_u = pole["re_u"].get<double>();
+  const std::string freq = periodfit::io::format_significant(std::abs(re) / (2 * kPi), 6) + " u=" +
+                           periodfit::io::format_significant(re_u / (2 * kPi), 2);
+  const std::string tau = periodfit::io::format_significant(pole["time_constant_s"].get<double>(), 6) + " u=" +
+                          periodfit::io::format_significant(pole["time_constant_u_s"].get<double>(), 2);
+  const auto at = text.out.find("\npoles\n");
+  REQUIRE(at != std::string::npos);
+  // The table pads columns to their widest cell: compare with runs of blanks folded to two.
+  std::string section;
+  for (char c : text.out.substr(at, text.out.find("\n\n", at + 1) - at))
+    if (!(c == ' ' && section.size() >= 2 && section.back() == ' ' && section[section.size() - 2] == ' ')) section += c;
+  section += "\n";
+  INFO(section);
+  CHECK(section.find("  root  freq_Hz") != std::string::npos);
+  CHECK(section.find("  damping_ratio  Q  time_constant_s\n") != std::string::npos);
+  CHECK(section.find("\n  real  " + freq + "  -  -  " + tau + "\n") != std::string::npos);
+  CHECK(section.find("\xC2\xB1") == std::string::npos);  // no bare ±
+  CHECK(section.find("rad") == std::string::npos);       // rad/s only in the JSON
 }

@@ -226,7 +226,7 @@ TEST_CASE("outputs: a full standard output is exit 2 with one line for every com
       "analyze " + q(capture),
       "analyze " + q(capture) + " --json -",
       "excite - --format csv --signal sine --f0 50 --rate 5000 --periods 2",
-      "predict --num 1 --den 1,0.001 --wave sine --f0 50 --csv -",
+      "predict --system '1/(1 + 0.001*s)' --wave sine --f0 50 --csv -",
       "batch " + q(capture) + " --report " + q(dir.file("report")) + " --quiet",
       "--help",
   };

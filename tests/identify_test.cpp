@@ -541,3 +541,38 @@ TEST_CASE("identify: a constant, zero or noise-only output is refused as carryin
     }
   }
 }
+
+TEST_CASE("identify: poles and zeros print frequency first in Hz, each value with u=") {
+  // Hand-made roots; the Hz figures are |p|/2π and Q = 1/(2ζ), u(Q) = u(ζ)/(2ζ²) (closed forms,
+  // ident/rational_fit.hpp), printed to 6 significant digits and u to 2.
+  const double two_pi = 2 * std::numbers::pi;
+  ident::Root pair;
+  pair.is_real = false;
+  pair.value = cd(-0.35 * two_pi * 1200, two_pi * 1200 * std::sqrt(1 - 0.35 * 0.35));
+  pair.natural_frequency_rad_s = two_pi * 1200;  // 1200 Hz
+  pair.natural_frequency_u_rad_s = two_pi * 3;   // 3 Hz
+  pair.damping_ratio = 0.35;
+  pair.damping_ratio_u = 0.002;
+  pair.q_factor = 1 / 0.7;                        // 1.42857
+  pair.q_factor_u = 0.002 / (2 * 0.35 * 0.35);    // 0.0081633
+  ident::Root conjugate = pair;
+  conjugate.value = std::conj(pair.value);
+  ident::Root real;
+  real.value = cd(-1000, 0);  // 1000/2π = 159.155 Hz
+  real.re_u = 10;             // 1.5915 Hz
+  real.time_constant_s = 1e-3;
+  real.time_constant_u_s = 1e-5;  // u(τ) = u(p)/p²
+  ident::Root origin;             // a zero at s = 0: no corner, no time constant
+  ident::Root repeated = real;
+  repeated.uncertainty_defined = false;
+  CHECK(ident::format_roots_table({real, pair, conjugate, origin, repeated}) ==
+        "  root            freq_Hz              damping_ratio  Q                 time_constant_s\n"
+        "  --------------  -------------------  -------------  ----------------  -----------------\n"
+        "  real            159.155 u=1.6        -              -                 0.001 u=1e-05\n"
+        "  complex pair    1200 u=3             0.35 u=0.002   1.42857 u=0.0082  -\n"
+        "  real, at s = 0  0 u=0                -              -                 -\n"
+        "  real            159.155 u=undefined  -              -                 0.001 u=undefined\n");
+  CHECK(ident::root_summary(pair) ==
+        "complex pair: natural frequency 1200 Hz u=3 Hz, damping ratio 0.35 u=0.002, Q 1.42857 u=0.0082");
+  CHECK(ident::root_summary(real) == "real: corner frequency 159.155 Hz u=1.6 Hz, time constant 0.001 s u=1e-05 s");
+}

@@ -36,6 +36,10 @@ TEST_CASE("roundtrip: excite -> filter -> identify recovers the filter within it
   den.precision(17);
   num << wn * wn;
   den << wn * wn << "," << 2 * zeta * wn << ",1";
+  // The same system as an expression for predict --system (ascending powers of s).
+  std::ostringstream den_expr;
+  den_expr.precision(17);
+  den_expr << wn * wn << " + " << 2 * zeta * wn << "*s + s^2";
 
   const auto u = dir.file("u.csv"), capture = dir.file("bench.csv"), model = dir.file("dut.model.json");
   // 32 periods of a random-phase multisine, harmonics 1–30 of 100 Hz at 10 kHz.
@@ -65,7 +69,7 @@ TEST_CASE("roundtrip: excite -> filter -> identify recovers the filter within it
   // the identified model's propagated uncertainty.
   const std::string wave = " --wave square --amplitude 1 --f0 50 --harmonics 2001 --rate 5000 --json -";
   const auto fitted = run_cli("predict --model '" + model + "'" + wave);
-  const auto exact = run_cli("predict --num " + num.str() + " --den " + den.str() + wave);
+  const auto exact = run_cli("predict --system '" + num.str() + "/(" + den_expr.str() + ")'" + wave);
   REQUIRE(fitted.exit_code == 0);
   REQUIRE(exact.exit_code == 0);
   const auto f = nlohmann::json::parse(fitted.out), e = nlohmann::json::parse(exact.out);

@@ -131,7 +131,6 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
     for (const auto& pole : fit.poles) {
       if (!pole.is_real && pole.value.imag() < 0) continue;  // a pair counts once
       ++entry;
-      const auto kk = [&](double u) { return pole.uncertainty_defined ? k * u : std::nan(""); };
       const auto q = [&](double v, double u) {
         return pole.uncertainty_defined ? Quantity::from_u(v, u, k) : Quantity{v};
       };
@@ -141,19 +140,14 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
               q(pole.time_constant_s, pole.time_constant_u_s));
         m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
               q(std::abs(pole.value.real()) * to_hz, pole.re_u * to_hz));
-        a.result_rows.emplace_back("pole " + std::to_string(entry),
-                                   "real, \xCF\x84 = " + pm(pole.time_constant_s, kk(pole.time_constant_u_s), "s"));
+        // The report's pole rows read like identify's pole table: frequency first, standard u.
+        a.result_rows.emplace_back("pole " + std::to_string(entry), ident::root_summary(pole));
       } else {
         m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
               q(pole.natural_frequency_rad_s * to_hz, pole.natural_frequency_u_rad_s * to_hz));
         m.set(measurement_key("damping", {}, {}, {}, entry), q(pole.damping_ratio, pole.damping_ratio_u));
         m.set(measurement_key("q_factor", {}, {}, {}, entry), q(pole.q_factor, pole.q_factor_u));
-        a.result_rows.emplace_back(
-            "pole " + std::to_string(entry),
-            "complex pair, fn = " +
-                pm(pole.natural_frequency_rad_s * to_hz, kk(pole.natural_frequency_u_rad_s) * to_hz, "Hz") +
-                ", \xCE\xB6 = " + pm(pole.damping_ratio, kk(pole.damping_ratio_u), "") +
-                ", Q = " + pm(pole.q_factor, kk(pole.q_factor_u), ""));
+        a.result_rows.emplace_back("pole " + std::to_string(entry), ident::root_summary(pole));
       }
     }
     for (const auto& limit : config.limits) {

@@ -12,6 +12,7 @@
 #include "dsp/harmonics.hpp"
 #include "dsp/waveforms.hpp"
 #include "ident/model_file.hpp"
+#include "ident/system_expression.hpp"
 #include "io/capture_reader.hpp"
 #include "io/output_set.hpp"
 #include "predict/superposition.hpp"
@@ -22,9 +23,9 @@ namespace periodfit::cli {
 namespace {
 struct PredictArgs {
   std::string model_path;
-  std::vector<double> num, den;
+  std::string system;             ///< --system: a rational expression in s (ident/system_expression.hpp)
   double delay_s = 0;
-  std::string system = "model";  ///< "model" or "measured"
+  std::string response_from = "model";  ///< "model" or "measured"
   std::string wave_kind;
   dsp::WaveSpec wave;
   std::vector<std::string> harmonic_terms;
@@ -40,27 +41,29 @@ Runner add_predict(CLI::App& app) {
   auto& o = a->options;
   // System.
   auto* model = app.add_option("--model", a->model_path, "model file written by identify (may hold measured FRF points)")
-                    ->type_name("FILE");
-  auto* num = app.add_option("--num", a->num, "numerator b0,b1,… in ascending powers of s (s in rad/s)")
-                  ->delimiter(',')
-                  ->type_name("LIST");
-  auto* den = app.add_option("--den", a->den, "denominator a0,a1,… in ascending powers of s; highest must be nonzero")
-                  ->delimiter(',')
-                  ->type_name("LIST");
-  num->needs(den);
-  den->needs(num);
-  model->excludes(num)->excludes(den);
-  app.add_option("--delay", a->delay_s, "dead time T of H(s)·e^{-sT} for --num/--den, seconds")
+                    ->type_name("FILE")->group("system");
+  // The system as text: docs/system-expression.md (grammar, columns in error messages).
+  auto* system = app.add_option("--system", a->system,
+                                "H(s) as a rational expression in s (rad/s), e.g. \"1/(1 + 1e-3*s)\" or "
+                                "\"w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200\" (docs/system-expression.md)")
+                     ->type_name("EXPR")->group("system");
+  model->excludes(system);
+  app.add_option("--delay", a->delay_s, "dead time T of H(s)·e^{-sT} for --system, seconds")
       ->capture_default_str()
       ->type_name("S")
-      ->needs(num);
-  app.add_option("--system", a->system,
+      ->group("system")
+      ->needs(system);
+  // Named for what it picks, so it cannot be mistaken for the system description above.
+  app.add_option("--response-from", a->response_from,
                  "with a model file holding measured points: 'model' (the fit everywhere) or 'measured' "
                  "(measured points where they exist, the model elsewhere)")
       ->capture_default_str()
       ->check(CLI::IsMember({"model", "measured"}))
+      ->type_name("model|measured")
+      ->group("system")
       ->needs(model);
   // Input.
+  app.option_defaults()->group("input");
   auto* wave = app.add_option("--wave", a->wave_kind,
                               "input waveform: sine, square, triangle, sawtooth, half-wave, full-wave, pulse "
                               "(docs/waveforms.md)")
@@ -88,6 +91,7 @@ Runner add_predict(CLI::App& app) {
   wave->excludes(terms)->excludes(input);
   terms->excludes(input);
   // Output.
+  app.option_defaults()->group("output");
   app.add_option("--harmonics", o.truncation.harmonics,
                  "input harmonics used; 0 = automatic (input energy left out below the bound); a capture: "
                  "harmonics analysed")
@@ -108,7 +112,7 @@ Runner add_predict(CLI::App& app) {
       ->capture_default_str()
       ->type_name("N");
 
-  return [a]() -> int {
+  return [a, system]() -> int {
     io::OutputSet outputs({{"--csv", a->csv_path}, {"--json", a->json_path}},
                           {{"--model", a->model_path}, {"--input-file", a->input_file}});
     predict::PredictSystem sys;
@@ -116,13 +120,16 @@ Runner add_predict(CLI::App& app) {
       const ident::ModelFile file = ident::read_model_file(a->model_path);
       if (!file.model.den.empty()) sys.model = file.model;
       sys.measured = file.frf;
-      sys.prefer_measured = a->system == "measured";
+      sys.prefer_measured = a->response_from == "measured";
       if (sys.prefer_measured && file.frf.empty())
-        throw InputError(a->model_path, 0, 0, "--system measured: the model file holds no measured FRF points");
-    } else if (!a->den.empty()) {
-      sys.model = predict::model_from_coefficients(a->num, a->den, a->delay_s);
+        throw InputError(a->model_path, 0, 0, "--response-from measured: the model file holds no measured FRF points");
+    } else if (system->count() > 0) {  // an empty --system "" is the parser's error, not "none given"
+      ident::SystemExpressionOptions so;
+      so.source = "--system";
+      const ident::SystemExpressionResult parsed = ident::parse_system_expression(a->system, so);
+      sys.model = predict::model_from_coefficients(parsed.model.num, parsed.model.den, a->delay_s);
     } else {
-      throw OptionError("system", "(none)", "give --model FILE or --num and --den");
+      throw OptionError("system", "(none)", "give --model FILE or --system EXPR");
     }
 
     predict::PredictResult r;

@@ -5,8 +5,10 @@
 #include <exception>
 #include <map>
 #include <string>
+#include <vector>
 
 #include "cli/commands.hpp"
+#include "cli/usage.hpp"
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
@@ -74,7 +76,10 @@ static int run_main(int argc, char** argv) {
   CLI::App app{"periodfit: measurement post-processor for sampled periodic waveforms", "periodfit"};
   app.footer(kExitCodes);
   app.require_subcommand(1);
-  app.set_version_flag("--version", std::string("periodfit ") + PERIODFIT_VERSION);
+  // Set before the commands are added: each command copies its parent's formatter and help flag.
+  app.formatter(periodfit::cli::make_help_formatter());
+  app.set_help_flag("-h,--help", "show this text and exit");
+  app.set_version_flag("--version", std::string("periodfit ") + PERIODFIT_VERSION, "print the version and exit");
   std::map<const CLI::App*, periodfit::cli::Runner> runners;
   for (const auto& command : kCommands) {
     CLI::App* sub = app.add_subcommand(command.name, command.summary);
@@ -90,11 +95,9 @@ static int run_main(int argc, char** argv) {
   } catch (const CLI::CallForVersion& e) {
     return app.exit(e);
   } catch (const CLI::ParseError& e) {
-    std::string message = e.what();
-    while (!message.empty() && (message.back() == '\n' || message.back() == '.')) message.pop_back();
-    for (auto& c : message)
-      if (c == '\n') c = ' ';
-    print_error(message + " (see periodfit --help)");
+    // Usage errors in the project's words: one line naming the option and what it expects.
+    const std::vector<std::string> args(argv + (argc > 0 ? 1 : 0), argv + argc);
+    print_error(periodfit::cli::usage_error_message(e, app, args));
     return to_int(ExitCode::error);
   }
   std::string command = "periodfit";
@@ -104,7 +107,9 @@ static int run_main(int argc, char** argv) {
         command = sub->get_name();
         return run();
       }
-    print_error("no command given (see periodfit --help)");
+    std::string names;
+    for (const auto& c : kCommands) names += (names.empty() ? "" : ", ") + std::string(c.name);
+    print_error("no command given; commands: " + names);
     return to_int(ExitCode::error);
   } catch (const periodfit::Error& e) {
     print_error(e.what());

@@ -281,6 +281,36 @@ double parameter_value(const RationalFitResult& f, std::size_t i) {
 
 std::string pm(double v, double u, int digits = 6) { return sig(v, digits) + " ± " + sig(u, 2); }
 
+/// A value with its standard uncertainty in the project's `u=` form.
+std::string with_u(double v, double u, bool defined, const char* unit = "") {
+  const std::string sp = *unit ? std::string(" ") + unit : std::string();
+  return sig(v) + sp + " u=" + (defined && std::isfinite(u) ? sig(u, 2) + sp : std::string("undefined"));
+}
+
+constexpr double kRadToHz = 1 / (2 * std::numbers::pi);
+
+struct RootCells {
+  std::string kind, freq, damping, q, tau;
+};
+
+RootCells root_cells(const Root& p, const char* hz, const char* s) {
+  const bool d = p.uncertainty_defined;
+  RootCells c;
+  if (p.is_real) {
+    c.kind = p.value.real() == 0 ? "real, at s = 0" : "real";
+    c.freq = with_u(std::abs(p.value.real()) * kRadToHz, p.re_u * kRadToHz, d, hz);
+    c.tau = p.time_constant_s != 0 ? with_u(p.time_constant_s, p.time_constant_u_s, d, s) : "-";
+    c.damping = c.q = "-";
+  } else {
+    c.kind = "complex pair";
+    c.freq = with_u(p.natural_frequency_rad_s * kRadToHz, p.natural_frequency_u_rad_s * kRadToHz, d, hz);
+    c.damping = with_u(p.damping_ratio, p.damping_ratio_u, d);
+    c.q = p.damping_ratio != 0 ? with_u(p.q_factor, p.q_factor_u, d) : std::string("infinite (ζ = 0)");
+    c.tau = "-";
+  }
+  return c;
+}
+
 }  // namespace
 
 void IdentifyOptions::validate() const {
@@ -513,15 +543,7 @@ std::string format_identify_report(const IdentifyResult& r) {
     out += "  delay     " + (f.model.delay_estimated ? pm(f.delay_s, f.delay_u_s) + " s" : sig(f.delay_s) + " s (not estimated)") + "\n";
     const auto roots = [&](const char* title, const std::vector<Root>& rs) {
       if (rs.empty()) return;
-      out += std::string("\n") + title + "\n";
-      Table rt({{"re_rad_s"}, {"u(re)"}, {"im_rad_s"}, {"u(im)"}, {"tau_s"}, {"wn_rad_s"}, {"zeta"}, {"Q"}});
-      for (const auto& p : rs)
-        rt.add_row({sig(p.value.real(), 7), sig(p.re_u, 2), sig(p.value.imag(), 7), sig(p.im_u, 2),
-                    p.is_real && p.time_constant_s != 0 ? pm(p.time_constant_s, p.time_constant_u_s) : "-",
-                    p.is_real ? "-" : pm(p.natural_frequency_rad_s, p.natural_frequency_u_rad_s),
-                    p.is_real ? "-" : pm(p.damping_ratio, p.damping_ratio_u),
-                    p.is_real ? "-" : pm(p.q_factor, p.q_factor_u)});
-      out += rt.render(2);
+      out += std::string("\n") + title + "\n" + format_roots_table(rs);
     };
     roots("poles", f.poles);
     roots("zeros", f.zeros);
@@ -535,6 +557,28 @@ std::string format_identify_report(const IdentifyResult& r) {
   out += "\nflags: " + (flags.empty() ? std::string("none") : flags);
   out += "\n";
   return out;
+}
+
+std::string format_roots_table(const std::vector<Root>& roots) {
+  using report::Table;
+  Table t({{"root", Table::Align::left},
+           {"freq_Hz", Table::Align::left},
+           {"damping_ratio", Table::Align::left},
+           {"Q", Table::Align::left},
+           {"time_constant_s", Table::Align::left}});
+  for (const Root& p : roots) {
+    if (!p.is_real && p.value.imag() < 0) continue;  // a conjugate pair is one row
+    const RootCells c = root_cells(p, "", "");
+    t.add_row({c.kind, c.freq, c.damping, c.q, c.tau});
+  }
+  return t.render(2);
+}
+
+std::string root_summary(const Root& root) {
+  const RootCells c = root_cells(root, "Hz", "s");
+  if (root.is_real)
+    return c.kind + ": corner frequency " + c.freq + (c.tau == "-" ? std::string() : ", time constant " + c.tau);
+  return c.kind + ": natural frequency " + c.freq + ", damping ratio " + c.damping + ", Q " + c.q;
 }
 
 }  // namespace periodfit::ident

@@ -11,9 +11,9 @@ run() {
   shift
   /usr/bin/time -f "%e s wall  %U s user  %M kB peak RSS  $label" "$BIN" "$@" >/dev/null
 }
-RC="--num 1000 --den 1000,1"
-run "predict square, automatic count (405 285 harmonics)" predict $RC --wave square --f0 50
-run "predict sawtooth, automatic count (~608 000 harmonics)" predict $RC --wave sawtooth --f0 50
-run "predict square, automatic, 10 periods at 1 MHz to CSV" predict $RC --wave square --f0 50 --csv "$TMP/a.csv" --rate 1e6 --periods 10
-run "predict square, 20 000 harmonics, direct sums at 44.123 kHz (882.46 samples/period)" predict $RC --wave square --f0 50 --harmonics 20000 --csv "$TMP/b.csv" --rate 44123
+RC=(--system "1000/(1000 + s)")
+run "predict square, automatic count (405 285 harmonics)" predict "${RC[@]}" --wave square --f0 50
+run "predict sawtooth, automatic count (~608 000 harmonics)" predict "${RC[@]}" --wave sawtooth --f0 50
+run "predict square, automatic, 10 periods at 1 MHz to CSV" predict "${RC[@]}" --wave square --f0 50 --csv "$TMP/a.csv" --rate 1e6 --periods 10
+run "predict square, 20 000 harmonics, direct sums at 44.123 kHz (882.46 samples/period)" predict "${RC[@]}" --wave square --f0 50 --harmonics 20000 --csv "$TMP/b.csv" --rate 44123
 run "excite 2000-line Schroeder multisine, 60 s at 192 kHz, pcm24" excite "$TMP/c.wav" --harmonics 1-2000 --f0 1 --rate 192000 --duration 60
