@@ -18,7 +18,7 @@ TEST_CASE("cli usage: periodfit --help prints the usage line, the commands and t
       "periodfit: measurement post-processor for sampled periodic waveforms\n"
       "\n"
       "commands:\n"
-      "  info      describe captures: channels, units, rate, duration, statistics, metadata\n"
+      "  info      check captures: length in periods, clock, code step, flat samples, dc, rms\n"
       "  analyze   lock onto the fundamental; harmonics with uncertainties, THD, SINAD, ENOB\n"
       "  identify  DUT frequency response with error bars and a fitted pole/zero model\n"
       "  predict   steady-state output of a model or FRF for a periodic input (superposition)\n"

@@ -25,7 +25,7 @@ struct Command {
 
 // The one command table: name, one-line description, and the function that declares it.
 constexpr Command kCommands[] = {
-    {"info", "describe captures: channels, units, rate, duration, statistics, metadata",
+    {"info", "check captures: length in periods, clock, code step, flat samples, dc, rms",
      periodfit::cli::add_info},
     {"analyze", "lock onto the fundamental; harmonics with uncertainties, THD, SINAD, ENOB",
      periodfit::cli::add_analyze},
