@@ -3,6 +3,10 @@
 #include <charconv>
 #include <cmath>
 
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+#include "io/quantity.hpp"
+
 namespace periodfit::cli {
 
 std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option) {
@@ -18,17 +22,41 @@ std::pair<std::string, std::string> split_assignment(std::string_view text, std:
   return {channel, value};
 }
 
+CLI::Option* add_frequency_option(CLI::App& app, const std::string& name, double& hz, const std::string& help) {
+  return app
+      .add_option_function<std::string>(
+          name,
+          [name, &hz](const std::string& text) {
+            const auto value = io::parse_frequency(text);
+            if (!value) throw Error(name + ": \"" + text + "\" is not a frequency (e.g. 48k, 1MHz)");
+            hz = *value;
+          },
+          help)
+      ->default_str(io::format_shortest(hz))
+      ->type_name("HZ");
+}
+
+CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double& seconds, const std::string& help) {
+  return app
+      .add_option_function<std::string>(
+          name,
+          [name, &seconds](const std::string& text) {
+            const auto value = io::parse_duration(text);
+            if (!value) throw Error(name + ": \"" + text + "\" is not a time (e.g. 12ns, 1.5ms)");
+            seconds = *value;
+          },
+          help)
+      ->default_str(io::format_shortest(seconds))
+      ->type_name("SECONDS");
+}
+
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on) {
   FundamentalOptions o;
   const std::string on = estimated_on.empty() ? "" : " on " + std::string(estimated_on);
-  o.f0 = app.add_option("--f0", f0_hz, "use exactly this fundamental in Hz (0 = estimate it" + on + ")")
-             ->capture_default_str()
-             ->type_name("HZ");
-  o.f0_hint = app.add_option("--f0-hint", f0_hint_hz,
-                             "search for the fundamental within ±20 % of this frequency in Hz (0 = anywhere)")
-                  ->capture_default_str()
-                  ->type_name("HZ");
+  o.f0 = add_frequency_option(app, "--f0", f0_hz, "use exactly this fundamental in Hz, e.g. 1k (0 = estimate it" + on + ")");
+  o.f0_hint = add_frequency_option(app, "--f0-hint", f0_hint_hz,
+                                   "search for the fundamental within 20 % either side of this frequency in Hz (0 = anywhere)");
   o.harmonics = app.add_option("--harmonics", max_harmonic,
                                "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
                     ->capture_default_str()
@@ -37,11 +65,9 @@ FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double&
 }
 
 void add_capture_options(CLI::App& app, io::ReadOptions& options) {
-  app.add_option("--rate", options.rate_hz,
-                 "sample rate in Hz; overrides the file's (time column, preamble, audio header); "
-                 "0 = from the file")
-      ->capture_default_str()
-      ->type_name("HZ");
+  add_frequency_option(app, "--rate", options.rate_hz,
+                       "sample rate in Hz, e.g. 1MHz or 48k; overrides the file's (time column, preamble, "
+                       "audio header); 0 = from the file");
   app.add_option_function<std::vector<std::string>>(
          "--scale",
          [&options](const std::vector<std::string>& items) {

@@ -31,6 +31,13 @@ struct FundamentalOptions {
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on = "");
 
+/// An option taking a frequency in Hz or a time in seconds, read with SI prefixes and units by
+/// io::parse_quantity (the CSV preamble's reader): `--rate 1MHz`, `--f0 1.2k`, `--skew 12ns`.
+/// A value that is not one throws periodfit::Error, printed as one line by main:
+/// `--rate: "1MQ" is not a frequency (e.g. 48k, 1MHz)`. The default shown is `target`'s.
+CLI::Option* add_frequency_option(CLI::App& app, const std::string& name, double& hz, const std::string& help);
+CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double& seconds, const std::string& help);
+
 /// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
 /// CLI::ValidationError naming `option` and what was wrong.
 std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option);

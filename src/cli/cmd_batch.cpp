@@ -135,9 +135,8 @@ Runner add_batch(CLI::App& app) {
                              "identify: input SNR for a harmonic to count as excited")
                   ->capture_default_str()
                   ->type_name("DB");
-  a.skew = app.add_option("--skew", a.flags.identify.frf.skew_s, "identify: output path delay to remove")
-               ->capture_default_str()
-               ->type_name("SECONDS");
+  a.skew = add_duration_option(app, "--skew", a.flags.identify.frf.skew_s,
+                               "identify: output path delay to remove in seconds, e.g. 12ns");
   const FundamentalOptions fundamental = add_fundamental_options(
       app, a.flags.analyze.f0_hz, a.flags.analyze.f0_hint_hz, a.flags.analyze.harmonics);
   a.f0 = fundamental.f0;

@@ -126,10 +126,9 @@ Runner add_identify(CLI::App& app) {
   app.add_option("--output-file", a->output_file,
                  "capture holding the output channel, recorded on the same time base (same rate and length)")
       ->type_name("FILE");
-  app.add_option("--skew", a->options.frf.skew_s,
-                 "extra delay of the output acquisition path in seconds, removed as a phase correction")
-      ->capture_default_str()
-      ->type_name("SECONDS");
+  add_duration_option(app, "--skew", a->options.frf.skew_s,
+                      "extra delay of the output acquisition path in seconds (e.g. 12ns), removed as a phase "
+                      "correction");
   add_fundamental_options(app, a->options.f0_hz, a->options.f0_hint_hz, a->options.max_harmonic, "the input");
   app.add_option("--min-snr", a->options.frf.min_snr_db,
                  "input power above the input noise floor, in dB, for a harmonic to count as excited")

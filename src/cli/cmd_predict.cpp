@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
 #include "report/safe_text.hpp"
 #include "core/error.hpp"
@@ -68,9 +69,7 @@ Runner add_predict(CLI::App& app) {
   app.add_option("--amplitude", a->wave.amplitude_v, "peak A of the waveform (pulse: its height)")
       ->capture_default_str()
       ->type_name("A");
-  app.add_option("--f0", a->wave.f0_hz, "fundamental in Hz (full-wave: the sine before rectification)")
-      ->capture_default_str()
-      ->type_name("HZ");
+  add_frequency_option(app, "--f0", a->wave.f0_hz, "fundamental in Hz, e.g. 1k (full-wave: the sine before rectification)");
   app.add_option("--duty", a->wave.duty, "square and pulse: fraction of the period high, in (0, 1)")
       ->capture_default_str()
       ->type_name("D");
@@ -99,9 +98,7 @@ Runner add_predict(CLI::App& app) {
       ->type_name("F");
   app.add_option("--csv", a->csv_path, "write samples time_s,value[,value_u] to OUT ('-' = stdout)")->type_name("OUT");
   app.add_option("--periods", o.periods, "periods of samples in --csv")->capture_default_str()->type_name("P");
-  app.add_option("--rate", o.rate_hz, "sample rate of --csv in Hz; 0 = 1000 samples per period")
-      ->capture_default_str()
-      ->type_name("HZ");
+  add_frequency_option(app, "--rate", o.rate_hz, "sample rate of --csv in Hz, e.g. 48k; 0 = 1000 samples per period");
   app.add_option("--json", a->json_path, "write the prediction as JSON to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");
   app.add_option("--list", a->list, "harmonics listed in the table and JSON; 0 = all")

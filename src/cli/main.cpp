@@ -95,6 +95,11 @@ static int run_main(int argc, char** argv) {
       if (c == '\n') c = ' ';
     print_error(message + " (see periodfit --help)");
     return to_int(ExitCode::error);
+  } catch (const periodfit::Error& e) {
+    // An option value the library's readers refused (a quantity like --rate 1MQ): its own
+    // message says what was expected.
+    print_error(e.what());
+    return to_int(ExitCode::error);
   }
   try {
     for (const auto& [sub, run] : runners)
