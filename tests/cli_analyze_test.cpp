@@ -137,7 +137,9 @@ TEST_CASE("cli analyze: unknown channel and no periodic component are errors, ex
   const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --channel v_ot");
   CHECK(r.exit_code == 2);
   CHECK(r.out.empty());
-  CHECK(r.err == "periodfit: error: unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)\n");
+  // The error names the file the channel was looked up in (issue 13, item 6).
+  CHECK(r.err == "periodfit: error: unknown channel \"v_ot\" in " + dir.file("cap.csv") +
+                     " (did you mean \"v_out\"? channels: v_in, v_out)\n");
 
   std::ostringstream s;
   s << "time,hiss\n";

@@ -241,6 +241,62 @@ TEST_CASE("cli identify: two files on a common time base, --scale per channel, -
   REQUIRE(skewed.exit_code == 0);
   const auto k = nlohmann::json::parse(skewed.out);
   CHECK(k["frf"][0]["phase_deg"].get<double>() - p1["phase_deg"].get<double>() == doctest::Approx(1.8).epsilon(kF0Relative));
+  // --skew 100us is the same 1e-4 s, read with its SI prefix (io/quantity.hpp): the same JSON.
+  const auto prefixed = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                                " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --skew 100us --json -");
+  REQUIRE(prefixed.exit_code == 0);
+  CHECK(prefixed.out == skewed.out);
+}
+
+TEST_CASE("cli identify: two files as the README shows them: the output file's only channel by default") {
+  const TempDir dir("cli_identify_two_default");
+  auto s = rc_square(8, 1e-3, 4);
+  write_text(dir.file("in.csv"), csv({&s.u}, {"CH1"}));
+  write_text(dir.file("out.csv"), csv({&s.y}, {"CH2"}));
+  write_text(dir.file("out2.csv"), csv({&s.y, &s.u}, {"CH2", "CH3"}));
+  const auto r = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                         " --f0-hint 50 --harmonics 31 --json -");
+  CHECK(r.err == "");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["input"]["channel"] == "CH1");
+  CHECK(j["output"]["channel"] == "CH2");
+  // Several channels in the output file: the user chooses, and the message names the file.
+  const auto several = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out2.csv")) +
+                               " --f0-hint 50");
+  CHECK(several.exit_code == 2);
+  CHECK(several.out == "");
+  CHECK(several.err == "periodfit: error: " + dir.file("out2.csv") +
+                           " has 2 data channels: choose the DUT output with --output (a name, or #N for position N)\n");
+  // A channel the output file lacks: the error names that file, not the input file.
+  const auto missing = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                               " --output CH9 --f0-hint 50");
+  CHECK(missing.exit_code == 2);
+  CHECK(missing.err == "periodfit: error: unknown channel \"CH9\" in " + dir.file("out.csv") +
+                           " (did you mean \"CH2\"? channels: CH2)\n");
+}
+
+TEST_CASE("cli identify: scope columns named 1 and 2: defaults take positions #0 and #1, a digit name warns") {
+  const TempDir dir("cli_identify_digit_names");
+  auto s = rc_square(8, 1e-3, 4);
+  write_text(dir.file("scope.csv"), csv({&s.u, &s.y}, {"1", "2"}));
+  // Defaults: input #0 (named "1"), output #1 (named "2"); before issue 13 the default output "1"
+  // matched the name of the input channel and identify stopped with "the same channel".
+  const auto r = run_cli("identify " + q(dir.file("scope.csv")) + " --f0-hint 50 --harmonics 31 --json -");
+  CHECK(r.err == "");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["input"]["channel"] == "1");
+  CHECK(j["output"]["channel"] == "2");
+  // "--input 2 --output 1" names the channels (swapped on purpose); "1" is also position 1, so
+  // each selector that could be read the other way gets a warning saying how to write it.
+  const auto named = run_cli("identify " + q(dir.file("scope.csv")) + " --input 2 --output 1 --f0-hint 50 --harmonics 31 --json -");
+  REQUIRE(named.exit_code == 0);
+  const auto k = nlohmann::json::parse(named.out);
+  CHECK(k["input"]["channel"] == "2");
+  CHECK(k["output"]["channel"] == "1");
+  CHECK(named.err == "periodfit: warning: channel \"1\" in " + dir.file("scope.csv") +
+                         " is the channel named 1 (#0); for the channel at position 1 (\"2\") write #1\n");
 }
 
 TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
@@ -274,7 +330,8 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
   expect_error("identify " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
                "invalid option: --save-model = " + dir.file("m.json") + " (needs a model: give --order M/N or --order auto)");
   expect_error("identify " + rc + " --input v_in --output v_ot",
-               "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)");
+               "unknown channel \"v_ot\" in " + dir.file("rc.csv") +
+                   " (did you mean \"v_out\"? channels: v_in, v_out)");
   expect_error("identify " + rc + " --input v_in --output v_out --min-snr -3",
                "invalid option: min_snr_db = -3 (must be finite and >= 0)");
   // A noise-free pure gain y = 2u fitted with 1/1: (b0 + b1 s)/(a0 + s) = 2 for any a0 = b0/2.
@@ -290,9 +347,11 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
 TEST_CASE("cli identify: --help shows the library defaults") {
   const auto r = run_cli("identify --help");
   CHECK(r.exit_code == 0);
-  // Defaults come from ident::IdentifyOptions / FrfOptions (min_snr_db = 20, channels 0 and 1).
+  // Defaults come from ident::IdentifyOptions / FrfOptions (min_snr_db = 20, input #0; the
+  // output's default depends on --output-file, so the help says it in words).
   CHECK(r.out.find("  --min-snr DB=20 ") != std::string::npos);
-  CHECK(r.out.find("  --input CH=0 ") != std::string::npos);
-  CHECK(r.out.find("  --output CH=1 ") != std::string::npos);
+  CHECK(r.out.find("  --input CH=#0 ") != std::string::npos);
+  CHECK(r.out.find("  --output CH                 DUT output channel: a name or #N (default: #1; with --output-file, "
+                   "that file's only channel)\n") != std::string::npos);
   CHECK(r.out.find("  --order M/N|auto ") != std::string::npos);
 }

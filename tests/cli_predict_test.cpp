@@ -137,7 +137,7 @@ TEST_CASE("cli predict: a capture's analysed harmonics are the input") {
   CHECK(j["harmonics"][2]["phase_deg"].get<double>() == doctest::Approx(30 - std::atan(w3) * 180 / kPi).epsilon(1e-7));
   const auto bad = run_cli("predict --num 1 --den 1,1 --input-file '" + path + "' --channel v_ot");
   CHECK(bad.exit_code == 2);
-  CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" (channels: v)\n");  // too far for a suggestion
+  CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" in " + path + " (channels: v)\n");  // too far for a suggestion
 }
 
 TEST_CASE("cli predict: bad input gives one error line and exit code 2") {

@@ -390,7 +390,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
   SUBCASE("unknown channel") {
     o.output_channel = "v_ot";
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(x, x), o),
-                         "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)",
+                         "unknown channel \"v_ot\" in synthetic (did you mean \"v_out\"? channels: v_in, v_out)",
                          UnknownNameError);
   }
   SUBCASE("input without a periodic component") {

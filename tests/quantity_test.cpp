@@ -58,3 +58,11 @@ TEST_CASE("quantity: the instrument case rule and the decimal comma (CSV preambl
   CHECK(ms->dimension == io::Dimension::time);
   CHECK(std::abs(ms->value - 2e-3) <= kRelative * 2e-3);
 }
+
+TEST_CASE("quantity: a prefix shifts the decimal exponent, so the value is correctly rounded") {
+  // 100 × 1e-6 in doubles is 9.999999999999999e-05; "100us" must read as the double nearest
+  // 1e-4, as "1e-4" does (std::from_chars is correctly rounded).
+  CHECK(*io::parse_duration("100us") == 1e-4);
+  CHECK(*io::parse_duration("1.5e2 ns") == 1.5e-7);
+  CHECK(*io::parse_frequency("44.1k") == 44100.0);
+}

@@ -33,14 +33,40 @@ TEST_CASE("error: option error names field, value and constraint") {
 
 TEST_CASE("capture: channels are selected by name, case-insensitively, or by index") {
   Capture c;
+  c.source = "bench.csv";
   c.channels = {{"v_in", "V", {}}, {"v_out", "V", {}}};
   CHECK(c.channel_index("v_out") == 1);
   CHECK(c.channel_index("V_IN") == 0);
-  CHECK(c.channel_index("1") == 1);
+  CHECK(c.channel_index("1") == 1);   // digits naming no channel: the 0-based position
+  CHECK(c.channel_index("#1") == 1);
+  CHECK(c.channel_index("#0") == 0);
+  CHECK(c.channel_selector_warning("1").empty());
   CHECK_THROWS_WITH_AS(c.channel_index("v_ot"),
-                       "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)",
+                       "unknown channel \"v_ot\" in bench.csv (did you mean \"v_out\"? channels: v_in, v_out)",
                        UnknownNameError);
-  CHECK_THROWS_AS(c.channel_index("2"), UnknownNameError);
+  CHECK_THROWS_WITH_AS(c.channel_index("2"), "unknown channel \"2\" in bench.csv (channels: v_in, v_out)",
+                       UnknownNameError);
+  CHECK_THROWS_WITH_AS(c.channel_index("#2"), "unknown channel \"#2\" in bench.csv (channels: #0 v_in, #1 v_out)",
+                       UnknownNameError);
+  CHECK_THROWS_AS(c.channel_index("#"), UnknownNameError);
+  CHECK_THROWS_AS(c.channel_index("#-1"), UnknownNameError);
+}
+
+TEST_CASE("capture: channels named with digits: a name wins, #N is the position, and a collision warns") {
+  // A scope that names its columns 1 and 2 (issue 13): "1" is the channel named 1, at #0.
+  Capture c;
+  c.source = "scope.csv";
+  c.channels = {{"1", "V", {}}, {"2", "V", {}}};
+  CHECK(c.channel_index("1") == 0);
+  CHECK(c.channel_index("2") == 1);
+  CHECK(c.channel_index("#0") == 0);
+  CHECK(c.channel_index("#1") == 1);
+  CHECK(c.channel_index("0") == 0);  // names no channel: position 0
+  CHECK(c.channel_selector_warning("1") ==
+        "channel \"1\" in scope.csv is the channel named 1 (#0); for the channel at position 1 (\"2\") write #1");
+  CHECK(c.channel_selector_warning("2").empty());   // position 2 does not exist: no ambiguity
+  CHECK(c.channel_selector_warning("#1").empty());
+  CHECK(c.channel_selector_warning("0").empty());
 }
 
 TEST_CASE("number format: shortest text reads back to the same double") {

@@ -324,7 +324,7 @@ std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const Ba
   };
   if (config.mode == AnalysisMode::identify) {
     const auto& o = config.identify;
-    rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + o.output_channel);
+    rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + (o.output_channel.empty() ? "#1" : o.output_channel));
     rows.emplace_back("model order", o.order.empty() ? "none" : o.order);
     rows.emplace_back("delay", o.estimate_delay ? "estimated" : "none");
     rows.emplace_back("min SNR", io::format_shortest(o.frf.min_snr_db) + " dB");

@@ -1,5 +1,6 @@
 #include "cli/capture_options.hpp"
 
+#include <algorithm>
 #include <charconv>
 #include <cmath>
 
@@ -50,6 +51,19 @@ CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double&
       ->type_name("SECONDS");
 }
 
+std::vector<std::string> channel_selector_warnings(const Capture& capture, const std::vector<std::string>& selectors,
+                                                   const io::ReadOptions& read) {
+  std::vector<std::string> all = selectors;
+  for (const auto& s : read.scales) all.push_back(s.first);
+  for (const auto& u : read.units) all.push_back(u.first);
+  std::vector<std::string> warnings;
+  for (const auto& selector : all)
+    if (auto w = capture.channel_selector_warning(selector);
+        !w.empty() && std::find(warnings.begin(), warnings.end(), w) == warnings.end())
+      warnings.push_back(std::move(w));
+  return warnings;
+}
+
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on) {
   FundamentalOptions o;
@@ -82,7 +96,7 @@ void add_capture_options(CLI::App& app, io::ReadOptions& options) {
              options.scales.emplace_back(std::move(channel), factor);
            }
          },
-         "multiply channel CH (name or 0-based index) by FACTOR, e.g. volts per full scale or a "
+         "multiply channel CH (a name, or #N for the data channel at 0-based position N) by FACTOR, e.g. volts per full scale or a "
          "probe's attenuation; repeatable")
       ->type_name("CH=FACTOR")
       ->take_all()
@@ -92,7 +106,7 @@ void add_capture_options(CLI::App& app, io::ReadOptions& options) {
          [&options](const std::vector<std::string>& items) {
            for (const auto& item : items) options.units.push_back(split_assignment(item, "--unit"));
          },
-         "set the unit of channel CH (name or 0-based index), e.g. v_out=V; repeatable")
+         "set the unit of channel CH (a name, or #N for position N), e.g. v_out=V; repeatable")
       ->type_name("CH=UNIT")
       ->take_all()
       ->allow_extra_args(false);

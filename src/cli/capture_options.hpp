@@ -9,6 +9,7 @@
 #include <string>
 #include <string_view>
 #include <utility>
+#include <vector>
 
 #include "io/capture_reader.hpp"
 
@@ -37,6 +38,11 @@ FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double&
 /// `--rate: "1MQ" is not a frequency (e.g. 48k, 1MHz)`. The default shown is `target`'s.
 CLI::Option* add_frequency_option(CLI::App& app, const std::string& name, double& hz, const std::string& help);
 CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double& seconds, const std::string& help);
+
+/// The warnings (Capture::channel_selector_warning) for every selector given, the --scale
+/// and --unit ones of `read` included, in order; printed by the command after its outputs.
+std::vector<std::string> channel_selector_warnings(const Capture& capture, const std::vector<std::string>& selectors,
+                                                   const io::ReadOptions& read = {});
 
 /// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
 /// CLI::ValidationError naming `option` and what was wrong.

@@ -80,7 +80,7 @@ Runner add_predict(CLI::App& app) {
                     ->take_all();
   auto* input = app.add_option("--input-file", a->input_file, "use a capture's analysed harmonics as the input")
                     ->type_name("FILE");
-  auto* channel = app.add_option("--channel", a->channel, "channel of --input-file (name or 0-based index)")
+  auto* channel = app.add_option("--channel", a->channel, "channel of --input-file: a name, or #N for the data channel at 0-based position N")
                       ->type_name("CH");
   input->needs(channel);
   channel->needs(input);
@@ -123,8 +123,10 @@ Runner add_predict(CLI::App& app) {
     }
 
     predict::PredictResult r;
+    std::vector<std::string> channel_warnings;
     if (!a->input_file.empty()) {
       const Capture capture = io::read_capture(a->input_file);
+      channel_warnings = channel_selector_warnings(capture, {a->channel});
       dsp::AnalyzeOptions ao;
       ao.lock.max_harmonic = a->options.truncation.harmonics;
       const dsp::ChannelAnalysis an =
@@ -150,6 +152,7 @@ Runner add_predict(CLI::App& app) {
     if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r, a->list)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
+    for (const auto& w : channel_warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     return to_int(ExitCode::ok);
   };

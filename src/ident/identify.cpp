@@ -201,7 +201,6 @@ std::string pm(double v, double u, int digits = 6) { return sig(v, digits) + " Â
 
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
-  if (output_channel.empty()) throw OptionError("output_channel", "\"\"", "must name a channel");
   if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
     throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
   if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
@@ -219,7 +218,7 @@ void IdentifyOptions::validate() const {
 IdentifyResult identify(const Capture& capture, const IdentifyOptions& options) {
   options.validate();
   const std::size_t iu = capture.channel_index(options.input_channel);
-  const std::size_t iy = capture.channel_index(options.output_channel);
+  const std::size_t iy = capture.channel_index(options.output_channel.empty() ? "#1" : options.output_channel);
   if (iu == iy)
     throw AnalysisError(capture.source + ": input and output are the same channel \"" +
                         capture.channels[iu].name + "\"");
@@ -240,7 +239,10 @@ IdentifyResult identify(const Capture& input_capture, const Capture& output_capt
                         input_capture.source + ") vs " + std::to_string(output_capture.sample_count()) +
                         " samples (" + output_capture.source + ")");
   const Channel& u = input_capture.channel(options.input_channel);
-  const Channel& y = output_capture.channel(options.output_channel);
+  if (options.output_channel.empty() && output_capture.channels.size() != 1)
+    throw AnalysisError(output_capture.source + " has " + std::to_string(output_capture.channels.size()) +
+                        " data channels: choose the DUT output with --output (a name, or #N for position N)");
+  const Channel& y = output_capture.channel(options.output_channel.empty() ? "#0" : options.output_channel);
   return run({&input_capture, &u}, {&output_capture, &y}, options);
 }
 

@@ -103,11 +103,16 @@ Capture read_capture(const std::string& path, const ReadOptions& options) {
     csv.time_column = options.time_column;
     capture = p.regular ? read_csv(path, csv) : parse_csv(bytes, path, csv);
   }
+  // The InputError names the file first (path: unknown channel …), so the selector's own
+  // message is built without it.
+  std::string source;
+  std::swap(source, capture.source);
   try {
     apply_read_options(capture, options);
   } catch (const UnknownNameError& e) {
     throw InputError(path, 0, 0, e.what());
   }
+  std::swap(source, capture.source);
   return capture;
 }
 

@@ -27,21 +27,23 @@ std::string_view trim(std::string_view s) {
   return s;
 }
 
-std::optional<double> prefix_factor(std::string_view prefix, Dimension dimension, CaseRule rule) {
-  if (prefix.empty()) return 1.0;
-  if (prefix == "\xC2\xB5") return 1e-6;  // µ in UTF-8
+// The prefix as a power of ten, added to the number's decimal exponent before it is converted,
+// so "100us" reads as exactly the double nearest 1e-4 (100 × 1e-6 in doubles is not).
+std::optional<int> prefix_exponent(std::string_view prefix, Dimension dimension, CaseRule rule) {
+  if (prefix.empty()) return 0;
+  if (prefix == "\xC2\xB5") return -6;  // µ in UTF-8
   if (prefix.size() != 1) return std::nullopt;
   switch (prefix.front()) {
-    case 'p': return 1e-12;
-    case 'n': return 1e-9;
-    case 'u': return 1e-6;
-    case 'k': case 'K': return 1e3;
-    case 'G': return 1e9;
-    case 'g': if (rule == CaseRule::instrument) return 1e9; return std::nullopt;
+    case 'p': return -12;
+    case 'n': return -9;
+    case 'u': return -6;
+    case 'k': case 'K': return 3;
+    case 'G': return 9;
+    case 'g': if (rule == CaseRule::instrument) return 9; return std::nullopt;
     case 'm': case 'M':
       if (rule == CaseRule::instrument && dimension != Dimension::none)
-        return dimension == Dimension::frequency ? 1e6 : 1e-3;
-      return prefix.front() == 'm' ? 1e-3 : 1e6;
+        return dimension == Dimension::frequency ? 6 : -3;
+      return prefix.front() == 'm' ? -3 : 6;
     default: return std::nullopt;
   }
 }
@@ -70,9 +72,11 @@ std::optional<QuantityValue> parse_quantity(std::string_view text, char decimal,
   }
   if (!number.empty() && number.front() == '+') number.erase(0, 1);
   double value = 0;
-  const auto [ptr, ec] = std::from_chars(number.data(), number.data() + number.size(), value);
-  if (number.empty() || ec != std::errc{} || ptr != number.data() + number.size() || !std::isfinite(value))
-    return std::nullopt;
+  {
+    const auto [ptr, ec] = std::from_chars(number.data(), number.data() + number.size(), value);
+    if (number.empty() || ec != std::errc{} || ptr != number.data() + number.size() || !std::isfinite(value))
+      return std::nullopt;
+  }
   const std::string_view suffix = trim(text.substr(at));
   std::string lower(suffix);
   for (auto& c : lower) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
@@ -86,9 +90,23 @@ std::optional<QuantityValue> parse_quantity(std::string_view text, char decimal,
       break;
     }
   }
-  const auto factor = prefix_factor(prefix, q.dimension, rule);
-  if (!factor) return std::nullopt;
-  q.value = value * *factor;
+  const auto exponent = prefix_exponent(prefix, q.dimension, rule);
+  if (!exponent) return std::nullopt;
+  if (*exponent != 0) {
+    // mantissa e (its exponent + the prefix's), converted once: correctly rounded.
+    const std::size_t e = number.find_first_of("eE");
+    int written = 0;
+    if (e != std::string::npos) {
+      const char* first = number.data() + e + 1;
+      if (*first == '+') ++first;
+      std::from_chars(first, number.data() + number.size(), written);
+      number.resize(e);
+    }
+    number += "e" + std::to_string(written + *exponent);
+    const auto [ptr, ec] = std::from_chars(number.data(), number.data() + number.size(), value);
+    if (ec != std::errc{} || ptr != number.data() + number.size()) return std::nullopt;
+  }
+  q.value = value;
   if (!std::isfinite(q.value)) return std::nullopt;
   return q;
 }
