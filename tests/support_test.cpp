@@ -84,12 +84,15 @@ TEST_CASE("number format: value and u rounded as GUM 7.2.6, the GUM 7.2.2 exampl
   CHECK(t.u == "0.00035");
   CHECK(io::format_with_u(100.02147, 0.00035, "g") == "100.02147 g, u = 0.00035 g");
   // §7.2.6: u to two significant digits, the value to the same decimal place.
-  CHECK(io::format_with_u(0.99608182, 2.8e-05) == "0.996082, u = 0.000028");
+  CHECK(io::format_with_u(0.99608182, 2.8e-05) == "0.996082, u = 2.8e-05");  // u < 1e-4: e-notation
+  CHECK(io::format_with_u(1.00000113205, 3.3e-10) == "1.00000113205, u = 3.3e-10");
   CHECK(io::format_with_u(1000.01234, 0.0153, "Hz") == "1000.012 Hz, u = 0.015 Hz");
   // Rounding u can carry into a new digit: 0.0996 → 0.10, and the value follows to 0.01.
   CHECK(io::format_with_u(2.34567, 0.0996) == "2.35, u = 0.10");
   // u above 10: the value is rounded to tens, no invented decimals.
   CHECK(io::format_with_u(12345.6, 347) == "12350, u = 350");
+  // Last digit beyond the thousands: e-notation, so no zero poses as a digit.
+  CHECK(io::format_with_u(12345678.9, 345678) == "1.235e+07, u = 3.5e+05");
 }
 
 TEST_CASE("number format: value and u edge cases (u = 0, u not finite, zero, u above the value, negative)") {

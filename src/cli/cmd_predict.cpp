@@ -101,7 +101,7 @@ Runner add_predict(CLI::App& app) {
   add_frequency_option(app, "--rate", o.rate_hz, "sample rate of --csv in Hz, e.g. 48k; 0 = 1000 samples per period");
   app.add_option("--json", a->json_path, "write the prediction as JSON to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");
-  app.add_option("--list", a->list, "harmonics listed in the table and JSON; 0 = all")
+  app.add_option("--list", a->list, "harmonics listed in the text table; 0 = all (JSON and CSV always hold every one)")
       ->capture_default_str()
       ->type_name("N");
 
@@ -149,7 +149,7 @@ Runner add_predict(CLI::App& app) {
       r = predict::predict_steady_state(a->wave, sys, a->options);
     }
     if (outputs.requested("--csv")) outputs.set("--csv", predict::format_predict_csv(r));
-    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r, a->list)));
+    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
     for (const auto& w : channel_warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());

@@ -1,5 +1,6 @@
 #include "io/number_format.hpp"
 
+#include <algorithm>
 #include <charconv>
 #include <cmath>
 #include <cstdio>
@@ -28,10 +29,13 @@ std::string format_fixed(double value, int decimals) {
 
 namespace {
 
-// Fixed notation while the last digit kept is at 10^place with place in [kMinPlace, kMaxPlace]:
-// beyond, the leading or trailing zeros would outnumber the digits that carry information.
-constexpr int kMinPlace = -9;
-constexpr int kMaxPlace = 6;
+// Fixed notation for a number of at least kMinFixed whose last digit kept is at 10^place with
+// place <= kMaxPlace; otherwise e-notation, where leading zeros ("0.0000012") or trailing
+// zeros that are no digits ("12000000") would outnumber the digits that carry information.
+// A value's decimals may go down to kMinPlace (a double holds about 16 significant digits).
+constexpr double kMinFixed = 1e-4;
+constexpr int kMaxPlace = 3;
+constexpr int kMinPlace = -15;
 
 // "-0.000" reads as a negative result: a value that rounds to zero is printed unsigned.
 std::string unsigned_zero(std::string text) {
@@ -75,15 +79,17 @@ ValueText format_value_u(double value, double u) {
     if (!(u > 0) || !std::isfinite(u)) return {format_shortest(value), std::isnan(u) || u < 0 ? "n/a" : format_shortest(u)};
     double rounded = 0;
     const int place = two_digit_place(u, rounded);
-    return {format_shortest(value), at_place(rounded, place, place >= kMinPlace && place <= kMaxPlace)};
+    return {format_shortest(value), at_place(rounded, place, place <= kMaxPlace && rounded >= kMinFixed)};
   }
   if (std::isnan(u) || u < 0) return {unsigned_zero(format_significant(value, 6)), "n/a"};
   if (std::isinf(u)) return {unsigned_zero(format_significant(value, 6)), "inf"};
   if (u == 0) return {unsigned_zero(format_significant(value, 6)), "0"};
   double rounded = 0;
   const int place = two_digit_place(u, rounded);
-  const bool fixed = place >= kMinPlace && place <= kMaxPlace && std::abs(value) < 1e15;
-  return {at_place(value, place, fixed), at_place(rounded, place, fixed)};
+  const bool in_range = place >= kMinPlace && place <= kMaxPlace;
+  const bool value_fixed = in_range && std::max(std::abs(value), rounded) >= kMinFixed && std::abs(value) < 1e15;
+  const bool u_fixed = in_range && rounded >= kMinFixed;
+  return {at_place(value, place, value_fixed), at_place(rounded, place, u_fixed)};
 }
 
 std::string format_with_u(double value, double u, std::string_view unit) {

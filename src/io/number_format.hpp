@@ -27,8 +27,9 @@ std::string format_fixed(double value, int decimals);
 
 /// A value and its standard uncertainty as text, rounded as GUM (JCGM 100:2008) §7.2.6
 /// recommends: u to two significant digits, the value to the same decimal place (§7.2.2
-/// example: m_s = 100.02147 g with u = 0.35 mg → "100.02147", "0.00035"). Fixed notation
-/// while the last digit kept lies between 1e-9 and 1e6, else both in e-notation.
+/// example: m_s = 100.02147 g with u = 0.35 mg → "100.02147", "0.00035"). Each is in fixed
+/// notation when it (for the value: it or u) is at least 1e-4 and the last digit kept is at
+/// most the thousands, else in e-notation: "1.00000113, u = 3.3e-08", "-3e-11, u = 2.3e-10".
 /// Edge cases: u = 0 (exact, or the noise floor was not resolved) → the value to 6
 /// significant digits and u "0"; u NaN → value to 6 significant digits and u "n/a"; u
 /// infinite → u "inf"; a value that rounds to zero is written without a sign; u larger than
