@@ -99,12 +99,15 @@ TEST_CASE("cli identify: report with header, FRF table, linearity and flags") {
   CHECK(l[1] == "output  " + dir.file("rc.csv") + " \"v_out\" [V]");
   CHECK(l[2].substr(0, 8) == "f0      ");
   CHECK(l[3] == "grid    12 periods × 400 samples, harmonics 1…31");
-  CHECK(l[4] == "frf     per-period-covariance, dof 11, 95 % intervals k = 2.201 (student-t)");  // t_{0.975,11} = 2.201 (Student-t table)
+  CHECK(l[4] == "frf     per-period-covariance, dof 11, 95 % intervals with k = 2.201 (student-t)");  // t_{0.975,11} = 2.201 (Student-t table)
   CHECK(l[5] == "");
   CHECK(l[6] == "frequency response [V/V]");
   CHECK(l[7] ==
-        "   n   freq_Hz        |H|   u(|H|)   |H|_dB  phase_deg  u(phase)  |H| interval            phase interval      "
+        "   n   freq_Hz       |H|   u(|H|)   |H|_dB  phase_deg  u(phase)  |H| 95 % interval     phase 95 % interval   "
         "SNR_in_dB");
+  // Issue 13: every uncertainty is labelled (u columns, the interval's level in its header and
+  // k on the frf line); no bare "±" anywhere.
+  CHECK(r.out.find("\xC2\xB1") == std::string::npos);
   // 16 odd harmonics, then the linearity verdict and the flags.
   CHECK(l[9].substr(0, 4) == "   1");
   CHECK(l[24].substr(0, 4) == "  31");

@@ -195,7 +195,23 @@ double parameter_value(const RationalFitResult& f, std::size_t i) {
   return f.delay_s;
 }
 
-std::string pm(double v, double u, int digits = 6) { return sig(v, digits) + " ± " + sig(u, 2); }
+/// A value with its standard uncertainty, labelled u, digits as GUM 7.2.6 (io::format_with_u).
+std::string with_u(double v, double u, std::string_view unit = "") { return io::format_with_u(v, u, unit); }
+
+/// The value and u cells of a table row (GUM 7.2.6 digits); "-" for both when not finite.
+void add_value_u(std::vector<std::string>& row, double v, double u) {
+  if (!std::isfinite(v)) {
+    row.insert(row.end(), {"-", "-"});
+    return;
+  }
+  const io::ValueText t = io::format_value_u(v, u);
+  row.insert(row.end(), {t.value, t.u});
+}
+
+/// "[lo, hi]" rounded to the decimal place of u (the column header states level and k).
+std::string interval_cell(double lo, double hi, double u) {
+  return "[" + io::format_value_u(lo, u).value + ", " + io::format_value_u(hi, u).value + "]";
+}
 
 }  // namespace
 
@@ -289,6 +305,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["frf"] = frf;
   json lin;
   lin["status"] = r.linearity.status;
+  lin["reason"] = r.linearity.reason;
   lin["nonlinear"] = r.linearity.nonlinear;
   lin["method"] = r.linearity.method;
   lin["tested"] = r.linearity.tested;
@@ -379,31 +396,41 @@ std::string format_identify_report(const IdentifyResult& r) {
   std::vector<std::pair<std::string, std::string>> head{
       {"input", r.input_source + " \"" + r.input_channel + "\"" + (r.input_unit.empty() ? "" : " [" + r.input_unit + "]")},
       {"output", r.output_source + " \"" + r.output_channel + "\"" + (r.output_unit.empty() ? "" : " [" + r.output_unit + "]")},
-      {"f0", sig(r.fundamental.f0_hz, 9) + " Hz" +
-                 (r.fundamental.f0_u_hz > 0 ? " ± " + sig(r.fundamental.f0_u_hz, 2) + " Hz" : "") + " (" +
-                 r.fundamental.method + ")"},
+      {"f0", (r.fundamental.f0_u_hz > 0 ? with_u(r.fundamental.f0_hz, r.fundamental.f0_u_hz, "Hz")
+                                         : sig(r.fundamental.f0_hz, 9) + " Hz") +
+                 " (" + r.fundamental.method + ")"},
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
                    " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
       {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
-                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals k = " +
+                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
   if (r.skew_s != 0) head.push_back({"skew", io::format_shortest(r.skew_s) + " s (output lag removed)"});
   out += report::render_key_values(head);
   out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
+  // u(…) columns are standard uncertainties; the interval columns are the expanded intervals
+  // at the level and k of the "frf" line, their level in the header.
+  const std::string pct = io::format_fixed(100 * r.frf.confidence, 0) + " %";
   Table t({{"n"}, {"freq_Hz"}, {"|H|"}, {"u(|H|)"}, {"|H|_dB"}, {"phase_deg"}, {"u(phase)"},
-           {"|H| interval", Table::Align::left}, {"phase interval", Table::Align::left}, {"SNR_in_dB"}});
-  for (const auto& p : r.frf.points)
-    t.add_row({std::to_string(p.n), sig(p.freq_hz, 7), sig(p.mag), sig(p.mag_u, 2), io::format_fixed(p.mag_db, 3),
-               io::format_fixed(p.phase_deg, 3), sig(p.phase_u_deg, 2),
-               "[" + sig(p.mag_lo) + ", " + sig(p.mag_hi) + "]",
-               "[" + io::format_fixed(p.phase_lo_deg, 3) + ", " + io::format_fixed(p.phase_hi_deg, 3) + "]",
-               io::format_fixed(p.input_snr_db, 1)});
+           {"|H| " + pct + " interval", Table::Align::left}, {"phase " + pct + " interval", Table::Align::left},
+           {"SNR_in_dB"}});
+  for (const auto& p : r.frf.points) {
+    std::vector<std::string> row{std::to_string(p.n), sig(p.freq_hz, 7)};
+    add_value_u(row, p.mag, p.mag_u);
+    row.push_back(io::format_fixed(p.mag_db, 3));
+    add_value_u(row, p.phase_deg, p.phase_u_deg);
+    row.push_back(interval_cell(p.mag_lo, p.mag_hi, p.mag_u));
+    row.push_back(interval_cell(p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg));
+    row.push_back(io::format_fixed(p.input_snr_db, 1));
+    t.add_row(std::move(row));
+  }
   out += t.render(2);
 
   out += "\nlinearity: " + r.linearity.status;
   if (r.linearity.status != "untested")
     out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
            io::format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
+  else if (!r.linearity.reason.empty())
+    out += ": " + r.linearity.reason;
   out += "\n";
   const auto lines = [&](const char* parity, const std::vector<DistortionLine>& ls,
                          const std::optional<double>& level) {
@@ -422,22 +449,37 @@ std::string format_identify_report(const IdentifyResult& r) {
     Table pt({{"parameter", Table::Align::left}, {"value"}, {"u"}});
     for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
       const double value = parameter_value(f, i);
-      pt.add_row({f.parameter_names[i], sig(value, 8), i < f.parameter_u.size() ? sig(f.parameter_u[i], 2) : "-"});
+      std::vector<std::string> row{f.parameter_names[i]};
+      if (i < f.parameter_u.size())
+        add_value_u(row, value, f.parameter_u[i]);
+      else
+        row.insert(row.end(), {sig(value, 8), "-"});
+      pt.add_row(std::move(row));
     }
     out += pt.render(2);
     out += "  a" + std::to_string(f.model.den.size() - 1) + " = 1 (monic); s in rad/s\n";
-    out += "  dc gain   " + (f.dc_gain_defined ? pm(f.dc_gain, f.dc_gain_u, 7) : std::string("infinite (pole at 0)")) + "\n";
-    out += "  delay     " + (f.model.delay_estimated ? pm(f.delay_s, f.delay_u_s) + " s" : sig(f.delay_s) + " s (not estimated)") + "\n";
+    out += "  dc gain   " + (f.dc_gain_defined ? with_u(f.dc_gain, f.dc_gain_u, unit) : std::string("infinite (pole at 0)")) + "\n";
+    out += "  delay     " + (f.model.delay_estimated ? with_u(f.delay_s, f.delay_u_s, "s") : sig(f.delay_s) + " s (not estimated)") + "\n";
     const auto roots = [&](const char* title, const std::vector<Root>& rs) {
       if (rs.empty()) return;
       out += std::string("\n") + title + "\n";
-      Table rt({{"re_rad_s"}, {"u(re)"}, {"im_rad_s"}, {"u(im)"}, {"tau_s"}, {"wn_rad_s"}, {"zeta"}, {"Q"}});
-      for (const auto& p : rs)
-        rt.add_row({sig(p.value.real(), 7), sig(p.re_u, 2), sig(p.value.imag(), 7), sig(p.im_u, 2),
-                    p.is_real && p.time_constant_s != 0 ? pm(p.time_constant_s, p.time_constant_u_s) : "-",
-                    p.is_real ? "-" : pm(p.natural_frequency_rad_s, p.natural_frequency_u_rad_s),
-                    p.is_real ? "-" : pm(p.damping_ratio, p.damping_ratio_u),
-                    p.is_real ? "-" : pm(p.q_factor, p.q_factor_u)});
+      // Roots in rad/s (s-plane coordinates); the natural frequency in Hz, as in the HTML
+      // report (f_n = ω_n/2π). Each u(…) is the standard uncertainty of the column before it.
+      Table rt({{"re_rad_s"}, {"u(re)"}, {"im_rad_s"}, {"u(im)"}, {"tau_s"}, {"u(tau)"}, {"fn_Hz"}, {"u(fn)"},
+                {"zeta"}, {"u(zeta)"}, {"Q"}, {"u(Q)"}});
+      constexpr double kTwoPi = 2 * std::numbers::pi;
+      const double none = std::nan("");
+      for (const auto& p : rs) {
+        std::vector<std::string> row;
+        add_value_u(row, p.value.real(), p.re_u);
+        add_value_u(row, p.value.imag(), p.im_u);
+        const bool tau = p.is_real && p.time_constant_s != 0;
+        add_value_u(row, tau ? p.time_constant_s : none, p.time_constant_u_s);
+        add_value_u(row, p.is_real ? none : p.natural_frequency_rad_s / kTwoPi, p.natural_frequency_u_rad_s / kTwoPi);
+        add_value_u(row, p.is_real ? none : p.damping_ratio, p.damping_ratio_u);
+        add_value_u(row, p.is_real ? none : p.q_factor, p.q_factor_u);
+        rt.add_row(std::move(row));
+      }
       out += rt.render(2);
     };
     roots("poles", f.poles);

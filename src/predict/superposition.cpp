@@ -644,7 +644,8 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   }
   out += "\n" + t.render();
   if (listed < r.harmonics_out.size())
-    out += "(" + std::to_string(r.harmonics_out.size() - listed) + " more harmonics not listed)\n";
+    out += "(" + std::to_string(r.harmonics_out.size() - listed) +
+           " more harmonics not listed here: --list 0 lists them, --json holds every one)\n";
   return out;
 }
 
