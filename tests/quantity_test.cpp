@@ -40,7 +40,8 @@ TEST_CASE("quantity: times with SI prefixes (12ns, 1.5 ms, 3 µs)") {
 }
 
 TEST_CASE("quantity: not a quantity (unknown unit or prefix, wrong dimension, trailing text, empty)") {
-  for (const char* bad : {"1MQ", "", "k", "1 kHz x", "1..2", "1e", "nan", "inf", "1e999", "1 ks/"}) {
+  // "1e308k" overflows only once the prefix is applied: refused, never inf.
+  for (const char* bad : {"1MQ", "", "k", "1 kHz x", "1..2", "1e", "nan", "inf", "1e999", "1 ks/", "1e308k"}) {
     CAPTURE(bad);
     CHECK_FALSE(io::parse_frequency(bad));
   }
@@ -65,4 +66,6 @@ TEST_CASE("quantity: a prefix shifts the decimal exponent, so the value is corre
   CHECK(*io::parse_duration("100us") == 1e-4);
   CHECK(*io::parse_duration("1.5e2 ns") == 1.5e-7);
   CHECK(*io::parse_frequency("44.1k") == 44100.0);
+  // A written exponent at the int limit plus the prefix's does not overflow (read as long long).
+  CHECK(*io::parse_frequency("0e2147483647k") == 0.0);
 }

@@ -94,12 +94,14 @@ std::optional<QuantityValue> parse_quantity(std::string_view text, char decimal,
   if (!exponent) return std::nullopt;
   if (*exponent != 0) {
     // mantissa e (its exponent + the prefix's), converted once: correctly rounded.
+    // The written exponent is read as long long: "0e2147483647k" must not overflow an int.
     const std::size_t e = number.find_first_of("eE");
-    int written = 0;
+    long long written = 0;
     if (e != std::string::npos) {
       const char* first = number.data() + e + 1;
       if (*first == '+') ++first;
-      std::from_chars(first, number.data() + number.size(), written);
+      const auto [end, error] = std::from_chars(first, number.data() + number.size(), written);
+      if (error != std::errc{} || end != number.data() + number.size()) return std::nullopt;
       number.resize(e);
     }
     number += "e" + std::to_string(written + *exponent);
