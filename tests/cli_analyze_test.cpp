@@ -229,6 +229,17 @@ TEST_CASE("cli analyze: --f0 forces the fundamental; WAV captures are read too")
   CHECK(c["samples_per_period"] == 48);  // coherent: 48 samples per period
   CHECK(c["harmonics"][0]["amplitude"].get<double>() == doctest::Approx(0.5).epsilon(1e-7));
   CHECK(c["harmonics"].size() == 10);
+  // --f0 1k and --f0 1kHz are the same 1000 Hz (SI prefix, io/quantity.hpp): the same JSON.
+  for (const char* f0 : {"1k", "'1 kHz'"}) {
+    CAPTURE(f0);
+    const auto prefixed = run_cli("analyze " + shell_quote(dir.file("tone.wav")) + " --f0 " + f0 + " --harmonics 10 --json -");
+    REQUIRE(prefixed.exit_code == 0);
+    CHECK(prefixed.out == r.out);
+  }
+  const auto bad = run_cli("analyze " + shell_quote(dir.file("tone.wav")) + " --f0 1kV");
+  CHECK(bad.exit_code == 2);
+  CHECK(bad.out.empty());
+  CHECK(bad.err == "periodfit: error: --f0: \"1kV\" is not a frequency (e.g. 48k, 1MHz)\n");
 }
 
 TEST_CASE("cli analyze: --help shows the defaults from the options struct") {
