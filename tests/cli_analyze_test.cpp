@@ -15,6 +15,8 @@
 
 #include <nlohmann/json.hpp>
 
+#include "io/number_format.hpp"
+#include "report/table.hpp"
 #include "support/cli_runner.hpp"
 
 using periodfit::test::run_cli;
@@ -62,6 +64,42 @@ TEST_CASE("cli analyze: text report lists every channel, the figures and every h
   while (std::getline(lines, line))
     if (line.size() > 3 && line.compare(0, 2, "  ") == 0 && line[2] >= '1' && line[2] <= '5' && line[3] == ' ') ++rows;
   CHECK(rows == 10);
+}
+
+TEST_CASE("cli analyze: text states each uncertainty as u with GUM digits; every table column labelled") {
+  // The text's numbers are the JSON's rounded as GUM 7.2.6 (io::format_value_u), so the whole
+  // f0 and dc lines and the whole harmonic table are rebuilt from the JSON of the same run.
+  TempDir dir("cli_analyze_u");
+  write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
+  const auto text = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --channel v_out --harmonics 3");
+  const auto json = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --channel v_out --harmonics 3 --json -");
+  REQUIRE(text.exit_code == 0);
+  REQUIRE(json.exit_code == 0);
+  const auto c = nlohmann::json::parse(json.out)["channels"][0];
+  CHECK(text.out.find("\xC2\xB1") == std::string::npos);  // no bare "±"
+  const std::string f0_line = "  f0           " +
+                              periodfit::io::format_with_u(c["f0_hz"].get<double>(), c["f0_u_hz"].get<double>(), "Hz") +
+                              " (sine-fit, 3 harmonics)\n";
+  CHECK(text.out.find(f0_line) != std::string::npos);
+  const std::string dc_line =
+      "  dc           " + periodfit::io::format_with_u(c["dc"].get<double>(), c["dc_u"].get<double>()) + "\n";
+  CHECK(text.out.find(dc_line) != std::string::npos);
+  periodfit::report::Table t({{"n"}, {"freq/Hz"}, {"amplitude"}, {"u"}, {"phase/deg"}, {"u/deg"},
+                              {"significant", periodfit::report::Table::Align::left}});
+  for (const auto& h : c["harmonics"]) {
+    const auto a = periodfit::io::format_value_u(h["amplitude"].get<double>(), h["amplitude_u"].get<double>());
+    const auto p = periodfit::io::format_value_u(h["phase_deg"].get<double>(), h["phase_u_deg"].get<double>());
+    t.add_row({std::to_string(h["n"].get<int>()), periodfit::io::format_significant(h["freq_hz"].get<double>(), 8),
+               a.value, a.u, p.value, p.u, h["significant"].get<bool>() ? "yes" : "no"});
+  }
+  const std::string table = t.render(2);
+  REQUIRE(text.out.size() >= table.size());
+  CHECK(text.out.substr(text.out.size() - table.size()) == table);
+  // The fundamental (amplitude 0.5, noise 1e-4 over 3000 samples) has u of a few 1e-6: the
+  // value is printed to u's second significant digit, never to a fixed 6 digits.
+  const auto a1 = periodfit::io::format_value_u(c["harmonics"][0]["amplitude"].get<double>(),
+                                                c["harmonics"][0]["amplitude_u"].get<double>());
+  CHECK(a1.u.size() <= 7);  // two significant digits: "2.6e-06" at most
 }
 
 TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") {
@@ -137,7 +175,9 @@ TEST_CASE("cli analyze: unknown channel and no periodic component are errors, ex
   const auto r = run_cli("analyze " + shell_quote(dir.file("cap.csv")) + " --channel v_ot");
   CHECK(r.exit_code == 2);
   CHECK(r.out.empty());
-  CHECK(r.err == "periodfit: error: unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)\n");
+  // The error names the file the channel was looked up in (issue 13, item 6).
+  CHECK(r.err == "periodfit: error: unknown channel \"v_ot\" in " + dir.file("cap.csv") +
+                     " (did you mean \"v_out\"? channels: v_in, v_out)\n");
 
   std::ostringstream s;
   s << "time,hiss\n";
@@ -192,6 +232,17 @@ TEST_CASE("cli analyze: --f0 forces the fundamental; WAV captures are read too")
   CHECK(c["samples_per_period"] == 48);  // coherent: 48 samples per period
   CHECK(c["harmonics"][0]["amplitude"].get<double>() == doctest::Approx(0.5).epsilon(1e-7));
   CHECK(c["harmonics"].size() == 10);
+  // --f0 1k and --f0 1kHz are the same 1000 Hz (SI prefix, io/quantity.hpp): the same JSON.
+  for (const char* f0 : {"1k", "'1 kHz'"}) {
+    CAPTURE(f0);
+    const auto prefixed = run_cli("analyze " + shell_quote(dir.file("tone.wav")) + " --f0 " + f0 + " --harmonics 10 --json -");
+    REQUIRE(prefixed.exit_code == 0);
+    CHECK(prefixed.out == r.out);
+  }
+  const auto bad = run_cli("analyze " + shell_quote(dir.file("tone.wav")) + " --f0 1kV");
+  CHECK(bad.exit_code == 2);
+  CHECK(bad.out.empty());
+  CHECK(bad.err == "periodfit: error: --f0: \"1kV\" is not a frequency (e.g. 48k, 1MHz)\n");
 }
 
 TEST_CASE("cli analyze: --help shows the defaults from the options struct") {

@@ -100,12 +100,15 @@ TEST_CASE("cli identify: report with header, FRF table, linearity and flags") {
   CHECK(l[1] == "output  " + dir.file("rc.csv") + " \"v_out\" [V]");
   CHECK(l[2].substr(0, 8) == "f0      ");
   CHECK(l[3] == "grid    12 periods × 400 samples, harmonics 1…31");
-  CHECK(l[4] == "frf     per-period-covariance, dof 11, 95 % intervals k = 2.201 (student-t)");  // t_{0.975,11} = 2.201 (Student-t table)
+  CHECK(l[4] == "frf     per-period-covariance, dof 11, 95 % intervals with k = 2.201 (student-t)");  // t_{0.975,11} = 2.201 (Student-t table)
   CHECK(l[5] == "");
   CHECK(l[6] == "frequency response [V/V]");
   CHECK(l[7] ==
-        "   n   freq_Hz        |H|   u(|H|)   |H|_dB  phase_deg  u(phase)  |H| interval            phase interval      "
+        "   n   freq_Hz       |H|   u(|H|)   |H|_dB  phase_deg  u(phase)  |H| 95 % interval     phase 95 % interval   "
         "SNR_in_dB");
+  // Issue 13: every uncertainty is labelled (u columns, the interval's level in its header and
+  // k on the frf line); no bare "±" anywhere.
+  CHECK(r.out.find("\xC2\xB1") == std::string::npos);
   // 16 odd harmonics, then the linearity verdict and the flags.
   CHECK(l[9].substr(0, 4) == "   1");
   CHECK(l[24].substr(0, 4) == "  31");
@@ -242,6 +245,62 @@ TEST_CASE("cli identify: two files on a common time base, --scale per channel, -
   REQUIRE(skewed.exit_code == 0);
   const auto k = nlohmann::json::parse(skewed.out);
   CHECK(k["frf"][0]["phase_deg"].get<double>() - p1["phase_deg"].get<double>() == doctest::Approx(1.8).epsilon(kF0Relative));
+  // --skew 100us is the same 1e-4 s, read with its SI prefix (io/quantity.hpp): the same JSON.
+  const auto prefixed = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                                " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --skew 100us --json -");
+  REQUIRE(prefixed.exit_code == 0);
+  CHECK(prefixed.out == skewed.out);
+}
+
+TEST_CASE("cli identify: two files as the README shows them: the output file's only channel by default") {
+  const TempDir dir("cli_identify_two_default");
+  auto s = rc_square(8, 1e-3, 4);
+  write_text(dir.file("in.csv"), csv({&s.u}, {"CH1"}));
+  write_text(dir.file("out.csv"), csv({&s.y}, {"CH2"}));
+  write_text(dir.file("out2.csv"), csv({&s.y, &s.u}, {"CH2", "CH3"}));
+  const auto r = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                         " --f0-hint 50 --harmonics 31 --json -");
+  CHECK(r.err == "");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["input"]["channel"] == "CH1");
+  CHECK(j["output"]["channel"] == "CH2");
+  // Several channels in the output file: the user chooses, and the message names the file.
+  const auto several = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out2.csv")) +
+                               " --f0-hint 50");
+  CHECK(several.exit_code == 2);
+  CHECK(several.out == "");
+  CHECK(several.err == "periodfit: error: " + dir.file("out2.csv") +
+                           " has 2 data channels: choose the DUT output with --output (a name, or #N for position N)\n");
+  // A channel the output file lacks: the error names that file, not the input file.
+  const auto missing = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+                               " --output CH9 --f0-hint 50");
+  CHECK(missing.exit_code == 2);
+  CHECK(missing.err == "periodfit: error: unknown channel \"CH9\" in " + dir.file("out.csv") +
+                           " (did you mean \"CH2\"? channels: CH2)\n");
+}
+
+TEST_CASE("cli identify: scope columns named 1 and 2: defaults take positions #0 and #1, a digit name warns") {
+  const TempDir dir("cli_identify_digit_names");
+  auto s = rc_square(8, 1e-3, 4);
+  write_text(dir.file("scope.csv"), csv({&s.u, &s.y}, {"1", "2"}));
+  // Defaults: input #0 (named "1"), output #1 (named "2"); before issue 13 the default output "1"
+  // matched the name of the input channel and identify stopped with "the same channel".
+  const auto r = run_cli("identify " + q(dir.file("scope.csv")) + " --f0-hint 50 --harmonics 31 --json -");
+  CHECK(r.err == "");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["input"]["channel"] == "1");
+  CHECK(j["output"]["channel"] == "2");
+  // "--input 2 --output 1" names the channels (swapped on purpose); "1" is also position 1, so
+  // each selector that could be read the other way gets a warning saying how to write it.
+  const auto named = run_cli("identify " + q(dir.file("scope.csv")) + " --input 2 --output 1 --f0-hint 50 --harmonics 31 --json -");
+  REQUIRE(named.exit_code == 0);
+  const auto k = nlohmann::json::parse(named.out);
+  CHECK(k["input"]["channel"] == "2");
+  CHECK(k["output"]["channel"] == "1");
+  CHECK(named.err == "periodfit: warning: channel \"1\" in " + dir.file("scope.csv") +
+                         " is the channel named 1 (#0); for the channel at position 1 (\"2\") write #1\n");
 }
 
 TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
@@ -275,7 +334,8 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
   expect_error("identify " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
                "invalid option: --save-model = " + dir.file("m.json") + " (needs a model: give --order M/N or --order auto)");
   expect_error("identify " + rc + " --input v_in --output v_ot",
-               "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)");
+               "unknown channel \"v_ot\" in " + dir.file("rc.csv") +
+                   " (did you mean \"v_out\"? channels: v_in, v_out)");
   expect_error("identify " + rc + " --input v_in --output v_out --min-snr -3",
                "invalid option: min_snr_db = -3 (must be finite and >= 0)");
   // A noise-free pure gain y = 2u fitted with 1/1: (b0 + b1 s)/(a0 + s) = 2 for any a0 = b0/2.
@@ -295,10 +355,10 @@ TEST_CASE("cli identify: --help shows the library defaults") {
   const std::string indent(28, ' ');  // the help's option column (cli/usage.cpp kLabelWidth)
   CHECK(r.out.find("  --min-snr DB              input power above the input noise floor, in dB, for a harmonic to count\n" +
                    indent + "as excited\n" + indent + "default 20\n") != std::string::npos);
-  CHECK(r.out.find("  --input CH                DUT input channel, by name or 0-based index\n" + indent + "default 0\n") !=
-        std::string::npos);
-  CHECK(r.out.find("  --output CH               DUT output channel, by name or 0-based index\n" + indent +
-                   "default 1\n") != std::string::npos);
+  CHECK(r.out.find("  --input CH                DUT input channel: a name, or #N for the data channel at 0-based\n" +
+                   indent + "position N\n" + indent + "default #0\n") != std::string::npos);
+  CHECK(r.out.find("  --output CH               DUT output channel: a name or #N (default: #1; with --output-file, that\n" +
+                   indent + "file's only channel)\n") != std::string::npos);
   CHECK(r.out.find("  --order M/N|auto ") != std::string::npos);
 }
 
@@ -313,12 +373,11 @@ TEST_CASE("cli identify: the text lists poles frequency first in Hz with u=; rad
   REQUIRE(json.exit_code == 0);
   const auto pole = nlohmann::json::parse(json.out)["model"]["poles"][0];
   // The same fit printed twice: corner frequency |p|/2π and τ = −1/p from the JSON's rad/s values
-  // (closed forms), in the text's 6 and 2 significant digits.
+  // (closed forms), stated with GUM digits as every value with a u (io::format_with_u).
   const double re = pole["re"].get<double>(), re_u = pole["re_u"].get<double>();
-  const std::string freq = periodfit::io::format_significant(std::abs(re) / (2 * kPi), 6) + " u=" +
-                           periodfit::io::format_significant(re_u / (2 * kPi), 2);
-  const std::string tau = periodfit::io::format_significant(pole["time_constant_s"].get<double>(), 6) + " u=" +
-                          periodfit::io::format_significant(pole["time_constant_u_s"].get<double>(), 2);
+  const std::string freq = periodfit::io::format_with_u(std::abs(re) / (2 * kPi), re_u / (2 * kPi));
+  const std::string tau = periodfit::io::format_with_u(pole["time_constant_s"].get<double>(),
+                                                       pole["time_constant_u_s"].get<double>());
   const auto at = text.out.find("\npoles\n");
   REQUIRE(at != std::string::npos);
   // The table pads columns to their widest cell: compare with runs of blanks folded to two.

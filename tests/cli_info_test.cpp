@@ -301,3 +301,32 @@ TEST_CASE("cli info: a pipe is read once, whole") {
   CHECK(j["files"][0]["samples"] == 4);
   CHECK(j["files"][0]["channels"][0]["rms"].get<double>() == std::sqrt(7.5));
 }
+
+TEST_CASE("cli info: --rate reads SI prefixes and units (1MHz, 48k); a bad value names the option") {
+  const TempDir dir("cli_info_rate_units");
+  write_text(dir.file("small.csv"), kSmall);
+  // 1MHz = 1e6 Hz, 48k = 48e3 Hz (SI prefixes), the same reader as the CSV preamble's rate.
+  const auto mhz = run_cli("info " + q(dir.file("small.csv")) + " --rate 1MHz --json -");
+  REQUIRE(mhz.exit_code == 0);
+  CHECK(nlohmann::ordered_json::parse(mhz.out)["files"][0]["sample_rate_hz"].get<double>() == 1e6);
+  const auto k = run_cli("info " + q(dir.file("small.csv")) + " --rate 48k --json -");
+  REQUIRE(k.exit_code == 0);
+  CHECK(nlohmann::ordered_json::parse(k.out)["files"][0]["sample_rate_hz"].get<double>() == 48e3);
+  const auto bad = run_cli("info " + q(dir.file("small.csv")) + " --rate 1MQ");
+  CHECK(bad.exit_code == 2);
+  CHECK(bad.out.empty());
+  CHECK(bad.err == "periodfit: error: --rate: \"1MQ\" is not a frequency (e.g. 48k, 1MHz)\n");
+  const auto time = run_cli("info " + q(dir.file("small.csv")) + " --rate 12ns");
+  CHECK(time.exit_code == 2);
+  CHECK(time.err == "periodfit: error: --rate: \"12ns\" is not a frequency (e.g. 48k, 1MHz)\n");
+}
+
+TEST_CASE("cli info: a preamble row of vertical units gives the channel units") {
+  const TempDir dir("cli_info_vertical_units");
+  write_text(dir.file("scope.csv"), "Vertical Units,V,A\nTIME,CH1,CH2\n0,1,2\n0.5,3,4\n1,5,6\n");
+  const auto r = run_cli("info " + q(dir.file("scope.csv")) + " --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto f = nlohmann::ordered_json::parse(r.out)["files"][0];
+  CHECK(f["channels"][0]["unit"] == "V");
+  CHECK(f["channels"][1]["unit"] == "A");
+}

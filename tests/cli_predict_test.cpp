@@ -66,7 +66,10 @@ TEST_CASE("cli predict: JSON holds dc, harmonics and the truncation bound") {
   CHECK(j["harmonics_used"] == 400);
   CHECK(j["harmonic_count_method"] == "given");
   CHECK(j["input_left_out_fraction"].get<double>() > 0);
-  CHECK(j["harmonics_listed"] == 50);  // --list default
+  // Machine output is complete (issue 13): the 201 nonzero harmonics of 400 (a half-wave has
+  // the fundamental and the even harmonics only: handbook series), not --list's 50.
+  CHECK(j["harmonics_listed"] == 201);
+  CHECK(j["harmonics"].size() == 201);
   const auto& h1 = j["harmonics"][0];
   const double wt = 2 * kPi * 50 * 1e-3;
   CHECK(h1["n"] == 1);
@@ -88,8 +91,32 @@ TEST_CASE("cli predict: a model file with covariance gives value_u in the CSV") 
   const std::string text = test::slurp(csv);
   CHECK(text.rfind("time_s,value,value_u\n0,", 0) == 0);
   CHECK(std::count(text.begin(), text.end(), '\n') == 21);  // header + 2 periods × 10 samples
-  CHECK(r.out.find("dc                     0 ± 0\n") != std::string::npos);
+  CHECK(r.out.find("dc                     0, u = 0\n") != std::string::npos);
   CHECK(r.out.find("u_amplitude") != std::string::npos);
+}
+
+TEST_CASE("cli predict: --harmonics 199 --json lists 199 harmonics; --list shortens only the text") {
+  // A sawtooth has every harmonic (handbook series 2A/(n pi)), so 199 are computed and listed.
+  const std::string args = "predict --system \"1000/(1000 + s)\" --wave sawtooth --f0 50 --harmonics 199";
+  const auto json = run_cli(args + " --list 3 --json -");
+  REQUIRE(json.exit_code == 0);
+  const auto j = nlohmann::json::parse(json.out);
+  CHECK(j["harmonics_listed"] == 199);
+  REQUIRE(j["harmonics"].size() == 199);
+  CHECK(j["harmonics"][198]["n"] == 199);
+  const auto text = run_cli(args + " --list 3");
+  REQUIRE(text.exit_code == 0);
+  // Row n: amplitude 2/(n pi)·|H|, |H| = 1/sqrt(1 + (n·2pi·50·1e-3)^2) (closed form): n = 1 gives
+  // 0.63662·0.954028 = 0.607353, gain phase -atan(0.314159) = -17.441 deg.
+  const std::string table_end =
+      "n  freq_Hz  amplitude  phase_deg      gain  gain_phase_deg  source\n"
+      "-  -------  ---------  ---------  --------  --------------  ------\n"
+      "1       50   0.607353   -107.441  0.954028         -17.441  model\n"
+      "2      100   0.269523     57.858  0.846733         -32.142  model\n"
+      "3      150   0.154429   -133.304  0.727727         -43.304  model\n"
+      "(196 more harmonics not listed here: --list 0 lists them, --json holds every one)\n";
+  REQUIRE(text.out.size() > table_end.size());
+  CHECK(text.out.substr(text.out.size() - table_end.size()) == table_end);
 }
 
 TEST_CASE("cli predict: measured FRF points are used only where they exist") {
@@ -137,7 +164,7 @@ TEST_CASE("cli predict: a capture's analysed harmonics are the input") {
   CHECK(j["harmonics"][2]["phase_deg"].get<double>() == doctest::Approx(30 - std::atan(w3) * 180 / kPi).epsilon(1e-7));
   const auto bad = run_cli("predict --system '1/(1 + s)' --input-file '" + path + "' --channel v_ot");
   CHECK(bad.exit_code == 2);
-  CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" (channels: v)\n");  // too far for a suggestion
+  CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" in " + path + " (channels: v)\n");  // too far for a suggestion
 }
 
 TEST_CASE("cli predict: bad input gives one error line and exit code 2") {

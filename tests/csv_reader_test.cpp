@@ -150,12 +150,15 @@ TEST_CASE("csv: preamble key,value pairs and free text are kept in order; interv
   CHECK(near(c.sample_rate_hz, 500000.0));  // 1 / 2 us
 }
 
+namespace {
+struct RateLine {
+  const char* line;
+  double rate_hz;  // 1/interval or the stated rate, unit prefixes by SI
+};
+}  // namespace
+
 TEST_CASE("csv: preamble interval and rate keys with units") {
-  struct Case {
-    const char* line;
-    double rate_hz;  // 1/interval or the stated rate, unit prefixes by SI
-  };
-  const Case cases[] = {
+  const RateLine cases[] = {
       {"Sample Interval,1e-06", 1e6},   {"X Increment,5.0E-04,s", 2000},
       {"sample_interval = 10 ms", 100}, {"Fs,44100", 44100},
       {"Sample Rate,2.5 MSa/s", 2.5e6}, {"SampleRate: 96 kHz", 96000},
@@ -176,6 +179,38 @@ TEST_CASE("csv: a units row after the header, and a time column in milliseconds"
   const Capture ms = parse_csv("time (ms),v\n10,1\n10.5,2\n11,3\n", "ms.csv");
   CHECK(near(ms.sample_rate_hz, 2000.0));
   CHECK(near(ms.t0_s, 0.010));
+}
+
+TEST_CASE("csv: a preamble row of vertical units sets the channel units") {
+  // Per data channel, per column (the time column's unit skipped), in brackets; the header's
+  // own unit stays; a horizontal-units row belongs to the time axis and sets no channel unit.
+  const Capture per_channel = parse_csv("Vertical Units,V,mV\nTIME,CH1,CH2\n0,1,2\n1e-3,3,4\n", "v.csv");
+  CHECK(per_channel.channels[0].unit == "V");
+  CHECK(per_channel.channels[1].unit == "mV");
+  const Capture per_column = parse_csv("Units,s,(A),(V)\nTime,i,v\n0,1,2\n1e-3,3,4\n", "u.csv");
+  CHECK(per_column.channels[0].unit == "A");
+  CHECK(per_column.channels[1].unit == "V");
+  const Capture header_wins = parse_csv("Vertical Units,V,V\nTIME,CH1 (mV),CH2\n0,1,2\n1e-3,3,4\n", "h.csv");
+  CHECK(header_wins.channels[0].unit == "mV");
+  CHECK(header_wins.channels[1].unit == "V");
+  const Capture horizontal = parse_csv("Horizontal Units,s\nTIME,CH1\n0,1\n1e-3,3\n", "x.csv");
+  CHECK(horizontal.channels[0].unit.empty());
+  // A value that is no unit word: the row is metadata only.
+  const Capture not_units = parse_csv("Units,metric,stuff\nTIME,CH1,CH2\n0,1,2\n1e-3,3,4\n", "n.csv");
+  CHECK(not_units.channels[0].unit.empty());
+  CHECK(not_units.metadata.front() == std::pair<std::string, std::string>{"Units", "metric stuff"});
+}
+
+TEST_CASE("csv: preamble rates read the instrument case of prefixes (MHz, mhz, MS/s, ms)") {
+  // The shared quantity reader (io/quantity.hpp) with the instrument rule: m and M are mega
+  // before a frequency unit, milli before a time unit; a bare prefix reads as SI.
+  const RateLine cases[] = {{"Sample Rate,1 mhz", 1e6}, {"Sample Rate,1MHZ", 1e6}, {"Sample Rate,2 ms/s", 2e6},
+                        {"Sample Interval,2 MS", 500}, {"Sample Rate,48k", 48000}};
+  for (const auto& k : cases) {
+    CAPTURE(k.line);
+    const Capture c = parse_csv(std::string(k.line) + "\nv\n1\n2\n", "k.csv");
+    CHECK(near(c.sample_rate_hz, k.rate_hz));
+  }
 }
 
 TEST_CASE("csv: --rate overrides the time column, which then only gives t0") {

@@ -6,9 +6,14 @@
 #include <doctest/doctest.h>
 
 #include <cstddef>
+#include <numbers>
 #include <string>
 #include <vector>
 
+#include "batch/config.hpp"
+#include "batch/file_analysis.hpp"
+#include "batch_fixture.hpp"
+#include "io/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
 #include "report/html_report.hpp"
@@ -120,4 +125,29 @@ TEST_CASE("html report: a section renders on its own with its number as anchor")
   const ReportRow row = report_row(doc.files[2]);
   CHECK(row.error == "captures/broken.wav: truncated <data> chunk");
   CHECK(report_row(doc.files[1]).error.empty());  // only ERROR rows show a message
+}
+
+TEST_CASE("html report: key results state u as the terminal does, the natural frequency in Hz") {
+  // Issue 13: the report showed dc gain ± (95 % half-width) and the terminal ± u; both now give
+  // the standard uncertainty, labelled, with GUM 7.2.6 digits, f_n = ω_n/2π in Hz.
+  const test::TempDir dir("html_key_results_u");
+  test::LowpassCapture c;
+  test::write_lowpass_csv(dir.file("board.csv"), c);
+  const batch::FileAnalysis a = batch::analyse_file(dir.file("board.csv"),
+                                                    batch::parse_batch_config(test::lowpass_config(), "t.toml"));
+  const auto& model = a.result_json["model"];
+  const auto& pole = model["poles"][0];
+  const double to_hz = 1 / (2 * std::numbers::pi);
+  std::string dc_gain, pole_row;
+  for (const auto& row : a.result_rows) {
+    if (row.first == "dc gain") dc_gain = row.second;
+    if (row.first == "pole 1") pole_row = row.second;
+  }
+  CHECK(dc_gain == io::format_with_u(model["dc_gain"].get<double>(), model["dc_gain_u"].get<double>()));
+  CHECK(pole_row.rfind("complex pair: natural frequency " +
+                           io::format_with_u(pole["natural_frequency_rad_s"].get<double>() * to_hz,
+                                             pole["natural_frequency_u_rad_s"].get<double>() * to_hz, "Hz") +
+                           ", ",
+                       0) == 0);
+  for (const auto& row : a.result_rows) CHECK(row.second.find("\xC2\xB1") == std::string::npos);
 }

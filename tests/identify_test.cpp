@@ -390,7 +390,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
   SUBCASE("unknown channel") {
     o.output_channel = "v_ot";
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(x, x), o),
-                         "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)",
+                         "unknown channel \"v_ot\" in synthetic (did you mean \"v_out\"? channels: v_in, v_out)",
                          UnknownNameError);
   }
   SUBCASE("input without a periodic component") {
@@ -544,7 +544,8 @@ TEST_CASE("identify: a constant, zero or noise-only output is refused as carryin
 
 TEST_CASE("identify: poles and zeros print frequency first in Hz, each value with u=") {
   // Hand-made roots; the Hz figures are |p|/2π and Q = 1/(2ζ), u(Q) = u(ζ)/(2ζ²) (closed forms,
-  // ident/rational_fit.hpp), printed to 6 significant digits and u to 2.
+  // ident/rational_fit.hpp), printed with GUM digits (u to 2 significant digits, the value to
+  // the same decimal place; JCGM 100:2008 §7.2.6); 6 digits where u is undefined.
   const double two_pi = 2 * std::numbers::pi;
   ident::Root pair;
   pair.is_real = false;
@@ -566,13 +567,15 @@ TEST_CASE("identify: poles and zeros print frequency first in Hz, each value wit
   ident::Root repeated = real;
   repeated.uncertainty_defined = false;
   CHECK(ident::format_roots_table({real, pair, conjugate, origin, repeated}) ==
-        "  root            freq_Hz              damping_ratio  Q                 time_constant_s\n"
-        "  --------------  -------------------  -------------  ----------------  -----------------\n"
-        "  real            159.155 u=1.6        -              -                 0.001 u=1e-05\n"
-        "  complex pair    1200 u=3             0.35 u=0.002   1.42857 u=0.0082  -\n"
-        "  real, at s = 0  0 u=0                -              -                 -\n"
-        "  real            159.155 u=undefined  -              -                 0.001 u=undefined\n");
+        "  root            freq_Hz               damping_ratio       Q                   time_constant_s\n"
+        "  --------------  --------------------  ------------------  ------------------  ---------------------\n"
+        "  real            159.2, u = 1.6        -                   -                   0.001000, u = 1.0e-05\n"
+        "  complex pair    1200.0, u = 3.0       0.3500, u = 0.0020  1.4286, u = 0.0082  -\n"
+        "  real, at s = 0  0, u = 0              -                   -                   -\n"
+        "  real            159.155, u undefined  -                   -                   0.001, u undefined\n");
   CHECK(ident::root_summary(pair) ==
-        "complex pair: natural frequency 1200 Hz u=3 Hz, damping ratio 0.35 u=0.002, Q 1.42857 u=0.0082");
-  CHECK(ident::root_summary(real) == "real: corner frequency 159.155 Hz u=1.6 Hz, time constant 0.001 s u=1e-05 s");
+        "complex pair: natural frequency 1200.0 Hz, u = 3.0 Hz, damping ratio 0.3500, u = 0.0020, Q 1.4286, "
+        "u = 0.0082");
+  CHECK(ident::root_summary(real) ==
+        "real: corner frequency 159.2 Hz, u = 1.6 Hz, time constant 0.001000 s, u = 1.0e-05 s");
 }

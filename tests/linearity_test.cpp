@@ -121,6 +121,21 @@ TEST_CASE("linearity: a noise-free linear DUT is not flagged (rounding is not di
   CHECK(lin.status == "linear");
 }
 
+TEST_CASE("linearity: an input exciting every harmonic leaves the test untested, and says why") {
+  std::mt19937_64 rng(13);
+  std::vector<cd> u(kH + 1, 0.0);
+  for (int n = 1; n <= kH; ++n) u[std::size_t(n)] = std::polar(0.3, n * (n - 1) * kPi / kH);
+  const auto su = spectra_of(waveform(u, rng, kSigma));
+  const auto sy = spectra_of(waveform(through_lowpass(u), rng, kSigma));
+  const auto frf = ident::compute_frf(su, sy);
+  REQUIRE(frf.unexcited.empty());
+  const auto lin = ident::check_linearity(frf, sy);
+  CHECK(lin.status == "untested");
+  CHECK(lin.reason ==
+        "the input excites every harmonic up to 20, so none is left free to show distortion; an input with "
+        "unexcited harmonics (e.g. a multisine with gaps from periodfit excite) allows the test");
+}
+
 TEST_CASE("linearity: y = v + 0.05 v^2 behind a low-pass raises nonlinear, even lines only") {
   std::mt19937_64 rng(13);
   const auto u = odd_multisine();

@@ -2,6 +2,7 @@
 #include <doctest/doctest.h>
 
 #include <algorithm>
+#include <cmath>
 #include <cstdlib>
 #include <filesystem>
 #include <string>
@@ -32,14 +33,40 @@ TEST_CASE("error: option error names field, value and constraint") {
 
 TEST_CASE("capture: channels are selected by name, case-insensitively, or by index") {
   Capture c;
+  c.source = "bench.csv";
   c.channels = {{"v_in", "V", {}}, {"v_out", "V", {}}};
   CHECK(c.channel_index("v_out") == 1);
   CHECK(c.channel_index("V_IN") == 0);
-  CHECK(c.channel_index("1") == 1);
+  CHECK(c.channel_index("1") == 1);   // digits naming no channel: the 0-based position
+  CHECK(c.channel_index("#1") == 1);
+  CHECK(c.channel_index("#0") == 0);
+  CHECK(c.channel_selector_warning("1").empty());
   CHECK_THROWS_WITH_AS(c.channel_index("v_ot"),
-                       "unknown channel \"v_ot\" (did you mean \"v_out\"? channels: v_in, v_out)",
+                       "unknown channel \"v_ot\" in bench.csv (did you mean \"v_out\"? channels: v_in, v_out)",
                        UnknownNameError);
-  CHECK_THROWS_AS(c.channel_index("2"), UnknownNameError);
+  CHECK_THROWS_WITH_AS(c.channel_index("2"), "unknown channel \"2\" in bench.csv (channels: v_in, v_out)",
+                       UnknownNameError);
+  CHECK_THROWS_WITH_AS(c.channel_index("#2"), "unknown channel \"#2\" in bench.csv (channels: #0 v_in, #1 v_out)",
+                       UnknownNameError);
+  CHECK_THROWS_AS(c.channel_index("#"), UnknownNameError);
+  CHECK_THROWS_AS(c.channel_index("#-1"), UnknownNameError);
+}
+
+TEST_CASE("capture: channels named with digits: a name wins, #N is the position, and a collision warns") {
+  // A scope that names its columns 1 and 2 (issue 13): "1" is the channel named 1, at #0.
+  Capture c;
+  c.source = "scope.csv";
+  c.channels = {{"1", "V", {}}, {"2", "V", {}}};
+  CHECK(c.channel_index("1") == 0);
+  CHECK(c.channel_index("2") == 1);
+  CHECK(c.channel_index("#0") == 0);
+  CHECK(c.channel_index("#1") == 1);
+  CHECK(c.channel_index("0") == 0);  // names no channel: position 0
+  CHECK(c.channel_selector_warning("1") ==
+        "channel \"1\" in scope.csv is the channel named 1 (#0); for the channel at position 1 (\"2\") write #1");
+  CHECK(c.channel_selector_warning("2").empty());   // position 2 does not exist: no ambiguity
+  CHECK(c.channel_selector_warning("#1").empty());
+  CHECK(c.channel_selector_warning("0").empty());
 }
 
 TEST_CASE("number format: shortest text reads back to the same double") {
@@ -48,6 +75,44 @@ TEST_CASE("number format: shortest text reads back to the same double") {
     CHECK(std::strtod(s.c_str(), nullptr) == v);  // strtod: subnormals read back too
   }
   CHECK(io::format_shortest(0.1) == "0.1");
+}
+
+TEST_CASE("number format: value and u rounded as GUM 7.2.6, the GUM 7.2.2 example") {
+  // JCGM 100:2008 §7.2.2: m_s = 100.021 47 g with u_c = 0.35 mg (u in the value's unit here).
+  const io::ValueText t = io::format_value_u(100.02147, 0.00035);
+  CHECK(t.value == "100.02147");
+  CHECK(t.u == "0.00035");
+  CHECK(io::format_with_u(100.02147, 0.00035, "g") == "100.02147 g, u = 0.00035 g");
+  // §7.2.6: u to two significant digits, the value to the same decimal place.
+  CHECK(io::format_with_u(0.99608182, 2.8e-05) == "0.996082, u = 2.8e-05");  // u < 1e-4: e-notation
+  CHECK(io::format_with_u(1.00000113205, 3.3e-10) == "1.00000113205, u = 3.3e-10");
+  CHECK(io::format_with_u(1000.01234, 0.0153, "Hz") == "1000.012 Hz, u = 0.015 Hz");
+  // Rounding u can carry into a new digit: 0.0996 → 0.10, and the value follows to 0.01.
+  CHECK(io::format_with_u(2.34567, 0.0996) == "2.35, u = 0.10");
+  // u above 10: the value is rounded to tens, no invented decimals.
+  CHECK(io::format_with_u(12345.6, 347) == "12350, u = 350");
+  // Last digit beyond the thousands: e-notation, so no zero poses as a digit.
+  CHECK(io::format_with_u(12345678.9, 345678) == "1.235e+07, u = 3.5e+05");
+}
+
+TEST_CASE("number format: value and u edge cases (u = 0, u not finite, zero, u above the value, negative)") {
+  CHECK(io::format_with_u(1.23456789, 0, "V") == "1.23457 V, u = 0 V");   // exact: 6 significant digits
+  CHECK(io::format_with_u(1.23456789, std::nan(""), "V") == "1.23457 V, u = n/a");
+  CHECK(io::format_with_u(1.5, HUGE_VAL) == "1.5, u = inf");
+  CHECK(io::format_with_u(0.0, 0.035) == "0.000, u = 0.035");
+  CHECK(io::format_with_u(0.012, 0.35) == "0.01, u = 0.35");
+  CHECK(io::format_with_u(-0.001, 0.35) == "0.00, u = 0.35");     // rounds to zero: no "-0.00"
+  CHECK(io::format_with_u(-3, 120) == "0, u = 120");
+  CHECK(io::format_with_u(-100.02147, 0.00035) == "-100.02147, u = 0.00035");
+  CHECK(io::format_with_u(std::nan(""), 0.1) == "nan, u = 0.10");
+  // Outside 1e-9 … 1e6 for the last digit: e-notation for both.
+  CHECK(io::format_with_u(1.23456e-9, 3.4e-12) == "1.2346e-09, u = 3.4e-12");
+  CHECK(io::format_with_u(6.02214076e23, 1.2e17) == "6.0221408e+23, u = 1.2e+17");
+}
+
+TEST_CASE("number format: an expanded interval carries its level and coverage factor") {
+  CHECK(io::format_interval(0.9959, 1.0061, 0.0022, 0.95, 2.306) == "95 %: 0.9959 \xE2\x80\xA6 1.0061, k = 2.31");
+  CHECK(io::format_interval(-3.1, -2.9, 0.05, 0.95, 1.96, "dB") == "95 %: -3.100 \xE2\x80\xA6 -2.900 dB, k = 1.96");
 }
 
 TEST_CASE("output file: written atomically, no temporary left, missing folder is an IoError") {

@@ -28,9 +28,11 @@ std::string with_unit(const std::string& number, const std::string& unit) {
   return unit.empty() ? number : number + " " + unit;
 }
 
-std::string pm(double value, double u95, const std::string& unit) {
-  if (!std::isfinite(u95)) return with_unit(sig(value), unit);
-  return with_unit(sig(value) + " \xC2\xB1 " + io::format_significant(u95, 3), unit);
+// A value with its standard uncertainty, as the terminal prints it (issue 13: one convention,
+// u labelled, GUM 7.2.6 digits); the 95 % intervals are in the limit table and summary.
+std::string pm(double value, double u, const std::string& unit) {
+  if (!std::isfinite(u)) return with_unit(sig(value), unit);
+  return io::format_with_u(value, u, unit);
 }
 
 Quantity db_quantity(double mag, double lo, double hi) {
@@ -190,16 +192,16 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   rows.emplace_back("capture", capture.format + ", " + sig(capture.sample_rate_hz) + " Hz, " +
                                    std::to_string(capture.sample_count()) + " samples");
   rows.emplace_back("fundamental",
-                    pm(f0, kNormal95 * r.fundamental.f0_u_hz, "Hz") + " (" + r.fundamental.method + ")");
+                    pm(f0, r.fundamental.f0_u_hz, "Hz") + " (" + r.fundamental.method + ")");
   rows.emplace_back("FRF", std::to_string(r.frf.points.size()) + " excited harmonics, " +
                                std::to_string(r.frf.periods) + " periods, " + r.frf.method +
                                ", dof " + std::to_string(r.frf.dof));
   if (r.model) {
     const auto& fit = *r.model;
     rows.emplace_back("model", order_text + " (" + fit.order_decided_by + "), " + fit.method);
-    if (fit.dc_gain_defined) rows.emplace_back("dc gain", pm(fit.dc_gain, k * fit.dc_gain_u, ""));
+    if (fit.dc_gain_defined) rows.emplace_back("dc gain", pm(fit.dc_gain, fit.dc_gain_u, ""));
     if (fit.model.delay_s != 0 || fit.delay_u_s != 0)
-      rows.emplace_back("delay", pm(fit.delay_s, k * fit.delay_u_s, "s"));
+      rows.emplace_back("delay", pm(fit.delay_s, fit.delay_u_s, "s"));
     rows.emplace_back("cost", sig(fit.cost) + " for " + std::to_string(fit.dof) + " dof (expected " +
                                   sig(fit.cost_expected) + ", 95 % band " + sig(fit.chi2_lower) +
                                   " \xE2\x80\xA6 " + sig(fit.chi2_upper) + "): " +
@@ -250,19 +252,18 @@ FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config)
     const auto& c = report.channels[i];
     measure_channel(c, c.name, a.measurements);
     if (i == 0) measure_channel(c, "", a.measurements);  // limits without a channel: the first
-    const double k = ident::coverage_factor(0.95, c.noise_dof);
     a.result_rows.emplace_back(c.name + ": fundamental",
-                               pm(c.fundamental.f0_hz, kNormal95 * c.fundamental.f0_u_hz, "Hz") + " (" +
+                               pm(c.fundamental.f0_hz, c.fundamental.f0_u_hz, "Hz") + " (" +
                                    c.fundamental.method + "), " + sig(c.periods) + " periods");
-    a.result_rows.emplace_back(c.name + ": dc, rms", pm(c.dc, k * c.dc_u, c.unit) + ", " + with_unit(sig(c.rms), c.unit));
+    a.result_rows.emplace_back(c.name + ": dc, rms", pm(c.dc, c.dc_u, c.unit) + ", " + with_unit(sig(c.rms), c.unit));
     a.result_rows.emplace_back(c.name + ": distortion",
                                "THD " + sig(c.distortion.thd) + ", THD+N " + sig(c.distortion.thd_n) +
                                    ", SINAD " + sig(c.distortion.sinad_db) + " dB, SNR " +
                                    sig(c.distortion.snr_db) + " dB, ENOB " + sig(c.distortion.enob_bits));
     if (!c.harmonics.empty())
       a.result_rows.emplace_back(c.name + ": fundamental line",
-                                 pm(c.harmonics[0].amplitude, k * c.harmonics[0].amplitude_u, c.unit) + " at " +
-                                     pm(c.harmonics[0].phase_deg, k * c.harmonics[0].phase_u_deg, "\xC2\xB0"));
+                                 pm(c.harmonics[0].amplitude, c.harmonics[0].amplitude_u, c.unit) + " at " +
+                                     pm(c.harmonics[0].phase_deg, c.harmonics[0].phase_u_deg, "\xC2\xB0"));
     for (const auto& f : c.flags) {
       a.flags.push_back(c.name + ": " + f.code);
       a.messages.push_back(c.name + ": " + f.message);
@@ -339,7 +340,7 @@ std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const Ba
   };
   if (config.mode == AnalysisMode::identify) {
     const auto& o = config.identify;
-    rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + o.output_channel);
+    rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + (o.output_channel.empty() ? "#1" : o.output_channel));
     rows.emplace_back("model order", o.order.empty() ? "none" : o.order);
     rows.emplace_back("delay", o.estimate_delay ? "estimated" : "none");
     rows.emplace_back("min SNR", io::format_shortest(o.frf.min_snr_db) + " dB");

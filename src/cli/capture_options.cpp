@@ -1,7 +1,12 @@
 #include "cli/capture_options.hpp"
 
+#include <algorithm>
 #include <charconv>
 #include <cmath>
+
+#include "core/error.hpp"
+#include "io/number_format.hpp"
+#include "io/quantity.hpp"
 
 namespace periodfit::cli {
 
@@ -18,17 +23,54 @@ std::pair<std::string, std::string> split_assignment(std::string_view text, std:
   return {channel, value};
 }
 
+CLI::Option* add_frequency_option(CLI::App& app, const std::string& name, double& hz, const std::string& help) {
+  return app
+      .add_option_function<std::string>(
+          name,
+          [name, &hz](const std::string& text) {
+            const auto value = io::parse_frequency(text);
+            if (!value) throw Error(name + ": \"" + text + "\" is not a frequency (e.g. 48k, 1MHz)");
+            hz = *value;
+          },
+          help)
+      ->default_str(io::format_shortest(hz))
+      ->type_name("HZ");
+}
+
+CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double& seconds, const std::string& help) {
+  return app
+      .add_option_function<std::string>(
+          name,
+          [name, &seconds](const std::string& text) {
+            const auto value = io::parse_duration(text);
+            if (!value) throw Error(name + ": \"" + text + "\" is not a time (e.g. 12ns, 1.5ms)");
+            seconds = *value;
+          },
+          help)
+      ->default_str(io::format_shortest(seconds))
+      ->type_name("SECONDS");
+}
+
+std::vector<std::string> channel_selector_warnings(const Capture& capture, const std::vector<std::string>& selectors,
+                                                   const io::ReadOptions& read) {
+  std::vector<std::string> all = selectors;
+  for (const auto& s : read.scales) all.push_back(s.first);
+  for (const auto& u : read.units) all.push_back(u.first);
+  std::vector<std::string> warnings;
+  for (const auto& selector : all)
+    if (auto w = capture.channel_selector_warning(selector);
+        !w.empty() && std::find(warnings.begin(), warnings.end(), w) == warnings.end())
+      warnings.push_back(std::move(w));
+  return warnings;
+}
+
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on) {
   FundamentalOptions o;
   const std::string on = estimated_on.empty() ? "" : " on " + std::string(estimated_on);
-  o.f0 = app.add_option("--f0", f0_hz, "use exactly this fundamental in Hz (0 = estimate it" + on + ")")
-             ->capture_default_str()
-             ->type_name("HZ");
-  o.f0_hint = app.add_option("--f0-hint", f0_hint_hz,
-                             "search for the fundamental within ±20 % of this frequency in Hz (0 = anywhere)")
-                  ->capture_default_str()
-                  ->type_name("HZ");
+  o.f0 = add_frequency_option(app, "--f0", f0_hz, "use exactly this fundamental in Hz, e.g. 1k (0 = estimate it" + on + ")");
+  o.f0_hint = add_frequency_option(app, "--f0-hint", f0_hint_hz,
+                                   "search for the fundamental within 20 % either side of this frequency in Hz (0 = anywhere)");
   o.harmonics = app.add_option("--harmonics", max_harmonic,
                                "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
                     ->capture_default_str()
@@ -37,11 +79,9 @@ FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double&
 }
 
 void add_capture_options(CLI::App& app, io::ReadOptions& options) {
-  app.add_option("--rate", options.rate_hz,
-                 "sample rate in Hz; overrides the file's (time column, preamble, audio header); "
-                 "0 = from the file")
-      ->capture_default_str()
-      ->type_name("HZ");
+  add_frequency_option(app, "--rate", options.rate_hz,
+                       "sample rate in Hz, e.g. 1MHz or 48k; overrides the file's (time column, preamble, "
+                       "audio header); 0 = from the file");
   app.add_option_function<std::vector<std::string>>(
          "--scale",
          [&options](const std::vector<std::string>& items) {
@@ -56,7 +96,7 @@ void add_capture_options(CLI::App& app, io::ReadOptions& options) {
              options.scales.emplace_back(std::move(channel), factor);
            }
          },
-         "multiply channel CH (name or 0-based index) by FACTOR, e.g. volts per full scale or a "
+         "multiply channel CH (a name, or #N for the data channel at 0-based position N) by FACTOR, e.g. volts per full scale or a "
          "probe's attenuation; repeatable")
       ->type_name("CH=FACTOR")
       ->take_all()
@@ -66,7 +106,7 @@ void add_capture_options(CLI::App& app, io::ReadOptions& options) {
          [&options](const std::vector<std::string>& items) {
            for (const auto& item : items) options.units.push_back(split_assignment(item, "--unit"));
          },
-         "set the unit of channel CH (name or 0-based index), e.g. v_out=V; repeatable")
+         "set the unit of channel CH (a name, or #N for position N), e.g. v_out=V; repeatable")
       ->type_name("CH=UNIT")
       ->take_all()
       ->allow_extra_args(false);

@@ -9,6 +9,7 @@
 #include <string>
 #include <string_view>
 #include <utility>
+#include <vector>
 
 #include "io/capture_reader.hpp"
 
@@ -30,6 +31,18 @@ struct FundamentalOptions {
 /// it differs per command (e.g. "the input"); empty = the channel analysed.
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on = "");
+
+/// An option taking a frequency in Hz or a time in seconds, read with SI prefixes and units by
+/// io::parse_quantity (the CSV preamble's reader): `--rate 1MHz`, `--f0 1.2k`, `--skew 12ns`.
+/// A value that is not one throws periodfit::Error, printed as one line by main:
+/// `--rate: "1MQ" is not a frequency (e.g. 48k, 1MHz)`. The default shown is `target`'s.
+CLI::Option* add_frequency_option(CLI::App& app, const std::string& name, double& hz, const std::string& help);
+CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double& seconds, const std::string& help);
+
+/// The warnings (Capture::channel_selector_warning) for every selector given, the --scale
+/// and --unit ones of `read` included, in order; printed by the command after its outputs.
+std::vector<std::string> channel_selector_warnings(const Capture& capture, const std::vector<std::string>& selectors,
+                                                   const io::ReadOptions& read = {});
 
 /// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
 /// CLI::ValidationError naming `option` and what was wrong.

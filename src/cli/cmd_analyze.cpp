@@ -36,7 +36,7 @@ Runner add_analyze(CLI::App& app) {
   auto& lock = args->options.lock;
   app.add_option("FILE", args->file, "capture to analyse (CSV or audio)")->required()->type_name("FILE");
   app.add_option("--channel", args->channels,
-                 "channel to analyse, by name or 0-based index (repeatable; default: all)")
+                 "channel to analyse: a name, or #N for the data channel at 0-based position N (repeatable; default: all)")
       ->type_name("CH")
       ->allow_extra_args(false);
   add_fundamental_options(app, lock.f0_hz, lock.f0_hint_hz, lock.max_harmonic);
@@ -66,6 +66,8 @@ Runner add_analyze(CLI::App& app) {
       outputs.set("--plot", report::svg_document(report::analyze_spectra_figure(report)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
+    for (const auto& w : channel_selector_warnings(capture, args->channels, args->read))
+      std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
         std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n",

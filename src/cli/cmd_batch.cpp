@@ -120,13 +120,12 @@ Runner add_batch(CLI::App& app) {
                       ->default_str(batch::mode_name(defaults.mode))
                       ->type_name("MODE");
   a.channels = app.add_option("--channel", a.flags.analyze.channels,
-                              "analyze: channel to analyse, repeatable (default: all)")
+                              "analyze: channel to analyse, a name or #N (0-based position), repeatable (default: all)")
                    ->type_name("CH");
   a.input = app.add_option("--input", a.flags.identify.input_channel, "identify: DUT input channel")
                 ->capture_default_str()
                 ->type_name("CH");
-  a.output = app.add_option("--output", a.flags.identify.output_channel, "identify: DUT output channel")
-                 ->capture_default_str()
+  a.output = app.add_option("--output", a.flags.identify.output_channel, "identify: DUT output channel (default: #1)")
                  ->type_name("CH");
   a.order = app.add_option("--order", a.flags.identify.order, "identify: model order M/N or auto (default: no model)")
                 ->type_name("M/N");
@@ -135,9 +134,8 @@ Runner add_batch(CLI::App& app) {
                              "identify: input SNR for a harmonic to count as excited")
                   ->capture_default_str()
                   ->type_name("DB");
-  a.skew = app.add_option("--skew", a.flags.identify.frf.skew_s, "identify: output path delay to remove")
-               ->capture_default_str()
-               ->type_name("SECONDS");
+  a.skew = add_duration_option(app, "--skew", a.flags.identify.frf.skew_s,
+                               "identify: output path delay to remove in seconds, e.g. 12ns");
   const FundamentalOptions fundamental = add_fundamental_options(
       app, a.flags.analyze.f0_hz, a.flags.analyze.f0_hint_hz, a.flags.analyze.harmonics);
   a.f0 = fundamental.f0;

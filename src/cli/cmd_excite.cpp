@@ -5,6 +5,7 @@
 #include <memory>
 #include <string>
 
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
 #include "report/safe_text.hpp"
 #include "core/error.hpp"
@@ -65,16 +66,15 @@ Runner add_excite(CLI::App& app) {
       ->type_name("D");
   app.add_flag("--band-limited", o.band_limited,
                "waveforms: sum the Fourier series below half the sample rate instead of exact samples");
-  app.add_option("--f0", o.f0_hz, "fundamental in Hz")->capture_default_str()->type_name("HZ");
-  app.add_option("--rate", o.rate_hz, "sample rate in Hz")->capture_default_str()->type_name("HZ");
+  add_frequency_option(app, "--f0", o.f0_hz, "fundamental in Hz, e.g. 1k");
+  add_frequency_option(app, "--rate", o.rate_hz, "sample rate in Hz, e.g. 48k");
   app.add_option("--adjust", a->adjust,
                  "what gives way so a period holds a whole number of samples: f0 or rate")
       ->capture_default_str()
       ->check(CLI::IsMember({"f0", "rate"}))
       ->type_name("WHICH");
   app.add_option("--periods", o.periods, "whole periods in the file")->capture_default_str()->type_name("P");
-  app.add_option("--duration", o.duration_s, "at least this long, in whole periods (overrides --periods)")
-      ->type_name("S");
+  add_duration_option(app, "--duration", o.duration_s, "at least this long in seconds, e.g. 500ms, in whole periods (overrides --periods)");
   app.add_option("--amplitude", o.amplitude, "peak of the whole waveform (WAV: fraction of full scale, <= 1)")
       ->capture_default_str()
       ->type_name("A");

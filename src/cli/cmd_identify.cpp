@@ -70,11 +70,16 @@ int run(const IdentifyArgs& a) {
   io::OutputSet outputs({{"--json", a.json_path}, {"--save-model", a.model_path}, {"--plot", a.plot_path}},
                         {{"FILE", a.file}, {"--output-file", a.output_file}});
   ident::IdentifyResult r;
+  std::vector<std::string> warnings;
   if (a.output_file.empty()) {
-    r = ident::identify(io::read_capture(a.file, a.read), a.options);
+    const Capture capture = io::read_capture(a.file, a.read);
+    warnings = channel_selector_warnings(capture, {a.options.input_channel, a.options.output_channel}, a.read);
+    r = ident::identify(capture, a.options);
   } else {
     Capture input, output;
     read_pair(a, input, output);
+    warnings = channel_selector_warnings(input, {a.options.input_channel});
+    for (auto& w : channel_selector_warnings(output, {a.options.output_channel})) warnings.push_back(std::move(w));
     r = ident::identify(input, output, a.options);
   }
   if (outputs.requested("--json")) outputs.set("--json", io::json_text(ident::identify_json(r)));
@@ -87,6 +92,7 @@ int run(const IdentifyArgs& a) {
   }
   // Warnings follow a successful publication, so a failed one ends with its one error line.
   outputs.publish(outputs.stdout_free() ? ident::format_identify_report(r) : std::string());
+  for (const auto& w : warnings) warn(w);
   for (const auto& flag : r.flags) {
     if (flag == "nonlinear")
       warn("nonlinear: output lines at harmonics the input does not excite (" +
@@ -117,19 +123,19 @@ Runner add_identify(CLI::App& app) {
   app.add_option("FILE", a->file, "capture with the DUT input (and its output unless --output-file)")
       ->required()
       ->type_name("FILE");
-  app.add_option("--input", a->options.input_channel, "DUT input channel, by name or 0-based index")
+  app.add_option("--input", a->options.input_channel,
+                 "DUT input channel: a name, or #N for the data channel at 0-based position N")
       ->capture_default_str()
       ->type_name("CH");
-  app.add_option("--output", a->options.output_channel, "DUT output channel, by name or 0-based index")
-      ->capture_default_str()
+  app.add_option("--output", a->options.output_channel,
+                 "DUT output channel: a name or #N (default: #1; with --output-file, that file's only channel)")
       ->type_name("CH");
   app.add_option("--output-file", a->output_file,
                  "capture holding the output channel, recorded on the same time base (same rate and length)")
       ->type_name("FILE");
-  app.add_option("--skew", a->options.frf.skew_s,
-                 "extra delay of the output acquisition path in seconds, removed as a phase correction")
-      ->capture_default_str()
-      ->type_name("SECONDS");
+  add_duration_option(app, "--skew", a->options.frf.skew_s,
+                      "extra delay of the output acquisition path in seconds (e.g. 12ns), removed as a phase "
+                      "correction");
   add_fundamental_options(app, a->options.f0_hz, a->options.f0_hint_hz, a->options.max_harmonic, "the input");
   app.add_option("--min-snr", a->options.frf.min_snr_db,
                  "input power above the input noise floor, in dB, for a harmonic to count as excited")

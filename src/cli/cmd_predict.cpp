@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+#include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
 #include "report/safe_text.hpp"
 #include "core/error.hpp"
@@ -71,9 +72,7 @@ Runner add_predict(CLI::App& app) {
   app.add_option("--amplitude", a->wave.amplitude_v, "peak A of the waveform (pulse: its height)")
       ->capture_default_str()
       ->type_name("A");
-  app.add_option("--f0", a->wave.f0_hz, "fundamental in Hz (full-wave: the sine before rectification)")
-      ->capture_default_str()
-      ->type_name("HZ");
+  add_frequency_option(app, "--f0", a->wave.f0_hz, "fundamental in Hz, e.g. 1k (full-wave: the sine before rectification)");
   app.add_option("--duty", a->wave.duty, "square and pulse: fraction of the period high, in (0, 1)")
       ->capture_default_str()
       ->type_name("D");
@@ -84,7 +83,7 @@ Runner add_predict(CLI::App& app) {
                     ->take_all();
   auto* input = app.add_option("--input-file", a->input_file, "use a capture's analysed harmonics as the input")
                     ->type_name("FILE");
-  auto* channel = app.add_option("--channel", a->channel, "channel of --input-file (name or 0-based index)")
+  auto* channel = app.add_option("--channel", a->channel, "channel of --input-file: a name, or #N for the data channel at 0-based position N")
                       ->type_name("CH");
   input->needs(channel);
   channel->needs(input);
@@ -103,12 +102,10 @@ Runner add_predict(CLI::App& app) {
       ->type_name("F");
   app.add_option("--csv", a->csv_path, "write samples time_s,value[,value_u] to OUT ('-' = stdout)")->type_name("OUT");
   app.add_option("--periods", o.periods, "periods of samples in --csv")->capture_default_str()->type_name("P");
-  app.add_option("--rate", o.rate_hz, "sample rate of --csv in Hz; 0 = 1000 samples per period")
-      ->capture_default_str()
-      ->type_name("HZ");
+  add_frequency_option(app, "--rate", o.rate_hz, "sample rate of --csv in Hz, e.g. 48k; 0 = 1000 samples per period");
   app.add_option("--json", a->json_path, "write the prediction as JSON to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");
-  app.add_option("--list", a->list, "harmonics listed in the table and JSON; 0 = all")
+  app.add_option("--list", a->list, "harmonics listed in the text table; 0 = all (JSON and CSV always hold every one)")
       ->capture_default_str()
       ->type_name("N");
 
@@ -133,8 +130,10 @@ Runner add_predict(CLI::App& app) {
     }
 
     predict::PredictResult r;
+    std::vector<std::string> channel_warnings;
     if (!a->input_file.empty()) {
       const Capture capture = io::read_capture(a->input_file);
+      channel_warnings = channel_selector_warnings(capture, {a->channel});
       dsp::AnalyzeOptions ao;
       ao.lock.max_harmonic = a->options.truncation.harmonics;
       const dsp::ChannelAnalysis an =
@@ -157,9 +156,10 @@ Runner add_predict(CLI::App& app) {
       r = predict::predict_steady_state(a->wave, sys, a->options);
     }
     if (outputs.requested("--csv")) outputs.set("--csv", predict::format_predict_csv(r));
-    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r, a->list)));
+    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
+    for (const auto& w : channel_warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
     return to_int(ExitCode::ok);
   };

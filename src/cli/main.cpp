@@ -99,6 +99,11 @@ static int run_main(int argc, char** argv) {
     const std::vector<std::string> args(argv + (argc > 0 ? 1 : 0), argv + argc);
     print_error(periodfit::cli::usage_error_message(e, app, args));
     return to_int(ExitCode::error);
+  } catch (const periodfit::Error& e) {
+    // An option value the library's readers refused (a quantity like --rate 1MQ): its own
+    // message says what was expected.
+    print_error(e.what());
+    return to_int(ExitCode::error);
   }
   std::string command = "periodfit";
   try {

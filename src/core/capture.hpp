@@ -3,6 +3,7 @@
 /// (after calibration); time is uniform, t_k = t0_s + k / sample_rate_hz, where t = 0 is the
 /// file's time origin (the time column's zero, else the first sample, so t0_s = 0).
 #include <cstddef>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <utility>
@@ -42,10 +43,20 @@ struct Capture {
   double duration_s() const { return sample_rate_hz > 0 ? double(sample_count()) / sample_rate_hz : 0; }
   std::vector<std::string> channel_names() const;
 
-  /// Index of a channel selected by name (exact, then case-insensitive) or by its 0-based
-  /// position among the data channels ("0", "1", …). Throws UnknownNameError listing the
-  /// channels that exist.
+  /// Index of the data channel `selector` picks, by one rule (docs/capture-formats.md,
+  /// "Choosing a channel") that cannot take a name for an index or the reverse unnoticed:
+  ///   "#N"   the data channel at 0-based position N, always (a name never matches "#N");
+  ///   text   the channel so named, exactly, else case-insensitively;
+  ///   digits naming no channel: the 0-based position, as "#N" (kept for scripts).
+  /// Scope files that name their columns "1", "2" are why "#N" exists: there "1" is the
+  /// channel named 1 (position #0), and channel_selector_warning says so. Throws
+  /// UnknownNameError naming the file (`source`) and listing the channels that exist.
   std::size_t channel_index(std::string_view selector) const;
+  /// When plain digits name one channel and are the position of another, the warning that says
+  /// which was taken and how to write the other; "" otherwise.
+  std::string channel_selector_warning(std::string_view selector) const;
+  /// The channel named `name` (exactly, else case-insensitively), or nullopt.
+  std::optional<std::size_t> named_channel(std::string_view name) const;
   const Channel& channel(std::string_view selector) const { return channels[channel_index(selector)]; }
   Channel& channel(std::string_view selector) { return channels[channel_index(selector)]; }
 };

@@ -75,9 +75,10 @@ std::string nearest_name(std::string_view name, const std::vector<std::string>& 
 }
 
 UnknownNameError::UnknownNameError(std::string_view what, std::string_view name,
-                                   const std::vector<std::string>& known)
+                                   const std::vector<std::string>& known, std::string_view where)
     : Error([&] {
         std::string msg = "unknown " + std::string(what) + " \"" + std::string(name) + "\"";
+        if (!where.empty()) msg += " in " + std::string(where);
         std::string inside;
         if (const auto near = nearest_name(name, known); !near.empty())
           inside = "did you mean \"" + near + "\"? ";

@@ -66,8 +66,10 @@ class AnalysisError : public Error {
 /// nearest one: `unknown channel "v_ot" (did you mean "v_out"? channels: t, v_in, v_out)`.
 class UnknownNameError : public Error {
  public:
+  /// `where` (a file, when the name was looked up in one) follows the name: `unknown channel
+  /// "1" in out.csv (channels: CH2)`; empty = not said.
   UnknownNameError(std::string_view what, std::string_view name,
-                   const std::vector<std::string>& known);
+                   const std::vector<std::string>& known, std::string_view where = "");
 };
 
 /// The nearest of `known` to `name` by edit distance, or "" when none is close enough to

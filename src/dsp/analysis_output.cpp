@@ -154,14 +154,15 @@ std::string analyze_text(const AnalyzeReport& r) {
     const std::string u = c.unit.empty() ? "" : " " + c.unit;
     out += "\n" + c.name + (c.unit.empty() ? "" : " [" + c.unit + "]") + "\n";
     std::vector<std::pair<std::string, std::string>> kv;
-    std::string f0 = people(c.fundamental.f0_hz, 10) + " Hz";
-    if (c.fundamental.f0_u_hz > 0) f0 += " ± " + people(c.fundamental.f0_u_hz, 2) + " Hz";
+    // Standard uncertainties are labelled u and set the digits printed (GUM 7.2.6).
+    std::string f0 = c.fundamental.f0_u_hz > 0 ? io::format_with_u(c.fundamental.f0_hz, c.fundamental.f0_u_hz, "Hz")
+                                               : people(c.fundamental.f0_hz, 10) + " Hz";
     f0 += " (" + c.fundamental.method + ", " + std::to_string(c.fundamental.harmonics_fitted) + " harmonics)";
     kv.emplace_back("f0", f0);
     kv.emplace_back("periods", people(c.periods, 6) + " (" + std::to_string(c.whole_periods) +
                                    " locked, " + std::to_string(c.samples_per_period) +
                                    " samples per period)");
-    kv.emplace_back("dc", people(c.dc) + " ± " + people(c.dc_u, 2) + u);
+    kv.emplace_back("dc", io::format_with_u(c.dc, c.dc_u, c.unit));
     kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
     kv.emplace_back("THD", percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")");
     kv.emplace_back("THD+N", percent(c.distortion.thd_n) + ", SINAD " + db(c.distortion.sinad_db) +
@@ -176,12 +177,17 @@ std::string analyze_text(const AnalyzeReport& r) {
     for (const auto& f : c.flags) flags += (flags.empty() ? "" : ", ") + f.code;
     kv.emplace_back("flags", flags.empty() ? "none" : flags);
     out += report::render_key_values(kv, 2);
-    report::Table t({{"n"}, {"freq/Hz"}, {"amplitude" + (c.unit.empty() ? "" : "/" + c.unit)}, {"± u"},
-                     {"phase/deg"}, {"± u"}, {"", report::Table::Align::left}});
-    for (const auto& h : c.harmonics)
-      t.add_row({std::to_string(h.n), people(h.freq_hz, 8), people(h.amplitude, 6),
-                 people(h.amplitude_u, 2), io::format_fixed(h.phase_deg, 3),
-                 io::format_fixed(h.phase_u_deg, 3), h.significant ? "" : "(noise)"});
+    // Each u column is the standard uncertainty of the column to its left, in its unit; the
+    // last says whether the line stands out of the noise (JSON/CSV "significant").
+    const std::string per = c.unit.empty() ? "" : "/" + c.unit;
+    report::Table t({{"n"}, {"freq/Hz"}, {"amplitude" + per}, {"u" + per}, {"phase/deg"}, {"u/deg"},
+                     {"significant", report::Table::Align::left}});
+    for (const auto& h : c.harmonics) {
+      const io::ValueText amplitude = io::format_value_u(h.amplitude, h.amplitude_u);
+      const io::ValueText phase = io::format_value_u(h.phase_deg, h.phase_u_deg);
+      t.add_row({std::to_string(h.n), people(h.freq_hz, 8), amplitude.value, amplitude.u, phase.value, phase.u,
+                 h.significant ? "yes" : "no"});
+    }
     out += "\n" + t.render(2);
   }
   return out;

@@ -279,12 +279,29 @@ double parameter_value(const RationalFitResult& f, std::size_t i) {
   return f.delay_s;
 }
 
-std::string pm(double v, double u, int digits = 6) { return sig(v, digits) + " ± " + sig(u, 2); }
+/// A value with its standard uncertainty, labelled u, digits as GUM 7.2.6 (io::format_with_u).
+std::string with_u(double v, double u, std::string_view unit = "") { return io::format_with_u(v, u, unit); }
 
-/// A value with its standard uncertainty in the project's `u=` form.
+/// The value and u cells of a table row (GUM 7.2.6 digits); "-" for both when not finite.
+void add_value_u(std::vector<std::string>& row, double v, double u) {
+  if (!std::isfinite(v)) {
+    row.insert(row.end(), {"-", "-"});
+    return;
+  }
+  const io::ValueText t = io::format_value_u(v, u);
+  row.insert(row.end(), {t.value, t.u});
+}
+
+/// "[lo, hi]" rounded to the decimal place of u (the column header states level and k).
+std::string interval_cell(double lo, double hi, double u) {
+  return "[" + io::format_value_u(lo, u).value + ", " + io::format_value_u(hi, u).value + "]";
+}
+
+/// A value with its standard uncertainty, stated as everywhere else (io::format_with_u: GUM
+/// digits, "value unit, u = u unit"); "u undefined" where first-order theory gives none.
 std::string with_u(double v, double u, bool defined, const char* unit = "") {
-  const std::string sp = *unit ? std::string(" ") + unit : std::string();
-  return sig(v) + sp + " u=" + (defined && std::isfinite(u) ? sig(u, 2) + sp : std::string("undefined"));
+  if (defined && std::isfinite(u)) return io::format_with_u(v, u, unit);
+  return sig(v) + (*unit ? std::string(" ") + unit : std::string()) + ", u undefined";
 }
 
 constexpr double kRadToHz = 1 / (2 * std::numbers::pi);
@@ -315,7 +332,6 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
 
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
-  if (output_channel.empty()) throw OptionError("output_channel", "\"\"", "must name a channel");
   if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
     throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
   if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
@@ -333,7 +349,7 @@ void IdentifyOptions::validate() const {
 IdentifyResult identify(const Capture& capture, const IdentifyOptions& options) {
   options.validate();
   const std::size_t iu = capture.channel_index(options.input_channel);
-  const std::size_t iy = capture.channel_index(options.output_channel);
+  const std::size_t iy = capture.channel_index(options.output_channel.empty() ? "#1" : options.output_channel);
   if (iu == iy)
     throw AnalysisError(capture.source + ": input and output are the same channel \"" +
                         capture.channels[iu].name + "\"");
@@ -355,7 +371,10 @@ IdentifyResult identify(const Capture& input_capture, const Capture& output_capt
                         input_capture.source + ") vs " + std::to_string(output_capture.sample_count()) +
                         " samples (" + output_capture.source + ")");
   const Channel& u = input_capture.channel(options.input_channel);
-  const Channel& y = output_capture.channel(options.output_channel);
+  if (options.output_channel.empty() && output_capture.channels.size() != 1)
+    throw AnalysisError(output_capture.source + " has " + std::to_string(output_capture.channels.size()) +
+                        " data channels: choose the DUT output with --output (a name, or #N for position N)");
+  const Channel& y = output_capture.channel(options.output_channel.empty() ? "#0" : options.output_channel);
   return run({&input_capture, &u}, {&output_capture, &y}, options);
 }
 
@@ -402,6 +421,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["frf"] = frf;
   json lin;
   lin["status"] = r.linearity.status;
+  lin["reason"] = r.linearity.reason;
   lin["nonlinear"] = r.linearity.nonlinear;
   lin["method"] = r.linearity.method;
   lin["tested"] = r.linearity.tested;
@@ -492,31 +512,41 @@ std::string format_identify_report(const IdentifyResult& r) {
   std::vector<std::pair<std::string, std::string>> head{
       {"input", r.input_source + " \"" + r.input_channel + "\"" + (r.input_unit.empty() ? "" : " [" + r.input_unit + "]")},
       {"output", r.output_source + " \"" + r.output_channel + "\"" + (r.output_unit.empty() ? "" : " [" + r.output_unit + "]")},
-      {"f0", sig(r.fundamental.f0_hz, 9) + " Hz" +
-                 (r.fundamental.f0_u_hz > 0 ? " ± " + sig(r.fundamental.f0_u_hz, 2) + " Hz" : "") + " (" +
-                 r.fundamental.method + ")"},
+      {"f0", (r.fundamental.f0_u_hz > 0 ? with_u(r.fundamental.f0_hz, r.fundamental.f0_u_hz, "Hz")
+                                         : sig(r.fundamental.f0_hz, 9) + " Hz") +
+                 " (" + r.fundamental.method + ")"},
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
                    " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
       {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
-                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals k = " +
+                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
   if (r.skew_s != 0) head.push_back({"skew", io::format_shortest(r.skew_s) + " s (output lag removed)"});
   out += report::render_key_values(head);
   out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
+  // u(…) columns are standard uncertainties; the interval columns are the expanded intervals
+  // at the level and k of the "frf" line, their level in the header.
+  const std::string pct = io::format_fixed(100 * r.frf.confidence, 0) + " %";
   Table t({{"n"}, {"freq_Hz"}, {"|H|"}, {"u(|H|)"}, {"|H|_dB"}, {"phase_deg"}, {"u(phase)"},
-           {"|H| interval", Table::Align::left}, {"phase interval", Table::Align::left}, {"SNR_in_dB"}});
-  for (const auto& p : r.frf.points)
-    t.add_row({std::to_string(p.n), sig(p.freq_hz, 7), sig(p.mag), sig(p.mag_u, 2), io::format_fixed(p.mag_db, 3),
-               io::format_fixed(p.phase_deg, 3), sig(p.phase_u_deg, 2),
-               "[" + sig(p.mag_lo) + ", " + sig(p.mag_hi) + "]",
-               "[" + io::format_fixed(p.phase_lo_deg, 3) + ", " + io::format_fixed(p.phase_hi_deg, 3) + "]",
-               io::format_fixed(p.input_snr_db, 1)});
+           {"|H| " + pct + " interval", Table::Align::left}, {"phase " + pct + " interval", Table::Align::left},
+           {"SNR_in_dB"}});
+  for (const auto& p : r.frf.points) {
+    std::vector<std::string> row{std::to_string(p.n), sig(p.freq_hz, 7)};
+    add_value_u(row, p.mag, p.mag_u);
+    row.push_back(io::format_fixed(p.mag_db, 3));
+    add_value_u(row, p.phase_deg, p.phase_u_deg);
+    row.push_back(interval_cell(p.mag_lo, p.mag_hi, p.mag_u));
+    row.push_back(interval_cell(p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg));
+    row.push_back(io::format_fixed(p.input_snr_db, 1));
+    t.add_row(std::move(row));
+  }
   out += t.render(2);
 
   out += "\nlinearity: " + r.linearity.status;
   if (r.linearity.status != "untested")
     out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
            io::format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
+  else if (!r.linearity.reason.empty())
+    out += ": " + r.linearity.reason;
   out += "\n";
   const auto lines = [&](const char* parity, const std::vector<DistortionLine>& ls,
                          const std::optional<double>& level) {
@@ -535,12 +565,17 @@ std::string format_identify_report(const IdentifyResult& r) {
     Table pt({{"parameter", Table::Align::left}, {"value"}, {"u"}});
     for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
       const double value = parameter_value(f, i);
-      pt.add_row({f.parameter_names[i], sig(value, 8), i < f.parameter_u.size() ? sig(f.parameter_u[i], 2) : "-"});
+      std::vector<std::string> row{f.parameter_names[i]};
+      if (i < f.parameter_u.size())
+        add_value_u(row, value, f.parameter_u[i]);
+      else
+        row.insert(row.end(), {sig(value, 8), "-"});
+      pt.add_row(std::move(row));
     }
     out += pt.render(2);
     out += "  a" + std::to_string(f.model.den.size() - 1) + " = 1 (monic); s in rad/s\n";
-    out += "  dc gain   " + (f.dc_gain_defined ? pm(f.dc_gain, f.dc_gain_u, 7) : std::string("infinite (pole at 0)")) + "\n";
-    out += "  delay     " + (f.model.delay_estimated ? pm(f.delay_s, f.delay_u_s) + " s" : sig(f.delay_s) + " s (not estimated)") + "\n";
+    out += "  dc gain   " + (f.dc_gain_defined ? with_u(f.dc_gain, f.dc_gain_u, unit) : std::string("infinite (pole at 0)")) + "\n";
+    out += "  delay     " + (f.model.delay_estimated ? with_u(f.delay_s, f.delay_u_s, "s") : sig(f.delay_s) + " s (not estimated)") + "\n";
     const auto roots = [&](const char* title, const std::vector<Root>& rs) {
       if (rs.empty()) return;
       out += std::string("\n") + title + "\n" + format_roots_table(rs);

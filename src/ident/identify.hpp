@@ -47,8 +47,13 @@ namespace periodfit::ident {
 inline constexpr double kIllConditionedJacobian = 1e10;
 
 struct IdentifyOptions {
-  std::string input_channel = "0";   ///< DUT input: channel name or 0-based index
-  std::string output_channel = "1";  ///< DUT output: name or index (in the output capture when two)
+  /// DUT input: a channel selector (Capture::channel_index: a name, or "#N" for the data
+  /// channel at 0-based position N).
+  std::string input_channel = "#0";
+  /// DUT output, a selector as input_channel. "" = the default: "#1" in a single capture; with
+  /// two captures the output capture's only data channel (an error naming the file when it
+  /// has several).
+  std::string output_channel;
   double f0_hz = 0;                  ///< > 0: use exactly this fundamental; 0 = estimate on the input
   double f0_hint_hz = 0;             ///< > 0: search the fundamental near this value
   int max_harmonic = 0;              ///< highest harmonic examined; 0 = dsp::default_harmonic_count

@@ -30,6 +30,14 @@ LinearityResult check_linearity(const FrfResult& frf, const dsp::PeriodSpectra& 
   r.tested = int(tested.size());
   if (tested.empty() || r.dof < 1) {
     r.status = "untested";
+    if (frf.unexcited.empty())
+      r.reason = "the input excites every harmonic up to " + std::to_string(frf.max_harmonic) +
+                 ", so none is left free to show distortion; an input with unexcited harmonics (e.g. a "
+                 "multisine with gaps from periodfit excite) allows the test";
+    else if (r.dof < 1)
+      r.reason = "the output noise floor has no degrees of freedom to test against";
+    else
+      r.reason = "the output noise floor is zero at every unexcited harmonic, so no line can be tested against it";
     return r;
   }
   double excited_power = 0, max_excited = 0;

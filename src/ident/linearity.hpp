@@ -54,6 +54,7 @@ struct DistortionLine {
 
 struct LinearityResult {
   std::string status;        ///< "linear", "nonlinear", or "untested" (no harmonic left free)
+  std::string reason;        ///< why "untested", in words; "" otherwise
   bool nonlinear = false;
   std::string method = "F-test at unexcited harmonics (Bonferroni)";
   int tested = 0;            ///< unexcited harmonics examined (m)

@@ -161,6 +161,10 @@ Capture read_capture_unguarded(const std::string& path, const ReadOptions& optio
     csv.time_column = options.time_column;
     capture = p.regular ? read_csv(path, csv) : parse_csv(bytes, path, csv);
   }
+  // The InputError names the file first (path: unknown channel …), so the selector's own
+  // message is built without it.
+  std::string source;
+  std::swap(source, capture.source);
   try {
     apply_read_options(capture, options);
   } catch (const UnknownNameError& e) {
@@ -172,6 +176,7 @@ Capture read_capture_unguarded(const std::string& path, const ReadOptions& optio
     throw InputError(path, 0, 0,
                      "the sample rate works out to " + format_shortest(capture.sample_rate_hz) +
                          " Hz, which is not a positive finite number; give it with --rate HZ");
+  std::swap(source, capture.source);
   return capture;
 }
 

@@ -26,6 +26,7 @@
 #include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
+#include "io/quantity.hpp"
 
 namespace periodfit::io {
 
@@ -491,51 +492,48 @@ RateKey rate_key(std::string_view key) {
   return RateKey::none;
 }
 
-struct RateUnit {
-  const char* text;
-  double factor;
-  bool is_rate;
-};
-constexpr RateUnit kRateUnits[] = {
-    {"s", 1, false},       {"sec", 1, false},     {"ms", 1e-3, false},   {"us", 1e-6, false},
-    {"\xC2\xB5s", 1e-6, false},                    {"ns", 1e-9, false},   {"ps", 1e-12, false},
-    {"hz", 1, true},       {"khz", 1e3, true},    {"mhz", 1e6, true},    {"ghz", 1e9, true},
-    {"s/s", 1, true},      {"ks/s", 1e3, true},   {"ms/s", 1e6, true},   {"gs/s", 1e9, true},
-    {"sa/s", 1, true},     {"ksa/s", 1e3, true},  {"msa/s", 1e6, true},  {"gsa/s", 1e9, true},
-    {"sps", 1, true},      {"ksps", 1e3, true},   {"msps", 1e6, true},
-};
-
-// "1e-06", "1 us", "10kHz", "2 MSa/s": the rate, or nullopt when the value is not one.
-// Units are matched case-insensitively except that "MHz"/"mHz" style ambiguity is resolved
-// toward the common instrument reading (M = mega for rates, m = milli for intervals).
+// "1e-06", "1 us", "10kHz", "2 MSa/s": the rate, or nullopt when the value is not one. The
+// number and unit reader is io::parse_quantity (shared with the command line), with the
+// instrument case rule: "MHz"/"mhz" are mega for rates, "MS"/"ms" milli for intervals.
 std::optional<StatedRate> parse_stated_rate(RateKey key, std::string_view value, char decimal,
                                             std::size_t line, std::string_view name) {
   value = trim(value);
-  double number = 0;
-  NumberStatus status;
-  const char* end = value.data() + value.size();
-  const char* stop = scan_number(value.data(), end, decimal, number, status);
-  if (!stop || status != NumberStatus::ok) return std::nullopt;
-  const std::string unit = lower(trim(std::string_view(stop, static_cast<std::size_t>(end - stop))));
-  bool is_rate = key == RateKey::rate;
-  double factor = 1;
-  if (!unit.empty()) {
-    const RateUnit* found = nullptr;
-    for (const auto& u : kRateUnits)
-      if (unit == u.text) found = &u;
-    if (!found) return std::nullopt;
-    is_rate = found->is_rate;
-    factor = found->factor;
-  }
+  const auto quantity = parse_quantity(value, decimal, CaseRule::instrument);
+  if (!quantity) return std::nullopt;
+  const bool is_rate = quantity->dimension == Dimension::none ? key == RateKey::rate
+                                                              : quantity->dimension == Dimension::frequency;
+  const double number = quantity->value;
   if (!(number > 0))
     throw InputError(std::string(name), line, 0,
                      "a sample " + std::string(is_rate ? "rate" : "interval") +
                          " must be > 0, found " + quoted(value));
   StatedRate r;
-  r.rate_hz = is_rate ? number * factor : 1.0 / (number * factor);
+  r.rate_hz = is_rate ? number : 1.0 / number;
   r.line = line;
   r.text = std::string(value);
   return r;
+}
+
+// A preamble row of vertical units ("Vertical Units,V,V", "Units,s,V,V", "Unit,(V),(V)"):
+// the unit words, or none when the key is not a units key or a value is not a unit word.
+// Horizontal units ("Horizontal Units,s") are left alone: they belong to the time axis.
+std::vector<std::string> preamble_units(const std::pair<std::string, std::string>& entry) {
+  const std::string key = lower(trim(entry.first));
+  const bool units_key = key == "units" || key == "unit" ||
+                         (key.find("vertical") != std::string::npos && key.find("unit") != std::string::npos);
+  std::vector<std::string> units;
+  if (!units_key) return units;
+  std::string_view rest = entry.second;
+  while (!(rest = trim(rest)).empty()) {
+    const std::size_t stop = std::min(rest.find(' '), rest.size());
+    std::string_view word = rest.substr(0, stop);
+    rest.remove_prefix(stop);
+    if (word.size() >= 2 && ((word.front() == '(' && word.back() == ')') || (word.front() == '[' && word.back() == ']')))
+      word = word.substr(1, word.size() - 2);
+    if (!find_unit(word)) return {};
+    units.push_back(normal_unit(word));
+  }
+  return units;
 }
 
 // One preamble line → a metadata entry (key, value); free text gets the key "text".
@@ -715,6 +713,20 @@ class Parser {
     throw InputError(name_, line, column, message);
   }
   void choose_time_column(const std::vector<const Line*>& content, bool has_header);
+  /// One unit per data channel, or one per column (the time column's skipped); a unit from
+  /// the header or a units row stays.
+  void apply_preamble_units(const std::vector<std::string>& units) {
+    std::size_t channels = 0;
+    for (const auto& c : columns_)
+      if (c.channel >= 0) ++channels;
+    for (std::size_t j = 0; j < columns_.size(); ++j) {
+      if (columns_[j].channel < 0 || !columns_[j].unit.empty()) continue;
+      const std::size_t at = units.size() == columns_.size() ? j
+                             : units.size() == channels     ? static_cast<std::size_t>(columns_[j].channel)
+                                                            : units.size();
+      if (at < units.size()) columns_[j].unit = units[at];
+    }
+  }
   void parse_rows(std::size_t offset, std::size_t first_line);
   void slow_row(const Line& line);
   void add_time(double value, std::string_view text, std::size_t line_number, const char* line_begin);
@@ -924,6 +936,7 @@ Capture Parser::run() {
       if (const RateKey key = rate_key(entry.first); key != RateKey::none)
         stated = parse_stated_rate(key, entry.second, d.decimal, s.line.number, name_);
     }
+    if (auto units = preamble_units(entry); !units.empty()) apply_preamble_units(units);
     capture_.metadata.push_back(std::move(entry));
   }
 

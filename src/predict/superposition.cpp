@@ -644,7 +644,10 @@ dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
 
 std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   const auto g = [](double v) { return io::format_significant(v, 6); };
-  const auto with_u = [&](double v, double u) { return r.has_uncertainty ? g(v) + " ± " + g(u) : g(v); };
+  // A standard uncertainty is labelled u and sets the digits (GUM 7.2.6, io::format_with_u).
+  const auto with_u = [&](double v, double u, std::string_view unit = "") {
+    return r.has_uncertainty ? io::format_with_u(v, u, unit) : g(v) + (unit.empty() ? "" : " " + std::string(unit));
+  };
   std::vector<std::pair<std::string, std::string>> kv;
   kv.emplace_back("method", r.method);
   kv.emplace_back("status", r.status);
@@ -665,7 +668,7 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   kv.emplace_back("rms", with_u(r.rms, r.rms_u));
   kv.emplace_back("min / max", g(r.min) + " / " + g(r.max));
   kv.emplace_back("ripple (peak-to-peak)", with_u(r.ripple_pp, r.ripple_pp_u));
-  kv.emplace_back("THD", r.thd_defined ? with_u(100 * r.thd, 100 * r.thd_u) + " %" : "undefined (no fundamental)");
+  kv.emplace_back("THD", r.thd_defined ? with_u(100 * r.thd, 100 * r.thd_u, "%") : "undefined (no fundamental)");
   if (!r.flags.empty()) {
     std::string f;
     for (std::size_t i = 0; i < r.flags.size(); ++i) f += (i ? ", " : "") + r.flags[i];
@@ -685,10 +688,15 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
       list_harmonics == 0 ? r.harmonics_out.size() : std::min(list_harmonics, r.harmonics_out.size());
   for (std::size_t i = 0; i < listed; ++i) {
     const auto& h = r.harmonics_out[i];
-    std::vector<std::string> row{std::to_string(h.n), g(h.freq_hz), g(h.amplitude)};
-    if (r.has_uncertainty) row.push_back(g(h.amplitude_u));
-    row.push_back(io::format_fixed(h.phase_deg, 3));
-    if (r.has_uncertainty) row.push_back(io::format_fixed(h.phase_u_deg, 3));
+    std::vector<std::string> row{std::to_string(h.n), g(h.freq_hz)};
+    if (r.has_uncertainty) {
+      const io::ValueText amplitude = io::format_value_u(h.amplitude, h.amplitude_u);
+      const io::ValueText phase = io::format_value_u(h.phase_deg, h.phase_u_deg);
+      row.insert(row.end(), {amplitude.value, amplitude.u, phase.value, phase.u});
+    } else {
+      row.push_back(g(h.amplitude));
+      row.push_back(io::format_fixed(h.phase_deg, 3));
+    }
     row.push_back(g(std::abs(h.gain)));
     row.push_back(io::format_fixed(phase_deg(h.gain), 3));
     row.push_back(h.source);
@@ -696,7 +704,8 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   }
   out += "\n" + t.render();
   if (listed < r.harmonics_out.size())
-    out += "(" + std::to_string(r.harmonics_out.size() - listed) + " more harmonics not listed)\n";
+    out += "(" + std::to_string(r.harmonics_out.size() - listed) +
+           " more harmonics not listed here: --list 0 lists them, --json holds every one)\n";
   return out;
 }
 
@@ -717,7 +726,7 @@ std::string format_predict_csv(const PredictResult& r) {
   return out;
 }
 
-nlohmann::ordered_json predict_json(const PredictResult& r, std::size_t list_harmonics) {
+nlohmann::ordered_json predict_json(const PredictResult& r) {
   using nlohmann::ordered_json;
   const auto u = [&](double v) { return r.has_uncertainty ? io::json_number(v) : ordered_json(nullptr); };
   ordered_json j;
@@ -741,8 +750,8 @@ nlohmann::ordered_json predict_json(const PredictResult& r, std::size_t list_har
   j["ripple_pp_u"] = u(r.ripple_pp_u);
   j["thd"] = r.thd_defined ? ordered_json(r.thd) : ordered_json(nullptr);
   j["thd_u"] = r.thd_defined ? u(r.thd_u) : ordered_json(nullptr);
-  const std::size_t listed =
-      list_harmonics == 0 ? r.harmonics_out.size() : std::min(list_harmonics, r.harmonics_out.size());
+  // Machine output is complete: every harmonic computed (--list shortens only the text).
+  const std::size_t listed = r.harmonics_out.size();
   j["harmonics_listed"] = listed;
   ordered_json hs = ordered_json::array();
   for (std::size_t i = 0; i < listed; ++i) {

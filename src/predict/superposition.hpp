@@ -161,6 +161,6 @@ dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
                                               const std::vector<std::complex<double>>& phasors);
 
 /// The JSON document of docs/predict-json.md (keys in that order).
-nlohmann::ordered_json predict_json(const PredictResult& result, std::size_t list_harmonics = 0);
+nlohmann::ordered_json predict_json(const PredictResult& result);
 
 }  // namespace periodfit::predict
