@@ -31,6 +31,10 @@ struct FundamentalOptions {
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on = "");
 
+/// Parses a --full-scale value: a peak-to-peak range ("2") or "MIN:MAX" ("-1:1"); returns the
+/// full-scale range (> 0, finite). Throws CLI::ValidationError naming `option` otherwise.
+double parse_full_scale(std::string_view text, std::string_view option);
+
 /// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
 /// CLI::ValidationError naming `option` and what was wrong.
 std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option);
