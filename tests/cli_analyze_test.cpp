@@ -78,8 +78,9 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
   const std::vector<std::string> expected = {
       "name", "unit", "status", "f0_hz", "f0_u_hz", "f0_method", "periods", "whole_periods",
       "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r", "thd_n",
-      "sinad_db", "snr_db", "enob_bits", "noise_rms", "noise_floor", "noise_floor_dbc",
-      "noise_method", "noise_dof", "fit", "drift", "flags", "warnings", "harmonics"};
+      "sinad_db", "snr_db", "enob_bits", "full_scale_range", "enob_note", "nad_rms", "noise_rms",
+      "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof", "fit", "drift", "baseline",
+      "residual_lines", "flags", "warnings", "harmonics"};
   CHECK(keys == expected);
   CHECK(c["name"] == "v_out");
   CHECK(c["f0_hz"].get<double>() == doctest::Approx(50.3).epsilon(1e-6));
@@ -89,7 +90,8 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
   const auto& h3 = c["harmonics"][2];
   CHECK(h3["n"] == 3);
   CHECK(h3["amplitude"].get<double>() == doctest::Approx(0.05).epsilon(1e-3));
-  for (const char* k : {"n", "freq_hz", "amplitude", "amplitude_u", "phase_deg", "phase_u_deg"})
+  for (const char* k : {"n", "freq_hz", "amplitude", "amplitude_u", "phase_deg", "phase_u_deg", "amplitude_lo",
+                        "amplitude_hi", "phase_defined", "phase_note"})
     CHECK(h3.contains(k));
   // v_out = 0.5·cos(ωt − 0.7 rad): phase −40.107°.
   CHECK(c["harmonics"][0]["phase_deg"].get<double>() == doctest::Approx(-0.7 * 180 / pi).epsilon(1e-4));

@@ -281,6 +281,8 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
                        {"mag_hi", io::json_number(p.mag_hi)},
                        {"phase_lo_deg", io::json_number(p.phase_lo_deg)},
                        {"phase_hi_deg", io::json_number(p.phase_hi_deg)},
+                       {"phase_defined", p.phase_defined},
+                       {"phase_note", p.phase_defined ? json(nullptr) : json("undefined: |H| consistent with 0")},
                        {"var_re", io::json_number(p.var_re)},
                        {"var_im", io::json_number(p.var_im)},
                        {"cov_re_im", io::json_number(p.cov_re_im)},
@@ -396,7 +398,9 @@ std::string format_identify_report(const IdentifyResult& r) {
     t.add_row({std::to_string(p.n), sig(p.freq_hz, 7), sig(p.mag), sig(p.mag_u, 2), io::format_fixed(p.mag_db, 3),
                io::format_fixed(p.phase_deg, 3), sig(p.phase_u_deg, 2),
                "[" + sig(p.mag_lo) + ", " + sig(p.mag_hi) + "]",
-               "[" + io::format_fixed(p.phase_lo_deg, 3) + ", " + io::format_fixed(p.phase_hi_deg, 3) + "]",
+               p.phase_defined
+                   ? "[" + io::format_fixed(p.phase_lo_deg, 3) + ", " + io::format_fixed(p.phase_hi_deg, 3) + "]"
+                   : std::string("phase undefined (|H| consistent with 0)"),
                io::format_fixed(p.input_snr_db, 1)});
   out += t.render(2);
 
