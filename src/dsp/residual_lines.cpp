@@ -23,7 +23,7 @@ double hann_gain(double d) {
 
 }  // namespace
 
-ResidualLines find_residual_lines(std::span<const double> residual, double fs, double f0) {
+ResidualLines find_residual_lines(std::span<const double> residual, double fs, double f0, bool folded) {
   ResidualLines out;
   // A 7-smooth length within 1/8 of the record (FFTW is fastest there); the tail is dropped.
   std::size_t n = residual.size();
@@ -53,7 +53,8 @@ ResidualLines find_residual_lines(std::span<const double> residual, double fs, d
   // guards would cover kFoldedShare of the spectrum are excluded (folded orders land nearly
   // uniformly, so that is also the chance that a given interferer is hidden by one).
   const double guard_share = (2.0 * kHarmonicGuardBins + 1) / static_cast<double>(p.size());
-  const int max_order = static_cast<int>(std::clamp(kFoldedShare / guard_share, 0.5 * fs / f0, 20000.0));
+  const double in_band = std::floor(0.5 * fs / f0);
+  const int max_order = static_cast<int>(folded ? std::clamp(kFoldedShare / guard_share, in_band, 20000.0) : in_band);
   for (int order = 1; order <= max_order; ++order) {
     double f = std::fmod(order * f0, fs);
     if (f > 0.5 * fs) f = fs - f;

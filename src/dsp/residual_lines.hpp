@@ -11,8 +11,9 @@
 /// the chance of any false line in a noise-only record is ≈ kLineFalseAlarm (Bonferroni;
 /// the Hann window's correlated neighbours make it smaller). Excluded bins: below kLowBins
 /// record bins (baseline drift and 1/f noise, analyze's baseline-drift check covers them) and
-/// within ±kHarmonicGuardBins of every harmonic n·f0 below fs/2 and of every harmonic above
-/// fs/2 folded back into the band, up to the order at which those guards cover kFoldedShare of
+/// within ±kHarmonicGuardBins of every harmonic n·f0 below fs/2 and, when the record has
+/// significant harmonics in the top quarter of the band (analyze decides), of every harmonic
+/// above fs/2 folded back into the band, up to the order at which those guards cover kFoldedShare of
 /// the spectrum (harmonics, fitted, above the fitted count or aliased, and a quantiser's spurs
 /// are the signal's, not interference). The price: an interferer that happens to fall within
 /// the guard of a folded harmonic (chance ≈ kFoldedShare) is not seen.
@@ -46,6 +47,8 @@ struct ResidualLines {
   double power = 0;                 ///< Σ A²/2 over the lines
 };
 
-ResidualLines find_residual_lines(std::span<const double> residual, double fs_hz, double f0_hz);
+/// `folded`: also guard the harmonics folded back from above fs/2 (the caller passes true when
+/// the record shows harmonics near the top of the band, so aliased ones are to be expected).
+ResidualLines find_residual_lines(std::span<const double> residual, double fs_hz, double f0_hz, bool folded);
 
 }  // namespace periodfit::dsp
