@@ -26,6 +26,7 @@
 #include "io/capture_reader.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
+#include "support/test_paths.hpp"
 
 using namespace periodfit;
 using namespace periodfit::test;
@@ -143,6 +144,44 @@ TEST_CASE("signal honesty: a half-wave rectified sine at 0 V and square waves ar
   const auto b = dsp::analyze_channel(bl, kFs, 0);
   INFO(flag_list(b));
   CHECK_FALSE(b.has_flag("clipped"));
+}
+
+TEST_CASE("signal honesty: a square wave settling through an RC low-pass is not clipped; heavy and slow clipping is") {
+  // 200 Hz square (240 samples per period) through a one-pole RC with τ = 10 samples: the
+  // output settles exponentially onto ±1 V within ~70 samples and rests there for the rest of
+  // each half period (flat, but never cut: the approach decelerates short of the level), as
+  // testdata/demo/bench_capture.csv's v_out.
+  Channel rc = make_channel([](double t) { return std::fmod(t * 200 + 1e-9, 1.0) < 0.5 ? 1.0 : -1.0; }, 0, 0);
+  const double a = std::exp(-1.0 / 10);
+  double v = -1;  // settled: the record starts in steady state
+  std::mt19937_64 rng(12);
+  std::normal_distribution<double> g(0.0, 3e-4);
+  for (double& s : rc.samples) {
+    v = a * v + (1 - a) * s;
+    s = v + g(rng);
+  }
+  const auto r = dsp::analyze_channel(rc, kFs, 0);
+  INFO(flag_list(r));
+  CHECK_FALSE(r.has_flag("clipped"));
+  // The demo capture: a 997 Hz square into R = 1 kΩ, C = 47 nF at 100 kHz
+  // (testdata/make_testdata.py); v_out rests on its levels for ~70 % of each half period.
+  const Capture demo = io::read_capture(std::string(testdata_dir()) + "/demo/bench_capture.csv");
+  const auto d = dsp::analyze_channel(demo.channel("v_out"), demo.sample_rate_hz, demo.t0_s);
+  INFO(flag_list(d));
+  CHECK_FALSE(d.has_flag("clipped"));
+  // A 1 kHz sine overdriven 3.3× (clipped at ±0.3 V, noise everywhere): flat for 40 % of each
+  // half period, still cut (its slope enters the rail with curvature pointing past it).
+  const Channel heavy = make_channel(
+      [](double t) { return std::clamp(std::cos(2 * pi * 1000 * t + 0.3), -0.3, 0.3); }, 3e-4, 13);
+  const auto h = dsp::analyze_channel(heavy, kFs, 0);
+  INFO(flag_list(h));
+  CHECK(h.has_flag("clipped"));
+  // A 49.85 Hz sine (963 samples per period) clipped at ±0.9 V with 1 mV noise on every sample.
+  const Channel slow = make_channel(
+      [](double t) { return std::clamp(std::cos(2 * pi * 49.85 * t + 0.3), -0.9, 0.9); }, 1e-3, 14);
+  const auto w = dsp::analyze_channel(slow, kFs, 0);
+  INFO(flag_list(w));
+  CHECK(w.has_flag("clipped"));
 }
 
 // ---- item 6: intervals inside the physical domain -------------------------------------------

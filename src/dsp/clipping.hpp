@@ -22,9 +22,18 @@
 ///     - a two-level waveform: when under kMinTransitionShare of the samples lie between the
 ///       two extremes' bands (square, pulse train: flat levels by design joined by fast edges).
 ///       A clipped sine spends most of its period between its rails (71 % at ±0.9·A).
-/// Known false flags: a trapezoid or slew-limited square whose edges take over
-/// kMinTransitionShare of the period, and a waveform designed with a flat top over a long part
-/// of its period; both do have flat extremes. Measured figures: docs/methods.md.
+///  5. The waveform was cut: at each plateau edge a least-squares parabola through the samples
+///     approaching it (the kMinApproach…kMaxApproach samples it takes to rise kApproachBands
+///     bands) is extrapolated to its vertex; the median over the entries into the plateau and
+///     the median over the exits from it must both lie more than kMinExcessBands bands above
+///     the plateau — the waveform's own curvature would have carried it beyond the rail. A sine clipped at level c·A has its vertex A(1 − c²)/(2c)
+///     above the rail (0.105·A at c = 0.9); an exponential settling onto a level (a square
+///     wave through an RC low-pass) or a flat-topped smooth peak decelerates short of it
+///     (vertex below the plateau) — it leaves the level at a corner, the input's step, but
+///     enters it smoothly — and is not flagged. A corner with no curvature (a straight
+///     approach) counts as cut.
+/// Known false flags: a trapezoid or slew-limited square whose straight edges take over
+/// kMinTransitionShare of the period (a corner without curvature counts as cut). Measured figures: docs/methods.md.
 #include <cstddef>
 #include <span>
 
@@ -36,6 +45,10 @@ inline constexpr double kShareFactor = 3;             ///< share ≥ 3× a sine'
 inline constexpr double kMinShare = 0.005;            ///< and ≥ 0.5 % of the record
 inline constexpr std::size_t kMinRun = 3;             ///< consecutive samples on the plateau
 inline constexpr double kMinTransitionShare = 0.10;   ///< between the extremes' bands
+inline constexpr std::size_t kMinApproach = 4;        ///< samples in a plateau edge's parabola
+inline constexpr std::size_t kMaxApproach = 64;
+inline constexpr double kApproachBands = 4;           ///< the approach spans a rise of 4 bands
+inline constexpr double kMinExcessBands = 2;          ///< vertex above the plateau, in bands
 
 struct ClipCheck {
   bool clipped = false;
@@ -46,6 +59,7 @@ struct ClipCheck {
   double expected_share = 0; ///< a sine's share within the same band
   double band = 0;           ///< δ
   double rail_noise = 0;     ///< σ_r
+  double excess_bands = 0;   ///< median extrapolated vertex above the plateau, in bands
 };
 
 ClipCheck check_clipping(std::span<const double> x);
