@@ -89,8 +89,12 @@ TEST_CASE("cli analyze: text states each uncertainty as u with GUM digits; every
   for (const auto& h : c["harmonics"]) {
     const auto a = periodfit::io::format_value_u(h["amplitude"].get<double>(), h["amplitude_u"].get<double>());
     const auto p = periodfit::io::format_value_u(h["phase_deg"].get<double>(), h["phase_u_deg"].get<double>());
+    // A line whose amplitude is consistent with 0 has no phase (docs/analyze-json.md).
+    const bool phase = h["phase_defined"].get<bool>();
     t.add_row({std::to_string(h["n"].get<int>()), periodfit::io::format_significant(h["freq_hz"].get<double>(), 8),
-               a.value, a.u, p.value, p.u, h["significant"].get<bool>() ? "yes" : "no"});
+               a.value, a.u, phase ? p.value : "undefined", phase ? p.u : "-",
+               std::string(h["significant"].get<bool>() ? "yes" : "no") +
+                   (phase ? "" : " (amplitude consistent with 0: phase undefined)")});
   }
   const std::string table = t.render(2);
   REQUIRE(text.out.size() >= table.size());
@@ -116,8 +120,9 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
   const std::vector<std::string> expected = {
       "name", "unit", "status", "f0_hz", "f0_u_hz", "f0_method", "periods", "whole_periods",
       "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r", "thd_n",
-      "sinad_db", "snr_db", "enob_bits", "noise_rms", "noise_floor", "noise_floor_dbc",
-      "noise_method", "noise_dof", "fit", "drift", "flags", "warnings", "harmonics"};
+      "sinad_db", "snr_db", "enob_bits", "full_scale_range", "enob_note", "nad_rms", "noise_rms",
+      "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof", "fit", "drift", "baseline",
+      "residual_lines", "flags", "warnings", "harmonics"};
   CHECK(keys == expected);
   CHECK(c["name"] == "v_out");
   CHECK(c["f0_hz"].get<double>() == doctest::Approx(50.3).epsilon(1e-6));
@@ -127,7 +132,8 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
   const auto& h3 = c["harmonics"][2];
   CHECK(h3["n"] == 3);
   CHECK(h3["amplitude"].get<double>() == doctest::Approx(0.05).epsilon(1e-3));
-  for (const char* k : {"n", "freq_hz", "amplitude", "amplitude_u", "phase_deg", "phase_u_deg"})
+  for (const char* k : {"n", "freq_hz", "amplitude", "amplitude_u", "phase_deg", "phase_u_deg", "amplitude_lo",
+                        "amplitude_hi", "phase_defined", "phase_note"})
     CHECK(h3.contains(k));
   // v_out = 0.5·cos(ωt − 0.7 rad): phase −40.107°.
   CHECK(c["harmonics"][0]["phase_deg"].get<double>() == doctest::Approx(-0.7 * 180 / pi).epsilon(1e-4));

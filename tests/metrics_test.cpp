@@ -26,7 +26,11 @@ TEST_CASE("metrics: definitions on hand-made amplitudes") {
   CHECK(d.thd_n == doctest::Approx(thdn).epsilon(1e-14));
   CHECK(d.sinad_db == doctest::Approx(-20 * std::log10(thdn)).epsilon(1e-14));
   CHECK(d.snr_db == doctest::Approx(10 * std::log10(0.5 / 1e-6)).epsilon(1e-14));
-  CHECK(d.enob_bits == doctest::Approx((d.sinad_db - 1.76) / 6.02).epsilon(1e-14));
+  // Without a full-scale range ENOB is not defined (IEEE Std 1241-2010 §9.3 needs FSR).
+  CHECK(std::isnan(d.enob_bits));
+  // With FSR = 2: ENOB = log2(FSR/(√12·NAD)), NAD = √(0.0025/2 + 1e-6) (IEEE 1241 §9.3).
+  const auto f = dsp::distortion_figures(amps, pr, pn, 2.0);
+  CHECK(f.enob_bits == doctest::Approx(std::log2(2.0 / (std::sqrt(12.0) * std::sqrt(0.0025 / 2 + 1e-6)))).epsilon(1e-14));
   // A zero fundamental makes the ratios undefined, not a number.
   const auto z = dsp::distortion_figures(std::vector<double>{0.0, 0.0, 0.1}, pr, pn);
   CHECK(std::isinf(z.thd));
@@ -53,7 +57,9 @@ TEST_CASE("metrics: ideal N-bit quantizer has SINAD 6.02N + 1.76 dB and ENOB N (
       // mid-rise quantizer: codes −2^(N−1)…2^(N−1)−1, output at the step's centre
       c.samples[k] = q * (std::floor(x / q) + 0.5);
     }
-    const auto a = dsp::analyze_channel(c, fs, 0);
+    dsp::AnalyzeOptions opt;
+    opt.full_scale_range = 2.0;  // the quantizer's range: codes span −1…1
+    const auto a = dsp::analyze_channel(c, fs, 0, opt);
     const double expected = 6.02 * bits + 1.76;
     INFO("bits " << bits);
     CHECK(std::abs(a.distortion.sinad_db - expected) < kSinadTolDb);

@@ -236,7 +236,8 @@ void measure_channel(const dsp::ChannelAnalysis& c, const std::string& channel, 
   put("enob_bits", Quantity{c.distortion.enob_bits});
   put("crest_factor", Quantity{c.crest_factor});
   for (const auto& h : c.harmonics) {
-    put("amplitude", Quantity::from_u(h.amplitude, h.amplitude_u, k), h.n);
+    // Amplitude: its u with the Rice interval (≥ 0, docs/methods.md) as the 95 % bounds.
+    put("amplitude", Quantity{h.amplitude, h.amplitude_lo, h.amplitude_hi, h.amplitude_u, k}, h.n);
     put("phase_deg", Quantity::from_u(h.phase_deg, h.phase_u_deg, k), h.n);
   }
 }
@@ -259,7 +260,9 @@ FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config)
     a.result_rows.emplace_back(c.name + ": distortion",
                                "THD " + sig(c.distortion.thd) + ", THD+N " + sig(c.distortion.thd_n) +
                                    ", SINAD " + sig(c.distortion.sinad_db) + " dB, SNR " +
-                                   sig(c.distortion.snr_db) + " dB, ENOB " + sig(c.distortion.enob_bits));
+                                   sig(c.distortion.snr_db) + " dB, ENOB " +
+                                   (std::isfinite(c.distortion.enob_bits) ? sig(c.distortion.enob_bits)
+                                                                          : "not reported (" + c.enob_note + ")"));
     if (!c.harmonics.empty())
       a.result_rows.emplace_back(c.name + ": fundamental line",
                                  pm(c.harmonics[0].amplitude, c.harmonics[0].amplitude_u, c.unit) + " at " +

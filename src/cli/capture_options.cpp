@@ -64,6 +64,24 @@ std::vector<std::string> channel_selector_warnings(const Capture& capture, const
   return warnings;
 }
 
+double parse_full_scale(std::string_view text, std::string_view option) {
+  const auto number = [&](std::string_view part, double& out) {
+    const char* end = part.data() + part.size();
+    const auto [ptr, ec] = std::from_chars(part.data(), end, out);
+    return ec == std::errc{} && ptr == end && !part.empty() && std::isfinite(out);
+  };
+  const std::size_t colon = text.find(':');
+  double lo = 0, hi = 0;
+  if (colon == std::string_view::npos) {
+    if (number(text, hi) && hi > 0) return hi;
+  } else if (number(text.substr(0, colon), lo) && number(text.substr(colon + 1), hi) && hi > lo &&
+             std::isfinite(hi - lo)) {
+    return hi - lo;
+  }
+  throw CLI::ValidationError(std::string(option), "expected a peak-to-peak range > 0 (e.g. 2) or MIN:MAX with "
+                                                  "MIN < MAX (e.g. -1:1), found \"" + std::string(text) + "\"");
+}
+
 FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
                                            std::string_view estimated_on) {
   FundamentalOptions o;

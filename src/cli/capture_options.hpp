@@ -44,6 +44,10 @@ CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double&
 std::vector<std::string> channel_selector_warnings(const Capture& capture, const std::vector<std::string>& selectors,
                                                    const io::ReadOptions& read = {});
 
+/// Parses a --full-scale value: a peak-to-peak range ("2") or "MIN:MAX" ("-1:1"); returns the
+/// full-scale range (> 0, finite). Throws CLI::ValidationError naming `option` otherwise.
+double parse_full_scale(std::string_view text, std::string_view option);
+
 /// Splits "CH=VALUE" at its last '=': both sides must be non-empty. Throws
 /// CLI::ValidationError naming `option` and what was wrong.
 std::pair<std::string, std::string> split_assignment(std::string_view text, std::string_view option);

@@ -44,6 +44,12 @@ Runner add_analyze(CLI::App& app) {
                  "samples per period of the locked grid (0 = automatic)")
       ->capture_default_str()
       ->type_name("M");
+  app.add_option_function<std::string>(
+         "--full-scale",
+         [args](const std::string& text) { args->options.full_scale_range = parse_full_scale(text, "--full-scale"); },
+         "the digitiser's full-scale range in the channel's unit, for ENOB (IEEE Std 1241): peak-to-peak "
+         "(2) or MIN:MAX (-1:1); default: ±1 FS for audio files, none (ENOB not reported) for CSV")
+      ->type_name("RANGE");
   app.add_option("--json", args->json_path,
                  "also write the results as JSON to PATH ('-' = stdout, instead of the text)")
       ->type_name("PATH");

@@ -20,11 +20,20 @@ const std::vector<FlagInfo> kFlags = {
     {"dc-only", FlagSeverity::invalidates, "analyze",
      "no harmonic stands out of the noise: f0 and the harmonic figures (THD, SINAD, amplitudes, "
      "phases) are noise"},
+    {"not-periodic", FlagSeverity::invalidates, "analyze",
+     "the harmonics of the f0 found explain little of the signal's line power (two tones, "
+     "modulation): f0 and the harmonic figures do not describe one periodic signal"},
     {"model-not-converged", FlagSeverity::invalidates, "identify",
      "the model fit stopped without converging: its parameters are not the least-squares estimate"},
     {"few-periods", FlagSeverity::caution, "analyze, identify",
      "few periods in the record (analyze: < 2; identify: < 4 whole periods, noise from the bins "
      "between harmonics): the figures rest on little data"},
+    {"baseline-drift", FlagSeverity::caution, "analyze",
+     "a slow trend under the signal was fitted (Legendre, degree ≤ 2) and kept out of the noise "
+     "figures: dc is the record's mean and the trend's size is reported"},
+    {"interference", FlagSeverity::caution, "analyze",
+     "a line beside the harmonics (hum, another source) carries part of the residual: it counts "
+     "as noise in THD+N, SINAD and SNR"},
     {"drift", FlagSeverity::caution, "analyze",
      "f0 differs between the halves of the record: the figures are averages over the record"},
     {"nonlinear", FlagSeverity::caution, "identify",

@@ -78,7 +78,12 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   j["thd_n"] = io::json_number(c.distortion.thd_n);
   j["sinad_db"] = io::json_number(c.distortion.sinad_db);
   j["snr_db"] = io::json_number(c.distortion.snr_db);
-  j["enob_bits"] = io::json_number(c.distortion.enob_bits);
+  j["enob_bits"] = std::isfinite(c.distortion.enob_bits) ? io::json_number(c.distortion.enob_bits)
+                                                           : nlohmann::ordered_json(nullptr);
+  j["full_scale_range"] = c.full_scale_range > 0 ? io::json_number(c.full_scale_range)
+                                                 : nlohmann::ordered_json(nullptr);
+  j["enob_note"] = c.enob_note;
+  j["nad_rms"] = io::json_number(c.distortion.nad_rms);
   j["noise_rms"] = io::json_number(c.noise_rms);
   j["noise_floor"] = io::json_number(c.noise_floor);
   j["noise_floor_dbc"] = io::json_number(c.noise_floor_dbc);
@@ -99,6 +104,35 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   drift["f0_second_half_hz"] = checked ? io::json_number(c.f0_second_half_hz) : nullptr;
   drift["sigmas"] = checked ? io::json_number(c.drift_sigmas) : nullptr;
   j["drift"] = drift;
+  nlohmann::ordered_json baseline;
+  baseline["method"] = "legendre-2";
+  baseline["significant"] = c.baseline.significant;
+  baseline["modelled"] = c.baseline_modelled;
+  baseline["peak_to_peak"] = io::json_number(c.baseline.peak_to_peak);
+  const double a1 = c.harmonics.empty() ? 0 : c.harmonics.front().amplitude;
+  baseline["peak_to_peak_dbc"] = a1 > 0 && c.baseline.peak_to_peak > 0
+                                     ? io::json_number(20 * std::log10(c.baseline.peak_to_peak / a1))
+                                     : nlohmann::ordered_json(nullptr);
+  baseline["c1"] = io::json_number(c.baseline.c1);
+  baseline["c2"] = io::json_number(c.baseline.c2);
+  baseline["z1"] = io::json_number(c.baseline.z1);
+  baseline["z2"] = io::json_number(c.baseline.z2);
+  j["baseline"] = baseline;
+  nlohmann::ordered_json lines;
+  lines["threshold_db"] = io::json_number(c.residual_lines.threshold_db);
+  lines["bins_examined"] = c.residual_lines.bins_examined;
+  lines["explained_share"] = io::json_number(c.explained_share);
+  nlohmann::ordered_json list = nlohmann::ordered_json::array();
+  for (const auto& l : c.residual_lines.lines) {
+    nlohmann::ordered_json row;
+    row["freq_hz"] = io::json_number(l.freq_hz);
+    row["amplitude"] = io::json_number(l.amplitude);
+    row["level_dbc"] = a1 > 0 ? io::json_number(20 * std::log10(l.amplitude / a1)) : nlohmann::ordered_json(nullptr);
+    row["over_floor_db"] = io::json_number(l.over_floor_db);
+    list.push_back(row);
+  }
+  lines["lines"] = list;
+  j["residual_lines"] = lines;
   nlohmann::ordered_json flags = nlohmann::ordered_json::array();
   nlohmann::ordered_json warnings = nlohmann::ordered_json::array();
   for (const auto& f : c.flags) {
@@ -117,6 +151,11 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
     row["phase_deg"] = io::json_number(h.phase_deg);
     row["phase_u_deg"] = io::json_number(h.phase_u_deg);
     row["significant"] = h.significant;
+    row["amplitude_lo"] = io::json_number(h.amplitude_lo);
+    row["amplitude_hi"] = io::json_number(h.amplitude_hi);
+    row["phase_defined"] = h.phase_defined;
+    row["phase_note"] = h.phase_defined ? nlohmann::ordered_json(nullptr)
+                                        : nlohmann::ordered_json("undefined: amplitude consistent with 0 at 95 %");
     harmonics.push_back(row);
   }
   j["harmonics"] = harmonics;
@@ -166,10 +205,14 @@ std::string analyze_text(const AnalyzeReport& r) {
     kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
     kv.emplace_back("THD", percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")");
     kv.emplace_back("THD+N", percent(c.distortion.thd_n) + ", SINAD " + db(c.distortion.sinad_db) +
-                                 ", SNR " + db(c.distortion.snr_db) + ", ENOB " +
-                                 (std::isfinite(c.distortion.enob_bits)
-                                      ? io::format_fixed(c.distortion.enob_bits, 2) + " bits"
-                                      : std::string("undefined")));
+                                 ", SNR " + db(c.distortion.snr_db));
+    kv.emplace_back("ENOB", std::isfinite(c.distortion.enob_bits)
+                                ? io::format_fixed(c.distortion.enob_bits, 2) + " bits (full scale " +
+                                      people(c.full_scale_range, 6) + u + " peak-to-peak, " + c.enob_note + ")"
+                                : "not reported: " + c.enob_note);
+    if (c.baseline.significant)
+      kv.emplace_back("baseline", "drifts " + people(c.baseline.peak_to_peak, 3) + u + " peak-to-peak" +
+                                      (c.baseline_modelled ? " (fitted, not counted as noise)" : " (counted as noise)"));
     kv.emplace_back("noise floor", people(c.noise_floor, 3) + u + " per line (" +
                                        io::format_fixed(c.noise_floor_dbc, 1) + " dBc)");
     kv.emplace_back("uncertainty", c.noise_method + ", " + std::to_string(c.noise_dof) + " dof");
@@ -178,15 +221,18 @@ std::string analyze_text(const AnalyzeReport& r) {
     kv.emplace_back("flags", flags.empty() ? "none" : flags);
     out += report::render_key_values(kv, 2);
     // Each u column is the standard uncertainty of the column to its left, in its unit; the
-    // last says whether the line stands out of the noise (JSON/CSV "significant").
+    // last says whether the line stands out of the noise (JSON/CSV "significant") and when its
+    // phase is undefined because the amplitude is consistent with 0.
     const std::string per = c.unit.empty() ? "" : "/" + c.unit;
     report::Table t({{"n"}, {"freq/Hz"}, {"amplitude" + per}, {"u" + per}, {"phase/deg"}, {"u/deg"},
                      {"significant", report::Table::Align::left}});
     for (const auto& h : c.harmonics) {
       const io::ValueText amplitude = io::format_value_u(h.amplitude, h.amplitude_u);
       const io::ValueText phase = io::format_value_u(h.phase_deg, h.phase_u_deg);
-      t.add_row({std::to_string(h.n), people(h.freq_hz, 8), amplitude.value, amplitude.u, phase.value, phase.u,
-                 h.significant ? "yes" : "no"});
+      t.add_row({std::to_string(h.n), people(h.freq_hz, 8), amplitude.value, amplitude.u,
+                 h.phase_defined ? phase.value : "undefined", h.phase_defined ? phase.u : "-",
+                 std::string(h.significant ? "yes" : "no") +
+                     (h.phase_defined ? "" : " (amplitude consistent with 0: phase undefined)")});
     }
     out += "\n" + t.render(2);
   }

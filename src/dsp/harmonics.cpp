@@ -7,7 +7,11 @@
 #include <numbers>
 #include <string>
 
+#include <boost/math/distributions/students_t.hpp>
+
 #include "core/error.hpp"
+#include "dsp/clipping.hpp"
+#include "dsp/magnitude_interval.hpp"
 #include "io/number_format.hpp"
 
 namespace periodfit::dsp {
@@ -24,6 +28,23 @@ constexpr double kAliasLevel = 1e-3;
 /// nearly all the information on f0, and three keep the check cheap on long records.
 constexpr int kDriftHarmonics = 3;
 
+/// Unexplained residual lines carrying this share of the line power (harmonics + residual
+/// lines) make the record "not-periodic" rather than a periodic signal with interference: a
+/// second tone or modulation sidebands 10 dB below the rest (common practice threshold).
+constexpr double kNotPeriodicShare = 0.1;
+/// A residual line is reported as "interference" when it carries at least this share of the
+/// residual power (it then moves SNR and SINAD by ≥ 0.04 dB); weaker lines (a quantiser's
+/// spurs, a hum far below the noise) are listed in the JSON only.
+constexpr double kInterferenceShare = 0.01;
+/// Residual lines below this fraction of the fundamental are rounding, not interference.
+constexpr double kLineRoundingFloor = 1e-9;
+
+/// Two-sided 95 % coverage factor for `dof` degrees of freedom (Student t; normal when 0 or large).
+double coverage_95(int dof) {
+  if (dof <= 0 || dof > 1000) return 1.959963984540054;
+  return boost::math::quantile(boost::math::students_t_distribution<double>(dof), 0.975);
+}
+
 std::string sig(double v, int digits = 4) { return io::format_significant(v, digits); }
 
 double wrap_deg(double d) {
@@ -31,47 +52,6 @@ double wrap_deg(double d) {
   if (d > 180) d -= 360;
   if (d <= -180) d += 360;
   return d;
-}
-
-struct ClipCheck {
-  bool clipped = false;
-  std::size_t count = 0;
-  bool at_max = true;
-};
-
-/// Flat runs at the extremes: ≥ 3 consecutive samples exactly at the max (or min), and more
-/// samples there than a sine quantised at the data's own resolution would spend within one
-/// step of its peak (fraction √(2q/A)/π; common practice, derived from the arcsine law).
-ClipCheck check_clipping(std::span<const double> x) {
-  ClipCheck out;
-  const auto [mn_it, mx_it] = std::minmax_element(x.begin(), x.end());
-  const double mn = *mn_it, mx = *mx_it;
-  const double half_range = 0.5 * (mx - mn);
-  if (!(half_range > 0)) return out;
-  for (bool top : {true, false}) {
-    const double level = top ? mx : mn;
-    std::size_t count = 0, run = 0, longest = 0;
-    double next = top ? mn : mx;  // nearest other value: the data's resolution at the extreme
-    for (double v : x) {
-      if (v == level) {
-        ++count;
-        longest = std::max(longest, ++run);
-      } else {
-        run = 0;
-        next = top ? std::max(next, v) : std::min(next, v);
-      }
-    }
-    const double q = std::abs(level - next);
-    const double expected = std::sqrt(2 * q / half_range) / kPi;
-    const double fraction = static_cast<double>(count) / static_cast<double>(x.size());
-    if (longest >= 3 && fraction > 3 * expected) {
-      out.clipped = true;
-      out.count = count;
-      out.at_max = top;
-      return out;
-    }
-  }
-  return out;
 }
 
 }  // namespace
@@ -93,8 +73,9 @@ void validate(const AnalyzeOptions& o) {
 
 namespace {
 
+/// `exponent`: the samples are the channel's × 2^-exponent (the full scale follows them).
 ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0,
-                                    const AnalyzeOptions& options);
+                                    const AnalyzeOptions& options, int exponent);
 
 /// Multiplies every result in the channel's unit by 2^exponent (exact; ldexp, since 2^exponent
 /// itself may not be representable for a peak near the ends of the double range).
@@ -112,6 +93,20 @@ void scale_results(ChannelAnalysis& a, int exponent) {
   }
   up(a.noise_rms);
   up(a.noise_floor);
+  up(a.full_scale_range);
+  for (auto& line : a.harmonics) {
+    up(line.amplitude_lo);
+    up(line.amplitude_hi);
+  }
+  // Powers (squares) scale by 2^(2·exponent).
+  const auto up2 = [exponent](double& v) { v = std::ldexp(v, 2 * exponent); };
+  up(a.baseline.c1);
+  up(a.baseline.c2);
+  up(a.baseline.peak_to_peak);
+  up2(a.baseline.power);
+  up2(a.baseline.removed_ss);
+  for (auto& line : a.residual_lines.lines) up(line.amplitude);
+  up2(a.residual_lines.power);
 }
 
 bool all_finite(const ChannelAnalysis& a) {
@@ -144,13 +139,17 @@ ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
     constant = constant && v == channel.samples.front();
   }
   // A constant channel is refused by the fit quoting its value, which must be the file's.
-  if (!(peak > 0) || !std::isfinite(peak) || constant) return analyze_unit_scaled(channel, fs, t0, options);
+  if (!(peak > 0) || !std::isfinite(peak) || constant) return analyze_unit_scaled(channel, fs, t0, options, 0);
   const int exponent = std::ilogb(peak) + 1;  // peak·2^-exponent in [0.5, 1)
-  if (exponent == 0) return analyze_unit_scaled(channel, fs, t0, options);
+  if (exponent == 0) return analyze_unit_scaled(channel, fs, t0, options, 0);
   Channel scaled{channel.name, channel.unit, {}};
   scaled.samples.reserve(channel.samples.size());
   for (double v : channel.samples) scaled.samples.push_back(std::ldexp(v, -exponent));
-  ChannelAnalysis out = analyze_unit_scaled(scaled, fs, t0, options);
+  // The full-scale range is in the channel's unit, so it is scaled with the samples (ENOB is a
+  // ratio of it to the noise and distortion).
+  AnalyzeOptions scaled_options = options;
+  scaled_options.full_scale_range = std::ldexp(options.full_scale_range, -exponent);
+  ChannelAnalysis out = analyze_unit_scaled(scaled, fs, t0, scaled_options, exponent);
   scale_results(out, exponent);
   if (!all_finite(out))
     throw AnalysisError("channel \"" + channel.name + "\": the results exceed the range of double " +
@@ -162,7 +161,7 @@ ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
 namespace {
 
 ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0,
-                                    const AnalyzeOptions& options) {
+                                    const AnalyzeOptions& options, int exponent) {
   ChannelAnalysis out;
   out.name = channel.name;
   out.unit = channel.unit;
@@ -173,6 +172,51 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
     fit = fit_harmonics(x, fs, t0, options.lock);
   } catch (const AnalysisError& e) {
     throw AnalysisError("channel \"" + channel.name + "\": " + e.what());
+  }
+  double peak = 0;
+  for (double v : x) peak = std::max(peak, std::abs(v));
+  // Baseline drift (dsp/baseline.hpp): a significant trend is estimated from the residual, the
+  // harmonics are refitted on x − trend (f0 started where it was), and the trend of the new
+  // residual is added; the noise figures then exclude it.
+  out.baseline = fit_baseline_trend(fit.residual, fit.fundamental.dof, peak);
+  if (out.baseline.significant && options.model_baseline) {
+    std::vector<double> detrended(n);
+    for (std::size_t k = 0; k < n; ++k) detrended[k] = x[k] - out.baseline.at(k, n);
+    LockOptions again = options.lock;
+    if (again.f0_hz <= 0) {
+      again.f0_hint_hz = 0;
+      again.f0_start_hz = fit.fundamental.f0_hz;
+      again.max_harmonic = fit.harmonics();
+    }
+    try {
+      HarmonicFit refit = fit_harmonics(detrended, fs, t0, again);
+      const BaselineTrend more = fit_baseline_trend(refit.residual, refit.fundamental.dof, peak);
+      out.baseline.c1 += more.c1;
+      out.baseline.c2 += more.c2;
+      for (std::size_t k = 0; k < n; ++k) refit.residual[k] -= more.at(k, n);
+      double ss = 0;
+      for (double v : refit.residual) ss += v * v;
+      refit.residual_ss = ss;
+      refit.fundamental.dof -= 2;
+      refit.sigma2 = ss / refit.fundamental.dof;
+      refit.fundamental.residual_rms = std::sqrt(ss / static_cast<double>(n));
+      refit.fundamental.iterations += fit.fundamental.iterations;
+      fit = std::move(refit);
+      out.baseline_modelled = true;
+    } catch (const AnalysisError&) {
+      // The detrended record has no clear fundamental: keep the first fit, trend in the noise.
+    }
+    // Size of the total trend (both rounds).
+    const BaselineTrend sized = out.baseline;
+    double lo = sized.at(0, n), hi = lo, ms = 0;
+    for (std::size_t k = 0; k < n; ++k) {
+      const double v = sized.at(k, n);
+      lo = std::min(lo, v);
+      hi = std::max(hi, v);
+      ms += v * v;
+    }
+    out.baseline.peak_to_peak = hi - lo;
+    out.baseline.power = ms / static_cast<double>(n);
   }
   const double f0 = fit.fundamental.f0_hz;
   const int h = fit.harmonics();
@@ -196,8 +240,6 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   double sumsq = 0;
   for (double v : grid.samples) sumsq += v * v;
   out.rms = std::sqrt(sumsq / static_cast<double>(grid.samples.size()));
-  double peak = 0;
-  for (double v : x) peak = std::max(peak, std::abs(v));
   out.peak_abs = peak;
   out.crest_factor = crest_factor(peak, out.rms);
 
@@ -232,6 +274,7 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   // Harmonic lines with uncertainties: C = diag(√r, √r, 1)·σ²·C_unit·diag(…) for (a, b, ν),
   // propagated to (Re X, Im X) at t = 0 and then to amplitude and phase.
   out.harmonics.reserve(H);
+  const double k95 = coverage_95(out.noise_dof);
   std::vector<double> amplitudes(H + 1, 0.0);
   for (std::size_t k = 0; k <= H; ++k) {
     const auto& u = fit.unit_cov[k];
@@ -273,13 +316,29 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
                            ? std::min(180.0, std::sqrt(std::max(0.0, var_t)) / line.amplitude * 180 / kPi)
                            : 180.0;
     line.significant = line.amplitude >= options.significance * line.amplitude_u && line.amplitude > 0;
+    // 95 % amplitude interval inside [0, ∞): Rice inversion with σ² per component the mean of
+    // the two projections' variances (dsp/magnitude_interval.hpp).
+    const MagnitudeInterval iv =
+        magnitude_interval(line.amplitude, std::sqrt(std::max(0.5 * (crr + cii), 0.0)), k95);
+    line.amplitude_lo = iv.lo;
+    line.amplitude_hi = iv.hi;
+    line.phase_defined = !iv.consistent_with_zero;
     amplitudes[k] = line.amplitude;
     out.harmonics.push_back(line);
   }
 
   // Figures: residual mean square (THD+N) and unbiased noise power (SNR).
   const double residual_power = fit.residual_ss / static_cast<double>(n);
-  out.distortion = distortion_figures(amplitudes, residual_power, sigma2);
+  if (options.full_scale_range > 0) {
+    out.full_scale_range = options.full_scale_range;
+    out.enob_note = "full scale given";
+  } else if (channel.unit == "FS") {
+    out.full_scale_range = std::ldexp(2.0, -exponent);  // audio: ±1 full scale, in the scaled unit
+    out.enob_note = "audio full scale (±1 FS)";
+  } else {
+    out.enob_note = "no full-scale range known (give one with --full-scale)";
+  }
+  out.distortion = distortion_figures(amplitudes, residual_power, sigma2, out.full_scale_range);
   out.noise_rms = std::sqrt(sigma2);
   out.noise_floor = 2 * out.noise_rms / std::sqrt(static_cast<double>(n));
   out.noise_floor_dbc = amplitudes[1] > 0 && out.noise_floor > 0
@@ -292,11 +351,80 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
                                               std::to_string(fit.fundamental.iterations) +
                                               " iterations without converging; f0 may be off"});
   const ClipCheck clip = check_clipping(x);
+  // Lines beside the harmonics (dsp/residual_lines.hpp): interference, or not one periodic signal.
+  bool top_band_harmonics = false;  // harmonics up near fs/2: aliased ones are to be expected
+  for (const auto& line : out.harmonics)
+    top_band_harmonics = top_band_harmonics || (line.significant && line.n >= 2 && line.freq_hz >= 0.375 * fs);
+  out.residual_lines = find_residual_lines(fit.residual, fs, f0, top_band_harmonics);
+  {
+    double amax = 0, harm_power = 0;
+    for (double a : amplitudes) amax = std::max(amax, a);
+    for (std::size_t k = 1; k < amplitudes.size(); ++k) harm_power += 0.5 * amplitudes[k] * amplitudes[k];
+    auto& lines = out.residual_lines.lines;
+    lines.erase(std::remove_if(lines.begin(), lines.end(),
+                               [&](const ResidualLine& l) { return l.amplitude < kLineRoundingFloor * amax; }),
+                lines.end());
+    double line_power = 0;
+    for (const auto& l : lines) line_power += 0.5 * l.amplitude * l.amplitude;
+    out.residual_lines.power = line_power;
+    out.explained_share = harm_power + line_power > 0 ? harm_power / (harm_power + line_power) : 1;
+    // The fundamental carries little and most harmonics below the strongest are empty: a tone
+    // "explained" as a high harmonic of a sub-multiple (issue 12).
+    std::size_t strongest = 1;
+    for (std::size_t k = 1; k < amplitudes.size(); ++k)
+      if (amplitudes[k] > amplitudes[strongest]) strongest = k;
+    int occupied = 0;
+    for (std::size_t k = 0; k < out.harmonics.size() && out.harmonics[k].n <= static_cast<int>(strongest); ++k)
+      occupied += out.harmonics[k].significant ? 1 : 0;
+    const double a1 = amplitudes.size() > 1 ? amplitudes[1] : 0;
+    const bool sparse = strongest >= 4 && a1 * a1 < 0.01 * 2 * harm_power &&
+                        occupied * 4 < static_cast<int>(strongest);
+    const std::string unit = out.unit.empty() ? "" : " " + out.unit;
+    const auto line_text = [&](const ResidualLine& l) {
+      return sig(l.freq_hz, 6) + " Hz at " + sig(l.amplitude, 3) + unit +
+             (a1 > 0 ? " (" + io::format_fixed(20 * std::log10(l.amplitude / a1), 1) + " dBc)" : "");
+    };
+    if (!lines.empty() && out.explained_share < 1 - kNotPeriodicShare) {
+      out.flags.push_back({"not-periodic", "the harmonics of f0 = " + sig(f0, 6) + " Hz explain only " +
+                                               sig(100 * out.explained_share, 3) +
+                                               " % of the line power; strongest other line " +
+                                               line_text(lines.front()) + " (" + std::to_string(lines.size()) +
+                                               " in all): the record is not one periodic signal (several "
+                                               "tones, modulation), and the figures describe only part of it"});
+    } else if (sparse) {
+      out.flags.push_back({"not-periodic", "the fundamental f0 = " + sig(f0, 6) + " Hz carries under 1 % of "
+                                               "the harmonic power and " + std::to_string(occupied) + " of the " +
+                                               std::to_string(strongest) + " harmonics up to the strongest (" +
+                                               std::to_string(strongest) + ") are significant: f0 is likely a "
+                                               "false sub-multiple of unrelated lines"});
+    } else if (!lines.empty() && 0.5 * lines.front().amplitude * lines.front().amplitude >=
+                                     kInterferenceShare * fit.residual_ss / static_cast<double>(n)) {
+      out.flags.push_back({"interference", std::to_string(lines.size()) + " line" +
+                                               (lines.size() > 1 ? "s" : "") +
+                                               " beside the harmonics; strongest " + line_text(lines.front()) +
+                                               ": not part of the periodic signal (hum, another source); it is "
+                                               "counted as noise in THD+N, SINAD and SNR"});
+    }
+  }
   if (clip.clipped)
-    out.flags.push_back({"clipped", std::to_string(clip.count) + " samples sit at the " +
-                                        (clip.at_max ? "maximum" : "minimum") +
-                                        " in flat runs: the signal looks clipped, and the "
-                                        "harmonics describe the flattened waveform"});
+    out.flags.push_back({"clipped", std::to_string(clip.count) + " samples (" + sig(100 * clip.share, 3) +
+                                        " % of the record; a sine puts " + sig(100 * clip.expected_share, 2) +
+                                        " % there) sit on a flat plateau within " + sig(clip.band, 3) +
+                                        " of the " + (clip.at_max ? "maximum " : "minimum ") +
+                                        sig(clip.level, 6) +
+                                        ": the signal looks clipped, and the harmonics describe the "
+                                        "flattened waveform"});
+  if (out.baseline.significant) {
+    const double a1 = amplitudes.size() > 1 ? amplitudes[1] : 0;
+    const std::string dbc =
+        a1 > 0 ? ", " + io::format_fixed(20 * std::log10(out.baseline.peak_to_peak / a1), 1) + " dBc" : "";
+    out.flags.push_back({"baseline-drift", "the baseline drifts by " + sig(out.baseline.peak_to_peak, 3) +
+                                               (out.unit.empty() ? "" : " " + out.unit) + " peak-to-peak" + dbc +
+                                               " over the record (Legendre trend, degree ≤ 2); " +
+                                               (out.baseline_modelled
+                                                    ? "it was fitted with the harmonics and is not counted as noise"
+                                                    : "it is counted as noise")});
+  }
   for (const auto& line : out.harmonics) {
     if (line.freq_hz >= kAliasBandFraction * fs && line.amplitude >= kAliasLevel * amplitudes[1] &&
         line.significant) {

@@ -28,8 +28,10 @@
 #include <vector>
 
 #include "core/capture.hpp"
+#include "dsp/baseline.hpp"
 #include "dsp/metrics.hpp"
 #include "dsp/period_lock.hpp"
+#include "dsp/residual_lines.hpp"
 
 namespace periodfit::dsp {
 
@@ -38,6 +40,13 @@ struct AnalyzeOptions {
   int samples_per_period = 0;  ///< M of the locked grid; 0 = default_samples_per_period
   double drift_sigmas = 5;     ///< "drift" when the halves' f0 differ by more than this many u
   double significance = 3;     ///< a harmonic is "significant" when amplitude ≥ this × its u
+  /// Full-scale range FSR of the converter in the channel's unit (max − min), for ENOB
+  /// (IEEE Std 1241 §9.3); 0 = unknown: 2 for audio channels (unit "FS", ±1 full scale),
+  /// otherwise ENOB is not reported.
+  double full_scale_range = 0;
+  /// Model a significant Legendre baseline trend (degree ≤ 2) and keep it out of the noise
+  /// figures (dsp/baseline.hpp); false = leave it in the residual (still flagged).
+  bool model_baseline = true;
 };
 
 /// Throws OptionError naming the first invalid field.
@@ -52,11 +61,15 @@ struct HarmonicLine {
   double phase_u_deg = 0;   ///< standard uncertainty, capped at 180
   bool significant = false; ///< amplitude ≥ significance × amplitude_u
   std::complex<double> phasor;  ///< A·e^{jφ}
+  /// 95 % interval of the amplitude, never below 0 (Rice inversion, dsp/magnitude_interval.hpp)
+  double amplitude_lo = 0, amplitude_hi = 0;
+  /// false when the amplitude is consistent with 0 at 95 %: any phase is then consistent
+  bool phase_defined = true;
 };
 
 struct AnalysisFlag {
   std::string code;     ///< "clipped", "aliasing-risk", "few-periods", "drift", "dc-only",
-                        ///< "not-converged"
+                        ///< "not-converged", "baseline-drift", "interference", "not-periodic"
   std::string message;  ///< plain-language warning
 };
 
@@ -83,6 +96,14 @@ struct ChannelAnalysis {
   double f0_first_half_hz = 0;  ///< drift check (0 when the record is under 4 periods)
   double f0_second_half_hz = 0;
   double drift_sigmas = 0;      ///< |Δf| / √(u₁² + u₂²)
+  /// ENOB's full-scale range (0 = unknown: enob_bits is NaN) and where it came from
+  /// ("option", "audio full scale", or the reason ENOB is not reported)
+  double full_scale_range = 0;
+  std::string enob_note;
+  BaselineTrend baseline;       ///< Legendre trend of the residual (dsp/baseline.hpp)
+  bool baseline_modelled = false;  ///< the trend was fitted jointly and kept out of the noise
+  ResidualLines residual_lines; ///< lines beside the harmonics (dsp/residual_lines.hpp)
+  double explained_share = 1;   ///< harmonic power / (harmonic + residual-line power)
   std::vector<AnalysisFlag> flags;
 
   bool has_flag(const std::string& code) const;

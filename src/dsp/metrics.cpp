@@ -7,7 +7,7 @@
 namespace periodfit::dsp {
 
 DistortionFigures distortion_figures(std::span<const double> amplitudes, double residual_power,
-                                     double noise_power) {
+                                     double noise_power, double full_scale_range) {
   DistortionFigures d;
   const double inf = std::numeric_limits<double>::infinity();
   const double a1 = amplitudes.size() > 1 ? amplitudes[1] : 0;
@@ -20,16 +20,26 @@ DistortionFigures distortion_figures(std::span<const double> amplitudes, double 
     d.thd_n = inf;
     d.sinad_db = -inf;
     d.snr_db = -inf;
-    d.enob_bits = -inf;
+    d.enob_bits = std::numeric_limits<double>::quiet_NaN();
+    d.nad_rms = std::sqrt(harm_sq / 2 + residual_power);
     return d;
   }
   d.thd = std::sqrt(harm_sq) / a1;
   d.thd_n = std::sqrt((harm_sq / 2 + residual_power) / fund_power);
   d.sinad_db = -20 * std::log10(d.thd_n);
   d.snr_db = noise_power > 0 ? 10 * std::log10(fund_power / noise_power) : inf;
-  // IEEE Std 1241 ENOB for a full-scale sine: 6.02 dB per bit, 1.76 dB offset.
-  d.enob_bits = (d.sinad_db - 1.76) / 6.02;
+  d.nad_rms = std::sqrt(harm_sq / 2 + residual_power);
+  d.enob_bits = enob_from_full_scale(full_scale_range, d.nad_rms);
   return d;
+}
+
+double enob_from_full_scale(double full_scale_range, double nad_rms) {
+  // IEEE Std 1241-2010 §9.3: an ideal N-bit converter's quantisation noise is Q/√12 with
+  // Q = FSR/2^N, so N = log2(FSR/(√12·NAD)). Referring NAD to the full-scale range rather than to
+  // the signal keeps the figure right for a sine below full scale.
+  if (!(full_scale_range > 0 && std::isfinite(full_scale_range)) || !(nad_rms > 0 && std::isfinite(nad_rms)))
+    return std::numeric_limits<double>::quiet_NaN();
+  return std::log2(full_scale_range / (std::sqrt(12.0) * nad_rms));
 }
 
 double crest_factor(double peak_abs, double rms) { return rms > 0 ? peak_abs / rms : 0; }

@@ -432,6 +432,26 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
     }
     return true;
   };
+  // A sub-multiple needs evidence beyond "every line sits near one of its harmonics" (issue 12:
+  // 997 Hz with 50 Hz hum locked on 997/20 = 49.85 Hz; two incommensurate tones on a common
+  // sub-multiple): the lines other than the strongest must carry ≥ 1 % of the line power (a
+  // tone with a −40 dB neighbour is a tone plus interference), and a comb of fewer than 5
+  // lines must fill ≥ 1/4 of its harmonic positions up to the highest (two or three lines at
+  // high harmonic numbers with every lower position empty are not one periodic signal).
+  const auto comb_has_evidence = [&](double fc) {
+    double total = 0, strongest = 0;
+    std::vector<long> positions;
+    for (const auto& l : lines) {
+      total += l.power;
+      strongest = std::max(strongest, l.power);
+      positions.push_back(std::lround(l.f / fc));
+    }
+    if (total - strongest < 0.01 * total) return false;
+    std::sort(positions.begin(), positions.end());
+    positions.erase(std::unique(positions.begin(), positions.end()), positions.end());
+    const long highest = positions.empty() ? 0 : positions.back();
+    return lines.size() >= 5 || 4 * static_cast<long>(positions.size()) >= highest;
+  };
   if (off_comb) *off_comb = !on_comb(f, 0.1 * record_bin_hz);
   if (lines.size() <= 1 || f * static_cast<double>(n) / fs < 2 * kShortRecordPeriods) return f;
   // A sub-multiple must span at least 8 record bins (8 periods in the record): narrower, any
@@ -441,7 +461,7 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
   for (int m = 1; m <= m_max; ++m) {
     const double fc = f / m;
     const double fc_err = 0.1 * record_bin_hz / m;  // interpolation error of f, shared by 1/m
-    if (on_comb(fc, fc_err)) {
+    if (on_comb(fc, fc_err) && (m == 1 || comb_has_evidence(fc))) {
       if (off_comb) *off_comb = false;
       return fc;
     }

@@ -20,7 +20,10 @@
 ///  1. Coarse ω: Hann-windowed, zero-padded FFT peak with Gaussian (log-parabolic)
 ///     interpolation; then the largest f/m of which every significant line is a harmonic
 ///     (harmonic comb: 2nd harmonic stronger than the fundamental, as in a full-wave rectifier
-///     with unequal halves; multisines). With f0_hint_hz the peak is searched
+///     with unequal halves; multisines), when the comb has evidence: the lines other than the
+///     strongest carry ≥ 1 % of the line power, and a comb of under 5 lines fills ≥ 1/4 of its
+///     positions (a tone with hum, or two incommensurate tones, is not read as high harmonics
+///     of a common sub-multiple). With f0_hint_hz the peak is searched
 ///     within ±20 % of the hint only. After the refinement (2.), sub-multiples ν/m the comb
 ///     cannot judge (records under 24 periods, ν/m with under 8 periods in the record) are
 ///     tested by an information criterion (period_lock.cpp, sub_multiple_fundamental; not

@@ -1,5 +1,9 @@
 #include "ident/frf.hpp"
 
+#include <limits>
+
+#include "dsp/magnitude_interval.hpp"
+
 #include <algorithm>
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/students_t.hpp>
@@ -244,10 +248,23 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     pt.mag_u = std::sqrt(std::max(var_mag, 0.0));
     pt.phase_u_deg = pt.mag > 0 ? std::sqrt(std::max(var_tan, 0.0)) / pt.mag * kDegPerRad : 0.0;
     pt.mag_db_u = pt.mag > 0 ? 20 / std::numbers::ln10 * pt.mag_u / pt.mag : 0.0;
-    pt.mag_lo = pt.mag - r.coverage_factor * pt.mag_u;
-    pt.mag_hi = pt.mag + r.coverage_factor * pt.mag_u;
-    pt.phase_lo_deg = pt.phase_deg - r.coverage_factor * pt.phase_u_deg;
-    pt.phase_hi_deg = pt.phase_deg + r.coverage_factor * pt.phase_u_deg;
+    // |H| interval inside [0, ∞): Rice inversion at low SNR (issue 12: a weak harmonic gave
+    // [-0.000433, 0.0020006]); σ² per component is the mean of the two.
+    const dsp::MagnitudeInterval iv = dsp::magnitude_interval(pt.mag, std::sqrt(0.5 * pt.var_h), r.coverage_factor);
+    if (iv.method == "rice") {
+      pt.mag_lo = iv.lo;
+      pt.mag_hi = iv.hi;
+    } else {
+      pt.mag_lo = std::max(0.0, pt.mag - r.coverage_factor * pt.mag_u);
+      pt.mag_hi = pt.mag + r.coverage_factor * pt.mag_u;
+    }
+    pt.phase_defined = !iv.consistent_with_zero && pt.mag_lo > 0;
+    if (pt.phase_defined) {
+      pt.phase_lo_deg = pt.phase_deg - r.coverage_factor * pt.phase_u_deg;
+      pt.phase_hi_deg = pt.phase_deg + r.coverage_factor * pt.phase_u_deg;
+    } else {
+      pt.phase_lo_deg = pt.phase_hi_deg = std::numeric_limits<double>::quiet_NaN();
+    }
     r.points.push_back(pt);
   }
   if (at_floor) r.flags.push_back("numerical-floor");

@@ -25,7 +25,9 @@
 /// Reported per point: re, im, |H|, dB, phase, standard uncertainties of |H| and of the phase
 /// (radial and tangential projections of the 2×2 covariance) and 95 % intervals
 /// value ± k·u with k the Student-t quantile for the dof (the normal quantile once dof exceeds
-/// kNormalQuantileDof, where the two differ by less than 0.1 %).
+/// kNormalQuantileDof, where the two differ by less than 0.1 %). The |H| interval is the Rice
+/// inversion at the same level where |H| is within 30 σ of 0 (dsp/magnitude_interval.hpp), so
+/// it never leaves [0, ∞); when it reaches 0 the phase is undefined (phase_defined = false).
 ///
 /// Excited harmonics (n ≥ 1): |U_n|² exceeds the input noise floor at n by min_snr_db. The
 /// noise floor is the variance of the averaged phasor Ū_n (per-period spread when P ≥
@@ -93,8 +95,14 @@ struct FrfHarmonic {
   double mag_u = 0;             ///< standard uncertainty of |H|
   double mag_db_u = 0;          ///< standard uncertainty of |H| in dB (first order)
   double phase_u_deg = 0;       ///< standard uncertainty of the phase
-  double mag_lo = 0, mag_hi = 0;              ///< interval of |H| at `confidence`
-  double phase_lo_deg = 0, phase_hi_deg = 0;  ///< interval of the phase at `confidence`
+  /// interval of |H| at `confidence`, never below 0: Rice inversion below r/σ = 30
+  /// (dsp/magnitude_interval.hpp, σ² = var_h/2), |H| ± k·u above
+  double mag_lo = 0, mag_hi = 0;
+  /// interval of the phase at `confidence`; NaN (JSON null) when phase_defined is false
+  double phase_lo_deg = 0, phase_hi_deg = 0;
+  /// false when |H| is consistent with 0 at `confidence` (mag_lo = 0): every phase is then
+  /// consistent with the data
+  bool phase_defined = true;
   double input_snr_db = 0;      ///< 10·log10(|Ū_n|²/input noise floor)
   bool at_numerical_floor = false;  ///< the variances were raised to the numerical floor
 };

@@ -413,6 +413,8 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
                        {"mag_hi", io::json_number(p.mag_hi)},
                        {"phase_lo_deg", io::json_number(p.phase_lo_deg)},
                        {"phase_hi_deg", io::json_number(p.phase_hi_deg)},
+                       {"phase_defined", p.phase_defined},
+                       {"phase_note", p.phase_defined ? json(nullptr) : json("undefined: |H| consistent with 0")},
                        {"var_re", io::json_number(p.var_re)},
                        {"var_im", io::json_number(p.var_im)},
                        {"cov_re_im", io::json_number(p.cov_re_im)},
@@ -535,7 +537,8 @@ std::string format_identify_report(const IdentifyResult& r) {
     row.push_back(io::format_fixed(p.mag_db, 3));
     add_value_u(row, p.phase_deg, p.phase_u_deg);
     row.push_back(interval_cell(p.mag_lo, p.mag_hi, p.mag_u));
-    row.push_back(interval_cell(p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg));
+    row.push_back(p.phase_defined ? interval_cell(p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg)
+                                  : std::string("phase undefined (|H| consistent with 0)"));
     row.push_back(io::format_fixed(p.input_snr_db, 1));
     t.add_row(std::move(row));
   }

@@ -25,7 +25,9 @@ Figure identify_bode_figure(const ident::IdentifyResult& r, const std::string& t
     b.mag.push_back(p.mag);
     b.mag_u95.push_back(std::max(p.mag_hi - p.mag, p.mag - p.mag_lo));
     b.phase_deg.push_back(p.phase_deg);
-    b.phase_u95_deg.push_back(std::max(p.phase_hi_deg - p.phase_deg, p.phase_deg - p.phase_lo_deg));
+    // An undefined phase (|H| consistent with 0) gets the whole circle as its bar.
+    b.phase_u95_deg.push_back(p.phase_defined ? std::max(p.phase_hi_deg - p.phase_deg, p.phase_deg - p.phase_lo_deg)
+                                              : 180.0);
   }
   const int percent = static_cast<int>(std::lround(r.frf.confidence * 100));
   b.measured_label = "measured, " + std::to_string(percent) + " % interval";
