@@ -88,7 +88,7 @@ inline void write_sine_csv(const std::string& path, const SineCapture& c) {
 
 /// An identify config for these captures with limits on the filter (dc gain, corner, damping).
 inline std::string lowpass_config(const std::string& extra = "") {
-  return "[analysis]\nmode = \"identify\"\ninput = \"0\"\noutput = \"1\"\norder = \"0/2\"\n"
+  return "[analysis]\nmode = \"frf\"\ninput = \"0\"\noutput = \"1\"\norder = \"0/2\"\n"
          "f0_hint_hz = 100\n\n"
          "[[limit]]\nresult = \"dc_gain\"\nnominal = 1\ntolerance = 0.02\nguard_band = true\n\n"
          "[[limit]]\nresult = \"natural_frequency_hz\"\npole = 1\nnominal = 1000\ntolerance_pct = 5\n\n"

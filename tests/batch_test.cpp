@@ -449,7 +449,7 @@ TEST_CASE("batch: options are validated before any file is read") {
 
 TEST_CASE("batch: a model limit without a model order is a load-time error") {
   try {
-    parse_batch_config("[analysis]\nmode = \"identify\"\n[[limit]]\nresult = \"dc_gain\"\nmin = 0.9\n", "c.toml");
+    parse_batch_config("[analysis]\nmode = \"frf\"\n[[limit]]\nresult = \"dc_gain\"\nmin = 0.9\n", "c.toml");
     FAIL("no error");
   } catch (const InputError& e) {
     CHECK(std::string(e.what()) ==

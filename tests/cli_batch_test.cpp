@@ -78,7 +78,7 @@ TEST_CASE("cli batch: bad usage and bad configs exit 2 with one message, before 
   CHECK(r.exit_code == 2);
   CHECK(r.err == "periodfit: error: periodfit batch needs --report OUTDIR: folder for summary.csv, summary.json, files/*.json, report.html\n");
 
-  write_text(dir.file("bad.toml"), "[analysis]\nmode = \"identify\"\norder = \"0/2\"\n\n[[limit]]\nresult = \"dampng\"\npole = 1\nmin = 0.4\n");
+  write_text(dir.file("bad.toml"), "[analysis]\nmode = \"frf\"\norder = \"0/2\"\n\n[[limit]]\nresult = \"dampng\"\npole = 1\nmin = 0.4\n");
   r = run_cli("batch " + q(dir.file("in")) + " --config " + q(dir.file("bad.toml")) + " --report " +
               q(dir.file("out")));
   CHECK(r.exit_code == 2);
@@ -98,7 +98,7 @@ TEST_CASE("cli batch: bad usage and bad configs exit 2 with one message, before 
 
   r = run_cli("batch " + q(dir.file("in")) + " --report " + q(dir.file("out")) + " --mode identfy");
   CHECK(r.exit_code == 2);
-  CHECK(r.err == "periodfit: error: invalid option: --mode = \"identfy\" (must be analyze or identify)\n");
+  CHECK(r.err == "periodfit: error: invalid option: --mode = \"identfy\" (must be analyze or frf)\n");
 }
 
 TEST_CASE("cli batch: the report folder is the same for --jobs 1 and --jobs 2") {

@@ -96,7 +96,7 @@ TEST_CASE("outputs: a character device node as any command's output is written i
   const std::vector<std::string> commands = {
       "analyze " + q(capture) + " --json " + q(node),
       "analyze " + q(capture) + " --plot " + q(node),
-      "identify " + q(pair) + " --input u --output y --f0-hint 50 --order 0/1 --save-model " + q(node),
+      "frf " + q(pair) + " --input u --output y --f0-hint 50 --order 0/1 --save-model " + q(node),
       "excite " + q(node) + " --format csv --signal sine --f0 50 --rate 5000 --periods 2",
   };
   for (const auto& command : commands) {
@@ -193,7 +193,7 @@ TEST_CASE("outputs: an output that is an input (by inode, through a link, or by 
   write_text(dir.file("m.json"),
              R"({"format":"periodfit-model","version":1,"model":{"num":[1],"den":[1,0.001]}})");
   const std::string model_before = slurp(dir.file("m.json"));
-  const CliRun p = run_cli("predict --model " + q(dir.file("m.json")) + " --wave sine --f0 50 --json " +
+  const CliRun p = run_cli("steady-state --model " + q(dir.file("m.json")) + " --wave sine --f0 50 --json " +
                            q(dir.file("m.json")));
   CHECK_MESSAGE(is_clear_error(p), describe(p));
   CHECK(slurp(dir.file("m.json")) == model_before);
@@ -226,7 +226,7 @@ TEST_CASE("outputs: a full standard output is exit 2 with one line for every com
       "analyze " + q(capture),
       "analyze " + q(capture) + " --json -",
       "excite - --format csv --signal sine --f0 50 --rate 5000 --periods 2",
-      "predict --system '1/(1 + 0.001*s)' --wave sine --f0 50 --csv -",
+      "steady-state --system '1/(1 + 0.001*s)' --wave sine --f0 50 --csv -",
       "batch " + q(capture) + " --report " + q(dir.file("report")) + " --quiet",
       "--help",
   };
@@ -273,10 +273,10 @@ TEST_CASE("outputs: analyze with one unwritable output writes none of them and p
   CHECK(names_in(dir) == expected);
 }
 
-TEST_CASE("outputs: identify with an unwritable --plot writes no JSON and no model and prints no report") {
+TEST_CASE("outputs: frf with an unwritable --plot writes no JSON and no model and prints no report") {
   const TempDir dir("outputs_none_identify");
   const std::string pair = write_pair(dir);
-  const CliRun r = run_cli("identify " + q(pair) + " --input u --output y --f0-hint 50 --order 0/1 --json " +
+  const CliRun r = run_cli("frf " + q(pair) + " --input u --output y --f0-hint 50 --order 0/1 --json " +
                            q(dir.file("id.json")) + " --save-model " + q(dir.file("m.json")) + " --plot " +
                            q(dir.file("missing/b.svg")));
   CHECK_MESSAGE(is_clear_error(r), describe(r));

@@ -18,12 +18,12 @@ TEST_CASE("cli usage: periodfit --help prints the usage line, the commands and t
       "periodfit: measurement post-processor for sampled periodic waveforms\n"
       "\n"
       "commands:\n"
-      "  info      check captures: length in periods, clock, code step, flat samples, dc, rms\n"
-      "  analyze   lock onto the fundamental; harmonics with uncertainties, THD, SINAD, ENOB\n"
-      "  identify  DUT frequency response with error bars and a fitted pole/zero model\n"
-      "  predict   steady-state output of a model or FRF for a periodic input (superposition)\n"
-      "  excite    write excitation signals (multisines, standard waveforms) as WAV or CSV\n"
-      "  batch     run a characterisation over folders of captures; limits, summary, HTML report\n"
+      "  info          check captures: length in periods, clock, code step, flat samples, dc, rms\n"
+      "  analyze       lock onto the fundamental; harmonics with uncertainties, THD, SINAD, ENOB\n"
+      "  frf           DUT frequency response with error bars and a fitted pole/zero model\n"
+      "  steady-state  the DUT's periodic output for another input, by Fourier-series superposition\n"
+      "  excite        write excitation signals (multisines, standard waveforms) as WAV or CSV\n"
+      "  batch         run a characterisation over folders of captures; limits, summary, HTML report\n"
       "\n"
       "`periodfit COMMAND --help` lists a command's options.\n"
       "\n"
@@ -36,16 +36,16 @@ TEST_CASE("cli usage: periodfit --help prints the usage line, the commands and t
 }
 
 TEST_CASE("cli usage: a command's --help groups its options with defaults and relations in words") {
-  const auto r = run_cli("predict --help");
+  const auto r = run_cli("steady-state --help");
   CHECK(r.exit_code == 0);
   CHECK(r.err == "");
   CHECK(r.out ==
-      "usage: periodfit predict [options]\n"
+      "usage: periodfit steady-state [options]\n"
         "\n"
-        "steady-state output of a model or FRF for a periodic input (superposition)\n"
+        "the DUT's periodic output for another input, by Fourier-series superposition\n"
         "\n"
         "system:\n"
-        "  --model FILE              model file written by identify (may hold measured FRF points)\n"
+        "  --model FILE              model file written by frf (may hold measured FRF points)\n"
         "                            cannot be combined with --system\n"
         "  --system EXPR             H(s) as a rational expression in s (rad/s), e.g. \"1/(1 + 1e-3*s)\" or\n"
         "                            \"w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200\"\n"
@@ -113,34 +113,34 @@ TEST_CASE("cli usage: each kind of usage error is one line naming the option and
   };
   const Case cases[] = {
       // no command / a misspelt one
-      {"", "periodfit: error: no command given; commands: info, analyze, identify, predict, excite, batch\n"},
-      {"predcit --wave sine",
-       "periodfit: error: unknown command \"predcit\"; did you mean predict? (commands: info, analyze, identify, "
-       "predict, excite, batch)\n"},
+      {"", "periodfit: error: no command given; commands: info, analyze, frf, steady-state, excite, batch\n"},
+      {"stedy-state --wave sine",
+       "periodfit: error: unknown command \"stedy-state\"; did you mean steady-state? (commands: info, analyze, frf, "
+       "steady-state, excite, batch)\n"},
       {"--verison", "periodfit: error: unknown option --verison; did you mean --version?\n"},
       // unknown option: did-you-mean by edit distance over the command's own options
-      {"predict --system '1/(1 + s)' --wave sine --rat 1000", "periodfit: error: unknown option --rat; did you mean --rate?\n"},
-      {"predict --system '1/(1 + s)' --wave sine --respons-from measured",
+      {"steady-state --system '1/(1 + s)' --wave sine --rat 1000", "periodfit: error: unknown option --rat; did you mean --rate?\n"},
+      {"steady-state --system '1/(1 + s)' --wave sine --respons-from measured",
        "periodfit: error: unknown option --respons-from; did you mean --response-from?\n"},
       {"analyze x.csv --zzzzzz", "periodfit: error: unknown option --zzzzzz (periodfit analyze --help lists the options)\n"},
       // the removed coefficient lists point to their replacement
-      {"predict --num 1 --den 1,1 --wave sine",
+      {"steady-state --num 1 --den 1,1 --wave sine",
        "periodfit: error: unknown option --num; did you mean --system? (H(s) as an expression in s, e.g. --system "
        "\"1/(1 + 1e-3*s)\")\n"},
       // a required argument or option
       {"analyze", "periodfit: error: periodfit analyze needs FILE: capture to analyse (CSV or audio)\n"},
       // option relations
-      {"predict --system '1/(1 + s)' --model m.json --wave sine",
+      {"steady-state --system '1/(1 + s)' --model m.json --wave sine",
        "periodfit: error: --model cannot be combined with --system\n"},
-      {"predict --delay 1e-3 --wave sine", "periodfit: error: --delay only applies together with --system\n"},
+      {"steady-state --delay 1e-3 --wave sine", "periodfit: error: --delay only applies together with --system\n"},
       // values that do not convert
-      {"predict --system '1/(1 + s)' --wave sine --rate 1MQ", "periodfit: error: --rate: \"1MQ\" is not a frequency (e.g. 48k, 1MHz)\n"},
-      {"predict --system '1/(1 + s)' --wave sine --list 2.5", "periodfit: error: --list: \"2.5\" is not a whole number\n"},
+      {"steady-state --system '1/(1 + s)' --wave sine --rate 1MQ", "periodfit: error: --rate: \"1MQ\" is not a frequency (e.g. 48k, 1MHz)\n"},
+      {"steady-state --system '1/(1 + s)' --wave sine --list 2.5", "periodfit: error: --list: \"2.5\" is not a whole number\n"},
       // a value outside a fixed set
-      {"predict --model m.json --response-from meassured --wave sine",
+      {"steady-state --model m.json --response-from meassured --wave sine",
        "periodfit: error: --response-from: \"meassured\" is not one of model, measured; did you mean measured?\n"},
       // a value missing at the end
-      {"predict --system '1/(1 + s)' --wave sine --rate", "periodfit: error: --rate needs a value (HZ)\n"},
+      {"steady-state --system '1/(1 + s)' --wave sine --rate", "periodfit: error: --rate needs a value (HZ)\n"},
       // one argument too many
       {"analyze a.csv b.csv", "periodfit: error: unexpected argument \"b.csv\" (periodfit analyze takes no more arguments)\n"},
   };

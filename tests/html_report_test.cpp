@@ -42,7 +42,7 @@ std::string bode_svg(const std::string& id) {
 ReportDocument sample_document() {
   ReportDocument doc;
   doc.title = "line 3 " + kHostile;
-  doc.settings = {{"mode", "identify"}, {"config", "limits & more.toml"}, {"plots", "all"}};
+  doc.settings = {{"mode", "frf"}, {"config", "limits & more.toml"}, {"plots", "all"}};
   ReportFile pass;
   pass.path = "captures/unit_0001.wav";
   pass.status = FileStatus::pass;

@@ -158,7 +158,7 @@ ident::IdentifyOptions options(const std::string& order = "", double f0_hint_hz 
 
 }  // namespace
 
-TEST_CASE("identify: RC low-pass under a square wave recovers the pole -1/tau (60 dB SNR)") {
+TEST_CASE("frf: RC low-pass under a square wave recovers the pole -1/tau (60 dB SNR)") {
   // Standard circuit theory: H = 1/(1 + jωτ), pole at −1/τ; τ chosen so that ω0·τ = 1, where
   // |H| = 0.7071 and ∠H = −45°. Square wave ±1: (4/π)·Σ_{n odd} sin(nω0t)/n (handbook table).
   const double tau = 1 / (2 * kPi * kF0);
@@ -190,7 +190,7 @@ TEST_CASE("identify: RC low-pass under a square wave recovers the pole -1/tau (6
   CHECK(r.linearity.status == "linear");
 }
 
-TEST_CASE("identify: RC low-pass under a half-wave rectified sine") {
+TEST_CASE("frf: RC low-pass under a half-wave rectified sine") {
   // Half-wave rectified sine max(sin ω0t, 0) = 1/π + ½ sin ω0t − (2/π)Σ cos(2kω0t)/(4k²−1)
   // (handbook Fourier-series table): fundamental and even harmonics.
   const double tau = 1 / (2 * kPi * 200);
@@ -214,7 +214,7 @@ TEST_CASE("identify: RC low-pass under a half-wave rectified sine") {
   check_root(r.model->poles.at(0), cd(-1 / tau, 0));
 }
 
-TEST_CASE("identify: second-order low-pass against scipy.signal.freqs and numpy.roots") {
+TEST_CASE("frf: second-order low-pass against scipy.signal.freqs and numpy.roots") {
   if (!test::python_has("numpy, scipy")) {
     MESSAGE("skipped: /usr/bin/python3 lacks numpy/scipy");
     return;
@@ -247,7 +247,7 @@ TEST_CASE("identify: second-order low-pass against scipy.signal.freqs and numpy.
   CHECK(r.model->dof == 2 * kH - 3);  // 2K − n_θ with n_θ = 3 (b0, a0, a1)
 }
 
-TEST_CASE("identify: second-order band-pass against scipy.signal.freqs and numpy.roots") {
+TEST_CASE("frf: second-order band-pass against scipy.signal.freqs and numpy.roots") {
   if (!test::python_has("numpy, scipy")) {
     MESSAGE("skipped: /usr/bin/python3 lacks numpy/scipy");
     return;
@@ -276,7 +276,7 @@ TEST_CASE("identify: second-order band-pass against scipy.signal.freqs and numpy
   CHECK(std::abs(r.model->model.num[1] - 2 * zeta * wn) <= kRelativeAt60dB * 2 * zeta * wn);
 }
 
-TEST_CASE("identify: a known delay is recovered with --delay") {
+TEST_CASE("frf: a known delay is recovered with --delay") {
   // H = e^{−sT}/(1 + sτ): RC low-pass (standard circuit theory) behind a pure delay T.
   const double tau = 1 / (2 * kPi * 150), delay = 4e-4;
   constexpr int kH = 12;
@@ -307,7 +307,7 @@ TEST_CASE("identify: a known delay is recovered with --delay") {
   CHECK_FALSE(ident::identify(capture, o).model.has_value());
 }
 
-TEST_CASE("identify: skew of the output path is removed as a phase correction") {
+TEST_CASE("frf: skew of the output path is removed as a phase correction") {
   const double tau = 1 / (2 * kPi * 100), skew = 2.5e-4;
   constexpr int kH = 10;
   std::vector<cd> h(kH + 1, 0.0), h_rec(kH + 1, 0.0);
@@ -327,7 +327,7 @@ TEST_CASE("identify: skew of the output path is removed as a phase correction") 
   CHECK(r.skew_s == skew);
 }
 
-TEST_CASE("identify: y = v + 0.05 v^2 behind a low-pass is flagged nonlinear, the linear DUT is not") {
+TEST_CASE("frf: y = v + 0.05 v^2 behind a low-pass is flagged nonlinear, the linear DUT is not") {
   // Odd multisine on 1, 3, 5, 7, 9, 13 (11 skipped): x² puts lines on even harmonics only.
   const double tau = 1 / (2 * kPi * 200);
   constexpr int kH = 20;
@@ -351,7 +351,7 @@ TEST_CASE("identify: y = v + 0.05 v^2 behind a low-pass is flagged nonlinear, th
   REQUIRE(bent.linearity.even_level_db.has_value());
 }
 
-TEST_CASE("identify: bad inputs are errors with whole messages") {
+TEST_CASE("frf: bad inputs are errors with whole messages") {
   const Phasors u = multisine(5, 0.3);
   std::mt19937_64 rng(28);
   const auto x = synthesise(u, 1e-4, rng);
@@ -427,7 +427,7 @@ TEST_CASE("identify: bad inputs are errors with whole messages") {
     CHECK_THROWS_AS(ident::identify(two_channel(x, x), o), OptionError);
   }
 }
-TEST_CASE("identify: the chi-square verdict accepts the true order and rejects a too-low one") {
+TEST_CASE("frf: the chi-square verdict accepts the true order and rejects a too-low one") {
   if (!test::python_has("numpy, scipy")) {
     MESSAGE("skipped: /usr/bin/python3 lacks numpy/scipy");
     return;
@@ -460,7 +460,7 @@ TEST_CASE("identify: the chi-square verdict accepts the true order and rejects a
   CHECK(adequate >= kMinAdequate);
 }
 
-TEST_CASE("identify: --order auto picks the second-order model for a second-order DUT by chi-square") {
+TEST_CASE("frf: --order auto picks the second-order model for a second-order DUT by chi-square") {
   // Textbook second-order low-pass (ω_n = 2π·300, ζ = 0.3) at 60 dB SNR: first-order models
   // cannot fit it, 0/2 does (Pintelon & Schoukens 2012, §11.3: the lowest order whose cost is
   // consistent with χ²). The true order passes its χ² test with probability ≈ 0.95 (a bit less:
@@ -500,7 +500,7 @@ TEST_CASE("identify: --order auto picks the second-order model for a second-orde
   CHECK(right >= kMinRight);
 }
 
-TEST_CASE("identify: default options are valid; invalid ones name field, value and constraint") {
+TEST_CASE("frf: default options are valid; invalid ones name field, value and constraint") {
   CHECK_NOTHROW(ident::IdentifyOptions{}.validate());
   ident::IdentifyOptions o;
   o.max_harmonic = -1;
@@ -513,7 +513,7 @@ TEST_CASE("identify: default options are valid; invalid ones name field, value a
 // Issue 11, class 8: an output without a response at the excited lines is refused in plain
 // words; before, a constant output gave |H| ≈ 1e-17 with an interval excluding 0 and an
 // "adequate" model, and a zero output a covariance error.
-TEST_CASE("identify: a constant, zero or noise-only output is refused as carrying no response") {
+TEST_CASE("frf: a constant, zero or noise-only output is refused as carrying no response") {
   Phasors u(6, 0.0);
   for (int n = 1; n <= 5; ++n) u[std::size_t(n)] = std::polar(0.3, -n * (n - 1) * kPi / 5);
   std::mt19937_64 rng(1101);
@@ -530,7 +530,7 @@ TEST_CASE("identify: a constant, zero or noise-only output is refused as carryin
     CAPTURE((*y)[0]);
     try {
       const auto r = ident::identify(two_channel(x, *y, "dead.csv"), o);
-      FAIL("identify returned a result (status " << r.status << ") for an output without response");
+      FAIL("frf returned a result (status " << r.status << ") for an output without response");
     } catch (const AnalysisError& e) {
       const std::string what = e.what();
       CHECK_MESSAGE(what.find("dead.csv: ") == 0, what);
@@ -542,7 +542,7 @@ TEST_CASE("identify: a constant, zero or noise-only output is refused as carryin
   }
 }
 
-TEST_CASE("identify: poles and zeros print frequency first in Hz, each value with u=") {
+TEST_CASE("frf: poles and zeros print frequency first in Hz, each value with u=") {
   // Hand-made roots; the Hz figures are |p|/2π and Q = 1/(2ζ), u(Q) = u(ζ)/(2ζ²) (closed forms,
   // ident/rational_fit.hpp), printed with GUM digits (u to 2 significant digits, the value to
   // the same decimal place; JCGM 100:2008 §7.2.6); 6 digits where u is undefined.

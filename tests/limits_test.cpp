@@ -36,7 +36,7 @@ Limit finished(Limit l, AnalysisMode mode = AnalysisMode::identify) {
 TEST_CASE("limits: a config with every limit form parses into ranges") {
   const auto c = parse_batch_config(R"(
 [analysis]
-mode = "identify"
+mode = "frf"
 input = "v_in"
 output = "v_out"
 order = "0/2"
@@ -100,7 +100,7 @@ TEST_CASE("limits: unknown result name is a load-time error with a suggestion an
 }
 
 TEST_CASE("limits: malformed limits are load-time errors naming the field") {
-  const std::string head = "[analysis]\nmode = \"identify\"\n[[limit]]\n";
+  const std::string head = "[analysis]\nmode = \"frf\"\n[[limit]]\n";
   CHECK(load_error(head + "result = \"dc_gain\"\nnominal = 1\n") ==
         "limits.toml:5:11: nominal needs tolerance or tolerance_pct");
   CHECK(load_error(head + "result = \"dc_gain\"\ntolerance = 0.1\n") ==
@@ -122,7 +122,7 @@ TEST_CASE("limits: malformed limits are load-time errors naming the field") {
   CHECK(load_error(head + "result = \"damping\"\npole = 0\nmin = 0.4\n") ==
         "limits.toml:5:8: pole = 0 (must be >= 1)");
   CHECK(load_error(head + "result = \"thd\"\nmax = 0.01\n") ==
-        "limits.toml:4:10: result \"thd\" is not available in identify mode (it is an analyze result)");
+        "limits.toml:4:10: result \"thd\" is not available in frf mode (it is an analyze result)");
   CHECK(load_error(head + "result = \"model_adequate\"\nmin = 1\n") ==
         "limits.toml:5:7: model_adequate is a yes/no result: use expect, not min");
   CHECK(load_error(head + "result = \"dc_gain\"\nexpect = true\n") ==
@@ -139,17 +139,17 @@ TEST_CASE("limits: malformed limits are load-time errors naming the field") {
         "limits.toml:3:1: [[limit]] needs result = \"NAME\" (see docs/batch-config.md)");
   CHECK(load_error("[analysis]\nmode = \"analyze\"\n[[limit]]\nresult = \"amplitude\"\nfreq_hz = 50\nmax = 1\n") ==
         "limits.toml:5:11: amplitude takes a harmonic in analyze mode; freq_hz needs the fitted "
-        "model of identify mode");
+        "model of frf mode");
 }
 
 TEST_CASE("limits: other config errors carry positions") {
   CHECK(load_error("[analysis]\nmode = \"identfy\"\n") ==
-        "limits.toml:2:8: invalid option: mode = \"identfy\" (must be analyze or identify)");
-  CHECK(load_error("[anlysis]\nmode = \"identify\"\n") ==
+        "limits.toml:2:8: invalid option: mode = \"identfy\" (must be analyze or frf)");
+  CHECK(load_error("[anlysis]\nmode = \"frf\"\n") ==
         "limits.toml:1:2: unknown key \"anlysis\" in the config (did you mean \"analysis\"?)");
-  CHECK(load_error("[analysis]\nmode = \"identify\"\norder = \"2-1\"\n").rfind("limits.toml:3:9: ", 0) == 0);
+  CHECK(load_error("[analysis]\nmode = \"frf\"\norder = \"2-1\"\n").rfind("limits.toml:3:9: ", 0) == 0);
   CHECK(load_error("[analysis]\nmode = \"analyze\"\norder = \"0/2\"\n") ==
-        "limits.toml:3:9: order applies in identify mode only (mode is analyze)");
+        "limits.toml:3:9: order applies in frf mode only (mode is analyze)");
   CHECK(load_error("[report]\nplots = \"some\"\n") ==
         "limits.toml:2:9: invalid option: plots = \"some\" (must be all, failed or none)");
   // toml++ reports syntax errors with their position; we prefix "TOML: ".
@@ -273,7 +273,7 @@ constexpr double kConversionTolerance = 1e-12;
 
 Limit loaded(const std::string& body, const std::string& mode = "analyze") {
   const auto c = parse_batch_config("[analysis]\nmode = \"" + mode + "\"\n" +
-                                        (mode == "identify" ? "order = \"0/2\"\n" : "") + "[[limit]]\n" + body,
+                                        (mode == "frf" ? "order = \"0/2\"\n" : "") + "[[limit]]\n" + body,
                                     "limits.toml");
   REQUIRE(c.limits.size() == 1);
   return c.limits[0];
@@ -291,7 +291,7 @@ TEST_CASE("limits: bounds written with their unit convert to SI and are shown as
   CHECK(l.hi == doctest::Approx(0.01).epsilon(kConversionTolerance));
   CHECK(l.allowed_text() == "\xE2\x89\xA4 \xE2\x88\x92" "40 dB");
   // A dB result takes dB as it is.
-  l = loaded("result = \"mag_db\"\nharmonic = 1\nmin = \"-40 dB\"\n", "identify");
+  l = loaded("result = \"mag_db\"\nharmonic = 1\nmin = \"-40 dB\"\n", "frf");
   CHECK(l.lo == -40);
   // SI prefixes: 1.2 kHz = 1200 Hz, 250 us = 2.5e-4 s, 20 mV = 0.02 V.
   l = loaded("result = \"f0_hz\"\nnominal = \"1.2 kHz\"\ntolerance = \"5 Hz\"\n");
@@ -307,7 +307,7 @@ TEST_CASE("limits: bounds written with their unit convert to SI and are shown as
   CHECK(l.lo == doctest::Approx(0.04).epsilon(kConversionTolerance));
   CHECK(l.hi == doctest::Approx(0.06).epsilon(kConversionTolerance));
   CHECK(l.allowed_text() == "5 % \xC2\xB1 1 %");
-  l = loaded("result = \"delay_s\"\nmax = \"250 us\"\n", "identify");
+  l = loaded("result = \"delay_s\"\nmax = \"250 us\"\n", "frf");
   CHECK(l.hi == doctest::Approx(2.5e-4).epsilon(kConversionTolerance));
   l = loaded("result = \"amplitude\"\nharmonic = 1\nnominal = 1\ntolerance = \"20 mV\"\n");
   CHECK(l.lo == doctest::Approx(0.98).epsilon(kConversionTolerance));
@@ -318,7 +318,7 @@ TEST_CASE("limits: bounds written with their unit convert to SI and are shown as
   CHECK(l.lo == -5);
   CHECK(l.hi == doctest::Approx(90).epsilon(kConversionTolerance));
   // A dB tolerance about an amplitude ratio is a factor: −40 dB ± 2 dB = 10^(−42/20) … 10^(−38/20).
-  l = loaded("result = \"mag\"\nharmonic = 1\nnominal = \"-40 dB\"\ntolerance = \"2 dB\"\n", "identify");
+  l = loaded("result = \"mag\"\nharmonic = 1\nnominal = \"-40 dB\"\ntolerance = \"2 dB\"\n", "frf");
   CHECK(l.lo == doctest::Approx(std::pow(10.0, -42.0 / 20)).epsilon(kConversionTolerance));
   CHECK(l.hi == doctest::Approx(std::pow(10.0, -38.0 / 20)).epsilon(kConversionTolerance));
   CHECK(l.allowed_text() == "\xE2\x88\x92" "40 dB \xC2\xB1 2 dB");
@@ -330,7 +330,7 @@ TEST_CASE("limits: a bare THD bound above 1 is refused with how to write it") {
         "limits.toml:5:7: thd max = 8 is a ratio of 8 (800 %); write \"8 %\" or 0.08");
   CHECK(load_error(head + "nominal = 0.05\ntolerance = 2\n") ==
         "limits.toml:6:13: thd tolerance = 2 is a ratio of 2 (200 %); write \"2 %\" or 0.02");
-  CHECK(load_error("[analysis]\nmode = \"identify\"\norder = \"0/2\"\n[[limit]]\nresult = \"damping\"\n"
+  CHECK(load_error("[analysis]\nmode = \"frf\"\norder = \"0/2\"\n[[limit]]\nresult = \"damping\"\n"
                    "pole = 1\nmin = 5\n") ==
         "limits.toml:7:7: damping min = 5 is a ratio of 5 (500 %); write \"5 %\" or 0.05");
   // The same numbers written with their unit, or as ratios, load.
@@ -352,7 +352,7 @@ TEST_CASE("limits: a unit that does not fit the result is refused, naming what f
         "channel's unit, or a string in that unit with an SI prefix (\"2 mV\")");
   CHECK(load_error(head + "result = \"dc\"\nmin = \"1 mV\"\nmax = \"2 mA\"\n") ==
         "limits.toml:6:7: max is in A, another bound in V");
-  CHECK(load_error("[analysis]\nmode = \"identify\"\norder = \"0/2\"\n[[limit]]\nresult = \"damping\"\n"
+  CHECK(load_error("[analysis]\nmode = \"frf\"\norder = \"0/2\"\n[[limit]]\nresult = \"damping\"\n"
                    "pole = 1\nmin = \"-3 dB\"\n") ==
         "limits.toml:7:7: min = \"-3 dB\": unit \"dB\" does not fit damping; write a bare ratio, or a "
         "string in % or ppm");

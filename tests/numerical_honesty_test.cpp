@@ -151,9 +151,9 @@ TEST_CASE("honesty: analyze asked for more harmonics than the record can carry r
 
 // ---- identify --------------------------------------------------------------------------------
 
-TEST_CASE("honesty: identify on 3 periods flags few-periods and takes variances from noise bins") {
-  if (!command_has_option("identify", "--order")) {
-    MESSAGE("SKIPPED (identify not built yet): few periods");
+TEST_CASE("honesty: frf on 3 periods flags few-periods and takes variances from noise bins") {
+  if (!command_has_option("frf", "--order")) {
+    MESSAGE("SKIPPED (frf not built yet): few periods");
     return;
   }
   TempDir dir("hon_id_few");
@@ -161,7 +161,7 @@ TEST_CASE("honesty: identify on 3 periods flags few-periods and takes variances 
   [[maybe_unused]] const auto& u = std::get<0>(u_y);
   [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto r_j = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100");
+  const auto r_j = run_json("frf '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100");
   const CliRun& r = r_j.first;
   const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
@@ -179,7 +179,7 @@ TEST_CASE("honesty: a model fitted with weights from 5 periods flags its paramet
   [[maybe_unused]] const auto& u = std::get<0>(u_y);
   [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto r_j = run_json("identify '" + dir.file("rc.csv") +
+  const auto r_j = run_json("frf '" + dir.file("rc.csv") +
                                "' --input v_in --output v_out --f0 100 --order 0/1");
   const CliRun& r = r_j.first;
   const json& j = r_j.second;
@@ -192,7 +192,7 @@ TEST_CASE("honesty: a model fitted with weights from 5 periods flags its paramet
   [[maybe_unused]] const auto& u10 = std::get<0>(u10_y10);
   [[maybe_unused]] const auto& y10 = std::get<1>(u10_y10);
   write_text(dir.file("rc10.csv"), capture_csv(10000, {u10, y10}, {"v_in", "v_out"}));
-  const auto r10_j10 = run_json("identify '" + dir.file("rc10.csv") +
+  const auto r10_j10 = run_json("frf '" + dir.file("rc10.csv") +
                                    "' --input v_in --output v_out --f0 100 --order 0/1");
   const CliRun& r10 = r10_j10.first;
   const json& j10 = r10_j10.second;
@@ -201,9 +201,9 @@ TEST_CASE("honesty: a model fitted with weights from 5 periods flags its paramet
   CHECK(j10["model"]["covariance_inflation"].get<double>() == doctest::Approx(9.0 / 4.0));
 }
 
-TEST_CASE("honesty: identify refuses an input channel that carries only noise") {
-  if (!command_has_option("identify", "--order")) {
-    MESSAGE("SKIPPED (identify not built yet): input at the noise floor");
+TEST_CASE("honesty: frf refuses an input channel that carries only noise") {
+  if (!command_has_option("frf", "--order")) {
+    MESSAGE("SKIPPED (frf not built yet): input at the noise floor");
     return;
   }
   TempDir dir("hon_id_noise");
@@ -214,13 +214,13 @@ TEST_CASE("honesty: identify refuses an input channel that carries only noise") 
   out.seed = 99;
   write_text(dir.file("noise.csv"),
              capture_csv(10000, {synthesize(noise, 10000, 20000), synthesize(out, 10000, 20000)}, {"v_in", "v_out"}));
-  const CliRun r = run_cli("identify '" + dir.file("noise.csv") + "' --input v_in --output v_out --f0 100 --json -");
+  const CliRun r = run_cli("frf '" + dir.file("noise.csv") + "' --input v_in --output v_out --f0 100 --json -");
   CHECK_MESSAGE(is_clear_error(r), describe(r));
 }
 
-TEST_CASE("honesty: identify lists only harmonics whose input clears the noise floor by --min-snr") {
-  if (!command_has_option("identify", "--order")) {
-    MESSAGE("SKIPPED (identify not built yet): weak input harmonics");
+TEST_CASE("honesty: frf lists only harmonics whose input clears the noise floor by --min-snr") {
+  if (!command_has_option("frf", "--order")) {
+    MESSAGE("SKIPPED (frf not built yet): weak input harmonics");
     return;
   }
   TempDir dir("hon_id_weak");
@@ -232,7 +232,7 @@ TEST_CASE("honesty: identify lists only harmonics whose input clears the noise f
   [[maybe_unused]] const auto& u = std::get<0>(u_y);
   [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("weak.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto r_j = run_json("identify '" + dir.file("weak.csv") + "' --input v_in --output v_out --f0 100 --harmonics 12");
+  const auto r_j = run_json("frf '" + dir.file("weak.csv") + "' --input v_in --output v_out --f0 100 --harmonics 12");
   const CliRun& r = r_j.first;
   const json& j = r_j.second;
   REQUIRE_MESSAGE(r.exit_code == 0, describe(r));
@@ -245,8 +245,8 @@ TEST_CASE("honesty: identify lists only harmonics whose input clears the noise f
 }
 
 TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-conditioned") {
-  if (!command_has_option("identify", "--order")) {
-    MESSAGE("SKIPPED (identify not built yet): ill-conditioned fit");
+  if (!command_has_option("frf", "--order")) {
+    MESSAGE("SKIPPED (frf not built yet): ill-conditioned fit");
     return;
   }
   TempDir dir("hon_id_cond");
@@ -256,7 +256,7 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   [[maybe_unused]] const auto& u = std::get<0>(u_y);
   [[maybe_unused]] const auto& y = std::get<1>(u_y);
   write_text(dir.file("rc.csv"), capture_csv(10000, {u, y}, {"v_in", "v_out"}));
-  const auto r_j = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 4/4");
+  const auto r_j = run_json("frf '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 4/4");
   const CliRun& r = r_j.first;
   const json& j = r_j.second;
   if (r.exit_code != 0) {
@@ -271,7 +271,7 @@ TEST_CASE("honesty: an over-parameterised model fit is refused or flagged ill-co
   else
     MESSAGE("4/4 fit came out with condition number " << cond << " (not ill-conditioned)");
   // The well-posed order on the same data is not flagged.
-  const auto r1_j1 = run_json("identify '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 0/1");
+  const auto r1_j1 = run_json("frf '" + dir.file("rc.csv") + "' --input v_in --output v_out --f0 100 --order 0/1");
   const CliRun& r1 = r1_j1.first;
   const json& j1 = r1_j1.second;
   REQUIRE_MESSAGE(r1.exit_code == 0, describe(r1));
@@ -343,7 +343,7 @@ TEST_CASE("honesty: analyze results are invariant to the amplitude unit from 1e-
 
 #include "ident/identify.hpp"
 
-TEST_CASE("honesty: identify results are invariant to the channels' units from 1e-160 to 1e150") {
+TEST_CASE("honesty: frf results are invariant to the channels' units from 1e-160 to 1e150") {
   Signal u;
   u.f0_hz = 50;
   u.amplitudes = {1, 0.5, 0.3, 0.2};

@@ -252,7 +252,7 @@ TEST_CASE("rational fit: band-pass matches scipy.signal.freqs, its zero sits at 
   CHECK(fit.adequate);
 }
 
-TEST_CASE("rational fit: the model covariance is in RationalModel::response_gradient order (predict relies on it)") {
+TEST_CASE("rational fit: the model covariance is in RationalModel::response_gradient order (steady-state relies on it)") {
   // Near ω = 0, H → b0/a0 and the gradient-propagated variance of Re H must equal the reported
   // dc-gain variance (first-order propagation, same covariance): a check of the parameter order.
   const double tau = 1e-3;

@@ -504,7 +504,7 @@ TEST_CASE("robustness: non-UTF-8 bytes in names and metadata give valid output, 
     write_text(dir.file("sine.csv"), capture_csv(5000, {synthesize(s, 5000, 1000), synthesize(o, 5000, 1000)},
                                                  {"v_\xb5in", "v_out\xff"}));
     for (const std::string& cmd : {"analyze '" + dir.file("sine.csv") + "' --json -",
-                                  "identify '" + dir.file("sine.csv") + "' --input 0 --output 1 --json -"}) {
+                                  "frf '" + dir.file("sine.csv") + "' --input 0 --output 1 --json -"}) {
       const CliRun a = run_cli(cmd);
       if (a.exit_code == 0)
         CHECK_MESSAGE(!json::parse(a.out, nullptr, false).is_discarded(), cmd << ": invalid JSON");
@@ -512,7 +512,7 @@ TEST_CASE("robustness: non-UTF-8 bytes in names and metadata give valid output, 
         CHECK_MESSAGE(is_clear_error(a), cmd << ": " << describe(a));
     }
   } else {
-    MESSAGE("SKIPPED (analyze not built yet): non-UTF-8 names through analyze and identify");
+    MESSAGE("SKIPPED (analyze not built yet): non-UTF-8 names through analyze and frf");
   }
   // A non-UTF-8 byte in a data cell: a clear error quoting what was found.
   write_text(dir.file("cell.csv"), "t (s),v (V)\n0,1\n0.001,2\xff\n");
@@ -608,7 +608,7 @@ TEST_CASE("robustness: every kept fuzz input (tests/regressions/) is a result or
       const std::string path = entry.path().string();
       std::string cmd;
       if (target == "csv" || target == "audio") cmd = "info '" + path + "'";
-      else if (target == "model_file") cmd = "predict --model '" + path + "' --wave sine --amplitude 1 --f0 50";
+      else if (target == "model_file") cmd = "steady-state --model '" + path + "' --wave sine --amplitude 1 --f0 50";
       else if (target == "config") cmd = "batch '" + root.string() + "/empty' --config '" + path + "' --report /nonexistent-periodfit-report";
       else continue;
       const CliRun r = run_cli(cmd);
@@ -629,7 +629,7 @@ TEST_CASE("robustness: a 50 000-deep model file and a 50 000-part dotted TOML ke
   write_text(dir.file("deep.model.json"),
              R"({"format":"periodfit-model","version":1,"model":{"num":)" + num + R"(,"den":[1000,1]}})");
   // Column 118: level 65 of the nesting check (io/input_limits.hpp), see input_limits_test.
-  const CliRun model = run_cli("predict --model '" + dir.file("deep.model.json") + "' --wave sine --f0 1000");
+  const CliRun model = run_cli("steady-state --model '" + dir.file("deep.model.json") + "' --wave sine --f0 1000");
   CHECK(model.exit_code == 2);
   CHECK(model.out.empty());
   CHECK(model.err == "periodfit: error: " + dir.file("deep.model.json") +
@@ -671,7 +671,7 @@ TEST_CASE("robustness: sizes asked for by options are refused before allocation,
 
   // 10^12 samples × 88 B (kBytesPerPredictedSample, predict/superposition.cpp) = 88 TB.
   const CliRun samples =
-      run_cli("predict --system '1/(1 + s)' --wave sine --f0 1 --rate 1e12 --csv '" + dir.file("p.csv") + "'");
+      run_cli("steady-state --system '1/(1 + s)' --wave sine --f0 1 --rate 1e12 --csv '" + dir.file("p.csv") + "'");
   CHECK(samples.exit_code == 2);
   CHECK_MESSAGE(
       samples.err.rfind("periodfit: error: invalid option: rate_hz = 1e+12 (1e+12 samples need about 88 TB, more than ", 0) == 0,
@@ -680,7 +680,7 @@ TEST_CASE("robustness: sizes asked for by options are refused before allocation,
 
   // Degree 1999 typed as a power: refused before any polynomial is built.
   const auto t = std::chrono::steady_clock::now();
-  const CliRun order = run_cli("predict --system '1/(1 + s)^1999' --wave sine --f0 1");
+  const CliRun order = run_cli("steady-state --system '1/(1 + s)^1999' --wave sine --f0 1");
   CHECK(seconds_since(t) < kHangSeconds);
   CHECK(order.exit_code == 2);
   CHECK(order.err == "periodfit: error: --system: degree above 100, the highest periodfit evaluates at column 10\n");
@@ -766,24 +766,24 @@ TEST_CASE("robustness: a --scale that overflows a sample is refused, not read as
   CHECK_MESSAGE(r.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(r));
 }
 
-TEST_CASE("robustness: predict refuses outputs beyond the double range and uncountable sample counts") {
-  const CliRun big = run_cli("predict --system \"1000/(1000 + s)\" --wave sine --amplitude 1e308 --f0 10 --json -");
+TEST_CASE("robustness: steady-state refuses outputs beyond the double range and uncountable sample counts") {
+  const CliRun big = run_cli("steady-state --system \"1000/(1000 + s)\" --wave sine --amplitude 1e308 --f0 10 --json -");
   CHECK(big.exit_code == 2);
   CHECK_MESSAGE(big.out.find("inf") == std::string::npos, big.out);
   CHECK_MESSAGE(big.err.find("exceeds the range of double precision numbers") != std::string::npos, describe(big));
   // 1e154 is within range and its square is not: rms = A/√2 (closed form for a sine) is finite.
-  const CliRun ok = run_cli("predict --system 1 --wave sine --amplitude 1e200 --f0 10 --json -");
+  const CliRun ok = run_cli("steady-state --system 1 --wave sine --amplitude 1e200 --f0 10 --json -");
   CHECK_MESSAGE(ok.exit_code == 0, describe(ok));
   const json j = json::parse(ok.out, nullptr, false);
   CHECK_MESSAGE(all_numbers_finite(j), ok.out.substr(0, 400));
-  const CliRun fast = run_cli("predict --system 1 --wave sine --amplitude 1 --f0 10 --rate 1e21 --csv -");
+  const CliRun fast = run_cli("steady-state --system 1 --wave sine --amplitude 1 --f0 10 --rate 1e21 --csv -");
   CHECK(fast.exit_code == 2);
   CHECK(fast.out.empty());
   // The memory budget refuses it first (issue 11, class 5), naming the sample count.
   CHECK_MESSAGE(fast.err.find("rate_hz = 1e+21 (1e+20 samples need") != std::string::npos, describe(fast));
 }
 
-TEST_CASE("robustness: identify refuses a skew longer than the record") {
+TEST_CASE("robustness: frf refuses a skew longer than the record") {
   TempDir dir("rob_skew");
   Signal u;
   u.f0_hz = 50;
@@ -792,7 +792,7 @@ TEST_CASE("robustness: identify refuses a skew longer than the record") {
   Signal y = u;
   y.seed = 2;
   write_text(dir.file("io.csv"), capture_csv(5000, {synthesize(u, 5000, 2000), synthesize(y, 5000, 2000)}));
-  const CliRun r = run_cli("identify '" + dir.file("io.csv") + "' --input ch0 --output ch1 --skew 1e300");
+  const CliRun r = run_cli("frf '" + dir.file("io.csv") + "' --input ch0 --output ch1 --skew 1e300");
   CHECK(r.exit_code == 2);
   CHECK_MESSAGE(r.err.find("invalid option: skew_s = 1e+300 (must not exceed the record's length") !=
                     std::string::npos,

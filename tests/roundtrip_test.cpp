@@ -1,6 +1,6 @@
 // Round trip: `periodfit excite` writes a multisine, the test filters it through a known H(s)
 // (scipy.signal.freqs + numpy FFT, tests/python/predict_roundtrip_filter.py) and adds noise,
-// `periodfit identify` fits the model, and `periodfit predict` with the identified model file
+// `periodfit frf` fits the model, and `periodfit steady-state` with the identified model file
 // reproduces the true model's prediction within the propagated uncertainty.
 #include <doctest/doctest.h>
 
@@ -22,7 +22,7 @@ constexpr double kPi = std::numbers::pi;
 constexpr double kCoverageK = 3;
 }  // namespace
 
-TEST_CASE("roundtrip: excite -> filter -> identify recovers the filter within its uncertainty") {
+TEST_CASE("roundtrip: excite -> filter -> frf recovers the filter within its uncertainty") {
   if (!test::python_has("numpy, scipy")) {
     MESSAGE("SKIPPED: /usr/bin/python3 lacks numpy/scipy; the round trip did not run");
     return;
@@ -49,7 +49,7 @@ TEST_CASE("roundtrip: excite -> filter -> identify recovers the filter within it
   // Output noise σ = 1e-3 (numpy default_rng(11)).
   REQUIRE(test::run_python("predict_roundtrip_filter.py",
                            "'" + u + "' '" + capture + "' " + num.str() + " " + den.str() + " 1e-3 11"));
-  r = run_cli("identify '" + capture + "' --input u --output y --f0 100 --order 0/2 --save-model '" + model +
+  r = run_cli("frf '" + capture + "' --input u --output y --f0 100 --order 0/2 --save-model '" + model +
               "' --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
@@ -68,8 +68,8 @@ TEST_CASE("roundtrip: excite -> filter -> identify recovers the filter within it
   // the true one: RMS, ripple, THD and the first ten harmonic amplitudes agree within k·u of
   // the identified model's propagated uncertainty.
   const std::string wave = " --wave square --amplitude 1 --f0 50 --harmonics 2001 --rate 5000 --json -";
-  const auto fitted = run_cli("predict --model '" + model + "'" + wave);
-  const auto exact = run_cli("predict --system '" + num.str() + "/(" + den_expr.str() + ")'" + wave);
+  const auto fitted = run_cli("steady-state --model '" + model + "'" + wave);
+  const auto exact = run_cli("steady-state --system '" + num.str() + "/(" + den_expr.str() + ")'" + wave);
   REQUIRE(fitted.exit_code == 0);
   REQUIRE(exact.exit_code == 0);
   const auto f = nlohmann::json::parse(fitted.out), e = nlohmann::json::parse(exact.out);

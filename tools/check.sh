@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # The developer loop: rebuilds build/ incrementally (compiler cache on, no debug info, the flags
 # tools/test.sh uses) and runs the ctest entries of the stages named, or the whole suite.
-# Usage: tools/check.sh [STAGE…]      stages (ctest labels): core io dsp ident predict report batch cli
+# Usage: tools/check.sh [STAGE…]      stages (ctest labels): core io dsp ident steady-state report batch cli
 #        tools/check.sh -R NAME       ctest's own selection (e.g. -R period_lock_test)
 # Installs nothing (tools/test.sh does that once); warnings are errors, as in CI.
 set -euo pipefail

@@ -178,7 +178,7 @@ class Loader {
     const auto only = [&](const char* key, bool in_identify) {
       const auto* n = t.get(key);
       if (n && in_identify != identify)
-        fail(n, std::string(key) + " applies in " + (in_identify ? "identify" : "analyze") +
+        fail(n, std::string(key) + " applies in " + (in_identify ? "frf" : "analyze") +
                     " mode only (mode is " + mode_name(c.mode) + ")");
       return n;
     };
@@ -309,8 +309,8 @@ PlotSelection parse_plot_selection(std::string_view text, std::string_view field
 
 AnalysisMode parse_mode(std::string_view text, std::string_view field) {
   if (text == "analyze") return AnalysisMode::analyze;
-  if (text == "identify") return AnalysisMode::identify;
-  throw OptionError(field, "\"" + std::string(text) + "\"", "must be analyze or identify");
+  if (text == "frf") return AnalysisMode::identify;
+  throw OptionError(field, "\"" + std::string(text) + "\"", "must be analyze or frf");
 }
 
 void AnalyzeSettings::validate() const {

@@ -27,7 +27,7 @@ enum class PlotSelection { all, failed, none };
 const char* plot_selection_name(PlotSelection selection);
 /// Parses "all", "failed" or "none"; throws OptionError naming `field` otherwise.
 PlotSelection parse_plot_selection(std::string_view text, std::string_view field = "plots");
-/// Parses "analyze" or "identify"; throws OptionError naming `field` otherwise.
+/// Parses "analyze" or "frf"; throws OptionError naming `field` otherwise.
 AnalysisMode parse_mode(std::string_view text, std::string_view field = "mode");
 
 /// Settings of analyze mode (one result per channel).

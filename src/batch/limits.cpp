@@ -18,7 +18,7 @@ constexpr const char* kChannelUnit = "channel unit";
 // The catalogue. Units "channel unit" mean the unit of the analysed channel.
 const std::vector<ResultInfo> kCatalogue = {
     {"f0_hz", "Hz", Selector::none, true, true, false, false,
-     "fundamental frequency (identify: locked on the input channel)"},
+     "fundamental frequency (frf: locked on the input channel)"},
     {"dc", kChannelUnit, Selector::none, true, false, false, false, "dc value of the channel"},
     {"rms", kChannelUnit, Selector::none, true, false, false, false,
      "RMS over whole periods, dc included"},
@@ -39,7 +39,7 @@ const std::vector<ResultInfo> kCatalogue = {
     {"mag_db", "dB", Selector::harmonic_or_frequency, false, true, false, false,
      "20·log10 |H| at harmonic n (measured) or at freq_hz (fitted model)"},
     {"phase_deg", "\xC2\xB0", Selector::harmonic_or_frequency, true, true, false, true,
-     "analyze: phase of harmonic n; identify: ∠H at harmonic n or at freq_hz (model)"},
+     "analyze: phase of harmonic n; frf: ∠H at harmonic n or at freq_hz (model)"},
     {"dc_gain", "", Selector::none, false, true, false, false, "model gain at s = 0, b0/a0", true},
     {"delay_s", "s", Selector::none, false, true, false, false,
      "model dead time T (0 unless the delay is estimated)"},
@@ -198,7 +198,7 @@ std::variant<Written, std::string> parse_written(const ResultInfo& info, const s
 }  // namespace
 
 const char* mode_name(AnalysisMode mode) {
-  return mode == AnalysisMode::analyze ? "analyze" : "identify";
+  return mode == AnalysisMode::analyze ? "analyze" : "frf";
 }
 
 const std::vector<ResultInfo>& result_catalogue() { return kCatalogue; }
@@ -284,9 +284,9 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
   if (!available)
     return LimitProblem{"result", "result \"" + limit.result + "\" is not available in " +
                                       mode_name(mode) + " mode (it is " +
-                                      (info->in_analyze ? "an analyze" : "an identify") + " result)"};
+                                      (info->in_analyze ? "an analyze" : "an frf") + " result)"};
   if (!limit.channel.empty() && mode == AnalysisMode::identify)
-    return LimitProblem{"channel", "channel applies in analyze mode only (identify uses the "
+    return LimitProblem{"channel", "channel applies in analyze mode only (frf uses the "
                                    "input and output channels of [analysis])"};
   // Selectors.
   const std::string& r = limit.result;
@@ -298,7 +298,7 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
   if (limit.freq_hz && !wants_frequency)
     return LimitProblem{"freq_hz", mode == AnalysisMode::analyze && wants_harmonic
                                        ? r + " takes a harmonic in analyze mode; freq_hz needs "
-                                             "the fitted model of identify mode"
+                                             "the fitted model of frf mode"
                                        : r + " takes no freq_hz"};
   if (limit.pole && info->selector != Selector::pole) return LimitProblem{"pole", r + " takes no pole"};
   if (wants_frequency && limit.harmonic && limit.freq_hz)

@@ -116,26 +116,26 @@ Runner add_batch(CLI::App& app) {
                               "file-name glob, repeatable (default: known capture extensions)")
                    ->type_name("GLOB");
   a.recursive = app.add_flag("--recursive,-r", a.flags.files.recursive, "descend into sub-folders");
-  a.mode_option = app.add_option("--mode", a.mode, "per-file analysis: analyze or identify")
+  a.mode_option = app.add_option("--mode", a.mode, "per-file analysis: analyze or frf")
                       ->default_str(batch::mode_name(defaults.mode))
                       ->type_name("MODE");
   a.channels = app.add_option("--channel", a.flags.analyze.channels,
                               "analyze: channel to analyse, a name or #N (0-based position), repeatable (default: all)")
                    ->type_name("CH");
-  a.input = app.add_option("--input", a.flags.identify.input_channel, "identify: DUT input channel")
+  a.input = app.add_option("--input", a.flags.identify.input_channel, "frf: DUT input channel")
                 ->capture_default_str()
                 ->type_name("CH");
-  a.output = app.add_option("--output", a.flags.identify.output_channel, "identify: DUT output channel (default: #1)")
+  a.output = app.add_option("--output", a.flags.identify.output_channel, "frf: DUT output channel (default: #1)")
                  ->type_name("CH");
-  a.order = app.add_option("--order", a.flags.identify.order, "identify: model order M/N or auto (default: no model)")
+  a.order = app.add_option("--order", a.flags.identify.order, "frf: model order M/N or auto (default: no model)")
                 ->type_name("M/N");
-  a.delay = app.add_flag("--delay", a.flags.identify.estimate_delay, "identify: estimate the dead time");
+  a.delay = app.add_flag("--delay", a.flags.identify.estimate_delay, "frf: estimate the dead time");
   a.min_snr = app.add_option("--min-snr", a.flags.identify.frf.min_snr_db,
-                             "identify: input SNR for a harmonic to count as excited")
+                             "frf: input SNR for a harmonic to count as excited")
                   ->capture_default_str()
                   ->type_name("DB");
   a.skew = add_duration_option(app, "--skew", a.flags.identify.frf.skew_s,
-                               "identify: output path delay to remove in seconds, e.g. 12ns");
+                               "frf: output path delay to remove in seconds, e.g. 12ns");
   const FundamentalOptions fundamental = add_fundamental_options(
       app, a.flags.analyze.f0_hz, a.flags.analyze.f0_hint_hz, a.flags.analyze.harmonics);
   a.f0 = fundamental.f0;

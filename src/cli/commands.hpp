@@ -12,8 +12,8 @@ using Runner = std::function<int()>;
 
 Runner add_info(CLI::App& app);
 Runner add_analyze(CLI::App& app);
-Runner add_identify(CLI::App& app);
-Runner add_predict(CLI::App& app);
+Runner add_frf(CLI::App& app);
+Runner add_steady_state(CLI::App& app);
 Runner add_excite(CLI::App& app);
 Runner add_batch(CLI::App& app);
 

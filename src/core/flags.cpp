@@ -23,10 +23,10 @@ const std::vector<FlagInfo> kFlags = {
     {"not-periodic", FlagSeverity::invalidates, "analyze",
      "the harmonics of the f0 found explain little of the signal's line power (two tones, "
      "modulation): f0 and the harmonic figures do not describe one periodic signal"},
-    {"model-not-converged", FlagSeverity::invalidates, "identify",
+    {"model-not-converged", FlagSeverity::invalidates, "frf",
      "the model fit stopped without converging: its parameters are not the least-squares estimate"},
-    {"few-periods", FlagSeverity::caution, "analyze, identify",
-     "few periods in the record (analyze: < 2; identify: < 4 whole periods, noise from the bins "
+    {"few-periods", FlagSeverity::caution, "analyze, frf",
+     "few periods in the record (analyze: < 2; frf: < 4 whole periods, noise from the bins "
      "between harmonics): the figures rest on little data"},
     {"baseline-drift", FlagSeverity::caution, "analyze",
      "a slow trend under the signal was fitted (Legendre, degree ≤ 2) and kept out of the noise "
@@ -36,28 +36,28 @@ const std::vector<FlagInfo> kFlags = {
      "as noise in THD+N, SINAD and SNR"},
     {"drift", FlagSeverity::caution, "analyze",
      "f0 differs between the halves of the record: the figures are averages over the record"},
-    {"nonlinear", FlagSeverity::caution, "identify",
+    {"nonlinear", FlagSeverity::caution, "frf",
      "output power above the noise at harmonics the input does not excite: the FRF holds for this "
      "excitation level only"},
-    {"model-inadequate", FlagSeverity::caution, "identify",
+    {"model-inadequate", FlagSeverity::caution, "frf",
      "the model's cost lies outside the band a correct model reaches: model-derived numbers are "
      "those of an approximation"},
-    {"unstable-pole", FlagSeverity::caution, "identify",
+    {"unstable-pole", FlagSeverity::caution, "frf",
      "the fitted model has a pole in the right half-plane"},
-    {"ill-conditioned", FlagSeverity::caution, "identify",
+    {"ill-conditioned", FlagSeverity::caution, "frf",
      "the fit's scaled Jacobian has a condition number above 1e10: the parameters' uncertainties "
      "are not reliable"},
-    {"parameter-u-undefined", FlagSeverity::caution, "identify",
+    {"parameter-u-undefined", FlagSeverity::caution, "frf",
      "weights from 6 periods or fewer: the parameters' variance does not exist to first order, and "
      "their u carries only the first-moment correction"},
-    {"numerical-floor", FlagSeverity::info, "identify",
+    {"numerical-floor", FlagSeverity::info, "frf",
      "a noise-free record: some variances were raised to the numerical floor (1e-12 of |H|)"},
-    {"truncation-visible", FlagSeverity::caution, "predict",
+    {"truncation-visible", FlagSeverity::caution, "steady-state",
      "the harmonic series was cut where the waveform still carries visible energy: samples, min, "
      "max and ripple show the truncation"},
-    {"gibbs", FlagSeverity::info, "predict",
+    {"gibbs", FlagSeverity::info, "steady-state",
      "the waveform has jumps: a truncated series overshoots near them (Gibbs phenomenon)"},
-    {"no-fundamental", FlagSeverity::info, "predict",
+    {"no-fundamental", FlagSeverity::info, "steady-state",
      "the predicted output has no line at the fundamental: its THD is undefined"},
 };
 

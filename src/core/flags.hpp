@@ -29,7 +29,7 @@ const char* severity_name(FlagSeverity severity);
 struct FlagInfo {
   std::string_view code;       ///< as results carry it: "clipped"
   FlagSeverity severity;
-  std::string_view raised_by;  ///< "analyze", "identify", "predict" (the commands whose results carry it)
+  std::string_view raised_by;  ///< "analyze", "frf", "steady-state" (the commands whose results carry it)
   std::string_view meaning;    ///< one sentence for people: what it means for the numbers
 };
 

@@ -93,7 +93,7 @@ IdentifyResult identify(const Capture& capture, const IdentifyOptions& options =
 IdentifyResult identify(const Capture& input_capture, const Capture& output_capture,
                         const IdentifyOptions& options = {});
 
-/// The identify JSON document (docs/identify-json.md), keys in the documented order.
+/// The identify JSON document (docs/frf-json.md), keys in the documented order.
 nlohmann::ordered_json identify_json(const IdentifyResult& result);
 
 /// The report for people: a header, the FRF table, the model summary and the flags.
@@ -104,7 +104,7 @@ std::string format_identify_report(const IdentifyResult& result);
 /// §7.2.2 "u = …" form; `u=undefined` at a repeated root):
 ///   complex pair: natural frequency f_n = |p|/2π, damping ratio ζ, Q;
 ///   real root:    corner frequency f_c = |p|/2π, time constant τ = −1/p (negative: right half-plane).
-/// rad/s values are in the JSON (docs/identify-json.md), not here.
+/// rad/s values are in the JSON (docs/frf-json.md), not here.
 std::string format_roots_table(const std::vector<Root>& roots);
 
 /// One root (or pair) as one phrase in the same layout, e.g. `complex pair: natural frequency

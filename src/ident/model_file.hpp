@@ -1,6 +1,6 @@
 #pragma once
 /// The model file: our own JSON document holding a fitted H(s) = B(s)/A(s)·e^{−sT} with its
-/// parameter covariance, so `predict` (and people) can reuse a model without refitting. Schema
+/// parameter covariance, so `steady-state` (and people) can reuse a model without refitting. Schema
 /// and versioning rules: docs/model-file.md. Format name "periodfit-model", version 1.
 ///
 /// Usage:

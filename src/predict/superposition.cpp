@@ -225,7 +225,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
   const ident::RationalModel* model =
       system.model && !system.model->den.empty() ? &*system.model : nullptr;
   if (!model && system.measured.empty())
-    throw AnalysisError("no system to predict through: give a model or measured FRF points");
+    throw AnalysisError("no system to pass the input through: give a model or measured FRF points");
 
   std::size_t params = 0;
   if (model) {

@@ -145,7 +145,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
 PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSystem& system,
                                    const PredictOptions& options = {});
 
-/// `time_s,value[,value_u]` lines (docs/predict-json.md), doubles shortest round-trip.
+/// `time_s,value[,value_u]` lines (docs/steady-state-json.md), doubles shortest round-trip.
 std::string format_predict_csv(const PredictResult& result);
 
 /// The text report for people: a key/value summary and the harmonic table (first
@@ -160,7 +160,7 @@ dsp::HarmonicTerm parse_harmonic_term(std::string_view text);
 dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
                                               const std::vector<std::complex<double>>& phasors);
 
-/// The JSON document of docs/predict-json.md (keys in that order).
+/// The JSON document of docs/steady-state-json.md (keys in that order).
 nlohmann::ordered_json predict_json(const PredictResult& result);
 
 }  // namespace periodfit::predict

@@ -1,4 +1,4 @@
-"""Reference for tests/cli_identify_test.cpp: the FRF of a coherently sampled CSV capture by
+"""Reference for tests/cli_frf_test.cpp: the FRF of a coherently sampled CSV capture by
 numpy alone. The capture holds P whole periods of exactly M samples (fs/f0 an integer), so the
 periods need no resampling: numpy.fft.rfft of each period (scaled 2/M, peak phasors), averaged
 over the periods, H_n = mean(Y_n)/mean(U_n), and the errors-in-variables variance

@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Batch throughput: 400 two-channel captures of 200 000 samples (24-bit WAV, generated once by
-# batch_bench_gen.py), `periodfit batch` in identify mode with a 0/2 model and limits, at
+# batch_bench_gen.py), `periodfit batch` in frf mode with a 0/2 model and limits, at
 # --jobs 1 and --jobs 2; per-file overhead beyond the analysis (from --timing); peak RSS
 # (/usr/bin/time -v) for 100 and for 400 files, which should not grow with the file count.
 # Usage: tools/bench/batch_bench.sh [BINARY=build/periodfit] [WORK=/tmp/periodfit-bench-batch]
@@ -17,7 +17,7 @@ if [ ! -f "$WORK/captures/unit_$(printf %04d $((FILES - 1))).wav" ]; then
 fi
 cat > "$WORK/bench.toml" <<'TOML'
 [analysis]
-mode = "identify"
+mode = "frf"
 input = "0"
 output = "1"
 order = "0/2"

@@ -1,10 +1,10 @@
 #!/usr/bin/python3
-"""Monte Carlo coverage of `periodfit identify`: do the reported 95 % intervals hold the truth
+"""Monte Carlo coverage of `periodfit frf`: do the reported 95 % intervals hold the truth
 95 % of the time?
 
 Each run synthesises a two-channel CSV (t, v_in, v_out) of a flat multisine through a known
 DUT by exact Fourier-series superposition, adds independent white Gaussian noise to both
-channels, runs `periodfit identify --json -` and scores:
+channels, runs `periodfit frf --json -` and scores:
   * |H| and phase at every excited harmonic against the DUT's true response: inside
     [mag_lo, mag_hi] / [phase_lo_deg, phase_hi_deg] (Student-t intervals);
   * every model parameter (b0, a0, a1, and T with --delay) against its true value: inside
@@ -86,7 +86,7 @@ def main():
             t, u, y = synthesise(rng, a.periods, a.snr_db, delay)
             np.savetxt(path, np.column_stack([t, u, y]), delimiter=",", header="t,v_in,v_out",
                        comments="", fmt="%.17g")
-            cmd = [a.exe, "identify", path, "--input", "v_in", "--output", "v_out", "--f0-hint", str(F0),
+            cmd = [a.exe, "frf", path, "--input", "v_in", "--output", "v_out", "--f0-hint", str(F0),
                    "--harmonics", str(HARMONICS), "--order", "0/2", "--json", "-"]
             if a.delay:
                 cmd.append("--delay")

@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Speed of `periodfit identify` on a 2 × 4-million-sample CSV against a numpy/scipy/pandas
+"""Speed of `periodfit frf` on a 2 × 4-million-sample CSV against a numpy/scipy/pandas
 reference pipeline doing the same job, timed in the same run on the same file.
 
 The file: t, v_in, v_out; fs = 1 MHz, 4 s, f0 = 997 Hz (not coherent with fs), an odd
@@ -158,7 +158,7 @@ def main():
         t0 = time.time()
         write_capture(path, a.samples)
         print(f"wrote {path} ({os.path.getsize(path) / 1e6:.0f} MB) in {time.time() - t0:.1f} s")
-    cmd = [a.exe, "identify", path, "--input", "v_in", "--output", "v_out", "--order", "0/2",
+    cmd = [a.exe, "frf", path, "--input", "v_in", "--output", "v_out", "--order", "0/2",
            "--json", os.path.join(tmp, "periodfit.json")]
     c0 = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
@@ -176,7 +176,7 @@ def main():
     s1 = resource.getrusage(resource.RUSAGE_SELF)
     cpu_ref = (s1.ru_utime - s0.ru_utime) + (s1.ru_stime - s0.ru_stime)
     pf = json.load(open(os.path.join(tmp, "periodfit.json")))
-    print(f"periodfit identify   {t_pf:7.2f} s wall {cpu_pf:7.2f} s cpu   f0 {pf['f0_hz']:.9f} Hz, poles "
+    print(f"periodfit frf   {t_pf:7.2f} s wall {cpu_pf:7.2f} s cpu   f0 {pf['f0_hz']:.9f} Hz, poles "
           + ", ".join(f"{q['re']:.6g}{q['im']:+.6g}j" for q in pf["model"]["poles"]))
     print(f"numpy/scipy/pandas   {t_ref:7.2f} s wall {cpu_ref:7.2f} s cpu   f0 {ref['f0_hz']:.9f} Hz, poles "
           + ", ".join(f"{q[0]:.6g}{q[1]:+.6g}j" for q in ref["model"]["poles"]))

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Times periodfit predict and excite on their heaviest ordinary jobs (wall time and peak RSS
+# Times periodfit steady-state and excite on their heaviest ordinary jobs (wall time and peak RSS
 # from /usr/bin/time). Usage: tools/bench/predict_excite.sh [BINARY]
 # Figures: docs/performance.md, section "Predict and excite".
 set -euo pipefail
@@ -12,8 +12,8 @@ run() {
   /usr/bin/time -f "%e s wall  %U s user  %M kB peak RSS  $label" "$BIN" "$@" >/dev/null
 }
 RC=(--system "1000/(1000 + s)")
-run "predict square, automatic count (405 285 harmonics)" predict "${RC[@]}" --wave square --f0 50
-run "predict sawtooth, automatic count (~608 000 harmonics)" predict "${RC[@]}" --wave sawtooth --f0 50
-run "predict square, automatic, 10 periods at 1 MHz to CSV" predict "${RC[@]}" --wave square --f0 50 --csv "$TMP/a.csv" --rate 1e6 --periods 10
-run "predict square, 20 000 harmonics, direct sums at 44.123 kHz (882.46 samples/period)" predict "${RC[@]}" --wave square --f0 50 --harmonics 20000 --csv "$TMP/b.csv" --rate 44123
+run "steady-state square, automatic count (405 285 harmonics)" steady-state "${RC[@]}" --wave square --f0 50
+run "steady-state sawtooth, automatic count (~608 000 harmonics)" steady-state "${RC[@]}" --wave sawtooth --f0 50
+run "steady-state square, automatic, 10 periods at 1 MHz to CSV" steady-state "${RC[@]}" --wave square --f0 50 --csv "$TMP/a.csv" --rate 1e6 --periods 10
+run "steady-state square, 20 000 harmonics, direct sums at 44.123 kHz (882.46 samples/period)" steady-state "${RC[@]}" --wave square --f0 50 --harmonics 20000 --csv "$TMP/b.csv" --rate 44123
 run "excite 2000-line Schroeder multisine, 60 s at 192 kHz, pcm24" excite "$TMP/c.wav" --harmonics 1-2000 --f0 1 --rate 192000 --duration 60

@@ -1,4 +1,4 @@
-// `periodfit predict` contracts: whole text output, JSON and CSV shapes, model files (with
+// `periodfit steady-state` contracts: whole text output, JSON and CSV shapes, model files (with
 // covariance and measured points), a capture as the input, and bad input (exit 2, one line).
 #include <doctest/doctest.h>
 
@@ -35,9 +35,9 @@ void write_rc_model(const std::string& path, bool with_covariance, bool with_frf
 }
 }  // namespace
 
-TEST_CASE("cli predict: a sine through an RC low-pass prints the whole documented report") {
+TEST_CASE("cli steady-state: a sine through an RC low-pass prints the whole documented report") {
   // f0 = 1000/(2π) Hz, so ωτ = 1: |H| = 1/√2 and ∠H = −45° (closed form of 1/(1 + jωτ)).
-  const auto r = run_cli("predict --system '1000/(1000 + s)' --wave sine --amplitude 1 --f0 159.15494309189535");
+  const auto r = run_cli("steady-state --system '1000/(1000 + s)' --wave sine --amplitude 1 --f0 159.15494309189535");
   CHECK(r.exit_code == 0);
   CHECK(r.err == "");
   CHECK(r.out ==
@@ -57,9 +57,9 @@ TEST_CASE("cli predict: a sine through an RC low-pass prints the whole documente
         "1  159.155   0.707107   -135.000  0.707107         -45.000  model\n");
 }
 
-TEST_CASE("cli predict: JSON holds dc, harmonics and the truncation bound") {
+TEST_CASE("cli steady-state: JSON holds dc, harmonics and the truncation bound") {
   // Half-wave rectified 10 V, 50 Hz into τ = 1 ms: dc is H(0)·A/π = 10/π (handbook series).
-  const auto r = run_cli("predict --system '1000/(1000 + s)' --wave half-wave --amplitude 10 --f0 50 --harmonics 400 --json -");
+  const auto r = run_cli("steady-state --system '1000/(1000 + s)' --wave half-wave --amplitude 10 --f0 50 --harmonics 400 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
   CHECK(j["dc"].get<double>() == doctest::Approx(10 / kPi).epsilon(kJsonRel));
@@ -80,12 +80,12 @@ TEST_CASE("cli predict: JSON holds dc, harmonics and the truncation bound") {
   CHECK(j["status"] == "ok");
 }
 
-TEST_CASE("cli predict: a model file with covariance gives value_u in the CSV") {
+TEST_CASE("cli steady-state: a model file with covariance gives value_u in the CSV") {
   test::TempDir dir("cli_predict_cov");
   const auto model = dir.file("rc.model.json");
   write_rc_model(model, true, false);
   const auto csv = dir.file("out.csv");
-  const auto r = run_cli("predict --model '" + model + "' --wave square --f0 100 --harmonics 99 --csv '" + csv +
+  const auto r = run_cli("steady-state --model '" + model + "' --wave square --f0 100 --harmonics 99 --csv '" + csv +
                          "' --rate 1000 --periods 2");
   REQUIRE(r.exit_code == 0);
   const std::string text = test::slurp(csv);
@@ -95,9 +95,9 @@ TEST_CASE("cli predict: a model file with covariance gives value_u in the CSV") 
   CHECK(r.out.find("u_amplitude") != std::string::npos);
 }
 
-TEST_CASE("cli predict: --harmonics 199 --json lists 199 harmonics; --list shortens only the text") {
+TEST_CASE("cli steady-state: --harmonics 199 --json lists 199 harmonics; --list shortens only the text") {
   // A sawtooth has every harmonic (handbook series 2A/(n pi)), so 199 are computed and listed.
-  const std::string args = "predict --system \"1000/(1000 + s)\" --wave sawtooth --f0 50 --harmonics 199";
+  const std::string args = "steady-state --system \"1000/(1000 + s)\" --wave sawtooth --f0 50 --harmonics 199";
   const auto json = run_cli(args + " --list 3 --json -");
   REQUIRE(json.exit_code == 0);
   const auto j = nlohmann::json::parse(json.out);
@@ -119,12 +119,12 @@ TEST_CASE("cli predict: --harmonics 199 --json lists 199 harmonics; --list short
   CHECK(text.out.substr(text.out.size() - table_end.size()) == table_end);
 }
 
-TEST_CASE("cli predict: measured FRF points are used only where they exist") {
+TEST_CASE("cli steady-state: measured FRF points are used only where they exist") {
   test::TempDir dir("cli_predict_frf");
   const auto model = dir.file("rc.model.json");
   write_rc_model(model, false, true);
   // Harmonics 1, 3, 5 are measured; 7 comes from the model.
-  auto r = run_cli("predict --model '" + model + "' --response-from measured --wave square --f0 100 --harmonics 7 --json -");
+  auto r = run_cli("steady-state --model '" + model + "' --response-from measured --wave square --f0 100 --harmonics 7 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
   CHECK(j["method"] == "superposition (measured FRF + model)");
@@ -132,13 +132,13 @@ TEST_CASE("cli predict: measured FRF points are used only where they exist") {
   CHECK(j["harmonics"][3]["source"] == "model");
   // --response-from model: the fit everywhere, measured points ignored. (A model file always holds a
   // model, so the refusal to extrapolate measured-only points is tested in superposition_test.)
-  r = run_cli("predict --model '" + model + "' --response-from model --wave square --f0 100 --harmonics 7 --json -");
+  r = run_cli("steady-state --model '" + model + "' --response-from model --wave square --f0 100 --harmonics 7 --json -");
   REQUIRE(r.exit_code == 0);
   CHECK(nlohmann::json::parse(r.out)["method"] == "superposition (model)");
   CHECK(r.exit_code == 0);  // the model everywhere: fine
 }
 
-TEST_CASE("cli predict: a capture's analysed harmonics are the input") {
+TEST_CASE("cli steady-state: a capture's analysed harmonics are the input") {
   // An invented capture: 2 V at 50 Hz plus 0.5 V at 150 Hz (phase +30°), 20 periods at 10 kHz.
   test::TempDir dir("cli_predict_capture");
   const auto path = dir.file("supply.csv");
@@ -151,7 +151,7 @@ TEST_CASE("cli predict: a capture's analysed harmonics are the input") {
       out << t << "," << 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) << "\n";
     }
   }
-  const auto r = run_cli("predict --system '1000/(1000 + s)' --input-file '" + path + "' --channel v --harmonics 5 --json -");
+  const auto r = run_cli("steady-state --system '1000/(1000 + s)' --input-file '" + path + "' --channel v --harmonics 5 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
   CHECK(j["harmonic_count_method"] == "measured");
@@ -162,12 +162,12 @@ TEST_CASE("cli predict: a capture's analysed harmonics are the input") {
   // noise-free, so the analysis recovers the input to ~1e-9.
   CHECK(j["harmonics"][2]["amplitude"].get<double>() == doctest::Approx(0.5 / std::sqrt(1 + w3 * w3)).epsilon(1e-7));
   CHECK(j["harmonics"][2]["phase_deg"].get<double>() == doctest::Approx(30 - std::atan(w3) * 180 / kPi).epsilon(1e-7));
-  const auto bad = run_cli("predict --system '1/(1 + s)' --input-file '" + path + "' --channel v_ot");
+  const auto bad = run_cli("steady-state --system '1/(1 + s)' --input-file '" + path + "' --channel v_ot");
   CHECK(bad.exit_code == 2);
   CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" in " + path + " (channels: v)\n");  // too far for a suggestion
 }
 
-TEST_CASE("cli predict: bad input gives one error line and exit code 2") {
+TEST_CASE("cli steady-state: bad input gives one error line and exit code 2") {
   struct Case {
     std::string args, err;
   };
@@ -177,33 +177,33 @@ TEST_CASE("cli predict: bad input gives one error line and exit code 2") {
   const auto broken = dir.file("broken.json");
   test::write_text(broken, "{\"format\": \"periodfit-model\",\n");
   const Case cases[] = {
-      {"predict --system '1/(1 + s)' --wave sqare",
+      {"steady-state --system '1/(1 + s)' --wave sqare",
        "periodfit: error: unknown wave kind \"sqare\" (did you mean \"square\"? wave kinds: sine, square, triangle, "
        "sawtooth, half-wave, full-wave, pulse, harmonics)\n"},
-      {"predict --system '1/(1 + s)' --wave square --duty 1.5",
+      {"steady-state --system '1/(1 + s)' --wave square --duty 1.5",
        "periodfit: error: invalid option: duty = 1.5 (must be in (0, 1))\n"},
-      {"predict --system '1/(1 + s)' --wave pulse --duty 0", "periodfit: error: invalid option: duty = 0 (must be in (0, 1))\n"},
-      {"predict --system '1/(1 + s)' --wave sine --f0 0", "periodfit: error: invalid option: f0_hz = 0 (must be > 0)\n"},
-      {"predict --system '1/(1 + s)' --wave sine --f0 -50", "periodfit: error: invalid option: f0_hz = -50 (must be > 0)\n"},
-      {"predict --system '1/(1 + 0.001*s' --wave sine",
+      {"steady-state --system '1/(1 + s)' --wave pulse --duty 0", "periodfit: error: invalid option: duty = 0 (must be in (0, 1))\n"},
+      {"steady-state --system '1/(1 + s)' --wave sine --f0 0", "periodfit: error: invalid option: f0_hz = 0 (must be > 0)\n"},
+      {"steady-state --system '1/(1 + s)' --wave sine --f0 -50", "periodfit: error: invalid option: f0_hz = -50 (must be > 0)\n"},
+      {"steady-state --system '1/(1 + 0.001*s' --wave sine",
        "periodfit: error: --system: unbalanced parentheses: expected \")\" for the \"(\" at column 3, found end of "
        "expression at column 15\n"},
-      {"predict --system '' --wave sine",
+      {"steady-state --system '' --wave sine",
        "periodfit: error: --system: expected an expression, found end of expression at column 1\n"},
-      {"predict --system '1/(s - 1)' --wave sine",
+      {"steady-state --system '1/(s - 1)' --wave sine",
        "periodfit: error: the model has a pole at 1+0j rad/s, not in the open left half-plane: it has no periodic "
        "steady state\n"},
-      {"predict --model '" + missing_den + "' --wave sine",
+      {"steady-state --model '" + missing_den + "' --wave sine",
        "periodfit: error: " + missing_den + ": missing key \"model.den\"\n"},
-      {"predict --model '" + broken + "' --wave sine",
+      {"steady-state --model '" + broken + "' --wave sine",
        "periodfit: error: " + broken +
            ":2:1: not valid JSON: syntax error while parsing object key - unexpected end of input; expected string "
            "literal\n"},
-      {"predict --system '1/(1 + s)' --harmonic 3:0.5", "periodfit: error: invalid option: harmonic = 3:0.5 (expected "
+      {"steady-state --system '1/(1 + s)' --harmonic 3:0.5", "periodfit: error: invalid option: harmonic = 3:0.5 (expected "
                                                      "n:amplitude:phase_deg, e.g. 3:0.25:-90)\n"},
-      {"predict --system '1/(1 + s)'", "periodfit: error: invalid option: input = (none) (give --wave KIND, --harmonic "
+      {"steady-state --system '1/(1 + s)'", "periodfit: error: invalid option: input = (none) (give --wave KIND, --harmonic "
                                     "n:amp:phase_deg or --input-file FILE)\n"},
-      {"predict --wave sine", "periodfit: error: invalid option: system = (none) (give --model FILE or --system EXPR)\n"},
+      {"steady-state --wave sine", "periodfit: error: invalid option: system = (none) (give --model FILE or --system EXPR)\n"},
   };
   for (const auto& c : cases) {
     INFO(c.args);
@@ -214,16 +214,16 @@ TEST_CASE("cli predict: bad input gives one error line and exit code 2") {
   }
 }
 
-TEST_CASE("cli predict: --system takes the issue's second-order section with a named constant, and --delay") {
+TEST_CASE("cli steady-state: --system takes the issue's second-order section with a named constant, and --delay") {
   // At ω = ωn: H(jωn) = 0.8·ωn²/(2ζωn·jωn) = −j·0.8/(2ζ): gain 0.8/0.7, phase −90° (closed form).
-  const auto r = run_cli("predict --system '0.8*w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200' --wave sine --f0 1200 "
+  const auto r = run_cli("steady-state --system '0.8*w^2/(s^2 + 2*0.35*w*s + w^2); w = 2*pi*1200' --wave sine --f0 1200 "
                          "--json -");
   REQUIRE(r.exit_code == 0);
   const auto h1 = nlohmann::json::parse(r.out)["harmonics"][0];
   CHECK(h1["gain_magnitude"].get<double>() == doctest::Approx(0.8 / 0.7).epsilon(kJsonRel));
   CHECK(h1["gain_phase_deg"].get<double>() == doctest::Approx(-90).epsilon(kJsonRel));
   // Dead time T adds −360°·f·T: 1000/(1000 + s) at ωτ = 1 with T = 100 µs → −45° − 5.7296°.
-  const auto d = run_cli("predict --system '1000/(1000 + s)' --delay 1e-4 --wave sine --f0 159.15494309189535 --json -");
+  const auto d = run_cli("steady-state --system '1000/(1000 + s)' --delay 1e-4 --wave sine --f0 159.15494309189535 --json -");
   REQUIRE(d.exit_code == 0);
   const auto g1 = nlohmann::json::parse(d.out)["harmonics"][0];
   CHECK(g1["gain_magnitude"].get<double>() == doctest::Approx(1 / std::sqrt(2.0)).epsilon(kJsonRel));

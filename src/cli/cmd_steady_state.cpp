@@ -1,5 +1,5 @@
-// periodfit predict: the steady-state output of a model or measured FRF for a periodic input,
-// by superposition (predict/superposition.hpp). Outputs: docs/predict-json.md.
+// periodfit steady-state: the steady-state output of a model or measured FRF for a periodic input,
+// by superposition (predict/superposition.hpp). Outputs: docs/steady-state-json.md.
 #include <cstdio>
 #include <memory>
 #include <string>
@@ -37,11 +37,11 @@ struct PredictArgs {
 };
 }  // namespace
 
-Runner add_predict(CLI::App& app) {
+Runner add_steady_state(CLI::App& app) {
   auto a = std::make_shared<PredictArgs>();
   auto& o = a->options;
   // System.
-  auto* model = app.add_option("--model", a->model_path, "model file written by identify (may hold measured FRF points)")
+  auto* model = app.add_option("--model", a->model_path, "model file written by frf (may hold measured FRF points)")
                     ->type_name("FILE")->group("system");
   // The system as text: docs/system-expression.md (grammar, columns in error messages).
   auto* system = app.add_option("--system", a->system,

@@ -1,4 +1,4 @@
-// `periodfit identify`: the report layout, the JSON contract (docs/identify-json.md), the model
+// `periodfit frf`: the report layout, the JSON contract (docs/frf-json.md), the model
 // file, two-file captures, and every bad input as one `periodfit: error: …` line with exit 2.
 #include <doctest/doctest.h>
 
@@ -85,11 +85,11 @@ std::string q(const std::string& path) { return "'" + path + "'"; }
 
 }  // namespace
 
-TEST_CASE("cli identify: report with header, FRF table, linearity and flags") {
+TEST_CASE("cli frf: report with header, FRF table, linearity and flags") {
   const TempDir dir("cli_identify_report");
   auto s = rc_square(12, 1e-3, 1);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
-  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31");
+  const auto r = run_cli("frf " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31");
   CHECK(r.exit_code == 0);
   CHECK(r.err == "");
   std::istringstream lines(r.out);
@@ -119,11 +119,11 @@ TEST_CASE("cli identify: report with header, FRF table, linearity and flags") {
   CHECK(l.back() == "flags: none");
 }
 
-TEST_CASE("cli identify: --json - holds the documented keys; RC pole within 3 sigma and 1 %") {
+TEST_CASE("cli frf: --json - holds the documented keys; RC pole within 3 sigma and 1 %") {
   const TempDir dir("cli_identify_json");
   auto s = rc_square(12, 1e-3, 2);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
-  const auto r = run_cli("identify " + q(dir.file("rc.csv")) +
+  const auto r = run_cli("frf " + q(dir.file("rc.csv")) +
                          " --input v_in --output v_out --f0-hint 50 --harmonics 31 --order 0/1 --json -");
   REQUIRE(r.exit_code == 0);
   CHECK(r.err.find("error") == std::string::npos);  // warnings (e.g. the χ² verdict) may appear
@@ -157,7 +157,7 @@ TEST_CASE("cli identify: --json - holds the documented keys; RC pole within 3 si
   CHECK(m["zeros"].empty());
 }
 
-TEST_CASE("cli identify: FRF and variance equal an independent numpy computation (coherent capture)") {
+TEST_CASE("cli frf: FRF and variance equal an independent numpy computation (coherent capture)") {
   if (!periodfit::test::python_has("numpy")) {
     MESSAGE("skipped: /usr/bin/python3 lacks numpy");
     return;
@@ -169,7 +169,7 @@ TEST_CASE("cli identify: FRF and variance equal an independent numpy computation
   const TempDir dir("cli_identify_numpy");
   auto s = rc_square(10, 1e-3, 6);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
-  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0 50 --harmonics 31 --json -");
+  const auto r = run_cli("frf " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0 50 --harmonics 31 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
   CHECK(j["samples_per_period"] == 400);
@@ -194,11 +194,11 @@ TEST_CASE("cli identify: FRF and variance equal an independent numpy computation
   CHECK(i == j["frf"].size());
 }
 
-TEST_CASE("cli identify: --save-model writes a model file that reads back") {
+TEST_CASE("cli frf: --save-model writes a model file that reads back") {
   const TempDir dir("cli_identify_model");
   auto s = rc_square(8, 1e-3, 3);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
-  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 " +
+  const auto r = run_cli("frf " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 " +
                          "--order 0/1 --save-model " + q(dir.file("rc.model.json")) + " --json " +
                          q(dir.file("rc.json")));
   REQUIRE(r.exit_code == 0);
@@ -210,11 +210,11 @@ TEST_CASE("cli identify: --save-model writes a model file that reads back") {
   CHECK(model.frf.size() == 16);
 }
 
-TEST_CASE("cli identify: --plot writes a Bode SVG with both panels and the model curve") {
+TEST_CASE("cli frf: --plot writes a Bode SVG with both panels and the model curve") {
   const TempDir dir("cli_identify_plot");
   auto s = rc_square(8, 1e-3, 3);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
-  const auto r = run_cli("identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 " +
+  const auto r = run_cli("frf " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 " +
                          "--order 0/1 --plot " + q(dir.file("bode.svg")));
   REQUIRE(r.exit_code == 0);
   const std::string svg = periodfit::test::slurp(dir.file("bode.svg"));
@@ -226,12 +226,12 @@ TEST_CASE("cli identify: --plot writes a Bode SVG with both panels and the model
   CHECK(svg.find("</svg>") != std::string::npos);
 }
 
-TEST_CASE("cli identify: two files on a common time base, --scale per channel, --skew") {
+TEST_CASE("cli frf: two files on a common time base, --scale per channel, --skew") {
   const TempDir dir("cli_identify_two");
   auto s = rc_square(8, 1e-3, 4, 0.5);  // output recorded at half scale
   write_text(dir.file("in.csv"), csv({&s.u}, {"v_in"}));
   write_text(dir.file("out.csv"), csv({&s.y}, {"v_out"}));
-  const auto r = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+  const auto r = run_cli("frf " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
                          " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
@@ -240,25 +240,25 @@ TEST_CASE("cli identify: two files on a common time base, --scale per channel, -
   CHECK(std::abs(p1["mag"].get<double>() - 0.70710678) <= kFrfBound * p1["mag_u"].get<double>());
   // --skew 1e-4: the output path is taken to lag by 0.1 ms, so the phase rises by n·ω0·skew
   // = 360°·50 Hz·1e-4 s = 1.8° at n = 1.
-  const auto skewed = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+  const auto skewed = run_cli("frf " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
                               " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --skew 1e-4 --json -");
   REQUIRE(skewed.exit_code == 0);
   const auto k = nlohmann::json::parse(skewed.out);
   CHECK(k["frf"][0]["phase_deg"].get<double>() - p1["phase_deg"].get<double>() == doctest::Approx(1.8).epsilon(kF0Relative));
   // --skew 100us is the same 1e-4 s, read with its SI prefix (io/quantity.hpp): the same JSON.
-  const auto prefixed = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+  const auto prefixed = run_cli("frf " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
                                 " --input v_in --output v_out --f0-hint 50 --scale v_out=2 --harmonics 31 --skew 100us --json -");
   REQUIRE(prefixed.exit_code == 0);
   CHECK(prefixed.out == skewed.out);
 }
 
-TEST_CASE("cli identify: two files as the README shows them: the output file's only channel by default") {
+TEST_CASE("cli frf: two files as the README shows them: the output file's only channel by default") {
   const TempDir dir("cli_identify_two_default");
   auto s = rc_square(8, 1e-3, 4);
   write_text(dir.file("in.csv"), csv({&s.u}, {"CH1"}));
   write_text(dir.file("out.csv"), csv({&s.y}, {"CH2"}));
   write_text(dir.file("out2.csv"), csv({&s.y, &s.u}, {"CH2", "CH3"}));
-  const auto r = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+  const auto r = run_cli("frf " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
                          " --f0-hint 50 --harmonics 31 --json -");
   CHECK(r.err == "");
   REQUIRE(r.exit_code == 0);
@@ -266,27 +266,27 @@ TEST_CASE("cli identify: two files as the README shows them: the output file's o
   CHECK(j["input"]["channel"] == "CH1");
   CHECK(j["output"]["channel"] == "CH2");
   // Several channels in the output file: the user chooses, and the message names the file.
-  const auto several = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out2.csv")) +
+  const auto several = run_cli("frf " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out2.csv")) +
                                " --f0-hint 50");
   CHECK(several.exit_code == 2);
   CHECK(several.out == "");
   CHECK(several.err == "periodfit: error: " + dir.file("out2.csv") +
                            " has 2 data channels: choose the DUT output with --output (a name, or #N for position N)\n");
   // A channel the output file lacks: the error names that file, not the input file.
-  const auto missing = run_cli("identify " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
+  const auto missing = run_cli("frf " + q(dir.file("in.csv")) + " --output-file " + q(dir.file("out.csv")) +
                                " --output CH9 --f0-hint 50");
   CHECK(missing.exit_code == 2);
   CHECK(missing.err == "periodfit: error: unknown channel \"CH9\" in " + dir.file("out.csv") +
                            " (did you mean \"CH2\"? channels: CH2)\n");
 }
 
-TEST_CASE("cli identify: scope columns named 1 and 2: defaults take positions #0 and #1, a digit name warns") {
+TEST_CASE("cli frf: scope columns named 1 and 2: defaults take positions #0 and #1, a digit name warns") {
   const TempDir dir("cli_identify_digit_names");
   auto s = rc_square(8, 1e-3, 4);
   write_text(dir.file("scope.csv"), csv({&s.u, &s.y}, {"1", "2"}));
   // Defaults: input #0 (named "1"), output #1 (named "2"); before issue 13 the default output "1"
   // matched the name of the input channel and identify stopped with "the same channel".
-  const auto r = run_cli("identify " + q(dir.file("scope.csv")) + " --f0-hint 50 --harmonics 31 --json -");
+  const auto r = run_cli("frf " + q(dir.file("scope.csv")) + " --f0-hint 50 --harmonics 31 --json -");
   CHECK(r.err == "");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
@@ -294,7 +294,7 @@ TEST_CASE("cli identify: scope columns named 1 and 2: defaults take positions #0
   CHECK(j["output"]["channel"] == "2");
   // "--input 2 --output 1" names the channels (swapped on purpose); "1" is also position 1, so
   // each selector that could be read the other way gets a warning saying how to write it.
-  const auto named = run_cli("identify " + q(dir.file("scope.csv")) + " --input 2 --output 1 --f0-hint 50 --harmonics 31 --json -");
+  const auto named = run_cli("frf " + q(dir.file("scope.csv")) + " --input 2 --output 1 --f0-hint 50 --harmonics 31 --json -");
   REQUIRE(named.exit_code == 0);
   const auto k = nlohmann::json::parse(named.out);
   CHECK(k["input"]["channel"] == "2");
@@ -303,7 +303,7 @@ TEST_CASE("cli identify: scope columns named 1 and 2: defaults take positions #0
                          " is the channel named 1 (#0); for the channel at position 1 (\"2\") write #1\n");
 }
 
-TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
+TEST_CASE("cli frf: bad inputs give one error line and exit 2") {
   const TempDir dir("cli_identify_bad");
   auto s = rc_square(8, 1e-3, 5);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
@@ -320,36 +320,36 @@ TEST_CASE("cli identify: bad inputs give one error line and exit 2") {
     CHECK(r.out == "");
     CHECK(r.err == "periodfit: error: " + message + "\n");
   };
-  expect_error("identify " + q(dir.file("dc.csv")) + " --input v_in --output v_out",
+  expect_error("frf " + q(dir.file("dc.csv")) + " --input v_in --output v_out",
                dir.file("dc.csv") + ": input channel \"v_in\": no periodic component: every sample equals 0.25 (dc only)");
-  expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --output-file " + q(dir.file("short.csv")),
+  expect_error("frf " + rc + " --input v_in --output v_out --f0-hint 50 --output-file " + q(dir.file("short.csv")),
                "input and output captures differ in length: 3200 samples (" + dir.file("rc.csv") + ") vs 3190 samples (" +
                    dir.file("short.csv") + ")");
-  expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --output-file " + q(dir.file("fast.csv")),
+  expect_error("frf " + rc + " --input v_in --output v_out --f0-hint 50 --output-file " + q(dir.file("fast.csv")),
                "input and output captures differ in sample rate: 20000 Hz (" + dir.file("rc.csv") + ") vs 40000 Hz (" +
                    dir.file("fast.csv") + ")");
   // 3 harmonics (1, 3, 5) excited; 3/4 has 8 parameters: 2K ≥ 9 needs K ≥ 5.
-  expect_error("identify " + rc + " --input v_in --output v_out --f0-hint 50 --harmonics 5 --order 3/4",
+  expect_error("frf " + rc + " --input v_in --output v_out --f0-hint 50 --harmonics 5 --order 3/4",
                dir.file("rc.csv") + ": model order 3/4 needs at least 5 excited harmonics; the input excites 3 (n = 1, 3, 5)");
-  expect_error("identify " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
+  expect_error("frf " + rc + " --input v_in --output v_out --save-model " + q(dir.file("m.json")),
                "invalid option: --save-model = " + dir.file("m.json") + " (needs a model: give --order M/N or --order auto)");
-  expect_error("identify " + rc + " --input v_in --output v_ot",
+  expect_error("frf " + rc + " --input v_in --output v_ot",
                "unknown channel \"v_ot\" in " + dir.file("rc.csv") +
                    " (did you mean \"v_out\"? channels: v_in, v_out)");
-  expect_error("identify " + rc + " --input v_in --output v_out --min-snr -3",
+  expect_error("frf " + rc + " --input v_in --output v_out --min-snr -3",
                "invalid option: min_snr_db = -3 (must be finite and >= 0)");
   // A noise-free pure gain y = 2u fitted with 1/1: (b0 + b1 s)/(a0 + s) = 2 for any a0 = b0/2.
   auto clean = rc_square(8, 0, 7);
   for (std::size_t k = 0; k < clean.y.size(); ++k) clean.y[k] = 2 * clean.u[k];
   write_text(dir.file("gain.csv"), csv({&clean.u, &clean.y}, {"v_in", "v_out"}));
-  expect_error("identify " + q(dir.file("gain.csv")) + " --input v_in --output v_out --f0-hint 50 --order 1/1",
+  expect_error("frf " + q(dir.file("gain.csv")) + " --input v_in --output v_out --f0-hint 50 --order 1/1",
                dir.file("gain.csv") + ": model fit: the rational fit of order 1/1 is singular: the linearised start has rank 2 < 3 (the data cannot "
                "determine this many coefficients; lower the order)");
   CHECK_FALSE(std::filesystem::exists(dir.file("m.json")));
 }
 
-TEST_CASE("cli identify: --help shows the library defaults") {
-  const auto r = run_cli("identify --help");
+TEST_CASE("cli frf: --help shows the library defaults") {
+  const auto r = run_cli("frf --help");
   CHECK(r.exit_code == 0);
   // Defaults come from ident::IdentifyOptions / FrfOptions (min_snr_db = 20, channels 0 and 1).
   const std::string indent(28, ' ');  // the help's option column (cli/usage.cpp kLabelWidth)
@@ -362,11 +362,11 @@ TEST_CASE("cli identify: --help shows the library defaults") {
   CHECK(r.out.find("  --order M/N|auto ") != std::string::npos);
 }
 
-TEST_CASE("cli identify: the text lists poles frequency first in Hz with u=; rad/s stay in the JSON") {
+TEST_CASE("cli frf: the text lists poles frequency first in Hz with u=; rad/s stay in the JSON") {
   const TempDir dir("cli_identify_roots");
   auto s = rc_square(12, 1e-3, 2);
   write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
-  const std::string args = "identify " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 --order 0/1";
+  const std::string args = "frf " + q(dir.file("rc.csv")) + " --input v_in --output v_out --f0-hint 50 --harmonics 31 --order 0/1";
   const auto text = run_cli(args);
   const auto json = run_cli(args + " --json -");
   REQUIRE(text.exit_code == 0);

@@ -1,4 +1,4 @@
-// periodfit identify: DUT frequency response with uncertainties, linearity check and an
+// periodfit frf: DUT frequency response with uncertainties, linearity check and an
 // optional rational model. Maps options onto ident::IdentifyOptions, calls ident::identify,
 // prints the report (or the JSON) and writes the files asked for.
 #include <cstdio>
@@ -118,7 +118,7 @@ int run(const IdentifyArgs& a) {
 
 }  // namespace
 
-Runner add_identify(CLI::App& app) {
+Runner add_frf(CLI::App& app) {
   auto a = std::make_shared<IdentifyArgs>();
   app.add_option("FILE", a->file, "capture with the DUT input (and its output unless --output-file)")
       ->required()
