@@ -7,10 +7,11 @@ PERIODFIT_BUILD_PACKAGES=(
   nlohmann-json3-dev libtomlplusplus-dev libboost-dev libtbb-dev
 )
 # Only the test suite needs these: reference libraries for the outside-source checks, an XML
-# checker for the SVG plots, a headless browser for the HTML report, clang for fuzzing.
+# checker for the SVG plots, a headless browser for the HTML report, clang for fuzzing and the
+# sanitizer build, and ccache so a later run on the same machine recompiles only what changed.
 PERIODFIT_TEST_PACKAGES=(
   python3 python3-numpy python3-scipy python3-pandas libxml2-utils chromium
-  clang libclang-rt-14-dev
+  clang libclang-rt-14-dev ccache
 )
 
 # periodfit_install PACKAGE…: installs whichever of the packages are missing. As root it runs
