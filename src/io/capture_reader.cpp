@@ -59,41 +59,16 @@ Probe probe(const std::string& path) {
 // ends the read at once: an endless binary device (/dev/zero, /dev/urandom) is refused in
 // microseconds instead of after gigabytes (issue 11, class 5).
 std::string read_piped(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
-  const std::size_t limit = max_piped_capture_bytes();
-  std::string bytes;
-  char buffer[1 << 16];
   bool text = false;  // decided once 16 bytes (the longest magic number looked at) have arrived
-  for (;;) {
-    const ssize_t n = ::read(fd, buffer, sizeof buffer);
-    if (n < 0) {
-      if (errno == EINTR) continue;
-      const int read_errno = errno;
-      ::close(fd);
-      throw IoError(path, "cannot read", read_errno);
-    }
-    if (n == 0) break;
-    const std::size_t before = bytes.size();
-    if (static_cast<std::size_t>(n) > limit - before) {
-      ::close(fd);
-      throw InputError(path, 0, 0,
-                       "larger than the " + format_bytes(static_cast<double>(limit)) + " limit for this input");
-    }
-    bytes.append(buffer, static_cast<std::size_t>(n));
+  return read_file(path, max_piped_capture_bytes(), [&](const std::string& bytes, std::size_t before) {
     if (!text && bytes.size() >= 16) text = !looks_like_audio(std::string_view(bytes).substr(0, 16), path);
-    if (text) {
-      const std::size_t from = before >= 16 ? before : 0;
-      if (const auto nul = bytes.find('\0', from); nul != std::string::npos) {
-        ::close(fd);
-        throw InputError(path, 0, 0,
-                         "holds a NUL byte at byte " + std::to_string(nul) +
-                             ": neither CSV text nor an audio format periodfit reads");
-      }
-    }
-  }
-  ::close(fd);
-  return bytes;
+    if (!text) return;
+    const std::size_t from = before >= 16 ? before : 0;
+    if (const auto nul = bytes.find('\0', from); nul != std::string::npos)
+      throw InputError(path, 0, 0,
+                       "holds a NUL byte at byte " + std::to_string(nul) +
+                           ": neither CSV text nor an audio format periodfit reads");
+  });
 }
 
 void validate(const ReadOptions& options) {

@@ -275,16 +275,17 @@ void install_interrupt_cleanup() {
   }
 }
 
-std::string read_file(const std::string& path, std::size_t max_bytes) {
+std::string read_file(const std::string& path, std::size_t max_bytes, const ReadCheck& check) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) throw IoError(path, "cannot open", errno);
+  // Closed on every way out, the throws of `check` included.
+  struct Closer {
+    int fd;
+    ~Closer() { ::close(fd); }
+  } closer{fd};
   struct stat info {};
-  if (::fstat(fd, &info) == 0 && S_ISDIR(info.st_mode)) {
-    ::close(fd);
-    throw IoError(path, "cannot read", EISDIR);
-  }
+  if (::fstat(fd, &info) == 0 && S_ISDIR(info.st_mode)) throw IoError(path, "cannot read", EISDIR);
   const auto too_large = [&] {
-    ::close(fd);
     throw InputError(path, 0, 0,
                      "larger than the " + format_bytes(static_cast<double>(max_bytes)) + " limit for this input");
   };
@@ -296,15 +297,14 @@ std::string read_file(const std::string& path, std::size_t max_bytes) {
     const ssize_t n = ::read(fd, buffer, sizeof buffer);
     if (n < 0) {
       if (errno == EINTR) continue;
-      const int read_errno = errno;
-      ::close(fd);
-      throw IoError(path, "cannot read", read_errno);
+      throw IoError(path, "cannot read", errno);
     }
     if (n == 0) break;
     if (static_cast<std::size_t>(n) > max_bytes - bytes.size()) too_large();
+    const std::size_t before = bytes.size();
     bytes.append(buffer, static_cast<std::size_t>(n));
+    if (check) check(bytes, before);
   }
-  ::close(fd);
   return bytes;
 }
 

@@ -16,6 +16,7 @@
 ///   for (const auto& part : parts) out.write(part);
 ///   out.commit();  // leaving the scope without commit() removes the temporary
 #include <cstddef>
+#include <functional>
 #include <memory>
 #include <string>
 #include <string_view>
@@ -105,9 +106,15 @@ void write_file_atomic(const std::string& path, std::string_view content);
 /// partial output behind.
 void install_interrupt_cleanup();
 
+/// Called after each chunk read by read_file with the bytes so far and how many there were
+/// before the chunk; it may throw to stop the read (the file is closed either way).
+using ReadCheck = std::function<void(const std::string& bytes, std::size_t before)>;
+
 /// Whole file as bytes; IoError names the path and reason (missing, a directory, permission).
 /// More than `max_bytes` (a pipe or device never ends: /dev/zero) is an InputError naming the
-/// path and the limit, raised before the excess is held in memory.
-std::string read_file(const std::string& path, std::size_t max_bytes = kMaxTextFileBytes);
+/// path and the limit, raised before the excess is held in memory. `check`, when given, sees
+/// every chunk as it arrives (capture_reader refuses binary data on a pipe this way).
+std::string read_file(const std::string& path, std::size_t max_bytes = kMaxTextFileBytes,
+                      const ReadCheck& check = {});
 
 }  // namespace periodfit::io
