@@ -202,7 +202,10 @@ bool is_report_entry(const std::string& name, bool is_folder, bool in_files) {
   if (is_temporary_name(name)) return !is_folder;
   if (in_files) return !is_folder && name.size() > 5 && name.ends_with(".json");
   if (is_folder) return name == "files";
-  return name == "summary.csv" || name == "summary.json" || name == "report.html";
+  // shard.json and shard-sections.html: a shard's record; gather.json: a gathered run's
+  // (batch/shard.hpp).
+  return name == "summary.csv" || name == "summary.json" || name == "report.html" || name == "shard.json" ||
+         name == "shard-sections.html" || name == "gather.json";
 }
 
 ReportFolder::ReportFolder(const std::string& destination) : destination_(destination), slot_(kSlots) {

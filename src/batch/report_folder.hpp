@@ -59,7 +59,7 @@ class ReportFolder {
 };
 
 /// True for the names periodfit writes in a report folder: summary.csv, summary.json,
-/// report.html, files/ (holding *.json), and `.<name>.tmp-XXXXXX` temporaries. `in_files` =
+/// report.html, shard.json, shard-sections.html, gather.json, files/ (holding *.json), and `.<name>.tmp-XXXXXX` temporaries. `in_files` =
 /// the name is inside files/.
 bool is_report_entry(const std::string& name, bool is_folder, bool in_files);
 

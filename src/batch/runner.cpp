@@ -17,6 +17,7 @@
 
 #include "batch/file_analysis.hpp"
 #include "batch/report_folder.hpp"
+#include "batch/shard.hpp"
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "io/number_format.hpp"
@@ -143,7 +144,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   const BatchConfig& config = options.config;
   FileWork w;
   w.result.path = path;
-  w.result.json_file = "files/" + index_prefix(index) + "-" + safe_name(path) + ".json";
+  w.result.json_file = per_file_json_name(index, path);
   w.section.path = path;
   FileAnalysis analysis;
   const auto started = std::chrono::steady_clock::now();
@@ -210,7 +211,9 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     if (plots) {
       for (std::size_t k = 0; k < analysis.figures.size(); ++k) {
         report::Figure fig = analysis.figures[k];
-        fig.id = "f" + std::to_string(index + 1) + "-" + std::to_string(k + 1);
+        // Named by the path, not the position: a section's body is the same bytes whichever
+        // run (a single one or a shard, batch/shard.hpp) renders it and wherever it is placed.
+        fig.id = "f" + hex64(fnv1a_64(path)) + "-" + std::to_string(k + 1);
         w.section.plots.push_back(report::render_svg(fig));
       }
     }
@@ -240,7 +243,7 @@ constexpr const char* kLimitColumns[] = {"u",   "k",       "lo95",    "hi95",   
 
 std::string csv_number(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
 
-std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& config) {
+std::string summary_csv(const std::vector<FileResult>& works, const BatchConfig& config) {
   std::string out = "path,status";
   for (const auto& key : analysis_key_names(config)) out += "," + report::csv_cell(key);
   for (std::size_t i = 0; i < config.limits.size(); ++i) {
@@ -249,8 +252,7 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
     for (const char* column : kLimitColumns) out += "," + report::csv_cell(prefix + column);
   }
   out += ",flags,failing_flags,failing_limits,message\n";
-  for (const auto& w : works) {
-    const FileResult& r = w.result;
+  for (const FileResult& r : works) {
     out += report::csv_cell(r.path) + "," + report::status_text(r.status);
     for (const auto& [key, value] : r.key_results) out += "," + report::csv_cell(value);
     for (std::size_t i = 0; i < config.limits.size(); ++i) {
@@ -285,9 +287,8 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
   return out;
 }
 
-json summary_json(const std::vector<FileDone>& works, const BatchResult& result,
-                  const BatchOptions& options) {
-  const BatchConfig& config = options.config;
+json summary_json(const std::vector<FileResult>& works, const BatchResult& result,
+                  const BatchConfig& config) {
   json j;
   j["format"] = "periodfit-batch-summary";
   j["version"] = 1;
@@ -303,8 +304,7 @@ json summary_json(const std::vector<FileDone>& works, const BatchResult& result,
   for (std::size_t i = 0; i < config.limits.size(); ++i) limits.push_back(limit_json(config.limits[i], i));
   j["limits"] = std::move(limits);
   json files = json::array();
-  for (const auto& w : works) {
-    const FileResult& r = w.result;
+  for (const FileResult& r : works) {
     json f;
     f["path"] = r.path;
     f["status"] = report::status_text(r.status);
@@ -408,8 +408,20 @@ BatchResult run_batch(const BatchOptions& options) {
   const auto elapsed = [&] {
     return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   };
-  const std::vector<std::string> paths =
-      find_captures(options.inputs, options.config.files, options.report_dir);
+  std::vector<std::string> paths = find_captures(options.inputs, options.config.files, options.report_dir);
+  // A shard takes its share of the whole list (batch/shard.hpp) and records the whole list, so
+  // the gather can name the captures of a shard that never ran.
+  std::vector<std::pair<std::string, int>> listing;
+  if (options.shard.active()) {
+    std::vector<std::string> held;
+    listing.reserve(paths.size());
+    for (auto& p : paths) {
+      const int k = shard_of(partition_key(p, options.inputs), options.shard.count);
+      listing.emplace_back(p, k);
+      if (k == options.shard.index) held.push_back(p);
+    }
+    paths = std::move(held);
+  }
 
   // Everything is written into a staging folder that replaces the report folder whole at the
   // end (batch/report_folder.hpp); an error or an interrupt before then leaves it untouched.
@@ -420,7 +432,7 @@ BatchResult run_batch(const BatchOptions& options) {
   result.report_dir = options.report_dir;
   const unsigned hardware = std::max(1u, std::thread::hardware_concurrency());
   const std::size_t jobs = std::min<std::size_t>(
-      paths.size(), options.jobs > 0 ? static_cast<std::size_t>(options.jobs) : hardware);
+      paths.size(), options.jobs > 0 ? static_cast<std::size_t>(options.jobs) : hardware);  // 0: an empty shard
   result.jobs = static_cast<int>(jobs);
 
   // Each worker takes the next index; outcomes land in their slot, so order never depends on
@@ -448,7 +460,7 @@ BatchResult run_batch(const BatchOptions& options) {
           io::write_file_atomic((staging / w.result.json_file).string(),
                                 io::json_text(w.document));
           FileDone& kept = works[i];
-          kept.section = sections.append(report::render_report_section(w.section, i + 1));
+          kept.section = sections.append(report::render_section_body(w.section));
           kept.row = report::report_row(w.section);
           kept.result = std::move(w.result);
         }  // the JSON document and the section with its plots are freed here
@@ -487,42 +499,71 @@ BatchResult run_batch(const BatchOptions& options) {
   if (fatal) std::rethrow_exception(fatal);
   if (options.progress) options.progress(Progress{paths.size(), paths.size(), elapsed()});
 
-  for (const auto& w : works) {
-    switch (w.result.status) {
-      case report::FileStatus::pass: ++result.passed; break;
-      case report::FileStatus::fail: ++result.failed; break;
-      case report::FileStatus::error: ++result.errors; break;
-    }
+  std::vector<FileResult> files;
+  std::vector<report::ReportRow> rows;
+  files.reserve(works.size());
+  rows.reserve(works.size());
+  for (auto& w : works) {
+    files.push_back(std::move(w.result));
+    rows.push_back(std::move(w.row));
   }
-  io::write_file_atomic((staging / "summary.csv").string(), summary_csv(works, options.config));
-  io::write_file_atomic((staging / "summary.json").string(), io::json_text(summary_json(works, result, options)));
-
-  report::ReportOverview overview;
-  overview.title = options.config.title;
-  overview.settings.emplace_back("mode", mode_name(options.config.mode));
-  if (!options.config.source.empty()) overview.settings.emplace_back("config", options.config.source);
-  for (const auto& [key, value] : analysis_settings_rows(options.config)) overview.settings.emplace_back(key, value);
-  overview.settings.emplace_back("limits", std::to_string(options.config.limits.size()));
-  overview.settings.emplace_back("plots", plot_selection_name(options.config.plots));
-  for (auto& w : works) overview.rows.push_back(std::move(w.row));
-  io::AtomicFile page((staging / "report.html").string());
-  report::write_html_report(
-      overview,
-      [&](std::size_t i, const report::HtmlSink& sink) { sections.copy(works[i].section, sink); },
-      [&](std::string_view bytes) { page.write(bytes); });
-  page.commit();
+  const auto body = [&](std::size_t i, const report::HtmlSink& sink) { sections.copy(works[i].section, sink); };
+  write_report_outputs(folder.staging(), options.config, files, rows, body);
+  if (options.shard.active()) write_shard_record(folder.staging(), options, listing, files, rows, body);
   folder.publish();
   const fs::path dir(options.report_dir);
   result.summary_csv = (dir / "summary.csv").string();
   result.summary_json = (dir / "summary.json").string();
   result.report_html = (dir / "report.html").string();
 
-  for (auto& w : works) {
-    result.analysis_s += w.result.analysis_s;
-    result.files.push_back(std::move(w.result));
-  }
+  count_statuses(files, result);
+  result.files = std::move(files);
+  for (const auto& f : result.files) result.analysis_s += f.analysis_s;
   result.elapsed_s = elapsed();
   return result;
+}
+
+std::string per_file_json_name(std::size_t index, const std::string& path) {
+  return "files/" + index_prefix(index) + "-" + safe_name(path) + ".json";
+}
+
+void count_statuses(const std::vector<FileResult>& files, BatchResult& result) {
+  result.passed = result.failed = result.errors = 0;
+  for (const auto& f : files) {
+    switch (f.status) {
+      case report::FileStatus::pass: ++result.passed; break;
+      case report::FileStatus::fail: ++result.failed; break;
+      case report::FileStatus::error: ++result.errors; break;
+    }
+  }
+}
+
+void write_report_outputs(const std::string& folder, const BatchConfig& config,
+                          const std::vector<FileResult>& files, const std::vector<report::ReportRow>& rows,
+                          const std::function<void(std::size_t, const report::HtmlSink&)>& section_body) {
+  const fs::path staging(folder);
+  BatchResult totals;
+  count_statuses(files, totals);
+  io::write_file_atomic((staging / "summary.csv").string(), summary_csv(files, config));
+  io::write_file_atomic((staging / "summary.json").string(), io::json_text(summary_json(files, totals, config)));
+
+  report::ReportOverview overview;
+  overview.title = config.title;
+  overview.settings.emplace_back("mode", mode_name(config.mode));
+  if (!config.source.empty()) overview.settings.emplace_back("config", config.source);
+  for (const auto& [key, value] : analysis_settings_rows(config)) overview.settings.emplace_back(key, value);
+  overview.settings.emplace_back("limits", std::to_string(config.limits.size()));
+  overview.settings.emplace_back("plots", plot_selection_name(config.plots));
+  overview.rows = rows;
+  io::AtomicFile page((staging / "report.html").string());
+  report::write_html_report(
+      overview,
+      [&](std::size_t i, const report::HtmlSink& sink) {
+        sink(report::render_section_heading(files[i].path, files[i].status, i + 1));
+        section_body(i, sink);
+      },
+      [&](std::string_view bytes) { page.write(bytes); });
+  page.commit();
 }
 
 std::string failing_limit_text(const Limit& l, const LimitOutcome& o) {

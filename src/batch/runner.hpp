@@ -40,6 +40,24 @@ struct Progress {
   double elapsed_s = 0;
 };
 
+/// One shard K/N of a run split over N processes (batch/shard.hpp); count 0 = not sharded.
+struct ShardSpec {
+  int index = 0;  ///< K, 1-based
+  int count = 0;  ///< N
+  bool active() const { return count > 0; }
+};
+
+/// What made a run's settings, as given: recorded in each shard (shard.json) so that shards of
+/// different settings are refused and the gather rebuilds the same BatchConfig. Filled by the
+/// CLI; the hash covers the three fields.
+struct SettingsRecord {
+  std::string config_source;                ///< --config as given; "" = none
+  std::string config_text;                  ///< the config file's bytes when the run read it
+  std::vector<std::string> settings_words;  ///< the setting options as given ("--f0", "50", …)
+  /// FNV-1a 64 of the fields, each length-prefixed (batch/shard.hpp), as 16 hex digits.
+  std::string hash() const;
+};
+
 struct BatchOptions {
   std::vector<std::string> inputs;  ///< folders (searched per config.files) or single capture files
   std::string report_dir;           ///< output folder, created when missing; required
@@ -49,6 +67,13 @@ struct BatchOptions {
   /// the end; empty = no progress.
   std::function<void(const Progress&)> progress;
   double progress_interval_s = 0.25;
+  /// Take only this shard's captures and write shard.json and shard-sections.html beside the
+  /// outputs (batch/shard.hpp); inactive by default.
+  ShardSpec shard;
+  SettingsRecord settings;          ///< recorded in shard.json (sharded runs)
+  /// The run id all shards of one run share (shard.json; a results database keys the run by it).
+  /// "" = derived: "pf-" + FNV-1a 64 of the tool version, settings hash, inputs and N.
+  std::string run_id;
 
   void validate() const;  ///< throws OptionError naming the field
 };
@@ -89,6 +114,21 @@ std::vector<std::string> find_captures(const std::vector<std::string>& inputs,
 /// Runs the batch (see the header). Throws only for problems of the run itself (bad options, an
 /// unwritable report folder); problems of single files become ERROR rows.
 BatchResult run_batch(const BatchOptions& options);
+
+/// The per-file JSON's name in the report folder for the file at 0-based position `index` in
+/// report order: "files/NNNN-<safe name>.json" (docs/batch-output.md).
+std::string per_file_json_name(std::size_t index, const std::string& path);
+
+/// Writes summary.csv, summary.json and report.html of `files` (in report order; `rows` their
+/// overview rows) into `folder`; `section_body(i, sink)` passes file i's section body
+/// (report::render_section_body) to the sink, after its heading. The one writer of these
+/// outputs: run_batch and gather_shards both call it.
+void write_report_outputs(const std::string& folder, const BatchConfig& config,
+                          const std::vector<FileResult>& files, const std::vector<report::ReportRow>& rows,
+                          const std::function<void(std::size_t, const report::HtmlSink&)>& section_body);
+
+/// The pass / fail / error counts of `files` into `result`.
+void count_statuses(const std::vector<FileResult>& files, BatchResult& result);
 
 /// Why a file did not pass, for one line on a terminal: its error, else its first failing flag
 /// ("flag v_out: clipped (invalidates)"), else its first failing limit with the value, its 95 %

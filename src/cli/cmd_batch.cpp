@@ -3,6 +3,7 @@
 // given on the command line overrides the config's value.
 #include <unistd.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <memory>
@@ -11,8 +12,10 @@
 
 #include "batch/config.hpp"
 #include "batch/runner.hpp"
+#include "batch/shard.hpp"
 #include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
+#include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
@@ -28,6 +31,8 @@ struct BatchArgs {
   std::string config_path;
   std::string mode;
   std::string plots;
+  std::string config_text;          ///< the config's bytes, as read (recorded by shards)
+  std::string shard;                ///< --shard K/N
   bool quiet = false;
   bool timing = false;
   // Options whose presence decides whether they override the config.
@@ -67,7 +72,7 @@ void show_progress(const batch::Progress& p) {
 }
 
 batch::BatchConfig settings(const BatchArgs& a) {
-  batch::BatchConfig c = a.config_path.empty() ? batch::BatchConfig{} : batch::load_batch_config(a.config_path);
+  batch::BatchConfig c = a.config_path.empty() ? batch::BatchConfig{} : batch::parse_batch_config(a.config_text, a.config_path);
   const batch::BatchConfig& f = a.flags;
   if (a.mode_option->count()) c.mode = batch::parse_mode(a.mode, "--mode");
   else if (a.config_path.empty() && (a.input->count() || a.output->count() || a.order->count()))
@@ -95,23 +100,12 @@ batch::BatchConfig settings(const BatchArgs& a) {
   return c;
 }
 
-}  // namespace
 
-Runner add_batch(CLI::App& app) {
-  auto args = std::make_shared<BatchArgs>();
-  BatchArgs& a = *args;
+// The options that set how files are chosen and analysed (everything a shard records as its
+// settings words, batch/shard.hpp); the run's own options (inputs, --report, --config, --jobs,
+// --shard, --run-id, --quiet, --timing) are declared by add_batch.
+void add_setting_options(CLI::App& app, BatchArgs& a) {
   const batch::BatchConfig defaults;
-  app.add_option("DIR", a.run.inputs, "folders of captures (or single capture files)")
-      ->required()
-      ->type_name("DIR");
-  app.add_option("--report", a.run.report_dir, "folder for summary.csv, summary.json, files/*.json, report.html")
-      ->required()
-      ->type_name("OUTDIR");
-  app.add_option("--config", a.config_path, "TOML file with the settings and the limits (docs/batch-config.md)")
-      ->type_name("FILE");
-  app.add_option("--jobs,-j", a.run.jobs, "files analysed in parallel (0 = hardware threads)")
-      ->capture_default_str()
-      ->type_name("N");
   a.patterns = app.add_option("--pattern", a.flags.files.patterns,
                               "file-name glob, repeatable (default: known capture extensions)")
                    ->type_name("GLOB");
@@ -144,13 +138,88 @@ Runner add_batch(CLI::App& app) {
   a.plots_option = app.add_option("--plots", a.plots, "plots in report.html: all, failed or none")
                        ->default_str(batch::plot_selection_name(defaults.plots))
                        ->type_name("WHICH");
+  add_capture_options(app, a.flags.read);
+}
+
+constexpr const char* kRunOptions[] = {"--report", "--config", "--jobs", "--shard", "--run-id",
+                                       "--quiet",  "--timing", "--help"};
+
+// The setting options as given, in the parser's order: each value as `--name VALUE`, each
+// flag as `--name` (a flag's only value here is its presence). add_setting_options parses them
+// back into the same settings.
+std::vector<std::string> setting_words(const CLI::App& app) {
+  std::vector<std::string> words;
+  for (const CLI::Option* opt : app.get_options()) {
+    if (opt->count() == 0 || opt->get_lnames().empty()) continue;
+    const std::string name = "--" + opt->get_lnames().front();
+    if (std::find(std::begin(kRunOptions), std::end(kRunOptions), name) != std::end(kRunOptions)) continue;
+    if (opt->get_items_expected_max() == 0) {
+      for (std::size_t i = 0; i < opt->count(); ++i) words.push_back(name);
+      continue;
+    }
+    for (const auto& value : opt->results()) {
+      words.push_back(name);
+      words.push_back(value);
+    }
+  }
+  return words;
+}
+
+}  // namespace
+
+batch::BatchConfig rebuild_batch_config(const batch::SettingsRecord& record) {
+  BatchArgs a;
+  CLI::App app{"batch settings", "batch"};
+  add_setting_options(app, a);
+  std::vector<std::string> words(record.settings_words.rbegin(), record.settings_words.rend());  // CLI11 takes them reversed
+  try {
+    app.parse(words);
+  } catch (const CLI::ParseError& e) {
+    throw InputError("shard.json", 0, 0, "its recorded settings do not parse: " + std::string(e.what()));
+  }
+  a.config_path = record.config_source;
+  a.config_text = record.config_text;
+  return settings(a);
+}
+
+Runner add_batch(CLI::App& app) {
+  auto args = std::make_shared<BatchArgs>();
+  BatchArgs& a = *args;
+  app.add_option("DIR", a.run.inputs, "folders of captures (or single capture files)")
+      ->required()
+      ->type_name("DIR");
+  app.add_option("--report", a.run.report_dir, "folder for summary.csv, summary.json, files/*.json, report.html")
+      ->required()
+      ->type_name("OUTDIR");
+  app.add_option("--config", a.config_path, "TOML file with the settings and the limits (docs/batch-config.md)")
+      ->type_name("FILE");
+  app.add_option("--jobs,-j", a.run.jobs, "files analysed in parallel (0 = hardware threads)")
+      ->capture_default_str()
+      ->type_name("N");
+  app.add_option("--shard", a.shard,
+                 "take only shard K of N of the captures and record it for `periodfit gather` "
+                 "(docs/scale-out.md)")
+      ->type_name("K/N");
+  app.add_option("--run-id", a.run.run_id,
+                 "with --shard: the id the shards of one run share (default: derived from the version, "
+                 "settings, inputs and N)")
+      ->type_name("ID");
+  add_setting_options(app, a);
   app.add_flag("--quiet,-q", a.quiet, "no progress and no per-file table; only the closing line");
   app.add_flag("--timing", a.timing, "print throughput and per-file overhead on stderr");
-  add_capture_options(app, a.flags.read);
 
-  return [args]() -> int {
+  const CLI::App* parsed = &app;
+  return [args, parsed]() -> int {
     BatchArgs& b = *args;
+    if (!b.config_path.empty())
+      b.config_text = io::read_file(b.config_path, io::kMaxTextFileBytes);
     b.run.config = settings(b);
+    if (!b.shard.empty()) {
+      b.run.shard = batch::parse_shard(b.shard);
+      b.run.settings = {b.config_path, b.config_text, setting_words(*parsed)};
+    } else if (!b.run.run_id.empty()) {
+      throw OptionError("--run-id", b.run.run_id, "only with --shard");
+    }
     if (!b.quiet && ::isatty(STDERR_FILENO)) b.run.progress = show_progress;
     const batch::BatchResult r = batch::run_batch(b.run);
     std::string out;

@@ -6,6 +6,8 @@
 #include <CLI/CLI.hpp>
 #include <functional>
 
+#include "batch/runner.hpp"
+
 namespace periodfit::cli {
 
 using Runner = std::function<int()>;
@@ -16,5 +18,10 @@ Runner add_frf(CLI::App& app);
 Runner add_steady_state(CLI::App& app);
 Runner add_excite(CLI::App& app);
 Runner add_batch(CLI::App& app);
+Runner add_gather(CLI::App& app);
+
+/// The BatchConfig a batch run had, from the settings a shard recorded (cmd_batch.cpp parses the
+/// recorded words with the batch's own setting options); used by gather.
+batch::BatchConfig rebuild_batch_config(const batch::SettingsRecord& record);
 
 }  // namespace periodfit::cli

@@ -37,6 +37,8 @@ constexpr Command kCommands[] = {
      periodfit::cli::add_excite},
     {"batch", "run a characterisation over folders of captures; limits, summary, HTML report",
      periodfit::cli::add_batch},
+    {"gather", "combine the report folders of a batch run in shards (batch --shard K/N) into one",
+     periodfit::cli::add_gather},
 };
 
 constexpr const char* kExitCodes =

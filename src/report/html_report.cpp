@@ -88,13 +88,20 @@ ReportRow report_row(const ReportFile& file) {
 }
 
 std::string render_report_section(const ReportFile& f, std::size_t number) {
+  return render_section_heading(f.path, f.status, number) + render_section_body(f);
+}
+
+std::string render_section_heading(const std::string& path, FileStatus status, std::size_t number) {
+  return "<section>\n<h2 id=\"file-" + std::to_string(number) + "\">" + std::to_string(number) +
+         ". " + xml_escape(path) + " " + badge(status) + "</h2>\n";
+}
+
+std::string render_section_body(const ReportFile& f) {
   std::size_t plot_bytes = 0;
   for (const auto& svg : f.plots) plot_bytes += svg.size();
   std::string html;
   // The plots dominate; tables and text take a few kB.
   html.reserve(plot_bytes + 8192);
-  html += "<section>\n<h2 id=\"file-" + std::to_string(number) + "\">" + std::to_string(number) +
-          ". " + xml_escape(f.path) + " " + badge(f.status) + "</h2>\n";
   if (!f.messages.empty()) {
     html += "<h3>Messages</h3>\n<ul class=\"messages\">\n";
     for (const auto& m : f.messages) html += "<li>" + xml_escape(m) + "</li>\n";

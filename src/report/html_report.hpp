@@ -87,6 +87,13 @@ using HtmlSink = std::function<void(std::string_view)>;
 /// links to it as `#file-<number>`.
 std::string render_report_section(const ReportFile& file, std::size_t number);
 
+/// render_report_section in two parts, heading + body: the heading carries the number, the body
+/// does not (its plots' element ids must not depend on the number either), so a body rendered
+/// by one process can be placed at any position of a page another process writes (batch
+/// shards gathered into one report, batch/shard.hpp).
+std::string render_section_heading(const std::string& path, FileStatus status, std::size_t number);
+std::string render_section_body(const ReportFile& file);
+
 /// Streams the page to `sink`: head, totals, settings and the overview table from `overview`,
 /// then, for i = 0 … rows − 1 in order, `write_section(i, sink)`, which must pass the bytes of
 /// render_report_section(file i, i + 1) to the sink it is given, then the footer.
