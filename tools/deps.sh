@@ -8,10 +8,12 @@ PERIODFIT_BUILD_PACKAGES=(
 )
 # Only the test suite needs these: reference libraries for the outside-source checks, an XML
 # checker for the SVG plots, a headless browser for the HTML report, clang for fuzzing and the
-# sanitizer build, and ccache so a later run on the same machine recompiles only what changed.
+# sanitizer build, ccache so a later run on the same machine recompiles only what changed, and
+# GNU parallel, Slurm and munge for the scale-out recipes' tests (tools/scale-out-test.sh).
 PERIODFIT_TEST_PACKAGES=(
   python3 python3-numpy python3-scipy python3-pandas libxml2-utils chromium
   clang libclang-rt-14-dev ccache
+  parallel slurm-wlm munge
 )
 
 # periodfit_install PACKAGE…: installs whichever of the packages are missing. As root it runs
