@@ -84,7 +84,8 @@ slurm)
   export PERIODFIT_SLURM_PORT=$((20000 + ($$ % 20000) * 2))
   eval "$("$HERE/slurm-cluster.sh" start)"
   rc=0
-  "$HERE/shards-slurm.sh" 3 "$WORK/work" caps -- "${options[@]}" >gather.out 2>gather.err || rc=$?
+  SECONDS=0; "$HERE/shards-slurm.sh" 3 "$WORK/work" caps -- "${options[@]}" >gather.out 2>gather.err || rc=$?
+  echo "array + gather: $SECONDS s" >&2
   [ "$rc" -eq "$single_rc" ] || fail "gather job exited $rc, the single run $single_rc: $(cat gather.err)"
   same_as_single work/report
   # Shard 2 lost: the gather names it; re-running only that array task completes the run.
