@@ -23,14 +23,9 @@ namespace {
 
 std::string q(const std::string& s) { return "'" + s + "'"; }
 
-std::vector<std::pair<std::string, std::string>> outputs(const fs::path& dir) {
-  std::vector<std::pair<std::string, std::string>> out;
-  for (const auto& e : fs::recursive_directory_iterator(dir)) {
-    const std::string rel = fs::relative(e.path(), dir).string();
-    if (e.is_regular_file() && rel != "gather.json") out.emplace_back(rel, slurp(e.path()));
-  }
-  std::sort(out.begin(), out.end());
-  return out;
+// The outputs of a report folder, relative path → bytes; gather.json is the gather's own record.
+std::vector<std::pair<std::string, std::string>> outputs(const fs::path& folder) {
+  return periodfit::test::folder_files(folder, "gather.json");
 }
 
 // Three passing captures, a failing one (THD 9.3 % > 8 %: IEEE Std 1241 THD = a3/a1) and, when

@@ -74,15 +74,9 @@ struct Archive {
   }
 };
 
-// The outputs a single run writes, relative path → bytes.
+// The outputs of a report folder, relative path → bytes; gather.json is the gather's own record.
 std::vector<std::pair<std::string, std::string>> outputs(const fs::path& folder) {
-  std::vector<std::pair<std::string, std::string>> out;
-  for (const auto& e : fs::recursive_directory_iterator(folder)) {
-    const std::string rel = fs::relative(e.path(), folder).string();
-    if (e.is_regular_file() && rel != "gather.json") out.emplace_back(rel, slurp(e.path()));
-  }
-  std::sort(out.begin(), out.end());
-  return out;
+  return periodfit::test::folder_files(folder, "gather.json");
 }
 
 bool mentions(const std::vector<std::string>& lines, const std::string& text) {

@@ -156,12 +156,15 @@ struct Manifest {
   ShardSpec shard;
   std::vector<std::string> inputs;
   SettingsRecord settings;
-  std::vector<std::pair<std::string, int>> listing;
   std::vector<HeldCapture> held;
-  std::string held_text;  ///< the records as written, to tell two copies of a shard apart
+  /// FNV-1a 64 of the records and of the listing as written, to tell two copies of a shard
+  /// apart; the listing itself goes into the gather's union and is not kept per shard, so the
+  /// gather's memory grows with the captures, not with captures × shards.
+  std::uint64_t held_hash = 0, listing_hash = 0;
 };
 
-Manifest read_manifest(const std::string& folder) {
+/// Reads `folder`'s shard.json; adds its listing to `listing` (path → shard).
+Manifest read_manifest(const std::string& folder, std::map<std::string, int>& listing) {
   const std::string path = (fs::path(folder) / kManifest).string();
   std::ifstream in(path, std::ios::binary);
   if (!in) throw IoError(path, "cannot open", errno ? errno : ENOENT);
@@ -187,9 +190,10 @@ Manifest read_manifest(const std::string& folder) {
     if (m.settings.hash() != m.settings_hash)
       throw InputError(path, 0, 0, "the settings hash does not match the recorded settings (the record was edited)");
     m.inputs = j.at("inputs").get<std::vector<std::string>>();
-    for (const auto& e : j.at("listing")) m.listing.emplace_back(e.at(0).get<std::string>(), e.at(1).get<int>());
+    for (const auto& e : j.at("listing")) listing.emplace(e.at(0).get<std::string>(), e.at(1).get<int>());
+    m.listing_hash = fnv1a_64(j.at("listing").dump());
     const json& held = j.at("held");
-    m.held_text = held.dump();
+    m.held_hash = fnv1a_64(held.dump());
     for (const auto& record : held) m.held.push_back(capture_from(record));
     if (m.shard.count < 1 || m.shard.index < 1 || m.shard.index > m.shard.count)
       throw InputError(path, 0, 0, "shard " + std::to_string(m.shard.index) + "/" + std::to_string(m.shard.count) + " is not K/N with 1 ≤ K ≤ N");
@@ -395,6 +399,8 @@ GatherResult gather_shards(const GatherOptions& options) {
       throw OptionError("report", options.report_dir, "is one of the shard folders; give a new folder");
 
   std::vector<Manifest> manifests;
+  // The run's capture list: the union of what the shards saw, each capture with its shard.
+  std::map<std::string, int> listing;
   std::set<std::string> seen_folders;
   for (const auto& folder : options.shards) {
     const std::string canonical = fs::weakly_canonical(folder, ec).string();
@@ -406,7 +412,7 @@ GatherResult gather_shards(const GatherOptions& options) {
       out.problems.push_back(folder + " " + unfinished_reason(folder));
       continue;
     }
-    manifests.push_back(read_manifest(folder));
+    manifests.push_back(read_manifest(folder, listing));
   }
   for (std::size_t i = 1; i < manifests.size(); ++i) check_same_run(manifests[0], manifests[i]);
   if (manifests.empty()) return out;  // every folder unfinished: nothing tells N
@@ -427,7 +433,7 @@ GatherResult gather_shards(const GatherOptions& options) {
     }
     const Manifest& a = manifests[static_cast<std::size_t>(first)];
     const std::string text = shard_text(k, count);
-    if (a.held_text == manifests[i].held_text && a.listing == manifests[i].listing) {
+    if (a.held_hash == manifests[i].held_hash && a.listing_hash == manifests[i].listing_hash) {
       out.warnings.push_back("shard " + text + " was run twice (" + a.folder + ", " + manifests[i].folder +
                              ") with identical results; " + manifests[i].folder + " is not counted");
     } else if (!conflict[static_cast<std::size_t>(k)]) {
@@ -438,10 +444,6 @@ GatherResult gather_shards(const GatherOptions& options) {
     }
   }
 
-  // The run's capture list: the union of what the shards saw, each capture with its shard.
-  std::map<std::string, int> listing;
-  for (const auto& m : manifests)
-    for (const auto& [path, k] : m.listing) listing.emplace(path, k);
   std::vector<std::vector<std::string>> owned(static_cast<std::size_t>(count) + 1);
   for (const auto& [path, k] : listing)
     if (k >= 1 && k <= count) owned[static_cast<std::size_t>(k)].push_back(path);

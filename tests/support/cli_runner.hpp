@@ -3,12 +3,15 @@
 #include "support/test_paths.hpp"
 #include <sys/wait.h>
 
+#include <algorithm>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
 #include <sstream>
 #include <string>
+#include <utility>
+#include <vector>
 
 namespace periodfit::test {
 
@@ -58,6 +61,19 @@ struct TempDir {
 
 inline void write_text(const std::string& path, const std::string& text) {
   std::ofstream(path, std::ios::binary) << text;
+}
+
+/// Every regular file below `dir` but those named `except` (relative paths), as (relative path,
+/// bytes) sorted by path: two report folders compare equal when their outputs are the same bytes.
+inline std::vector<std::pair<std::string, std::string>> folder_files(const std::filesystem::path& dir,
+                                                                    const std::string& except = "") {
+  std::vector<std::pair<std::string, std::string>> out;
+  for (const auto& e : std::filesystem::recursive_directory_iterator(dir)) {
+    const std::string rel = std::filesystem::relative(e.path(), dir).string();
+    if (e.is_regular_file() && rel != except) out.emplace_back(rel, slurp(e.path()));
+  }
+  std::sort(out.begin(), out.end());
+  return out;
 }
 
 }  // namespace periodfit::test
