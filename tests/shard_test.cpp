@@ -265,3 +265,31 @@ TEST_CASE("shard: shards of different settings, partitions or runs are refused i
   // The gathered folder cannot be one of the shards (it would replace the shard's record).
   CHECK_THROWS_AS(a.gather({s1, a.run_shard(2, 2)}, "shards/" + shard_folder_name({1, 2})), OptionError);
 }
+
+TEST_CASE("shard: an edited, truncated or foreign shard record is refused naming the file") {
+  Archive a;
+  const std::string s1 = a.run_shard(1, 2), s2 = a.run_shard(2, 2);
+  const std::string record = (fs::path(s2) / "shard.json").string();
+  const std::string original = slurp(record);
+  const auto gather_with = [&](const std::string& text) {
+    test::write_text(record, text);
+    return a.gather({s1, s2});
+  };
+  // Settings changed by hand no longer match their hash.
+  std::string edited = original;
+  edited.replace(edited.find("8 %"), 3, "9 %");
+  CHECK_THROWS_WITH_AS(gather_with(edited), doctest::Contains("the settings hash does not match the recorded settings"),
+                       InputError);
+  // A per-file JSON path that leaves the shard's files/ folder is not followed.
+  std::string escaped = original;
+  const auto at = escaped.find("\"json\": \"files/");
+  REQUIRE(at != std::string::npos);
+  escaped.replace(at, 16, "\"json\": \"files/../../");
+  CHECK_THROWS_WITH_AS(gather_with(escaped), doctest::Contains("is not files/<name>.json"), InputError);
+  CHECK_THROWS_WITH_AS(gather_with(original.substr(0, original.size() / 2)), doctest::Contains("malformed shard record"),
+                       InputError);
+  CHECK_THROWS_WITH_AS(gather_with("{\"format\": \"something else\"}"), doctest::Contains("not a shard record"),
+                       InputError);
+  test::write_text(record, original);
+  CHECK(a.gather({s1, s2}).complete);
+}

@@ -128,6 +128,11 @@ HeldCapture capture_from(const json& j) {
     r.limits.push_back(std::move(o));
   }
   r.json_file = j.at("json").get<std::string>();
+  // The gather copies this file into the gathered folder: it must be a per-file JSON of the
+  // shard's own files/ folder, never a path an edited record points elsewhere with.
+  if (!r.json_file.starts_with("files/") || r.json_file.find('/', 6) != std::string::npos ||
+      r.json_file.find("..") != std::string::npos || !r.json_file.ends_with(".json"))
+    throw std::invalid_argument("per-file JSON \"" + r.json_file + "\" is not files/<name>.json");
   const json& row = j.at("row");
   c.row.path = r.path;
   c.row.status = r.status;
