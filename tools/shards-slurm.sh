@@ -18,6 +18,7 @@ fi
 HERE=$(cd "$(dirname "$0")" && pwd)
 N=$1
 WORKDIR=$2
+case "$N" in '' | *[!0-9]* | 0) echo "periodfit: error: N must be a whole number ≥ 1, not \"$N\"" >&2; exit 2 ;; esac
 mkdir -p "$WORKDIR/logs"
 # shellcheck disable=SC2086
 array=$(sbatch --parsable --array="1-$N" --output="$WORKDIR/logs/shard-%a.out" ${PERIODFIT_SBATCH_ARGS:-} \

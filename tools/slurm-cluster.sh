@@ -62,6 +62,9 @@ JobAcctGatherType=jobacct_gather/none
 AccountingStorageType=accounting_storage/none
 JobCompType=jobcomp/none
 SchedulerType=sched/backfill
+# Start jobs as soon as they are submitted or their dependencies are met (the defaults batch
+# them up to 3 s apart), so the tests take seconds.
+SchedulerParameters=batch_sched_delay=0,sched_min_interval=0
 SelectType=select/cons_tres
 SelectTypeParameters=CR_CPU
 MpiDefault=none
