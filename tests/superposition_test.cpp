@@ -435,7 +435,7 @@ TEST_CASE("superposition: CSV and JSON carry the documented fields") {
   for (const auto& [k, v] : j.items()) keys.push_back(k);
   CHECK(keys == std::vector<std::string>{"status", "method", "f0_hz", "harmonics_used", "harmonic_count_method",
                                          "input_left_out_fraction", "output_tail_estimate", "tail_checked_to", "output_tail_method",
-                                         "has_uncertainty", "dc", "dc_u", "rms", "rms_u", "min", "max", "ripple_pp",
+                                         "has_uncertainty", "uncertainty_sources", "dc", "dc_u", "rms", "rms_u", "min", "max", "ripple_pp",
                                          "ripple_pp_u", "thd", "thd_u", "harmonics_listed", "harmonics", "samples",
                                          "flags", "warnings"});
   CHECK(j["harmonics"][0]["n"] == 1);

@@ -65,6 +65,9 @@ struct HarmonicLine {
   double amplitude_lo = 0, amplitude_hi = 0;
   /// false when the amplitude is consistent with 0 at 95 %: any phase is then consistent
   bool phase_defined = true;
+  /// Covariance of (Re X, Im X) behind amplitude_u and phase_u_deg (channel unit²): what
+  /// steady-state propagates from a capture's harmonics
+  double cov_re_re = 0, cov_im_im = 0, cov_re_im = 0;
 };
 
 struct AnalysisFlag {
@@ -92,10 +95,16 @@ struct ChannelAnalysis {
   double noise_floor = 0;       ///< 2·noise_rms/√N: a noise-only line's RMS amplitude (peak scale)
   double noise_floor_dbc = 0;   ///< noise_floor relative to the fundamental, dB
   std::string noise_method;     ///< "per-period", "noise-bins" or "fit-residual"
-  int noise_dof = 0;            ///< degrees of freedom of the noise estimate behind the u's
+  int noise_dof = 0;            ///< degrees of freedom of the noise estimate behind the u's (0 = normal)
+  /// Pooled period-to-period scatter variance over the residual variance (≈ 0.9 for white
+  /// noise; ≈ 0 when the periods repeat exactly: flag "identical-periods"); 1 when not measured
+  double period_scatter_ratio = 1;
+  double quantisation_step = 0; ///< Δ found in the samples when the periods repeat (0 = none)
   double f0_first_half_hz = 0;  ///< drift check (0 when the record is under 4 periods)
   double f0_second_half_hz = 0;
   double drift_sigmas = 0;      ///< |Δf| / √(u₁² + u₂²)
+  /// With a forced f0: the free fit's f0 and u (flag "forced-f0-off" when they disagree); 0 otherwise
+  double f0_free_hz = 0, f0_free_u_hz = 0;
   /// ENOB's full-scale range (0 = unknown: enob_bits is NaN) and where it came from
   /// ("option", "audio full scale", or the reason ENOB is not reported)
   double full_scale_range = 0;
