@@ -339,6 +339,14 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
       scatter[k] = {rr / (p - 1), ii / (p - 1), ri / (p - 1)};
       const double white = (k == 0 ? 1.0 : 4.0) * sigma2 * f0 / fs;  // E|ΔX|² of one period
       ratio[k] = white > 0 ? (scatter[k][0] + scatter[k][1]) / white : 1.0;
+      // Near fs/2 the grid's residual is interpolated at the kernel's band edge, and its
+      // per-period scatter under-reads the noise (measured: 84–91 % amplitude coverage at
+      // 0.44·fs, docs/performance.md); there the fit residual's white level is a floor, the
+      // scatter's shape kept.
+      if (static_cast<double>(k) * f0 >= kAliasBandFraction * fs && ratio[k] > 0 && ratio[k] < 1) {
+        for (double& c : scatter[k]) c /= ratio[k];
+        ratio[k] = 1;
+      }
     }
   } else if (spectra.noise_bin_dof > 0) {
     out.noise_method = "noise-bins";
@@ -367,7 +375,7 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   //    covariance of periodic measurements). S keeps the noise's shape, so noise that is not
   //    circular (sampling jitter moves the phase, not the amplitude) is covered;
   //  - otherwise the white-noise block scaled by the noise ratio r (circular).
-  // The f0 terms keep the fit's values (cross terms scaled by √r). A record whose periods repeat
+  // The f0 terms are the fit's, scaled by the noise along the harmonics' phases (below). A record whose periods repeat
   // exactly adds the one-period floor 2·σ_e²/M per component (σ_e² = max(residual variance,
   // Δ²/12), M = fs/f0 samples per period; IEEE Std 1241-2010 §4.1.4.2 / Widrow's quantisation
   // noise model). Amplitude and phase then follow to first order (JCGM 100:2008 §5.1.2).
@@ -376,11 +384,31 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   std::vector<double> amplitudes(H + 1, 0.0);
   std::vector<double> noise_power(H + 1, 0.0);  // E|ΔX_n|², for THD's noise bias
   const double floor_component = floor.identical ? 2 * floor.error_variance / samples_per_period_fs : 0.0;
+  // f0 is read from the phases' progression over the record, so its variance scales with the
+  // noise along each harmonic's phase direction, weighted by the information n²·A_n² it carries
+  // (the ν row of JᵀJ). With P ≥ 4 that noise is measured per period: sampling jitter puts 1.5×
+  // the white share there, which the fit's white σ² misses (issue 12). The ratio has the per-period
+  // estimate's P − 1 degrees of freedom, like the (a, b) block.
+  double nu_ratio = 1;
+  if (p >= 4 && !floor.identical) {
+    const double white_component = 2.0 * sigma2 * f0 / fs;  // one period, one direction
+    double weighted = 0, weight = 0;
+    for (std::size_t k = 1; k <= H && white_component > 0; ++k) {
+      const std::complex<double> X = fit.phasor(static_cast<int>(k));
+      const double w = static_cast<double>(k * k) * std::norm(X);
+      const double phi = std::arg(X), cp = std::cos(phi), sp = std::sin(phi);
+      const double along_phase = sp * sp * scatter[k][0] - 2 * sp * cp * scatter[k][2] + cp * cp * scatter[k][1];
+      weighted += w * along_phase / white_component;
+      weight += w;
+    }
+    if (weight > 0) nu_ratio = weighted / weight;
+  }
   for (std::size_t k = 0; k <= H; ++k) {
     const auto& u = fit.unit_cov[k];
     const double r = std::sqrt(std::max(ratio[k], 0.0));
-    const double cvv = sigma2 * u[2];
-    const double cav = sigma2 * u[4] * r, cbv = sigma2 * u[5] * r;
+    const double cvv = sigma2 * u[2] * nu_ratio;
+    const double rv = std::sqrt(std::max(nu_ratio, 0.0));
+    const double cav = sigma2 * u[4] * r * rv, cbv = sigma2 * u[5] * r * rv;
     if (k == 0) {
       out.dc = fit.a[0];
       const double caa = sigma2 * u[0] * r * r;
