@@ -140,19 +140,31 @@ TEST_CASE("cli steady-state: measured FRF points are used only where they exist"
   CHECK(r.exit_code == 0);  // the model everywhere: fine
 }
 
+namespace {
+
+/// An invented capture: dc + 2 V at 50 Hz + 0.5 V at 150 Hz (phase +30°), 20 periods at
+/// 10 kHz, plus seeded white noise of `noise_v` rms.
+void write_supply_capture(const std::string& path, double dc_v, double noise_v) {
+  std::ofstream out(path);
+  out << "t,v\n";
+  out.precision(17);
+  std::mt19937_64 rng(1234);
+  std::normal_distribution<double> noise(0, 1);
+  for (int k = 0; k < 4000; ++k) {
+    const double t = k / 10000.0;
+    const double draw = noise(rng);
+    out << t << "," << dc_v + 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) + noise_v * draw
+        << "\n";
+  }
+}
+
+}  // namespace
+
 TEST_CASE("cli steady-state: a capture's analysed harmonics are the input") {
   // An invented capture: 2 V at 50 Hz plus 0.5 V at 150 Hz (phase +30°), 20 periods at 10 kHz.
   test::TempDir dir("cli_predict_capture");
   const auto path = dir.file("supply.csv");
-  {
-    std::ofstream out(path);
-    out << "t,v\n";
-    out.precision(17);
-    for (int k = 0; k < 4000; ++k) {
-      const double t = k / 10000.0;
-      out << t << "," << 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) << "\n";
-    }
-  }
+  write_supply_capture(path, 0, 0);
   const auto r = run_cli("steady-state --system '1000/(1000 + s)' --input-file '" + path + "' --channel v --harmonics 5 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
@@ -177,18 +189,7 @@ TEST_CASE("cli steady-state: a capture's uncertainties reach every output figure
   // u(Y_0) = H(0)·u(X_0), with the u's of the capture's own analysis (analyze --json).
   test::TempDir dir("cli_predict_capture_u");
   const auto path = dir.file("supply.csv");
-  {
-    std::ofstream out(path);
-    out << "t,v\n";
-    out.precision(17);
-    std::mt19937_64 rng(1234);
-    std::normal_distribution<double> noise(0, 1e-3);
-    for (int k = 0; k < 4000; ++k) {
-      const double t = k / 10000.0;
-      out << t << "," << 0.8 + 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) + noise(rng)
-          << "\n";
-    }
-  }
+  write_supply_capture(path, 0.8, 1e-3);
   const auto an = run_cli("analyze '" + path + "' --harmonics 5 --json -");
   REQUIRE(an.exit_code == 0);
   const auto in = nlohmann::json::parse(an.out)["channels"][0];

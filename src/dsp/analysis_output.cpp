@@ -162,6 +162,9 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
     row["phase_defined"] = h.phase_defined;
     row["phase_note"] = h.phase_defined ? nlohmann::ordered_json(nullptr)
                                         : nlohmann::ordered_json("undefined: amplitude consistent with 0 at 95 %");
+    row["cov_re_re"] = io::json_number(h.cov_re_re);
+    row["cov_im_im"] = io::json_number(h.cov_im_im);
+    row["cov_re_im"] = io::json_number(h.cov_re_im);
     harmonics.push_back(row);
   }
   j["harmonics"] = harmonics;

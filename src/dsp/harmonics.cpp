@@ -76,20 +76,34 @@ struct PeriodScatterFloor {
   double error_variance = 0;  ///< max(residual variance, Δ²/12): one sample's error that repeats
 };
 
-/// Quantisation step of `x`: the smallest gap between distinct values when every value is a
-/// whole number of such gaps from the smallest (within kStepTolerance of a gap); 0 otherwise.
+/// Quantisation step of `x`: the greatest common divisor of the gaps between its distinct
+/// values (Euclid on reals, remainders within kStepTolerance of a gap taken as 0), accepted when
+/// every value is a whole number of steps from the lowest and the range spans at most 2^24
+/// steps (a 24-bit converter); 0 otherwise (not quantised, or too finely to tell).
 double quantisation_step(std::span<const double> x) {
-  constexpr double kStepTolerance = 1e-3;  // codes written in decimal carry rounding ~1e-12 of a step
+  constexpr double kStepTolerance = 1e-6;  // codes written in decimal carry rounding ~1e-12 of a step
+  constexpr double kMaxCodes = 16777216;   // 2^24
   std::vector<double> v(x.begin(), x.end());
   std::sort(v.begin(), v.end());
   v.erase(std::unique(v.begin(), v.end()), v.end());
   if (v.size() < 2) return 0;
+  const double range = v.back() - v.front();
+  const double floor_step = range / kMaxCodes;
   double step = v[1] - v[0];
-  for (std::size_t i = 2; i < v.size(); ++i) step = std::min(step, v[i] - v[i - 1]);
-  if (!(step > 0)) return 0;
+  for (std::size_t i = 2; i < v.size() && step > floor_step; ++i) {
+    double a = step, b = v[i] - v[i - 1];
+    while (b > floor_step) {
+      double r = std::fmod(a, b);
+      if (r < kStepTolerance * b || b - r < kStepTolerance * b) r = 0;
+      a = b;
+      b = r;
+    }
+    step = a;
+  }
+  if (!(step > floor_step)) return 0;
   for (double value : v) {
     const double codes = (value - v[0]) / step;
-    if (std::abs(codes - std::round(codes)) > kStepTolerance) return 0;
+    if (std::abs(codes - std::round(codes)) > 1e-3) return 0;
   }
   return step;
 }
@@ -390,6 +404,25 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   // the white share there, which the fit's white σ² misses (issue 12). The ratio has the per-period
   // estimate's P − 1 degrees of freedom, like the (a, b) block.
   double nu_ratio = 1;
+  if (p >= 4 && !floor.identical && fit.fundamental.method != "forced") {
+    // The residual is orthogonal to the fit's ω column, a ramp over the periods along each
+    // harmonic's phase direction with weight w_k = k²A_k²/Σ n²A_n²: harmonic k's per-period
+    // deviations lose w_k of their P − 1 degrees of freedom along its phase, so the scatter
+    // there reads (P − 1 − w_k)/(P − 1) of the noise (25 % low for a lone fundamental at P = 5).
+    // Restored as a rank-one update along the phase direction.
+    double total = 0;
+    for (std::size_t k = 1; k <= H; ++k) total += static_cast<double>(k * k) * std::norm(fit.phasor(static_cast<int>(k)));
+    for (std::size_t k = 1; k <= H && total > 0; ++k) {
+      const std::complex<double> X = fit.phasor(static_cast<int>(k));
+      const double w = static_cast<double>(k * k) * std::norm(X) / total;
+      const double phi = std::arg(X), cp = std::cos(phi), sp = std::sin(phi);
+      const double along_phase = sp * sp * scatter[k][0] - 2 * sp * cp * scatter[k][2] + cp * cp * scatter[k][1];
+      const double extra = along_phase * w / (p - 1 - w);
+      scatter[k][0] += extra * sp * sp;
+      scatter[k][1] += extra * cp * cp;
+      scatter[k][2] -= extra * sp * cp;
+    }
+  }
   if (p >= 4 && !floor.identical) {
     const double white_component = 2.0 * sigma2 * f0 / fs;  // one period, one direction
     double weighted = 0, weight = 0;
