@@ -6,6 +6,8 @@
 #include <cmath>
 #include <limits>
 #include <numbers>
+#include <utility>
+#include <vector>
 
 #include "dsp/cramer_rao.hpp"
 #include "support/coverage_trials.hpp"
@@ -22,6 +24,17 @@ constexpr double kCoverageLow = 87.0, kCoverageHigh = 100.0;
 /// The Monte Carlo variance of 100 trials has a relative spread √(2/99) = 14 %: a ratio to the
 /// bound within [0.6, 1.6] is efficient at ~3.5 σ (a known truth with the exact bound).
 constexpr double kEfficiencyLow = 0.6, kEfficiencyHigh = 1.6;
+
+/// A tone at 10.3 Hz sampled at 1 kHz (incoherent: 97.09 samples per period).
+test::CoverageCondition tone(double periods, std::vector<double> amplitudes, double snr_db, int max_harmonic) {
+  test::CoverageCondition c;
+  c.f0_hz = 10.3;
+  c.periods = periods;
+  c.amplitudes = std::move(amplitudes);
+  c.snr_db = snr_db;
+  c.max_harmonic = max_harmonic;
+  return c;
+}
 
 }  // namespace
 
@@ -52,12 +65,7 @@ TEST_CASE("cramer-rao: one tone over many periods is Rife and Boorstyn's bound")
 }
 
 TEST_CASE("coverage: white noise, three harmonics: 95 % intervals hold, variances at the bound") {
-  test::CoverageCondition c;
-  c.f0_hz = 10.3;
-  c.periods = 10;
-  c.amplitudes = {1.0, 0.1, 0.03};
-  c.snr_db = 20;
-  c.max_harmonic = 4;
+  const test::CoverageCondition c = tone(10, {1.0, 0.1, 0.03}, 20, 4);
   const auto s = test::run_coverage(c, kTrials, 11);
   REQUIRE(s.trials == kTrials);
   CHECK(s.pct(s.cover_a1) >= kCoverageLow);
@@ -78,13 +86,8 @@ TEST_CASE("coverage: sampling jitter (noise along the phase) is covered by the p
   // Jitter of 0.01 rad rms moves each sample along the waveform's slope: the noise on the
   // fundamental's phasor lies along its phase, not around it (issue 12: 86–90 % coverage with a
   // circular noise model).
-  test::CoverageCondition c;
-  c.f0_hz = 10.3;
-  c.periods = 25;
-  c.amplitudes = {1.0};
-  c.snr_db = 60;
+  test::CoverageCondition c = tone(25, {1.0}, 60, 2);
   c.jitter_rad = 0.01;
-  c.max_harmonic = 2;
   const auto s = test::run_coverage(c, kTrials, 12);
   REQUIRE(s.trials == kTrials);
   CHECK(s.pct(s.cover_a1) >= kCoverageLow);
@@ -111,12 +114,7 @@ TEST_CASE("coverage: a coherent 8-bit capture with repeating periods is flagged 
 }
 
 TEST_CASE("coverage: a forced f0 off by 0.1 bin is flagged in every record, a correct one in none") {
-  test::CoverageCondition c;
-  c.f0_hz = 10.3;
-  c.periods = 20;
-  c.amplitudes = {1.0, 0.1};
-  c.snr_db = 40;
-  c.max_harmonic = 3;
+  test::CoverageCondition c = tone(20, {1.0, 0.1}, 40, 3);
   c.forced_offset_bins = 0.1;
   auto s = test::run_coverage(c, kTrials / 2, 14);
   REQUIRE(s.trials == kTrials / 2);

@@ -651,7 +651,16 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
                   ? "the quantisation step Δ = " + sig(std::ldexp(floor.step, exponent), 3) + " (Δ/√12 per sample)"
                   : std::string("the residual (") + sig(std::ldexp(std::sqrt(sigma2), exponent), 3) + " rms)") +
              " over one period, which does not average out"});
-  if (options.lock.f0_hz > 0) {
+  if (out.periods < 2)
+    out.flags.push_back({"few-periods", "the record holds only " + sig(out.periods, 3) +
+                                            " periods: figures rest on little data"});
+  bool any_significant = false;
+  for (const auto& line : out.harmonics) any_significant = any_significant || line.significant;
+  if (!any_significant)
+    out.flags.push_back({"dc-only", "no harmonic of f0 = " + sig(f0, 6) +
+                                        " Hz stands out of the noise: the channel is dc plus "
+                                        "noise, and the harmonic figures are noise"});
+  if (options.lock.f0_hz > 0 && any_significant) {
     // A forced f0 is taken as exact; if the data put f0 elsewhere, every phase turns by
     // 360°·n·Δf·T over the record and the amplitudes shrink, far beyond the u's (issue 12).
     LockOptions unforced = options.lock;
@@ -676,15 +685,6 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
       // No free fit (no clear fundamental): nothing to compare the forced f0 with.
     }
   }
-  if (out.periods < 2)
-    out.flags.push_back({"few-periods", "the record holds only " + sig(out.periods, 3) +
-                                            " periods: figures rest on little data"});
-  bool any_significant = false;
-  for (const auto& line : out.harmonics) any_significant = any_significant || line.significant;
-  if (!any_significant)
-    out.flags.push_back({"dc-only", "no harmonic of f0 = " + sig(f0, 6) +
-                                        " Hz stands out of the noise: the channel is dc plus "
-                                        "noise, and the harmonic figures are noise"});
   if (out.periods >= 4 && any_significant) {
     // f0 of each half, fitted from the whole record's f0 with up to kDriftHarmonics.
     LockOptions half = options.lock;
