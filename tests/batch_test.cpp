@@ -356,8 +356,10 @@ tolerance = "20 mV"
   CHECK(c[50] == "1 V \xC2\xB1 20 mV");
   CHECK(c[51] == "true");
   CHECK(std::stod(c[53]) == doctest::Approx(margin_two_sided(a1, 0.98, 1.02)).epsilon(1e-12));
-  // flags, failing_flags, failing_limits (the value in the unit of the limit), message.
-  CHECK(c[55] == "");
+  // flags, failing_flags, failing_limits (the value in the unit of the limit), message. The
+  // capture is noise-free and coherent (whole periods of identical 9-digit samples): its periods
+  // repeat, which analyze flags (caution; core/flags.cpp).
+  CHECK(c[55] == "v: identical-periods");
   CHECK(c[56] == "");
   CHECK(c[57] == "thd = 9.3 % (no uncertainty known), allowed \xE2\x89\xA4 8 %");
   CHECK(c[58] == "");
@@ -383,9 +385,12 @@ TEST_CASE("batch: a clipped capture fails by default and passes when the config 
   BatchResult r = run_batch(o);
   REQUIRE(r.files.size() == 2);
   CHECK(r.files[0].status == report::FileStatus::pass);  // clean.csv
-  CHECK(r.files[0].flags.empty());
+  // Both are noise-free coherent captures (200 samples per period, 10 identical periods): the
+  // periods repeat, a caution flag that does not fail a file.
+  const std::vector<std::string> clipped_flags = {"v: clipped", "v: identical-periods"};
+  CHECK(r.files[0].flags == std::vector<std::string>{"v: identical-periods"});
   CHECK(r.files[1].status == report::FileStatus::fail);  // clipped.csv
-  CHECK(r.files[1].flags == std::vector<std::string>{"v: clipped"});
+  CHECK(r.files[1].flags == clipped_flags);
   CHECK(r.files[1].failing_flags == std::vector<std::string>{"v: clipped"});
   CHECK(batch_exit_code(r) == ExitCode::fail);
   CHECK(file_reason(r.files[1], o.config) == "flag v: clipped (invalidates)");
@@ -396,30 +401,30 @@ TEST_CASE("batch: a clipped capture fails by default and passes when the config 
   REQUIRE(c.size() == 11);
   CHECK(c[0] == dir.file("clipped.csv"));
   CHECK(c[1] == "FAIL");
-  CHECK(c[7] == "v: clipped");
+  CHECK(c[7] == "v: clipped; v: identical-periods");
   CHECK(c[8] == "v: clipped");
   CHECK(c[9] == "");
   CHECK(c[10] == "");
   const auto summary = nlohmann::json::parse(slurp(dir.path / "report" / "summary.json"));
   CHECK(summary["fail_on_flags"] == nlohmann::json(invalidating_flags()));
-  CHECK(summary["files"][1]["flags"] == nlohmann::json::array({"v: clipped"}));
+  CHECK(summary["files"][1]["flags"] == nlohmann::json::array({"v: clipped", "v: identical-periods"}));
   CHECK(summary["files"][1]["failing_flags"] == nlohmann::json::array({"v: clipped"}));
   const std::string html = slurp(dir.path / "report" / "report.html");
   CHECK(html.find("<th>flags</th><th>failing flags and limits (measured)</th>") != std::string::npos);
-  CHECK(html.find("<td class=\"msg\">v: clipped (invalidates)</td><td class=\"msg\">flag v: clipped "
-                  "(invalidates)</td>") != std::string::npos);
+  CHECK(html.find("<td class=\"msg\">v: clipped (invalidates)<br>v: identical-periods (caution)</td><td "
+                  "class=\"msg\">flag v: clipped (invalidates)</td>") != std::string::npos);
 
   // Allowing it: the config lists the flags that fail a file, and clipped is not among them.
   o.config = parse_batch_config("[verdict]\nfail_on_flags = [\"aliasing-risk\"]\n", "allow.toml");
   r = run_batch(o);
   CHECK(r.files[1].status == report::FileStatus::pass);
-  CHECK(r.files[1].flags == std::vector<std::string>{"v: clipped"});  // still shown
+  CHECK(r.files[1].flags == clipped_flags);  // still shown
   CHECK(r.files[1].failing_flags.empty());
   CHECK(batch_exit_code(r) == ExitCode::ok);
   lines = csv_lines(slurp(dir.path / "report" / "summary.csv"));
   c = csv_cells(lines[2]);
   CHECK(c[1] == "PASS");
-  CHECK(c[7] == "v: clipped");
+  CHECK(c[7] == "v: clipped; v: identical-periods");
   CHECK(c[8] == "");
 }
 

@@ -119,9 +119,10 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
   // The minimum fields, in the documented order (docs/analyze-json.md).
   const std::vector<std::string> expected = {
       "name", "unit", "status", "f0_hz", "f0_u_hz", "f0_method", "periods", "whole_periods",
-      "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r", "thd_n",
-      "sinad_db", "snr_db", "enob_bits", "full_scale_range", "enob_note", "nad_rms", "noise_rms",
-      "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof", "fit", "drift", "baseline",
+      "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r",
+      "thd_above_noise", "thd_upper", "thd_n", "sinad_db", "snr_db", "enob_bits", "full_scale_range",
+      "enob_note", "nad_rms", "noise_rms", "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof",
+      "period_scatter_ratio", "quantisation_step", "f0_free_hz", "f0_free_u_hz", "fit", "drift", "baseline",
       "residual_lines", "flags", "warnings", "harmonics"};
   CHECK(keys == expected);
   CHECK(c["name"] == "v_out");

@@ -202,19 +202,20 @@ TEST_CASE("cli batch: the table shows each file's flags; a FAIL line shows value
   const auto r = run_cli("batch " + q(dir.file("in")) + " --config " + q(dir.file("limits.toml")) +
                          " --report " + q(dir.file("out")) + " --jobs 1");
   CHECK(r.exit_code == 1);
-  // The table as periodfit's aligned-text renderer lays it out, every cell given here. k = 2.07:
-  // the Student-t 97.5 % quantile for the noise estimate's degrees of freedom (analyze JSON
-  // noise_dof); the amplitude's u is ~1e-12 V for this noise-free capture, so the interval
-  // rounds to the value.
+  // The table as periodfit's aligned-text renderer lays it out, every cell given here. Both
+  // captures are noise-free and coherent, so their periods repeat (flag identical-periods): the
+  // u's come from the one-period floor, a model value, so k = 1.96 (normal 97.5 % quantile); the
+  // amplitude's u is ~1e-9 V (9-digit rounding), so the interval rounds to the value.
   periodfit::report::Table table({{"file", periodfit::report::Table::Align::left},
                                   {"status", periodfit::report::Table::Align::left},
                                   {"flags", periodfit::report::Table::Align::left},
                                   {"why not PASS (value, 95 % interval, allowed range) / message",
                                    periodfit::report::Table::Align::left}});
-  table.add_row({dir.file("in") + "/a.csv", "FAIL", "-",
-                 "amplitude at harmonic 1 = 1 V (95 %: 1 \xE2\x80\xA6 1, k = 2.07), allowed 1.1 V \xC2\xB1 "
+  table.add_row({dir.file("in") + "/a.csv", "FAIL", "v: identical-periods",
+                 "amplitude at harmonic 1 = 1 V (95 %: 1 \xE2\x80\xA6 1, k = 1.96), allowed 1.1 V \xC2\xB1 "
                  "50 mV (+1 more)"});
-  table.add_row({dir.file("in") + "/b.csv", "FAIL", "v: clipped", "flag v: clipped (invalidates) (+2 more)"});
+  table.add_row({dir.file("in") + "/b.csv", "FAIL", "v: clipped, v: identical-periods",
+                 "flag v: clipped (invalidates) (+2 more)"});
   CHECK(r.out == table.render() + "report: " + dir.file("out") + "/report.html\n0 pass, 2 fail, 0 error\n");
   CHECK(r.err.empty());
 }

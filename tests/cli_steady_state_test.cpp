@@ -5,6 +5,8 @@
 #include <cmath>
 #include <fstream>
 #include <numbers>
+#include <random>
+#include <string>
 #include <nlohmann/json.hpp>
 
 #include "ident/model_file.hpp"
@@ -138,19 +140,31 @@ TEST_CASE("cli steady-state: measured FRF points are used only where they exist"
   CHECK(r.exit_code == 0);  // the model everywhere: fine
 }
 
+namespace {
+
+/// An invented capture: dc + 2 V at 50 Hz + 0.5 V at 150 Hz (phase +30°), 20 periods at
+/// 10 kHz, plus seeded white noise of `noise_v` rms.
+void write_supply_capture(const std::string& path, double dc_v, double noise_v) {
+  std::ofstream out(path);
+  out << "t,v\n";
+  out.precision(17);
+  std::mt19937_64 rng(1234);
+  std::normal_distribution<double> noise(0, 1);
+  for (int k = 0; k < 4000; ++k) {
+    const double t = k / 10000.0;
+    const double draw = noise(rng);
+    out << t << "," << dc_v + 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) + noise_v * draw
+        << "\n";
+  }
+}
+
+}  // namespace
+
 TEST_CASE("cli steady-state: a capture's analysed harmonics are the input") {
   // An invented capture: 2 V at 50 Hz plus 0.5 V at 150 Hz (phase +30°), 20 periods at 10 kHz.
   test::TempDir dir("cli_predict_capture");
   const auto path = dir.file("supply.csv");
-  {
-    std::ofstream out(path);
-    out << "t,v\n";
-    out.precision(17);
-    for (int k = 0; k < 4000; ++k) {
-      const double t = k / 10000.0;
-      out << t << "," << 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) << "\n";
-    }
-  }
+  write_supply_capture(path, 0, 0);
   const auto r = run_cli("steady-state --system '1000/(1000 + s)' --input-file '" + path + "' --channel v --harmonics 5 --json -");
   REQUIRE(r.exit_code == 0);
   const auto j = nlohmann::json::parse(r.out);
@@ -165,6 +179,44 @@ TEST_CASE("cli steady-state: a capture's analysed harmonics are the input") {
   const auto bad = run_cli("steady-state --system '1/(1 + s)' --input-file '" + path + "' --channel v_ot");
   CHECK(bad.exit_code == 2);
   CHECK(bad.err == "periodfit: error: unknown channel \"v_ot\" in " + path + " (channels: v)\n");  // too far for a suggestion
+}
+
+TEST_CASE("cli steady-state: a capture's uncertainties reach every output figure") {
+  // The same kind of capture with noise (σ = 1 mV, seeded) and a 0.8 V dc: the analysis gives
+  // each input harmonic a u, and the output must carry it (issue 12: the dc was printed with
+  // the model's u only, 1e4 times too small). First-order propagation (JCGM 100:2008 §5.1.2)
+  // through Y_n = H(jnω0)·X_n with H exact: u(|Y_n|) = |H_n|·u(|X_n|), u(∠Y_n) = u(∠X_n),
+  // u(Y_0) = H(0)·u(X_0), with the u's of the capture's own analysis (analyze --json).
+  test::TempDir dir("cli_predict_capture_u");
+  const auto path = dir.file("supply.csv");
+  write_supply_capture(path, 0.8, 1e-3);
+  const auto an = run_cli("analyze '" + path + "' --harmonics 5 --json -");
+  REQUIRE(an.exit_code == 0);
+  const auto in = nlohmann::json::parse(an.out)["channels"][0];
+  const auto r = run_cli("steady-state --system '1000/(1000 + s)' --input-file '" + path +
+                         "' --channel v --harmonics 5 --json -");
+  REQUIRE(r.exit_code == 0);
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["has_uncertainty"] == true);
+  CHECK(j["uncertainty_sources"] == nlohmann::json::array({"input harmonics"}));
+  // Relative tolerance: the propagation is the closed form above evaluated in double precision.
+  constexpr double kClosedForm = 1e-9;
+  CHECK(j["dc_u"].get<double>() == doctest::Approx(in["dc_u"].get<double>()).epsilon(kClosedForm));  // H(0) = 1
+  for (std::size_t i = 0; i < 3; ++i) {
+    CAPTURE(i);
+    const double gain = j["harmonics"][i]["gain_magnitude"].get<double>();
+    CHECK(j["harmonics"][i]["amplitude_u"].get<double>() ==
+          doctest::Approx(gain * in["harmonics"][i]["amplitude_u"].get<double>()).epsilon(kClosedForm));
+    CHECK(j["harmonics"][i]["phase_u_deg"].get<double>() ==
+          doctest::Approx(in["harmonics"][i]["phase_u_deg"].get<double>()).epsilon(kClosedForm));
+  }
+  CHECK(j["rms_u"].get<double>() > 0);
+  CHECK(j["ripple_pp_u"].get<double>() > 0);
+  // The text says what the u's include.
+  const auto t = run_cli("steady-state --system '1000/(1000 + s)' --input-file '" + path + "' --channel v --harmonics 5");
+  REQUIRE(t.exit_code == 0);
+  CHECK(t.out.find("u includes") != std::string::npos);
+  CHECK(t.out.find("input harmonics") != std::string::npos);
 }
 
 TEST_CASE("cli steady-state: bad input gives one error line and exit code 2") {

@@ -43,8 +43,8 @@ TEST_CASE("flags: every flag code the sources raise is in the table, with a sent
 }
 
 TEST_CASE("flags: the default failing set is the invalidates flags, clipped and aliasing-risk among them") {
-  const std::vector<std::string> expected = {"clipped", "aliasing-risk", "not-converged", "dc-only",
-                                             "not-periodic", "model-not-converged"};
+  const std::vector<std::string> expected = {"clipped",      "aliasing-risk", "not-converged",      "dc-only",
+                                             "not-periodic", "forced-f0-off", "model-not-converged"};
   CHECK(invalidating_flags() == expected);
   CHECK(find_flag("few-periods")->severity == FlagSeverity::caution);
   CHECK(find_flag("numerical-floor")->severity == FlagSeverity::info);

@@ -93,3 +93,24 @@ TEST_CASE("metrics: y = x + a2·x² + a3·x³ of a sine has the trig-identity ha
   const double dc = a2 * A * A / 2;
   CHECK(a.rms == doctest::Approx(std::sqrt(dc * dc + (h1 * h1 + h2 * h2 + h3 * h3) / 2)).epsilon(1e-9));
 }
+
+TEST_CASE("metrics: THD subtracts the noise power of the harmonic bins and bounds what it cannot see") {
+  // E[Â_n²] = A_n² + v_n (a line plus circular noise of power v_n; docs/methods.md, "THD below
+  // the noise floor"). Harmonics 2…4 at 0.001 with v_n = 1e-6 each: Σ Â² = 3e-6, D = 0, so THD
+  // is 0, not significant, and its 95 % bound √(1.645·u(D)) with u(D)² = Σ v_n² = 3e-12.
+  const std::vector<double> amps = {0.0, 1.0, 0.001, 0.001, 0.001};
+  const std::vector<double> v = {0.0, 1e-6, 1e-6, 1e-6, 1e-6};
+  const auto d = dsp::distortion_figures(amps, 1e-6, 1e-6, 0, v);
+  CHECK(d.thd_noise_corrected);
+  CHECK(d.thd == 0);
+  CHECK_FALSE(d.thd_above_noise);
+  CHECK(d.thd_upper == doctest::Approx(std::sqrt(1.6448536269514722 * std::sqrt(3e-12))).epsilon(1e-12));
+  // A real 5 % second harmonic with the same noise: D = 0.0025 + 2e-6 − 3e-6 (closed form).
+  const std::vector<double> strong = {0.0, 1.0, 0.05, 0.001, 0.001};
+  const auto s = dsp::distortion_figures(strong, 1e-6, 1e-6, 0, v);
+  CHECK(s.thd_above_noise);
+  CHECK(s.thd == doctest::Approx(std::sqrt(0.0025 - 1e-6)).epsilon(1e-12));
+  CHECK(s.thd_upper > s.thd);
+  // Without noise powers nothing is subtracted (the definition, as before).
+  CHECK(dsp::distortion_figures(strong, 1e-6, 1e-6).thd == doctest::Approx(std::sqrt(0.0025 + 2e-6)).epsilon(1e-14));
+}

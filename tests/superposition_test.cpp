@@ -435,9 +435,78 @@ TEST_CASE("superposition: CSV and JSON carry the documented fields") {
   for (const auto& [k, v] : j.items()) keys.push_back(k);
   CHECK(keys == std::vector<std::string>{"status", "method", "f0_hz", "harmonics_used", "harmonic_count_method",
                                          "input_left_out_fraction", "output_tail_estimate", "tail_checked_to", "output_tail_method",
-                                         "has_uncertainty", "dc", "dc_u", "rms", "rms_u", "min", "max", "ripple_pp",
+                                         "has_uncertainty", "uncertainty_sources", "dc", "dc_u", "rms", "rms_u", "min", "max", "ripple_pp",
                                          "ripple_pp_u", "thd", "thd_u", "harmonics_listed", "harmonics", "samples",
                                          "flags", "warnings"});
   CHECK(j["harmonics"][0]["n"] == 1);
   CHECK(j["harmonics"][0]["amplitude"].get<double>() == r.harmonics_out[0].amplitude);
+}
+
+TEST_CASE("superposition: a measured input's covariance is propagated, and adds to the model's") {
+  // JCGM 100:2008 §5.1.2: u² = ∇ᵀC∇ over the input's (X_0, Re X_n, Im X_n), C block-diagonal
+  // with each harmonic's 2×2 (not circular: the phase-direction noise of jitter); the gradient
+  // here by central differences. With a model covariance too, the two are independent:
+  // u² = u²(model) + u²(input).
+  constexpr double kStep = 1e-6;   // input units (|X| ≤ 1): truncation error ~ step²
+  constexpr double kFdRel = 1e-6;
+  const double f0 = 100;
+  const std::vector<std::complex<double>> x = {std::polar(1.0, 0.3), std::polar(0.2, -1.0), std::polar(0.05, 2.0)};
+  const double dc = 0.5, dc_var = 4e-6;
+  predict::InputUncertainty in;
+  in.dc_var = dc_var;
+  in.phasor_cov = {{0, 0, 0}, {1e-6, 3e-6, 1e-6}, {2e-6, 1e-6, -0.5e-6}, {1e-6, 1e-6, 0}};
+  predict::PredictOptions o;
+  o.default_samples_per_period = 64;
+  predict::PredictSystem sys;
+  sys.model = predict::model_from_coefficients({1000}, {1000, 1});  // exact: input u only
+  const auto r = predict::predict_steady_state(predict::series_from_measurement(f0, dc, x), sys, o, in);
+  REQUIRE(r.has_uncertainty);
+  CHECK(r.uncertainty_sources == std::vector<std::string>{"input harmonics"});
+  // Parameter i: 0 = dc, 1 + 2(n−1) = Re X_n, 2 + 2(n−1) = Im X_n.
+  const auto perturbed = [&](std::size_t i, double h) {
+    double d = dc;
+    auto xs = x;
+    if (i == 0) d += h;
+    else if (i % 2 == 1) xs[(i - 1) / 2] += h;
+    else xs[(i - 2) / 2] += std::complex<double>(0, h);
+    return predict::predict_steady_state(predict::series_from_measurement(f0, d, xs), sys, o);
+  };
+  std::vector<predict::PredictResult> plus, minus;
+  for (std::size_t i = 0; i < 7; ++i) {
+    plus.push_back(perturbed(i, kStep));
+    minus.push_back(perturbed(i, -kStep));
+  }
+  const auto fd_u = [&](auto get) {
+    std::vector<double> g(7);
+    for (std::size_t i = 0; i < 7; ++i) g[i] = (get(plus[i]) - get(minus[i])) / (2 * kStep);
+    double var = g[0] * g[0] * dc_var;
+    for (std::size_t n = 1; n <= 3; ++n) {
+      const auto& c = in.phasor_cov[n];
+      const double gr = g[2 * n - 1], gi = g[2 * n];
+      var += gr * gr * c[0] + gi * gi * c[1] + 2 * gr * gi * c[2];
+    }
+    return std::sqrt(var);
+  };
+  CHECK(r.dc_u == doctest::Approx(fd_u([](const auto& y) { return y.dc; })).epsilon(kFdRel));
+  CHECK(r.rms_u == doctest::Approx(fd_u([](const auto& y) { return y.rms; })).epsilon(kFdRel));
+  CHECK(r.thd_u == doctest::Approx(fd_u([](const auto& y) { return y.thd; })).epsilon(kFdRel));
+  CHECK(r.ripple_pp_u == doctest::Approx(fd_u([](const auto& y) { return y.ripple_pp; })).epsilon(1e-4));
+  for (std::size_t k = 0; k < r.value.size(); k += 7) {
+    INFO("sample " << k);
+    CHECK(r.value_u[k] == doctest::Approx(fd_u([&](const auto& y) { return y.value[k]; })).epsilon(kFdRel));
+  }
+  for (std::size_t i = 0; i < 3; ++i) {
+    CHECK(r.harmonics_out[i].amplitude_u ==
+          doctest::Approx(fd_u([&](const auto& y) { return y.harmonics_out[i].amplitude; })).epsilon(kFdRel));
+    CHECK(r.harmonics_out[i].phase_u_deg ==
+          doctest::Approx(fd_u([&](const auto& y) { return y.harmonics_out[i].phase_deg; })).epsilon(kFdRel));
+  }
+  // Model covariance as well: the variances add.
+  predict::PredictSystem both;
+  both.model = uncertain_rc();
+  const auto model_only = predict::predict_steady_state(predict::series_from_measurement(f0, dc, x), both, o);
+  const auto combined = predict::predict_steady_state(predict::series_from_measurement(f0, dc, x), both, o, in);
+  CHECK(combined.uncertainty_sources == std::vector<std::string>{"model covariance", "input harmonics"});
+  CHECK(combined.rms_u == doctest::Approx(std::hypot(model_only.rms_u, r.rms_u)).epsilon(1e-12));
+  CHECK(combined.value_u[3] == doctest::Approx(std::hypot(model_only.value_u[3], r.value_u[3])).epsilon(1e-12));
 }

@@ -23,6 +23,9 @@ const std::vector<FlagInfo> kFlags = {
     {"not-periodic", FlagSeverity::invalidates, "analyze",
      "the harmonics of the f0 found explain little of the signal's line power (two tones, "
      "modulation): f0 and the harmonic figures do not describe one periodic signal"},
+    {"forced-f0-off", FlagSeverity::invalidates, "analyze",
+     "the forced f0 differs from the data's own f0 by more than 4 of its uncertainties: phases turn "
+     "and amplitudes shrink over the record, far beyond their uncertainties"},
     {"model-not-converged", FlagSeverity::invalidates, "frf",
      "the model fit stopped without converging: its parameters are not the least-squares estimate"},
     {"few-periods", FlagSeverity::caution, "analyze, frf",
@@ -34,6 +37,10 @@ const std::vector<FlagInfo> kFlags = {
     {"interference", FlagSeverity::caution, "analyze",
      "a line beside the harmonics (hum, another source) carries part of the residual: it counts "
      "as noise in THD+N, SINAD and SNR"},
+    {"identical-periods", FlagSeverity::caution, "analyze",
+     "the periods repeat exactly (a coherent capture): period-to-period scatter cannot show the "
+     "error, so the uncertainties come from the residual or the quantisation step (Δ/√12) over one "
+     "period"},
     {"drift", FlagSeverity::caution, "analyze",
      "f0 differs between the halves of the record: the figures are averages over the record"},
     {"nonlinear", FlagSeverity::caution, "frf",

@@ -75,6 +75,8 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   j["crest_factor"] = io::json_number(c.crest_factor);
   j["thd"] = io::json_number(c.distortion.thd);
   j["thd_r"] = io::json_number(c.distortion.thd_r);
+  j["thd_above_noise"] = c.distortion.thd_above_noise;
+  j["thd_upper"] = io::json_number(c.distortion.thd_upper);
   j["thd_n"] = io::json_number(c.distortion.thd_n);
   j["sinad_db"] = io::json_number(c.distortion.sinad_db);
   j["snr_db"] = io::json_number(c.distortion.snr_db);
@@ -89,6 +91,10 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   j["noise_floor_dbc"] = io::json_number(c.noise_floor_dbc);
   j["noise_method"] = c.noise_method;
   j["noise_dof"] = c.noise_dof;
+  j["period_scatter_ratio"] = io::json_number(c.period_scatter_ratio);
+  j["quantisation_step"] = c.quantisation_step > 0 ? io::json_number(c.quantisation_step) : nlohmann::ordered_json(nullptr);
+  j["f0_free_hz"] = c.f0_free_hz > 0 ? io::json_number(c.f0_free_hz) : nlohmann::ordered_json(nullptr);
+  j["f0_free_u_hz"] = c.f0_free_hz > 0 ? io::json_number(c.f0_free_u_hz) : nlohmann::ordered_json(nullptr);
   nlohmann::ordered_json fit;
   fit["harmonics"] = c.fundamental.harmonics_fitted;
   fit["dof"] = c.fundamental.dof;
@@ -156,6 +162,9 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
     row["phase_defined"] = h.phase_defined;
     row["phase_note"] = h.phase_defined ? nlohmann::ordered_json(nullptr)
                                         : nlohmann::ordered_json("undefined: amplitude consistent with 0 at 95 %");
+    row["cov_re_re"] = io::json_number(h.cov_re_re);
+    row["cov_im_im"] = io::json_number(h.cov_im_im);
+    row["cov_re_im"] = io::json_number(h.cov_re_im);
     harmonics.push_back(row);
   }
   j["harmonics"] = harmonics;
@@ -203,7 +212,10 @@ std::string analyze_text(const AnalyzeReport& r) {
                                    " samples per period)");
     kv.emplace_back("dc", io::format_with_u(c.dc, c.dc_u, c.unit));
     kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
-    kv.emplace_back("THD", percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")");
+    kv.emplace_back("THD", c.distortion.thd_above_noise
+                               ? percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")"
+                               : "< " + percent(c.distortion.thd_upper) +
+                                     " (95 % bound: the harmonics are within the noise)");
     kv.emplace_back("THD+N", percent(c.distortion.thd_n) + ", SINAD " + db(c.distortion.sinad_db) +
                                  ", SNR " + db(c.distortion.snr_db));
     kv.emplace_back("ENOB", std::isfinite(c.distortion.enob_bits)

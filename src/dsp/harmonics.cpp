@@ -4,9 +4,11 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <limits>
 #include <numbers>
 #include <string>
 
+#include <boost/math/distributions/fisher_f.hpp>
 #include <boost/math/distributions/students_t.hpp>
 
 #include "core/error.hpp"
@@ -24,6 +26,17 @@ constexpr double kAliasBandFraction = 0.4;
 /// ... when they reach this fraction of the fundamental (−60 dB; common practice for a
 /// "significant" spur in ADC testing).
 constexpr double kAliasLevel = 1e-3;
+/// Period-to-period scatter below this share of the residual variance means the periods repeat:
+/// white noise gives ≈ 0.9 (the interpolation kernel passes 0.88 of the band) with a spread of
+/// √(2/(M·(P − 1))), i.e. a few % for any record analyze locks, so 0.5 is never reached by noise;
+/// a coherent capture whose periods hold the same codes gives 0.
+constexpr double kIdenticalPeriodsRatio = 0.5;
+/// Family-wise false-alarm level of "aliasing-risk" on records with no harmonic in the top band
+/// (the target is ≤ 5 % of noise-only records; 1 % leaves room for the approximate null law).
+constexpr double kAliasFamilyAlpha = 0.01;
+/// A forced f0 further than this many u from the free fit's f0 is flagged ("forced-f0-off"):
+/// 4 u puts the false-alarm rate of a correct forced f0 at 6e-5 (normal law).
+constexpr double kForcedF0Sigmas = 4;
 /// Harmonics used for the two half-record fits of the drift check: the strongest lines carry
 /// nearly all the information on f0, and three keep the check cheap on long records.
 constexpr int kDriftHarmonics = 3;
@@ -52,6 +65,71 @@ double wrap_deg(double d) {
   if (d > 180) d -= 360;
   if (d <= -180) d += 360;
   return d;
+}
+
+/// Period-to-period scatter of a locked record against its residual variance, and the error
+/// floor to use when the periods repeat (see analyze_unit_scaled).
+struct PeriodScatterFloor {
+  double ratio = 1;           ///< pooled per-period scatter variance / residual variance
+  bool identical = false;     ///< ratio below kIdenticalPeriodsRatio (and the residual above rounding)
+  double step = 0;            ///< quantisation step Δ found in the samples (0 = none found)
+  double error_variance = 0;  ///< max(residual variance, Δ²/12): one sample's error that repeats
+};
+
+/// Quantisation step of `x`: the greatest common divisor of the gaps between its distinct
+/// values (Euclid on reals, remainders within kStepTolerance of a gap taken as 0), accepted when
+/// every value is a whole number of steps from the lowest and the range spans at most 2^24
+/// steps (a 24-bit converter); 0 otherwise (not quantised, or too finely to tell).
+double quantisation_step(std::span<const double> x) {
+  constexpr double kStepTolerance = 1e-6;  // codes written in decimal carry rounding ~1e-12 of a step
+  constexpr double kMaxCodes = 16777216;   // 2^24
+  std::vector<double> v(x.begin(), x.end());
+  std::sort(v.begin(), v.end());
+  v.erase(std::unique(v.begin(), v.end()), v.end());
+  if (v.size() < 2) return 0;
+  const double range = v.back() - v.front();
+  const double floor_step = range / kMaxCodes;
+  double step = v[1] - v[0];
+  for (std::size_t i = 2; i < v.size() && step > floor_step; ++i) {
+    double a = step, b = v[i] - v[i - 1];
+    while (b > floor_step) {
+      double r = std::fmod(a, b);
+      if (r < kStepTolerance * b || b - r < kStepTolerance * b) r = 0;
+      a = b;
+      b = r;
+    }
+    step = a;
+  }
+  if (!(step > floor_step)) return 0;
+  for (double value : v) {
+    const double codes = (value - v[0]) / step;
+    if (std::abs(codes - std::round(codes)) > 1e-3) return 0;
+  }
+  return step;
+}
+
+PeriodScatterFloor period_scatter_floor(const PeriodGrid& grid, std::span<const double> x, double sigma2) {
+  PeriodScatterFloor f;
+  const int m = grid.samples_per_period, p = grid.periods;
+  // Below this residual variance (the samples are unit-scaled: peak in [0.5, 1)) the residual is
+  // double rounding, which repeats with the periods of an exact synthetic record as well.
+  constexpr double kRoundingVariance = 1e-24;
+  if (p < 2 || !(sigma2 > kRoundingVariance)) return f;
+  const auto M = static_cast<std::size_t>(m), P = static_cast<std::size_t>(p);
+  double ss = 0;
+  for (std::size_t k = 0; k < M; ++k) {
+    double mean = 0;
+    for (std::size_t q = 0; q < P; ++q) mean += grid.samples[q * M + k];
+    mean /= static_cast<double>(P);
+    for (std::size_t q = 0; q < P; ++q) ss += (grid.samples[q * M + k] - mean) * (grid.samples[q * M + k] - mean);
+  }
+  f.ratio = ss / (static_cast<double>(M) * static_cast<double>(P - 1)) / sigma2;
+  f.identical = f.ratio < kIdenticalPeriodsRatio;
+  if (f.identical) {
+    f.step = quantisation_step(x);
+    f.error_variance = std::max(sigma2, f.step * f.step / 12);
+  }
+  return f;
 }
 
 }  // namespace
@@ -104,6 +182,12 @@ void scale_results(ChannelAnalysis& a, int exponent) {
   up(a.baseline.c2);
   up(a.baseline.peak_to_peak);
   up2(a.baseline.power);
+  up(a.quantisation_step);
+  for (auto& line : a.harmonics) {
+    up2(line.cov_re_re);
+    up2(line.cov_im_im);
+    up2(line.cov_re_im);
+  }
   up2(a.baseline.removed_ss);
   for (auto& line : a.residual_lines.lines) up(line.amplitude);
   up2(a.residual_lines.power);
@@ -243,21 +327,40 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   out.peak_abs = peak;
   out.crest_factor = crest_factor(peak, out.rms);
 
-  // Noise level at each harmonic, as a ratio to white noise of the fit's residual variance.
+  // Noise level at each harmonic, as a ratio to white noise of the fit's residual variance
+  // (used for dc, the fit's f0 cross terms, and the noise-bin / fit-residual methods), and, with
+  // whole periods enough, the 2×2 sample covariance of the per-period (Re, Im) phasors.
   const double sigma2 = fit.sigma2;
   const auto H = static_cast<std::size_t>(h);
   std::vector<double> ratio(H + 1, 1.0);
+  std::vector<std::array<double, 3>> scatter(H + 1, {0.0, 0.0, 0.0});  // {rr, ii, ri} of one period
   const int p = grid.periods;
+  const double samples_per_period_fs = fs / f0;
+  const PeriodScatterFloor floor = period_scatter_floor(grid, x, sigma2);
+  out.period_scatter_ratio = floor.ratio;
+  out.quantisation_step = floor.step;
   if (p >= 4) {
     out.noise_method = "per-period";
     out.noise_dof = p - 1;
     for (std::size_t k = 0; k <= H; ++k) {
-      double v = 0;
-      for (int q = 0; q < p; ++q)
-        v += std::norm(spectra.per_period[static_cast<std::size_t>(q)][k] - spectra.mean[k]);
-      v /= (p - 1);
+      double rr = 0, ii = 0, ri = 0;
+      for (int q = 0; q < p; ++q) {
+        const std::complex<double> d = spectra.per_period[static_cast<std::size_t>(q)][k] - spectra.mean[k];
+        rr += d.real() * d.real();
+        ii += d.imag() * d.imag();
+        ri += d.real() * d.imag();
+      }
+      scatter[k] = {rr / (p - 1), ii / (p - 1), ri / (p - 1)};
       const double white = (k == 0 ? 1.0 : 4.0) * sigma2 * f0 / fs;  // E|ΔX|² of one period
-      ratio[k] = white > 0 ? v / white : 1.0;
+      ratio[k] = white > 0 ? (scatter[k][0] + scatter[k][1]) / white : 1.0;
+      // Near fs/2 the grid's residual is interpolated at the kernel's band edge, and its
+      // per-period scatter under-reads the noise (measured: 84–91 % amplitude coverage at
+      // 0.44·fs, docs/performance.md); there the fit residual's white level is a floor, the
+      // scatter's shape kept.
+      if (static_cast<double>(k) * f0 >= kAliasBandFraction * fs && ratio[k] > 0 && ratio[k] < 1) {
+        for (double& c : scatter[k]) c /= ratio[k];
+        ratio[k] = 1;
+      }
     }
   } else if (spectra.noise_bin_dof > 0) {
     out.noise_method = "noise-bins";
@@ -270,20 +373,79 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
     out.noise_method = "fit-residual";
     out.noise_dof = fit.fundamental.dof;
   }
+  if (floor.identical) {
+    // The scatter (and the bins between harmonics) cannot show the error of a record whose
+    // periods repeat: the residual (or the quantisation step) over one period is the error that
+    // does not average out. Its size is a model value, so it gets the normal coverage factor.
+    out.noise_method += " + one-period floor";
+    out.noise_dof = 0;
+  }
 
-  // Harmonic lines with uncertainties: C = diag(√r, √r, 1)·σ²·C_unit·diag(…) for (a, b, ν),
-  // propagated to (Re X, Im X) at t = 0 and then to amplitude and phase.
+  // Harmonic lines with uncertainties. The fit's covariance σ²·C_unit of (a, b, ν) is
+  // propagated to (Re X, Im X) at t = 0. Its (a, b) block is replaced by the noise the data show:
+  //  - per-period (P ≥ 4): the 2×2 sample covariance S of the per-period phasors divided by the
+  //    record's effective number of periods (the mean of P independent periods has covariance
+  //    S/P; Pintelon & Schoukens, System Identification, 2nd ed., §2.4, sample mean and sample
+  //    covariance of periodic measurements). S keeps the noise's shape, so noise that is not
+  //    circular (sampling jitter moves the phase, not the amplitude) is covered;
+  //  - otherwise the white-noise block scaled by the noise ratio r (circular).
+  // The f0 terms are the fit's, scaled by the noise along the harmonics' phases (below). A record whose periods repeat
+  // exactly adds the one-period floor 2·σ_e²/M per component (σ_e² = max(residual variance,
+  // Δ²/12), M = fs/f0 samples per period; IEEE Std 1241-2010 §4.1.4.2 / Widrow's quantisation
+  // noise model). Amplitude and phase then follow to first order (JCGM 100:2008 §5.1.2).
   out.harmonics.reserve(H);
   const double k95 = coverage_95(out.noise_dof);
   std::vector<double> amplitudes(H + 1, 0.0);
+  std::vector<double> noise_power(H + 1, 0.0);  // E|ΔX_n|², for THD's noise bias
+  const double floor_component = floor.identical ? 2 * floor.error_variance / samples_per_period_fs : 0.0;
+  // f0 is read from the phases' progression over the record, so its variance scales with the
+  // noise along each harmonic's phase direction, weighted by the information n²·A_n² it carries
+  // (the ν row of JᵀJ). With P ≥ 4 that noise is measured per period: sampling jitter puts 1.5×
+  // the white share there, which the fit's white σ² misses (issue 12). The ratio has the per-period
+  // estimate's P − 1 degrees of freedom, like the (a, b) block.
+  double nu_ratio = 1;
+  if (p >= 4 && !floor.identical && fit.fundamental.method != "forced") {
+    // The residual is orthogonal to the fit's ω column, a ramp over the periods along each
+    // harmonic's phase direction with weight w_k = k²A_k²/Σ n²A_n²: harmonic k's per-period
+    // deviations lose w_k of their P − 1 degrees of freedom along its phase, so the scatter
+    // there reads (P − 1 − w_k)/(P − 1) of the noise (25 % low for a lone fundamental at P = 5).
+    // Restored as a rank-one update along the phase direction.
+    double total = 0;
+    for (std::size_t k = 1; k <= H; ++k) total += static_cast<double>(k * k) * std::norm(fit.phasor(static_cast<int>(k)));
+    for (std::size_t k = 1; k <= H && total > 0; ++k) {
+      const std::complex<double> X = fit.phasor(static_cast<int>(k));
+      const double w = static_cast<double>(k * k) * std::norm(X) / total;
+      const double phi = std::arg(X), cp = std::cos(phi), sp = std::sin(phi);
+      const double along_phase = sp * sp * scatter[k][0] - 2 * sp * cp * scatter[k][2] + cp * cp * scatter[k][1];
+      const double extra = along_phase * w / (p - 1 - w);
+      scatter[k][0] += extra * sp * sp;
+      scatter[k][1] += extra * cp * cp;
+      scatter[k][2] -= extra * sp * cp;
+    }
+  }
+  if (p >= 4 && !floor.identical) {
+    const double white_component = 2.0 * sigma2 * f0 / fs;  // one period, one direction
+    double weighted = 0, weight = 0;
+    for (std::size_t k = 1; k <= H && white_component > 0; ++k) {
+      const std::complex<double> X = fit.phasor(static_cast<int>(k));
+      const double w = static_cast<double>(k * k) * std::norm(X);
+      const double phi = std::arg(X), cp = std::cos(phi), sp = std::sin(phi);
+      const double along_phase = sp * sp * scatter[k][0] - 2 * sp * cp * scatter[k][2] + cp * cp * scatter[k][1];
+      weighted += w * along_phase / white_component;
+      weight += w;
+    }
+    if (weight > 0) nu_ratio = weighted / weight;
+  }
   for (std::size_t k = 0; k <= H; ++k) {
     const auto& u = fit.unit_cov[k];
     const double r = std::sqrt(std::max(ratio[k], 0.0));
-    const double caa = sigma2 * u[0] * r * r, cbb = sigma2 * u[1] * r * r, cvv = sigma2 * u[2];
-    const double cab = sigma2 * u[3] * r * r, cav = sigma2 * u[4] * r, cbv = sigma2 * u[5] * r;
+    const double cvv = sigma2 * u[2] * nu_ratio;
+    const double rv = std::sqrt(std::max(nu_ratio, 0.0));
+    const double cav = sigma2 * u[4] * r * rv, cbv = sigma2 * u[5] * r * rv;
     if (k == 0) {
       out.dc = fit.a[0];
-      out.dc_u = std::sqrt(std::max(caa, 0.0));
+      const double caa = sigma2 * u[0] * r * r;
+      out.dc_u = std::sqrt(std::max(caa, 0.0) + 0.5 * floor_component);
       continue;
     }
     const std::complex<double> X = fit.phasor(static_cast<int>(k));
@@ -292,21 +454,40 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
     const double alpha = kTwoPi * (cycles - std::floor(cycles));
     const double ca = std::cos(alpha), sa = std::sin(alpha);
     const double g = static_cast<double>(k) * fs * fit.tc_s;
-    const std::array<double, 3> jr = {ca, -sa, g * X.imag()};
-    const std::array<double, 3> ji = {-sa, -ca, -g * X.real()};
-    const double c[3][3] = {{caa, cab, cav}, {cab, cbb, cbv}, {cav, cbv, cvv}};
-    auto quad = [&](const std::array<double, 3>& p1, const std::array<double, 3>& p2) {
-      double s = 0;
-      for (int i = 0; i < 3; ++i)
-        for (int j = 0; j < 3; ++j) s += p1[static_cast<std::size_t>(i)] * c[i][j] * p2[static_cast<std::size_t>(j)];
-      return s;
-    };
-    const double crr = quad(jr, jr), cii = quad(ji, ji), cri = quad(jr, ji);
+    // White-noise (a, b) block in (Re X, Im X): rows (ca, −sa) and (−sa, −ca).
+    const double waa = sigma2 * u[0], wbb = sigma2 * u[1], wab = sigma2 * u[3];
+    const double wrr = ca * ca * waa - 2 * ca * sa * wab + sa * sa * wbb;
+    const double wii = sa * sa * waa + 2 * sa * ca * wab + ca * ca * wbb;
+    const double wri = -ca * sa * waa - ca * ca * wab + sa * sa * wab + sa * ca * wbb;
+    double crr = 0, cii = 0, cri = 0;
+    if (p >= 4) {
+      const double white = 4.0 * sigma2 * f0 / fs;
+      const double periods_eff = wrr + wii > 0 ? white / (wrr + wii) : static_cast<double>(p);
+      crr = scatter[k][0] / periods_eff;
+      cii = scatter[k][1] / periods_eff;
+      cri = scatter[k][2] / periods_eff;
+    } else {
+      crr = wrr * r * r;
+      cii = wii * r * r;
+      cri = wri * r * r;
+    }
+    crr += floor_component;
+    cii += floor_component;
+    // f0 part: ν's variance and its cross terms with (a, b).
+    const double vr = g * X.imag(), vi = -g * X.real();
+    const double xr = ca * cav - sa * cbv, xi = -sa * cav - ca * cbv;  // Cov(Re X, ν), Cov(Im X, ν) via (a, b)
+    crr += 2 * xr * vr + vr * vr * cvv;
+    cii += 2 * xi * vi + vi * vi * cvv;
+    cri += xr * vi + xi * vr + vr * vi * cvv;
     HarmonicLine line;
     line.n = static_cast<int>(k);
     line.freq_hz = static_cast<double>(k) * f0;
     line.amplitude = std::abs(X);
     line.phasor = X;
+    line.cov_re_re = crr;
+    line.cov_im_im = cii;
+    line.cov_re_im = cri;
+    noise_power[k] = crr + cii;
     const double phi = std::arg(X);
     const double cp = std::cos(phi), sp = std::sin(phi);
     line.amplitude_u = std::sqrt(std::max(0.0, cp * cp * crr + 2 * cp * sp * cri + sp * sp * cii));
@@ -338,7 +519,7 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   } else {
     out.enob_note = "no full-scale range known (give one with --full-scale)";
   }
-  out.distortion = distortion_figures(amplitudes, residual_power, sigma2, out.full_scale_range);
+  out.distortion = distortion_figures(amplitudes, residual_power, sigma2, out.full_scale_range, noise_power);
   out.noise_rms = std::sqrt(sigma2);
   out.noise_floor = 2 * out.noise_rms / std::sqrt(static_cast<double>(n));
   out.noise_floor_dbc = amplitudes[1] > 0 && out.noise_floor > 0
@@ -425,18 +606,51 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
                                                     ? "it was fitted with the harmonics and is not counted as noise"
                                                     : "it is counted as noise")});
   }
-  for (const auto& line : out.harmonics) {
-    if (line.freq_hz >= kAliasBandFraction * fs && line.amplitude >= kAliasLevel * amplitudes[1] &&
-        line.significant) {
+  {
+    // Evidence, not a threshold crossing: among the K harmonics n ≥ 2 in the top band, white
+    // noise alone makes one of them "significant" (amplitude ≥ 3·u, ~1 % each) in K % of
+    // records. A line counts only when its Hotelling statistic T² = Xᵀ·C⁻¹·X rejects "no line"
+    // at the family-wise level kAliasFamilyAlpha (Bonferroni over the K lines; with ν noise
+    // dof, T² ~ 2ν/(ν − 1)·F(2, ν − 1) under no line, Hotelling 1931; ν unknown or large: χ²₂).
+    int candidates = 0;
+    for (const auto& line : out.harmonics) candidates += line.n >= 2 && line.freq_hz >= kAliasBandFraction * fs;
+    const double alpha = kAliasFamilyAlpha / std::max(candidates, 1);
+    const int nu = out.noise_dof;
+    const double t2_limit =
+        nu >= 3 && nu <= 1000
+            ? 2.0 * nu / (nu - 1) *
+                  boost::math::quantile(boost::math::complement(
+                      boost::math::fisher_f_distribution<double>(2.0, nu - 1.0), alpha))
+            : -2 * std::log(alpha);
+    for (const auto& line : out.harmonics) {
+      if (line.n < 2 || line.freq_hz < kAliasBandFraction * fs || line.amplitude < kAliasLevel * amplitudes[1] ||
+          !line.significant)
+        continue;
+      const double det = line.cov_re_re * line.cov_im_im - line.cov_re_im * line.cov_re_im;
+      const double xr = line.phasor.real(), xi = line.phasor.imag();
+      const double t2 = det > 0 ? (xr * xr * line.cov_im_im - 2 * xr * xi * line.cov_re_im + xi * xi * line.cov_re_re) / det
+                                : std::numeric_limits<double>::infinity();
+      if (!(t2 > t2_limit)) continue;
       out.flags.push_back(
           {"aliasing-risk", "harmonic " + std::to_string(line.n) + " at " + sig(line.freq_hz) +
                                 " Hz (above 0.4·fs) is only " +
                                 sig(-20 * std::log10(line.amplitude / amplitudes[1]), 3) +
-                                " dB below the fundamental: harmonics beyond fs/2 may have "
-                                "folded back onto the ones reported"});
+                                " dB below the fundamental and stands out of the noise (T² " + sig(t2, 3) +
+                                " against " + sig(t2_limit, 3) + " for 1 % over the " + std::to_string(candidates) +
+                                " harmonics there): harmonics beyond fs/2 may have folded back onto the ones reported"});
       break;
     }
   }
+  if (floor.identical)
+    out.flags.push_back(
+        {"identical-periods",
+         "the periods repeat almost exactly (period-to-period scatter " + sig(100 * floor.ratio, 2) +
+             " % of the residual variance; a coherent capture): the scatter cannot show the error, so the "
+             "uncertainties come from " +
+             (floor.step > 0 && floor.step * floor.step / 12 >= sigma2
+                  ? "the quantisation step Δ = " + sig(std::ldexp(floor.step, exponent), 3) + " (Δ/√12 per sample)"
+                  : std::string("the residual (") + sig(std::ldexp(std::sqrt(sigma2), exponent), 3) + " rms)") +
+             " over one period, which does not average out"});
   if (out.periods < 2)
     out.flags.push_back({"few-periods", "the record holds only " + sig(out.periods, 3) +
                                             " periods: figures rest on little data"});
@@ -446,6 +660,31 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
     out.flags.push_back({"dc-only", "no harmonic of f0 = " + sig(f0, 6) +
                                         " Hz stands out of the noise: the channel is dc plus "
                                         "noise, and the harmonic figures are noise"});
+  if (options.lock.f0_hz > 0 && any_significant) {
+    // A forced f0 is taken as exact; if the data put f0 elsewhere, every phase turns by
+    // 360°·n·Δf·T over the record and the amplitudes shrink, far beyond the u's (issue 12).
+    LockOptions unforced = options.lock;
+    unforced.f0_hz = 0;
+    unforced.f0_hint_hz = 0;
+    unforced.f0_start_hz = options.lock.f0_hz;
+    unforced.max_harmonic = h;
+    try {
+      const HarmonicFit fitted = fit_harmonics(x, fs, t0, unforced);
+      out.f0_free_hz = fitted.fundamental.f0_hz;
+      out.f0_free_u_hz = fitted.fundamental.f0_u_hz;
+      const double diff = options.lock.f0_hz - out.f0_free_hz;
+      if (std::abs(diff) > kForcedF0Sigmas * out.f0_free_u_hz + 1e-10 * options.lock.f0_hz)
+        out.flags.push_back({"forced-f0-off", "the forced f0 = " + sig(options.lock.f0_hz, 9) +
+                                                  " Hz differs from the data's own f0 = " + sig(out.f0_free_hz, 9) +
+                                                  " Hz ± " + sig(out.f0_free_u_hz, 2) + " by " +
+                                                  sig(out.f0_free_u_hz > 0 ? std::abs(diff) / out.f0_free_u_hz : 0, 3) +
+                                                  " u (" + sig(std::abs(diff) * static_cast<double>(n) / fs, 3) +
+                                                  " bin): phases and amplitudes at the forced f0 are biased "
+                                                  "beyond their uncertainties"});
+    } catch (const AnalysisError&) {
+      // No free fit (no clear fundamental): nothing to compare the forced f0 with.
+    }
+  }
   if (out.periods >= 4 && any_significant) {
     // f0 of each half, fitted from the whole record's f0 with up to kDriftHarmonics.
     LockOptions half = options.lock;

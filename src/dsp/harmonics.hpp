@@ -5,20 +5,27 @@
 /// ## What is reported, and how the uncertainties are made
 /// Amplitudes and phases are those of the whole-record least-squares fit (period_lock.hpp):
 /// it uses every sample, including the partial period, so it is statistically efficient.
-/// Their covariance is the fit's σ²·(J^T J)^{-1}, with the noise level at each harmonic
-/// estimated from the data in one of three ways (noise_method):
-///   - "per-period" (P ≥ 4 whole periods): the sample covariance of harmonic n over the P
-///     periods of the locked grid, P − 1 degrees of freedom; its ratio to what white noise of
-///     the fit's residual variance would give scales harmonic n's (a_n, b_n) covariance;
+/// Their covariance is the fit's σ²·(J^T J)^{-1}, with the noise at each harmonic estimated from
+/// the data in one of three ways (noise_method; docs/methods.md gives the rules and figures):
+///   - "per-period" (P ≥ 4 whole periods): the 2×2 sample covariance S_n of harmonic n's
+///     per-period phasors (Re, Im) over the P periods of the locked grid, P − 1 degrees of
+///     freedom, divided by the record's effective number of periods, replaces its (a_n, b_n)
+///     block: noise that is not circular (sampling jitter, along the phase) is covered. The
+///     phase direction gets back the part of a dof the fit's ω ramp took; at ≥ 0.4·fs (the
+///     interpolation kernel's band edge) σ² is a floor. The f0 part is scaled by the noise along
+///     the harmonics' phases (weights n²·A_n²);
 ///   - "noise-bins" (P < 4): the mean power of the full-grid spectrum's non-harmonic bins next
-///     to harmonic n (≥ 32 bins where the record allows), 2·bins degrees of freedom;
+///     to harmonic n (≥ 32 bins where the record allows), 2·bins degrees of freedom, circular;
 ///   - "fit-residual" (one whole period: no non-harmonic bins): the residual variance alone,
 ///     N − (2H + 2) degrees of freedom, assuming white noise.
-/// The scaling keeps the f0 part of the covariance as fitted (diag(√r, √r, 1)·C·diag(…)), so a
-/// phase referred to a far time origin carries the f0 uncertainty too. Amplitude and phase
-/// uncertainties follow from the phasor covariance to first order (delta method); the phase
-/// uncertainty of a harmonic that is not resolved (amplitude below its uncertainty) is large
-/// and capped at 180°.
+/// When the periods repeat exactly (a coherent capture; pooled period-to-period scatter below
+/// half the residual variance), flag "identical-periods": each phasor component gets the floor
+/// 2·max(σ², Δ²/12)/M over one period (M = fs/f0, Δ the quantisation step found in the samples;
+/// IEEE Std 1241 / Widrow), noise_dof 0 (normal coverage). Amplitude and phase uncertainties
+/// follow from the phasor's 2×2 covariance (kept per line for steady-state) to first order
+/// (JCGM 100 §5.1.2); the phase uncertainty of a harmonic that is not resolved (amplitude below
+/// its uncertainty) is large and capped at 180°. With a forced f0 a free fit is made too, and a
+/// disagreement beyond 4 u is flagged "forced-f0-off".
 ///
 ///   ChannelAnalysis a = dsp::analyze_channel(capture.channels[0], capture.sample_rate_hz,
 ///                                            capture.t0_s, {});
@@ -65,11 +72,15 @@ struct HarmonicLine {
   double amplitude_lo = 0, amplitude_hi = 0;
   /// false when the amplitude is consistent with 0 at 95 %: any phase is then consistent
   bool phase_defined = true;
+  /// Covariance of (Re X, Im X) behind amplitude_u and phase_u_deg (channel unit²): what
+  /// steady-state propagates from a capture's harmonics
+  double cov_re_re = 0, cov_im_im = 0, cov_re_im = 0;
 };
 
 struct AnalysisFlag {
   std::string code;     ///< "clipped", "aliasing-risk", "few-periods", "drift", "dc-only",
-                        ///< "not-converged", "baseline-drift", "interference", "not-periodic"
+                        ///< "not-converged", "baseline-drift", "interference", "not-periodic",
+                        ///< "identical-periods", "forced-f0-off" (core/flags.hpp)
   std::string message;  ///< plain-language warning
 };
 
@@ -91,11 +102,17 @@ struct ChannelAnalysis {
   double noise_rms = 0;         ///< √(noise power): residual, unbiased (dof-corrected)
   double noise_floor = 0;       ///< 2·noise_rms/√N: a noise-only line's RMS amplitude (peak scale)
   double noise_floor_dbc = 0;   ///< noise_floor relative to the fundamental, dB
-  std::string noise_method;     ///< "per-period", "noise-bins" or "fit-residual"
-  int noise_dof = 0;            ///< degrees of freedom of the noise estimate behind the u's
+  std::string noise_method;     ///< "per-period", "noise-bins" or "fit-residual" [+ " + one-period floor"]
+  int noise_dof = 0;            ///< degrees of freedom of the noise estimate behind the u's (0 = normal)
+  /// Pooled period-to-period scatter variance over the residual variance (≈ 0.9 for white
+  /// noise; ≈ 0 when the periods repeat exactly: flag "identical-periods"); 1 when not measured
+  double period_scatter_ratio = 1;
+  double quantisation_step = 0; ///< Δ found in the samples when the periods repeat (0 = none)
   double f0_first_half_hz = 0;  ///< drift check (0 when the record is under 4 periods)
   double f0_second_half_hz = 0;
   double drift_sigmas = 0;      ///< |Δf| / √(u₁² + u₂²)
+  /// With a forced f0: the free fit's f0 and u (flag "forced-f0-off" when they disagree); 0 otherwise
+  double f0_free_hz = 0, f0_free_u_hz = 0;
   /// ENOB's full-scale range (0 = unknown: enob_bits is NaN) and where it came from
   /// ("option", "audio full scale", or the reason ENOB is not reported)
   double full_scale_range = 0;

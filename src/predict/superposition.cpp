@@ -82,6 +82,7 @@ struct Term {
   bool measured = false;
   std::vector<std::complex<double>> g;  ///< model: ∂Y/∂θ = X·∂H/∂θ
   double var_re = 0, var_im = 0, cov = 0;  ///< measured: covariance of (Re H, Im H)
+  double x_rr = 0, x_ii = 0, x_ri = 0;     ///< input: covariance of (Re X, Im X)
 };
 
 /// ∂Q with respect to the real pairs (Re Y_n, Im Y_n), n ≥ 1 (indexed like terms), plus ∂Q/∂Y_0.
@@ -90,10 +91,11 @@ struct Sensitivity {
   std::vector<double> re, im;
 };
 
+/// `dc_input_var`: u²(Y_0) from the input's dc, H(0)²·u²(X_0).
 double propagate(const Sensitivity& s, const std::vector<Term>& terms,
                  const std::vector<std::complex<double>>& dc_g,
-                 const std::vector<std::vector<double>>& cov) {
-  double var = 0;
+                 const std::vector<std::vector<double>>& cov, double dc_input_var) {
+  double var = s.dc * s.dc * dc_input_var;
   const std::size_t p = cov.size();
   if (p > 0) {
     std::vector<double> grad(p, 0.0);
@@ -113,6 +115,13 @@ double propagate(const Sensitivity& s, const std::vector<Term>& terms,
     const double dr = s.re[i] * t.x.real() + s.im[i] * t.x.imag();
     const double di = -s.re[i] * t.x.imag() + s.im[i] * t.x.real();
     var += dr * dr * t.var_re + di * di * t.var_im + 2 * dr * di * t.cov;
+  }
+  for (std::size_t i = 0; i < terms.size(); ++i) {
+    const Term& t = terms[i];
+    // δY = H·δX: ∂Q/∂Re X, ∂Q/∂Im X (JCGM 100 §5.1.2, input and system independent).
+    const double dr = s.re[i] * t.h.real() + s.im[i] * t.h.imag();
+    const double di = -s.re[i] * t.h.imag() + s.im[i] * t.h.real();
+    var += dr * dr * t.x_rr + di * di * t.x_ii + 2 * dr * di * t.x_ri;
   }
   return std::max(0.0, var);
 }
@@ -217,7 +226,7 @@ void check_finite(const PredictResult& r) {
 }  // namespace
 
 PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const PredictSystem& system,
-                                   const PredictOptions& options) {
+                                   const PredictOptions& options, const InputUncertainty& input_u) {
   options.validate();
   const double f0 = input.series.f0_hz;
   if (!(std::isfinite(f0) && f0 > 0)) throw OptionError("f0_hz", num(f0), "must be > 0");
@@ -314,6 +323,11 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
                           std::to_string(n) + " of the input) and there is no model to fill it (it holds " +
                           measured_span() + "); give a model or limit the harmonic count");
     }
+    if (n < input_u.phasor_cov.size()) {
+      t.x_rr = input_u.phasor_cov[n][0];
+      t.x_ii = input_u.phasor_cov[n][1];
+      t.x_ri = input_u.phasor_cov[n][2];
+    }
     t.y = t.h * t.x;
     if (!std::isfinite(t.y.real()) || !std::isfinite(t.y.imag()))
       throw AnalysisError("the system's response is not finite at " + hz(f0 * static_cast<double>(n)) +
@@ -326,7 +340,13 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
                                        : "superposition (model)";
   bool measured_var = false;
   for (const auto& t : terms) measured_var = measured_var || (t.measured && (t.var_re > 0 || t.var_im > 0));
-  r.has_uncertainty = (params > 0 && any_model) || measured_var;
+  bool input_var = x0 != 0 && input_u.dc_var > 0;
+  for (const auto& t : terms) input_var = input_var || t.x_rr > 0 || t.x_ii > 0;
+  const double dc_input_var = x0 != 0 ? h0 * h0 * input_u.dc_var : 0.0;
+  r.has_uncertainty = (params > 0 && any_model) || measured_var || input_var;
+  if (params > 0 && any_model) r.uncertainty_sources.push_back("model covariance");
+  if (measured_var) r.uncertainty_sources.push_back("measured FRF covariance");
+  if (input_var) r.uncertainty_sources.push_back("input harmonics");
   const std::vector<std::vector<double>> no_cov;
   const auto& cov = params > 0 ? model->covariance : no_cov;
 
@@ -358,8 +378,8 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
       sa.im[i] = t.y.imag() / h.amplitude;
       sp.re[i] = -t.y.imag() / std::norm(t.y);
       sp.im[i] = t.y.real() / std::norm(t.y);
-      h.amplitude_u = std::sqrt(propagate(sa, terms, dc_g, cov));
-      h.phase_u_deg = std::sqrt(propagate(sp, terms, dc_g, cov)) * 180 / kPi;
+      h.amplitude_u = std::sqrt(propagate(sa, terms, dc_g, cov, dc_input_var));
+      h.phase_u_deg = std::sqrt(propagate(sp, terms, dc_g, cov, dc_input_var)) * 180 / kPi;
     }
     r.harmonics_out.push_back(std::move(h));
   }
@@ -396,14 +416,15 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     s.re.assign(terms.size(), 0.0);
     s.im.assign(terms.size(), 0.0);
     s.dc = 1;
-    r.dc_u = std::sqrt(propagate(s, terms, dc_g, cov));
+    // (the dc input's part enters through dc_input_var)
+    r.dc_u = std::sqrt(propagate(s, terms, dc_g, cov, dc_input_var));
     if (r.rms > 0) {
       s.dc = r.dc / r.rms;
       for (std::size_t i = 0; i < terms.size(); ++i) {
         s.re[i] = terms[i].y.real() / (2 * r.rms);
         s.im[i] = terms[i].y.imag() / (2 * r.rms);
       }
-      r.rms_u = std::sqrt(propagate(s, terms, dc_g, cov));
+      r.rms_u = std::sqrt(propagate(s, terms, dc_g, cov, dc_input_var));
     }
     if (r.thd_defined && distortion > 0) {
       // THD = sqrt(D)/|Y1|: ∂/∂Y_n = THD·Y_n/D (n ≥ 2), ∂/∂Y_1 = −THD·Y_1/|Y_1|².
@@ -413,7 +434,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
         s.re[i] = f * terms[i].y.real();
         s.im[i] = f * terms[i].y.imag();
       }
-      r.thd_u = std::sqrt(propagate(s, terms, dc_g, cov));
+      r.thd_u = std::sqrt(propagate(s, terms, dc_g, cov, dc_input_var));
     }
   }
 
@@ -453,7 +474,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
       Sensitivity a = sample_sensitivity(terms, theta_max), b = sample_sensitivity(terms, theta_min);
       a.dc = 0;
       for (std::size_t i = 0; i < terms.size(); ++i) a.re[i] -= b.re[i], a.im[i] -= b.im[i];
-      r.ripple_pp_u = std::sqrt(propagate(a, terms, dc_g, cov));
+      r.ripple_pp_u = std::sqrt(propagate(a, terms, dc_g, cov, dc_input_var));
     }
   }
 
@@ -489,7 +510,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
           if (!t.measured) g[static_cast<std::size_t>(t.n)] = t.g[p];
         jac.push_back(folded_period(g, static_cast<int>(m)));
       }
-      std::vector<double> var(m, 0.0);
+      std::vector<double> var(m, dc_input_var);
       for (std::size_t k = 0; k < m; ++k) {
         for (std::size_t p = 0; p < jac.size(); ++p)
           for (std::size_t q = 0; q < jac.size(); ++q) var[k] += jac[p][k] * cov[p][q] * jac[q][k];
@@ -501,6 +522,16 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
                                           static_cast<double>(m));
             var[k] += z.real() * z.real() * t.var_re + z.imag() * z.imag() * t.var_im -
                       2 * z.real() * z.imag() * t.cov;
+          }
+        }
+        if (input_var) {
+          // y_k = Re(H·X·e^{jnθ_k}): ∂y/∂Re X = Re z, ∂y/∂Im X = −Im z with z = H·e^{jnθ_k}.
+          for (const auto& t : terms) {
+            const std::complex<double> z =
+                t.h * std::polar(1.0, 2 * kPi * static_cast<double>((static_cast<std::size_t>(t.n) * k) % m) /
+                                          static_cast<double>(m));
+            var[k] += z.real() * z.real() * t.x_rr + z.imag() * z.imag() * t.x_ii -
+                      2 * z.real() * z.imag() * t.x_ri;
           }
         }
       }
@@ -531,7 +562,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     for (std::size_t k = 0; k < count; ++k) {
       const double t = static_cast<double>(k) / rate;
       r.value[k] = ys.value(t);
-      if (r.has_uncertainty) r.value_u[k] = std::sqrt(propagate(sample_sensitivity(terms, angle(f0, t)), terms, dc_g, cov));
+      if (r.has_uncertainty) r.value_u[k] = std::sqrt(propagate(sample_sensitivity(terms, angle(f0, t)), terms, dc_g, cov, dc_input_var));
     }
   }
   r.time_s.resize(count);
@@ -669,6 +700,11 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   kv.emplace_back("min / max", g(r.min) + " / " + g(r.max));
   kv.emplace_back("ripple (peak-to-peak)", with_u(r.ripple_pp, r.ripple_pp_u));
   kv.emplace_back("THD", r.thd_defined ? with_u(100 * r.thd, 100 * r.thd_u, "%") : "undefined (no fundamental)");
+  if (r.has_uncertainty) {
+    std::string sources;
+    for (std::size_t i = 0; i < r.uncertainty_sources.size(); ++i) sources += (i ? " + " : "") + r.uncertainty_sources[i];
+    kv.emplace_back("u includes", sources);
+  }
   if (!r.flags.empty()) {
     std::string f;
     for (std::size_t i = 0; i < r.flags.size(); ++i) f += (i ? ", " : "") + r.flags[i];
@@ -740,6 +776,7 @@ nlohmann::ordered_json predict_json(const PredictResult& r) {
   j["tail_checked_to"] = r.tail_checked_to;
   j["output_tail_method"] = r.output_tail_method;
   j["has_uncertainty"] = r.has_uncertainty;
+  j["uncertainty_sources"] = r.uncertainty_sources;
   j["dc"] = r.dc;
   j["dc_u"] = u(r.dc_u);
   j["rms"] = r.rms;

@@ -22,7 +22,11 @@
 /// (a sample y(t), a harmonic's amplitude and phase, dc, RMS, THD, ripple) has
 /// u²(Q) = ∇Qᵀ·C·∇Q, ∇Q = ∂Q/∂θ through Y_n = H_n·X_n. Measured FRF points carry their own
 /// 2×2 covariance of (Re H, Im H), taken independent between frequencies and from the model.
-/// The input series is taken as exact (no input uncertainty is propagated).
+/// The input's own uncertainty (a capture's analysed harmonics) is propagated when given
+/// (InputUncertainty): δY_n = H_n·δX_n with the 2×2 covariance of (Re X_n, Im X_n), and δY_0 =
+/// H(0)·δX_0; the input harmonics are taken independent of each other and of the system (the
+/// analysis fit's columns are orthogonal over whole periods). u²(Q) is then the sum of the
+/// system's and the input's parts; `uncertainty_sources` says which were included.
 ///
 /// Samples: t_k = k/rate_hz over `periods` whole periods. When rate/f0 is an integer M the
 /// samples come from one folded inverse DFT of length M (harmonic n added to bin n mod M), which
@@ -39,6 +43,7 @@
 ///   PredictSystem sys; sys.model = model_from_coefficients({1}, {1e3, 1}, 0);   // 1/(1 + s/1000)·…
 ///   dsp::WaveSpec w{.kind = dsp::WaveKind::half_wave, .amplitude_v = 10, .f0_hz = 50};
 ///   PredictResult r = predict_steady_state(w, sys);   // r.dc, r.harmonics_out[0].amplitude, r.value
+#include <array>
 #include <complex>
 #include <optional>
 #include <string>
@@ -90,6 +95,14 @@ struct PredictOptions {
   void validate() const;
 };
 
+/// Standard uncertainty of the input series (a capture's analysed harmonics; dsp/harmonics.hpp).
+struct InputUncertainty {
+  double dc_var = 0;  ///< u²(X_0)
+  /// [n] = {u²(Re X_n), u²(Im X_n), cov(Re X_n, Im X_n)}, indexed like the series' phasors
+  /// (entry 0 unused); missing entries are exact
+  std::vector<std::array<double, 3>> phasor_cov;
+};
+
 /// One output harmonic n ≥ 1 (only harmonics the input holds, X_n ≠ 0).
 struct PredictedHarmonic {
   int n = 0;
@@ -120,7 +133,10 @@ struct PredictResult {
   /// "none" (the series ends at N), "summed+extrapolated", "summed (diverges)" (|Y_n| falls as
   /// 1/n or slower: only the explicit part), "summed" (capped look-ahead), or "unknown".
   std::string output_tail_method = "unknown";
-  bool has_uncertainty = false;  ///< a covariance (model or measured) was propagated
+  bool has_uncertainty = false;  ///< a covariance (model, measured or input) was propagated
+  /// What the u's include: "model covariance", "measured FRF covariance", "input harmonics"
+  /// (empty when has_uncertainty is false)
+  std::vector<std::string> uncertainty_sources;
   double dc = 0, dc_u = 0;
   double rms = 0, rms_u = 0;
   double min = 0, max = 0;       ///< extremes over one period
@@ -136,9 +152,10 @@ struct PredictResult {
   std::vector<std::string> warnings;  ///< sentences for people (the CLI prints them to stderr)
 };
 
-/// Predicts through `system` for an input given as a series (N = its harmonic count).
+/// Predicts through `system` for an input given as a series (N = its harmonic count), with the
+/// input's uncertainty when it has one.
 PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const PredictSystem& system,
-                                   const PredictOptions& options = {});
+                                   const PredictOptions& options = {}, const InputUncertainty& input_u = {});
 
 /// Truncates `wave` with options.truncation, predicts, and estimates the output tail from the
 /// closed-form harmonics beyond N.
