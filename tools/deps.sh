@@ -5,13 +5,14 @@ PERIODFIT_BUILD_PACKAGES=(
   build-essential cmake ninja-build pkg-config
   libfftw3-dev libeigen3-dev libsndfile1-dev libcli11-dev doctest-dev
   nlohmann-json3-dev libtomlplusplus-dev libboost-dev libtbb-dev
+  libsqlite3-dev libpq-dev
 )
 # Only the test suite needs these: reference libraries for the outside-source checks, an XML
 # checker for the SVG plots, a headless browser for the HTML report, clang for fuzzing and the
-# sanitizer build, and ccache so a later run on the same machine recompiles only what changed.
+# sanitizer build, a PostgreSQL server for the results-database tests (tools/pg-cluster.sh), and ccache so a later run on the same machine recompiles only what changed.
 PERIODFIT_TEST_PACKAGES=(
   python3 python3-numpy python3-scipy python3-pandas libxml2-utils chromium
-  clang libclang-rt-14-dev ccache
+  clang libclang-rt-14-dev ccache postgresql
 )
 
 # periodfit_install PACKAGE…: installs whichever of the packages are missing. As root it runs

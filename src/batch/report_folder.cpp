@@ -202,7 +202,8 @@ bool is_report_entry(const std::string& name, bool is_folder, bool in_files) {
   if (is_temporary_name(name)) return !is_folder;
   if (in_files) return !is_folder && name.size() > 5 && name.ends_with(".json");
   if (is_folder) return name == "files";
-  return name == "summary.csv" || name == "summary.json" || name == "report.html";
+  return name == "summary.csv" || name == "summary.json" || name == "report.html" ||
+         name == "results.sqlite" || name == "results.sqlite-wal" || name == "results.sqlite-shm";
 }
 
 ReportFolder::ReportFolder(const std::string& destination) : destination_(destination), slot_(kSlots) {

@@ -25,6 +25,8 @@
 #include "io/scratch_file.hpp"
 #include "report/safe_text.hpp"
 #include "report/svg_plot.hpp"
+#include "store/clock.hpp"
+#include "store/recorder.hpp"
 
 namespace periodfit::batch {
 
@@ -216,6 +218,23 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     }
   }
 
+  // Who and what the capture belongs to (store/identity.hpp); a malformed sidecar makes the
+  // file an ERROR row like any other unreadable input.
+  store::Identity identity;
+  if (!config.identity.empty()) {
+    try {
+      identity = store::resolve_identity(config.identity, path, analysis.metadata);
+    } catch (const Error& e) {
+      if (w.result.error.empty()) {
+        w.result.error = e.what();
+        w.result.status = w.section.status = report::FileStatus::error;
+        w.section.messages.push_back(w.result.error);
+      }
+    }
+    const auto rows = identity.rows();
+    w.section.metadata.insert(w.section.metadata.begin(), rows.begin(), rows.end());
+  }
+
   json& d = w.document;
   d["path"] = path;
   d["status"] = report::status_text(w.result.status);
@@ -229,6 +248,12 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   d["limits"] = std::move(limits);
   d["measurements"] = measurements_json(analysis.measurements);
   d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
+  json who = json::object();
+  for (const auto& [field, value] : identity.rows()) who[field] = value;
+  d["identity"] = std::move(who);
+  json metadata = json::array();
+  for (const auto& [name, value] : analysis.metadata) metadata.push_back({{"name", name}, {"value", value}});
+  d["metadata"] = std::move(metadata);
   return w;
 }
 
@@ -429,6 +454,33 @@ BatchResult run_batch(const BatchOptions& options) {
   // number of files; report.html is assembled from the spill file in path order at the end.
   io::ScratchFile sections(folder.staging());
   std::vector<FileDone> works(paths.size());
+
+  // The results database: one transaction per capture as each file is done, so a run killed
+  // at any moment leaves whole captures; a database that fails stops recording, never the run
+  // (store/recorder.hpp).
+  std::string database = options.database.empty() ? options.config.database : options.database;
+  const bool in_report = database == kReportDatabase;
+  if (in_report) database = (staging / "results.sqlite").string();
+  std::unique_ptr<store::RunRecording> recording;
+  if (!database.empty()) {
+    store::RunInfo info;
+    info.mode = mode_name(options.config.mode);
+    info.config_source = options.config.source;
+    info.config_text = options.config.text;
+    info.station = options.config.identity.command_values.count("station")
+                       ? options.config.identity.command_values.at("station")
+                       : (options.config.identity.config_values.count("station")
+                              ? options.config.identity.config_values.at("station") : "");
+    info.operator_name = options.config.identity.command_values.count("operator")
+                             ? options.config.identity.command_values.at("operator")
+                             : (options.config.identity.config_values.count("operator")
+                                    ? options.config.identity.config_values.at("operator") : "");
+    info.report_dir = fs::absolute(options.report_dir).lexically_normal().string();
+    info.files_total = static_cast<std::int64_t>(paths.size());
+    recording = std::make_unique<store::RunRecording>(database, std::move(info));
+    result.database = in_report ? (fs::path(options.report_dir) / "results.sqlite").string()
+                                : store::redact_target(database);
+  }
   std::atomic<std::size_t> next{0};
   std::size_t done = 0;
   std::mutex mutex;
@@ -447,6 +499,15 @@ BatchResult run_batch(const BatchOptions& options) {
           FileWork w = process(i, paths[i], options);
           io::write_file_atomic((staging / w.result.json_file).string(),
                                 io::json_text(w.document));
+          if (recording) {
+            store::CaptureRecord record{paths[i], std::nullopt, std::move(w.document), store::utc_now_text()};
+            try {
+              record.digest = store::sha256_file(paths[i]);
+            } catch (const Error&) {
+              // unreadable capture (an ERROR row): identified by its per-file JSON instead
+            }
+            recording->record(record);
+          }
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_report_section(w.section, i + 1));
           kept.row = report::report_row(w.section);
@@ -511,6 +572,13 @@ BatchResult run_batch(const BatchOptions& options) {
       [&](std::size_t i, const report::HtmlSink& sink) { sections.copy(works[i].section, sink); },
       [&](std::string_view bytes) { page.write(bytes); });
   page.commit();
+  if (recording) {
+    recording->finish();
+    result.recorded_new = recording->added();
+    result.recorded_known = recording->known();
+    result.database_error = recording->error();
+    recording.reset();  // closes the database (SQLite folds its WAL back) before the folder is published
+  }
   folder.publish();
   const fs::path dir(options.report_dir);
   result.summary_csv = (dir / "summary.csv").string();

@@ -22,6 +22,7 @@
 ///   BatchOptions o; o.inputs = {"captures/"}; o.report_dir = "out"; o.config = load_batch_config("limits.toml");
 ///   const BatchResult r = run_batch(o);
 ///   return to_int(batch_exit_code(r));
+#include <cstdint>
 #include <functional>
 #include <string>
 #include <vector>
@@ -40,6 +41,9 @@ struct Progress {
   double elapsed_s = 0;
 };
 
+/// BatchOptions::database value naming `results.sqlite` in the report folder.
+inline constexpr const char* kReportDatabase = "@report";
+
 struct BatchOptions {
   std::vector<std::string> inputs;  ///< folders (searched per config.files) or single capture files
   std::string report_dir;           ///< output folder, created when missing; required
@@ -49,6 +53,10 @@ struct BatchOptions {
   /// the end; empty = no progress.
   std::function<void(const Progress&)> progress;
   double progress_interval_s = 0.25;
+  /// The results database to record the run in (store/recorder.hpp): a SQLite path or a
+  /// postgresql:// URL; kReportDatabase = `results.sqlite` inside the report folder; "" = the
+  /// config's `[record] database`, else record nothing.
+  std::string database;
 
   void validate() const;  ///< throws OptionError naming the field
 };
@@ -75,6 +83,12 @@ struct BatchResult {
   int jobs = 1;                     ///< worker threads used
   double elapsed_s = 0;             ///< wall time of the whole run
   double analysis_s = 0;            ///< sum of FileResult::analysis_s
+  /// The results database the run was recorded in ("" = none), the captures it added and those
+  /// it already held (a re-run), and the error that stopped recording ("" = all recorded; the
+  /// report folder is complete either way and can be imported later).
+  std::string database;
+  std::int64_t recorded_new = 0, recorded_known = 0;
+  std::string database_error;
 };
 
 /// The captures a batch would take from `inputs`: regular files named directly, and the files
