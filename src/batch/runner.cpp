@@ -251,6 +251,16 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   json who = json::object();
   for (const auto& [field, value] : identity.rows()) who[field] = value;
   d["identity"] = std::move(who);
+  // The capture's size and content hash: its identity in the results database, written here so
+  // an import of this folder later identifies it exactly as a live recording would.
+  json capture = nullptr;
+  try {
+    const store::FileDigest digest = store::sha256_file(path);
+    capture = {{"size_bytes", digest.size}, {"sha256", digest.sha256}};
+  } catch (const Error&) {
+    // an unreadable capture is an ERROR row already; the database identifies it by its JSON
+  }
+  d["capture"] = std::move(capture);
   json metadata = json::array();
   for (const auto& [name, value] : analysis.metadata) metadata.push_back({{"name", name}, {"value", value}});
   d["metadata"] = std::move(metadata);
@@ -500,13 +510,7 @@ BatchResult run_batch(const BatchOptions& options) {
           io::write_file_atomic((staging / w.result.json_file).string(),
                                 io::json_text(w.document));
           if (recording) {
-            store::CaptureRecord record{paths[i], std::nullopt, std::move(w.document), store::utc_now_text()};
-            try {
-              record.digest = store::sha256_file(paths[i]);
-            } catch (const Error&) {
-              // unreadable capture (an ERROR row): identified by its per-file JSON instead
-            }
-            recording->record(record);
+            recording->record({paths[i], std::nullopt, std::move(w.document), store::utc_now_text()});
           }
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_report_section(w.section, i + 1));

@@ -16,5 +16,7 @@ Runner add_frf(CLI::App& app);
 Runner add_steady_state(CLI::App& app);
 Runner add_excite(CLI::App& app);
 Runner add_batch(CLI::App& app);
+Runner add_import(CLI::App& app);
+Runner add_production(CLI::App& app);
 
 }  // namespace periodfit::cli

@@ -78,7 +78,11 @@ Recorder::Recorder(const std::string& target, RunInfo info)
 
 bool Recorder::record(const CaptureRecord& c) {
   const json& d = c.document;
-  const std::string content = c.digest ? c.digest->sha256 : "json:" + sha256_hex(d.dump());
+  std::optional<FileDigest> digest = c.digest;
+  if (const json& cap = field(d, "capture"); !digest && field(cap, "sha256").is_string())
+    digest = FileDigest{field(cap, "sha256").get<std::string>(),
+                        field(cap, "size_bytes").is_number_unsigned() ? field(cap, "size_bytes").get<std::uint64_t>() : 0};
+  const std::string content = digest ? digest->sha256 : "json:" + sha256_hex(d.dump());
   const std::string identity = sha256_hex(info_.tool_version + "\n" + config_hash_ + "\n" + content);
   const json& id = field(d, "identity");
   const auto who = [&](const char* name) -> Value {
@@ -93,8 +97,8 @@ bool Recorder::record(const CaptureRecord& c) {
         " tested_at, status, error, serial, lot, fixture, station, operator)"
         " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (identity_hash) DO NOTHING",
         {identity, run_id_, c.path,
-         c.digest ? Value{static_cast<std::int64_t>(c.digest->size)} : Value{},
-         c.digest ? Value{c.digest->sha256} : Value{}, info_.tool_version, config_hash_, c.tested_at,
+         digest ? Value{static_cast<std::int64_t>(digest->size)} : Value{},
+         digest ? Value{digest->sha256} : Value{}, info_.tool_version, config_hash_, c.tested_at,
          field(d, "status").is_string() ? field(d, "status").get<std::string>() : std::string("ERROR"),
          text_or_null(field(d, "error")), who("serial"), who("lot"), who("fixture"), who("station"),
          who("operator")});

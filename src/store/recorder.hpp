@@ -49,8 +49,8 @@ std::string config_hash(const RunInfo& info);
 
 struct CaptureRecord {
   std::string path;
-  /// The capture's content hash and size; nullopt when the capture can no longer be read (an
-  /// import of a folder whose captures moved): the identity then uses the per-file JSON's hash.
+  /// The capture's content hash and size; nullopt = from the document's "capture" object, and
+  /// when that is null too (an unreadable capture) the identity uses the per-file JSON's hash.
   std::optional<FileDigest> digest;
   nlohmann::ordered_json document;  ///< the per-file JSON
   std::string tested_at;            ///< ISO 8601 UTC
