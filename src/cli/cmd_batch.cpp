@@ -167,7 +167,8 @@ Runner add_batch(CLI::App& app) {
     BatchArgs& b = *args;
     for (auto it = b.who.begin(); it != b.who.end();) it = it->second.empty() ? b.who.erase(it) : std::next(it);
     b.run.config = settings(b);
-    if (b.db_option->count()) b.run.database = b.database.empty() ? batch::kReportDatabase : b.database.front();
+    if (b.db_option->count())
+      b.run.database = b.database.empty() || b.database.front().empty() ? batch::kReportDatabase : b.database.front();
     if (!b.quiet && ::isatty(STDERR_FILENO)) b.run.progress = show_progress;
     const batch::BatchResult r = batch::run_batch(b.run);
     std::string out;
