@@ -24,6 +24,8 @@ TEST_CASE("cli usage: periodfit --help prints the usage line, the commands and t
       "  steady-state  the DUT's periodic output for another input, by Fourier-series superposition\n"
       "  excite        write excitation signals (multisines, standard waveforms) as WAV or CSV\n"
       "  batch         run a characterisation over folders of captures; limits, summary, HTML report\n"
+      "  import        record finished batch report folders in a results database\n"
+      "  production    yield, Cp/Cpk with intervals, control charts, board history (results database)\n"
       "\n"
       "`periodfit COMMAND --help` lists a command's options.\n"
       "\n"
@@ -113,10 +115,10 @@ TEST_CASE("cli usage: each kind of usage error is one line naming the option and
   };
   const Case cases[] = {
       // no command / a misspelt one
-      {"", "periodfit: error: no command given; commands: info, analyze, frf, steady-state, excite, batch\n"},
+      {"", "periodfit: error: no command given; commands: info, analyze, frf, steady-state, excite, batch, import, production\n"},
       {"stedy-state --wave sine",
        "periodfit: error: unknown command \"stedy-state\"; did you mean steady-state? (commands: info, analyze, frf, "
-       "steady-state, excite, batch)\n"},
+       "steady-state, excite, batch, import, production)\n"},
       {"--verison", "periodfit: error: unknown option --verison; did you mean --version?\n"},
       // unknown option: did-you-mean by edit distance over the command's own options
       {"steady-state --system '1/(1 + s)' --wave sine --rat 1000", "periodfit: error: unknown option --rat; did you mean --rate?\n"},

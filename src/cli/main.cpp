@@ -37,9 +37,9 @@ constexpr Command kCommands[] = {
      periodfit::cli::add_excite},
     {"batch", "run a characterisation over folders of captures; limits, summary, HTML report",
      periodfit::cli::add_batch},
-    {"import", "record finished batch report folders in a results database (SQLite or PostgreSQL)",
+    {"import", "record finished batch report folders in a results database",
      periodfit::cli::add_import},
-    {"production", "yield, Cp/Cpk with intervals, control charts and board history from a results database",
+    {"production", "yield, Cp/Cpk with intervals, control charts, board history (results database)",
      periodfit::cli::add_production},
 };
 
