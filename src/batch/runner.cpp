@@ -10,6 +10,7 @@
 #include <condition_variable>
 #include <exception>
 #include <filesystem>
+#include <limits>
 #include <mutex>
 #include <nlohmann/json.hpp>
 #include <numbers>
@@ -130,6 +131,7 @@ std::string flags_text(const std::vector<std::string>& flags) {
 /// as the file is done.
 struct FileWork {
   FileResult result;
+  report::BoardResponse response;  ///< for the report's cross-board overlay
   report::ReportFile section;
   json document;  // the per-file JSON
 };
@@ -137,9 +139,33 @@ struct FileWork {
 /// What the run keeps of a file until the end: a few hundred bytes, whatever its plots weigh.
 struct FileDone {
   FileResult result;
+  report::BoardResponse response;  ///< a few dozen points: the cross-board overlay
   report::ReportRow row;           ///< its line in report.html's overview
   io::ScratchFile::Span section;  ///< its rendered report.html section in the spill file
 };
+
+// The measured response a board contributes to the report's overlay: frf — |H| in dB at each
+// excited harmonic's frequency (mag_db[n=K] at K·f0); analyze — the first channel's harmonic
+// amplitudes in dB re 1 unit (amplitude[n=K]). Keys with a channel selector are other channels.
+report::BoardResponse board_response(const MeasurementSet& m, AnalysisMode mode) {
+  report::BoardResponse r;
+  const std::string prefix = mode == AnalysisMode::identify ? "mag_db[n=" : "amplitude[n=";
+  const Quantity* f0 = m.find("f0_hz");
+  if (mode == AnalysisMode::identify && (!f0 || !std::isfinite(f0->value))) return r;
+  std::vector<std::pair<double, double>> points;
+  for (const auto& [key, q] : m.values()) {
+    if (!key.starts_with(prefix) || key.back() != ']' || key.find(',') != std::string::npos) continue;
+    const double n = std::strtod(key.c_str() + prefix.size(), nullptr);
+    const double y = mode == AnalysisMode::identify ? q.value : (q.value > 0 ? 20 * std::log10(q.value) : std::numeric_limits<double>::quiet_NaN());
+    if (n > 0 && std::isfinite(y)) points.emplace_back(mode == AnalysisMode::identify ? n * f0->value : n, y);
+  }
+  std::sort(points.begin(), points.end());
+  for (const auto& [x, y] : points) {
+    r.x.push_back(x);
+    r.y.push_back(y);
+  }
+  return r;
+}
 
 FileWork process(std::size_t index, const std::string& path, const BatchOptions& options) {
   const BatchConfig& config = options.config;
@@ -199,6 +225,8 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     }
     w.result.status = all_passed ? report::FileStatus::pass : report::FileStatus::fail;
     w.section.status = w.result.status;
+    w.response = board_response(analysis.measurements, config.mode);
+    w.response.passed = all_passed;
     for (const auto& k : analysis.keys) w.result.key_results.emplace_back(k.name, k.machine);
     std::string line;
     for (const auto& k : analysis.keys)
@@ -364,6 +392,62 @@ json summary_json(const std::vector<FileDone>& works, const BatchResult& result,
   return j;
 }
 
+// Every board against every limit for report.html (report/cross_board.hpp): values in the unit
+// each limit was written in, and the limits that apply to the response overlay.
+report::CrossBoardView cross_board_view(std::vector<FileDone>& works, const BatchConfig& config) {
+  report::CrossBoardView v;
+  for (const auto& l : config.limits) {
+    report::CrossBoardLimit c;
+    c.name = l.describe();
+    c.allowed = l.allowed_text();
+    c.yes_no = yes_no(l);
+    const ResultInfo* info = find_result(l.result);
+    c.unit = !l.display_unit.empty() ? l.display_unit : (info && !c.yes_no ? std::string(info->unit) : std::string());
+    if (!c.yes_no) {
+      c.lo = std::isfinite(l.lo) ? l.to_display(l.lo) : l.lo;
+      c.hi = std::isfinite(l.hi) ? l.to_display(l.hi) : l.hi;
+      if (c.lo > c.hi) std::swap(c.lo, c.hi);
+    }
+    v.limits.push_back(std::move(c));
+    // Limits on the response itself are drawn on the overlay in its own units (dB).
+    if (config.mode == AnalysisMode::identify && l.result == "mag_db" && l.freq_hz)
+      v.response_limits.push_back({*l.freq_hz, l.lo, l.hi});
+    if (config.mode == AnalysisMode::analyze && l.result == "amplitude" && l.harmonic && l.channel.empty()) {
+      const auto db = [](double a) { return a > 0 && std::isfinite(a) ? 20 * std::log10(a) : -std::numeric_limits<double>::infinity(); };
+      v.response_limits.push_back({static_cast<double>(*l.harmonic), db(l.lo), std::isfinite(l.hi) ? db(l.hi) : std::numeric_limits<double>::infinity()});
+    }
+  }
+  for (auto& w : works) {
+    std::vector<report::CrossBoardCell> row;
+    for (std::size_t i = 0; i < config.limits.size(); ++i) {
+      report::CrossBoardCell c;
+      if (i < w.result.limits.size()) {
+        const LimitOutcome& o = w.result.limits[i];
+        c.evaluated = o.evaluated;
+        c.passed = o.passed;
+        c.value = yes_no(config.limits[i]) ? o.measured.value : config.limits[i].to_display(o.measured.value);
+        c.margin_fraction = o.margin_fraction;
+        c.verdict = o.verdict;
+      }
+      row.push_back(std::move(c));
+    }
+    v.cells.push_back(std::move(row));
+    v.responses.push_back(std::move(w.response));
+  }
+  if (config.mode == AnalysisMode::identify) {
+    v.x_quantity = "frequency";
+    v.x_unit = "Hz";
+    v.x_log = true;
+    v.y_quantity = "|H|";
+    v.y_unit = "dB";
+  } else {
+    v.x_quantity = "harmonic";
+    v.y_quantity = "amplitude";
+    v.y_unit = "dB re 1 unit";
+  }
+  return v;
+}
+
 }  // namespace
 
 void BatchOptions::validate() const {
@@ -515,6 +599,7 @@ BatchResult run_batch(const BatchOptions& options) {
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_report_section(w.section, i + 1));
           kept.row = report::report_row(w.section);
+          kept.response = std::move(w.response);
           kept.result = std::move(w.result);
         }  // the JSON document and the section with its plots are freed here
         // The file's transient buffers (capture, grids, spectra) were freed between the small
@@ -570,6 +655,7 @@ BatchResult run_batch(const BatchOptions& options) {
   overview.settings.emplace_back("limits", std::to_string(options.config.limits.size()));
   overview.settings.emplace_back("plots", plot_selection_name(options.config.plots));
   for (auto& w : works) overview.rows.push_back(std::move(w.row));
+  overview.boards = cross_board_view(works, options.config);
   io::AtomicFile page((staging / "report.html").string());
   report::write_html_report(
       overview,

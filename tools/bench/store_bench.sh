@@ -1,0 +1,85 @@
+#!/usr/bin/env bash
+# Cost of recording in the results database: the same batch (frf mode, 0/2 model, two limits,
+# plots) over FILES two-channel captures (batch_bench_gen.py, numpy) without --db, with --db on
+# a fresh SQLite file, with --db again (a re-run: every capture already recorded), and with
+# --db on PostgreSQL when PERIODFIT_TEST_PG_URL is set (tools/pg-cluster.sh). The variants are
+# interleaved ROUNDS times so that load from other processes hits them alike; the median files/s
+# of each is printed with its ratio to the run without --db (target: >= 0.90).
+# Usage: tools/bench/store_bench.sh [BINARY=build/periodfit] [WORK=/tmp/periodfit-bench-store]
+#        FILES=200 SAMPLES=48000 ROUNDS=3 JOBS=2
+set -euo pipefail
+ROOT=$(cd "$(dirname "$0")/../.." && pwd)
+BIN=${1:-$ROOT/build/periodfit}
+WORK=${2:-/tmp/periodfit-bench-store}
+FILES=${FILES:-200}
+SAMPLES=${SAMPLES:-48000}
+ROUNDS=${ROUNDS:-3}
+JOBS=${JOBS:-2}
+mkdir -p "$WORK"
+if [ ! -f "$WORK/captures/unit_$(printf %04d $((FILES - 1))).wav" ]; then
+  echo "generating $FILES captures of $SAMPLES samples in $WORK/captures" >&2
+  /usr/bin/python3 "$ROOT/tools/bench/batch_bench_gen.py" "$WORK/captures" "$FILES" "$SAMPLES"
+fi
+cat > "$WORK/bench.toml" <<'TOML'
+[analysis]
+mode = "frf"
+input = "0"
+output = "1"
+order = "0/2"
+f0_hint_hz = 100
+
+[identity]
+name_pattern = 'unit_([0-9]+)'
+name_fields = ["serial"]
+station = "bench"
+
+[[limit]]
+result = "natural_frequency_hz"
+pole = 1
+nominal = 1200
+tolerance_pct = 5
+
+[[limit]]
+result = "damping"
+pole = 1
+nominal = 0.5
+tolerance = 0.05
+TOML
+
+fps() {  # fps NAME [DB]: one run, prints files/s
+  local name=$1 db=${2:-}
+  rm -rf "$WORK/out-$name"
+  "$BIN" batch "$WORK/captures" --config "$WORK/bench.toml" --report "$WORK/out-$name" --jobs "$JOBS" -q --timing \
+    ${db:+--db "$db"} 2> "$WORK/$name.err" > "$WORK/$name.out" || true
+  sed -n 's/.*(\([0-9.]*\) files\/s).*/\1/p' "$WORK/$name.err"
+}
+median() { sort -g | awk '{a[NR]=$1} END {print a[int((NR + 1) / 2)]}'; }
+
+variants=(none sqlite sqlite_rerun)
+[ -n "${PERIODFIT_TEST_PG_URL:-}" ] && variants+=(postgresql)
+declare -A results
+echo "load average before: $(cut -d' ' -f1-3 /proc/loadavg)"
+for round in $(seq "$ROUNDS"); do
+  rm -f "$WORK/bench.sqlite" "$WORK/bench.sqlite-wal" "$WORK/bench.sqlite-shm"
+  if [ -n "${PERIODFIT_TEST_PG_URL:-}" ]; then
+    psql -q "$PERIODFIT_TEST_PG_URL" -c 'DROP TABLE IF EXISTS run_capture, flag, verdict, result, capture_metadata, capture, run, schema_version CASCADE' >/dev/null 2>&1 || true
+  fi
+  for v in "${variants[@]}"; do
+    case $v in
+      none) r=$(fps none) ;;
+      sqlite) r=$(fps sqlite "$WORK/bench.sqlite") ;;
+      sqlite_rerun) r=$(fps sqlite_rerun "$WORK/bench.sqlite") ;;
+      postgresql) r=$(fps postgresql "$PERIODFIT_TEST_PG_URL") ;;
+    esac
+    results[$v]+="$r "
+    echo "round $round $v: $r files/s" >&2
+  done
+done
+echo "load average after: $(cut -d' ' -f1-3 /proc/loadavg)"
+base=$(echo ${results[none]} | tr ' ' '\n' | median)
+for v in "${variants[@]}"; do
+  m=$(echo ${results[$v]} | tr ' ' '\n' | median)
+  printf '%-13s median %7s files/s  (runs: %s) ratio to no --db: %s\n' "$v" "$m" "${results[$v]}" \
+    "$(echo "$m / $base" | bc -l | cut -c1-5)"
+done
+grep '^recorded' "$WORK/sqlite.out" "$WORK/sqlite_rerun.out" || true
