@@ -192,3 +192,16 @@ TEST_CASE("import: a folder that is not a batch report is refused and nothing is
   CHECK(r.err.find("not a periodfit batch summary") != std::string::npos);
   CHECK(!std::filesystem::exists(dir.file("x.sqlite")));
 }
+
+TEST_CASE("batch: an [identity] section that cannot work is refused at its line before any capture is read") {
+  TempDir dir("cli_store_identity_bad");
+  make_line(dir, 1);
+  write_text(dir.file("bad.toml"), "[identity]\nname_pattern = 'board-([0-9]+)_lot-(.*)'\nname_fields = [\"serial\"]\n");
+  const auto r = run_cli("batch '" + dir.file("in") + "' --config '" + dir.file("bad.toml") + "' --report '" +
+                         dir.file("out") + "' --db '" + dir.file("x.sqlite") + "'");
+  CHECK(r.exit_code == 2);
+  CHECK(r.err.find("bad.toml:1:1: invalid option: name_pattern") != std::string::npos);
+  CHECK(r.err.find("has 2 groups but name_fields names 1 fields") != std::string::npos);
+  CHECK(!std::filesystem::exists(dir.path / "out"));
+  CHECK(!std::filesystem::exists(dir.file("x.sqlite")));
+}

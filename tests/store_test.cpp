@@ -12,6 +12,8 @@
 
 #include "store/clock.hpp"
 #include "store/content_hash.hpp"
+#include "store/identity.hpp"
+#include "core/error.hpp"
 #include "store/database.hpp"
 #include "store/production.hpp"
 #include "store/production_stats.hpp"
@@ -335,4 +337,41 @@ TEST_CASE("production report: yield, per-limit statistics and a board's history 
     q.since = "2026-12-01T08:00:02";
     CHECK(store::production_report(*db, q).captures == 3);
   }
+}
+
+TEST_CASE("identity: command line over sidecar over preamble over file name over config, per field") {
+  TempDir dir("identity");
+  store::IdentitySettings s;
+  s.name_pattern = "board-([0-9]+)_lot-([A-Z0-9]+)";
+  s.name_fields = {"serial", "lot"};
+  s.preamble_keys = {{"lot", "Lot"}, {"fixture", "Fixture"}};
+  s.sidecar = true;
+  s.config_values = {{"station", "ST-1"}, {"serial", "config-serial"}};
+  s.command_values = {{"operator", "B. Operator"}};
+  s.validate();
+  const std::string capture = dir.file("board-0412_lot-A7.csv");
+  const std::vector<std::pair<std::string, std::string>> preamble = {{"Lot", "A8"}, {"Fixture", "F-2"}};
+  const store::Identity plain = store::resolve_identity(s, capture, preamble);
+  CHECK(plain.get("serial") == "0412");   // file name over config
+  CHECK(plain.get("lot") == "A8");        // preamble over file name
+  CHECK(plain.get("fixture") == "F-2");
+  CHECK(plain.get("station") == "ST-1");  // config only
+  CHECK(plain.get("operator") == "B. Operator");
+  test::write_text(capture + ".id", "# rework\nlot = A9\n  station =  ST-2 \noperator = sidecar\n");
+  const store::Identity side = store::resolve_identity(s, capture, preamble);
+  CHECK(side.get("lot") == "A9");
+  CHECK(side.get("station") == "ST-2");
+  CHECK(side.get("operator") == "B. Operator");  // the command line still wins
+  test::write_text(capture + ".id", "lot = A9\nserail = 7\n");
+  CHECK_THROWS_WITH_AS(store::resolve_identity(s, capture, preamble), doctest::Contains(".id:2:1:"), InputError);
+  // Settings that cannot work are refused before any capture is read.
+  store::IdentitySettings bad = s;
+  bad.name_fields = {"serial"};
+  CHECK_THROWS_WITH_AS(bad.validate(), doctest::Contains("has 2 groups but name_fields names 1"), OptionError);
+  bad = s;
+  bad.name_pattern = "board-([0-9]+";
+  CHECK_THROWS_AS(bad.validate(), OptionError);
+  bad = s;
+  bad.config_values = {{"seriall", "x"}};
+  CHECK_THROWS_WITH_AS(bad.validate(), doctest::Contains("serial"), UnknownNameError);
 }
