@@ -22,56 +22,14 @@ std::string number(double v) {
 }
 
 Figure histogram(const CrossBoardLimit& limit, const std::vector<double>& values, std::size_t index) {
-  Figure fig;
-  fig.id = "xh" + std::to_string(index);
-  fig.title = limit.name;
-  fig.width_px = 560;
-  Panel p;
-  p.x.quantity = "value";
-  p.x.unit = limit.unit;
-  p.y.quantity = "boards";
-  p.y.integer_steps = true;
-  p.height_px = 160;
-  double lo = *std::min_element(values.begin(), values.end());
-  double hi = *std::max_element(values.begin(), values.end());
-  if (std::isfinite(limit.lo)) lo = std::min(lo, limit.lo);
-  if (std::isfinite(limit.hi)) hi = std::max(hi, limit.hi);
-  if (!(hi > lo)) {
-    lo -= 0.5;
-    hi += 0.5;
-  }
-  // A margin around values and bounds, so a bound is never hidden in the frame.
-  const double pad = 0.05 * (hi - lo);
-  lo -= pad;
-  hi += pad;
-  // Square-root rule for the bin count (common practice), at least 5 bins.
-  const std::size_t bins = std::max<std::size_t>(5, static_cast<std::size_t>(std::ceil(std::sqrt(static_cast<double>(values.size())))));
-  const double width = (hi - lo) / static_cast<double>(bins);
-  BarSeries b;
-  b.bar_width = width * 0.9;
-  b.base = 0;
-  std::vector<double> counts(bins, 0);
-  for (double v : values) counts[std::min(bins - 1, static_cast<std::size_t>((v - lo) / width))] += 1;
-  const double peak = *std::max_element(counts.begin(), counts.end());
-  for (std::size_t i = 0; i < bins; ++i) {
-    b.x.push_back(lo + (static_cast<double>(i) + 0.5) * width);
-    b.y.push_back(counts[i]);
-  }
-  p.bars.push_back(std::move(b));
-  p.y.min = 0;
-  p.y.max = peak + 1;
-  for (const double bound : {limit.lo, limit.hi})
-    if (std::isfinite(bound)) {
-      LineSeries l;
-      l.x = {bound, bound};
-      l.y = {0, peak + 1};
-      l.color = "#b3261e";
-      l.dashed = true;
-      p.lines.push_back(std::move(l));
-    }
-  p.legend = false;
-  fig.panels.push_back(std::move(p));
-  return fig;
+  ToleranceHistogram spec;
+  spec.id = "xh" + std::to_string(index);
+  spec.title = limit.name;
+  spec.quantity = "value";
+  spec.unit = limit.unit;
+  spec.lo = limit.lo;
+  spec.hi = limit.hi;
+  return tolerance_histogram(spec, values);
 }
 
 Figure overlay(const CrossBoardView& v) {
@@ -121,6 +79,63 @@ Figure overlay(const CrossBoardView& v) {
 }
 
 }  // namespace
+
+Figure tolerance_histogram(const ToleranceHistogram& spec, const std::vector<double>& values) {
+  Figure fig;
+  fig.id = spec.id;
+  fig.title = spec.title;
+  fig.width_px = spec.width_px;
+  Panel p;
+  p.x.quantity = spec.quantity;
+  p.x.unit = spec.unit;
+  p.y.quantity = spec.count_label;
+  p.y.integer_steps = true;
+  p.height_px = 160;
+  double lo = *std::min_element(values.begin(), values.end());
+  double hi = *std::max_element(values.begin(), values.end());
+  if (std::isfinite(spec.lo)) lo = std::min(lo, spec.lo);
+  if (std::isfinite(spec.hi)) hi = std::max(hi, spec.hi);
+  if (!(hi > lo)) {
+    lo -= 0.5;
+    hi += 0.5;
+  }
+  // A margin around values and bounds, so a bound is never hidden in the frame.
+  const double pad = 0.05 * (hi - lo);
+  lo -= pad;
+  hi += pad;
+  // Square-root rule for the bin count (common practice), at least 5 bins.
+  const std::size_t bins =
+      std::max<std::size_t>(5, static_cast<std::size_t>(std::ceil(std::sqrt(static_cast<double>(values.size())))));
+  const double width = (hi - lo) / static_cast<double>(bins);
+  BarSeries b;
+  b.name = spec.count_label + " per bin";
+  b.bar_width = width * 0.9;
+  b.base = 0;
+  std::vector<double> counts(bins, 0);
+  for (double v : values) counts[std::min(bins - 1, static_cast<std::size_t>((v - lo) / width))] += 1;
+  const double peak = *std::max_element(counts.begin(), counts.end());
+  for (std::size_t i = 0; i < bins; ++i) {
+    b.x.push_back(lo + (static_cast<double>(i) + 0.5) * width);
+    b.y.push_back(counts[i]);
+  }
+  p.bars.push_back(std::move(b));
+  p.y.min = 0;
+  p.y.max = peak + 1;
+  const std::pair<double, const char*> bounds[] = {{spec.lo, "LSL"}, {spec.hi, "USL"}};
+  for (const auto& bound : bounds)
+    if (std::isfinite(bound.first)) {
+      LineSeries l;
+      l.name = bound.second;
+      l.x = {bound.first, bound.first};
+      l.y = {0, peak + 1};
+      l.color = "#b3261e";
+      l.dashed = true;
+      p.lines.push_back(std::move(l));
+    }
+  p.legend = spec.legend;
+  fig.panels.push_back(std::move(p));
+  return fig;
+}
 
 std::string render_cross_board(const CrossBoardView& v, const std::vector<std::string>& paths) {
   const bool any_response = std::any_of(v.responses.begin(), v.responses.end(),

@@ -56,6 +56,21 @@ struct CrossBoardView {
   std::vector<ResponseLimit> response_limits;
 };
 
+struct Figure;
+
+/// A histogram of `values` (at least one) against the tolerance band [lo, hi] (an infinite bound
+/// = an open side), drawn as dashed red lines; bins by the square-root rule, at least 5, over the
+/// values and the finite bounds with a 5 % margin.
+struct ToleranceHistogram {
+  std::string id, title, quantity, unit;
+  std::string count_label = "boards";
+  double lo = -std::numeric_limits<double>::infinity();
+  double hi = std::numeric_limits<double>::infinity();
+  double width_px = 560;
+  bool legend = false;  ///< name the bars and the bounds (LSL, USL)
+};
+Figure tolerance_histogram(const ToleranceHistogram& spec, const std::vector<double>& values);
+
 /// The HTML fragment (heading, table, figures); `paths` label the rows. "" when there is
 /// nothing to show (no limits and no responses).
 std::string render_cross_board(const CrossBoardView& view, const std::vector<std::string>& paths);

@@ -71,12 +71,6 @@ class SqliteConnection final : public Connection {
   Dialect dialect() const override { return Dialect::sqlite; }
   const std::string& target() const override { return target_; }
 
-  void execute(const std::string& sql, const std::vector<Value>& params) override { run(sql, params, nullptr); }
-  std::vector<Row> query(const std::string& sql, const std::vector<Value>& params) override {
-    std::vector<Row> rows;
-    run(sql, params, &rows);
-    return rows;
-  }
   void execute_script(const std::string& sql) override {
     char* message = nullptr;
     if (sqlite3_exec(db_, sql.c_str(), nullptr, nullptr, &message) != SQLITE_OK) {
@@ -92,8 +86,7 @@ class SqliteConnection final : public Connection {
   }
   std::int64_t changes() const override { return sqlite3_changes(db_); }
 
- private:
-  void run(const std::string& sql, const std::vector<Value>& params, std::vector<Row>* rows) {
+  void run(const std::string& sql, const std::vector<Value>& params, std::vector<Row>* rows) override {
     // Prepared statements are kept by their text: a capture's rows reuse a handful of
     // statements thousands of times, and preparing is most of an insert's cost.
     sqlite3_stmt*& stmt = cache_[sql];
@@ -144,6 +137,8 @@ class SqliteConnection final : public Connection {
     }
   }
 
+
+ private:
   std::string target_;
   sqlite3* db_ = nullptr;
   std::unordered_map<std::string, sqlite3_stmt*> cache_;
@@ -187,12 +182,6 @@ class PgConnection final : public Connection {
   Dialect dialect() const override { return Dialect::postgresql; }
   const std::string& target() const override { return target_; }
 
-  void execute(const std::string& sql, const std::vector<Value>& params) override { run(sql, params, nullptr); }
-  std::vector<Row> query(const std::string& sql, const std::vector<Value>& params) override {
-    std::vector<Row> rows;
-    run(sql, params, &rows);
-    return rows;
-  }
   void execute_script(const std::string& sql) override {
     PGresult* r = PQexec(conn_, sql.c_str());
     check(r, sql);
@@ -222,7 +211,7 @@ class PgConnection final : public Connection {
     throw DatabaseError(target_, reason + " in: " + sql);
   }
 
-  void run(const std::string& sql, const std::vector<Value>& params, std::vector<Row>* rows) {
+  void run(const std::string& sql, const std::vector<Value>& params, std::vector<Row>* rows) override {
     std::vector<std::string> texts(params.size());
     std::vector<const char*> values(params.size(), nullptr);
     for (std::size_t i = 0; i < params.size(); ++i) {

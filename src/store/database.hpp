@@ -56,9 +56,13 @@ class Connection {
   /// The target as given, with any password replaced by *** (for messages).
   virtual const std::string& target() const = 0;
   /// Runs one statement (no result rows expected).
-  virtual void execute(const std::string& sql, const std::vector<Value>& params = {}) = 0;
+  void execute(const std::string& sql, const std::vector<Value>& params = {}) { run(sql, params, nullptr); }
   /// Runs one statement and returns its rows.
-  virtual std::vector<Row> query(const std::string& sql, const std::vector<Value>& params = {}) = 0;
+  std::vector<Row> query(const std::string& sql, const std::vector<Value>& params = {}) {
+    std::vector<Row> rows;
+    run(sql, params, &rows);
+    return rows;
+  }
   /// Runs several statements without parameters (schema scripts).
   virtual void execute_script(const std::string& sql) = 0;
   /// Starts a write transaction (SQLite: BEGIN IMMEDIATE).
@@ -68,6 +72,10 @@ class Connection {
   virtual void rollback() noexcept = 0;
   /// Number of rows the last INSERT/UPDATE/DELETE changed.
   virtual std::int64_t changes() const = 0;
+
+  /// The backend's one statement runner: binds `params` to the `?` placeholders, runs `sql`,
+  /// and appends the result rows to `rows` when it is not null.
+  virtual void run(const std::string& sql, const std::vector<Value>& params, std::vector<Row>* rows) = 0;
 
   /// An INSERT … with `RETURNING id` appended; the new row's id, or nullopt when the statement
   /// inserted nothing (ON CONFLICT DO NOTHING).

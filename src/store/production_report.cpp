@@ -8,6 +8,7 @@
 
 #include "io/json_writer.hpp"
 #include "io/number_format.hpp"
+#include "report/cross_board.hpp"
 #include "report/safe_text.hpp"
 #include "report/svg_plot.hpp"
 #include "report/table.hpp"
@@ -203,16 +204,6 @@ std::string production_json(const ProductionReport& r) {
 
 namespace {
 
-report::LineSeries vertical(const std::string& name, double x, double y_lo, double y_hi, const std::string& color) {
-  report::LineSeries l;
-  l.name = name;
-  l.x = {x, x};
-  l.y = {y_lo, y_hi};
-  l.color = color;
-  l.dashed = true;
-  return l;
-}
-
 report::LineSeries horizontal(const std::string& name, double x_lo, double x_hi, double y, const std::string& color,
                               bool dashed) {
   report::LineSeries l;
@@ -224,42 +215,17 @@ report::LineSeries horizontal(const std::string& name, double x_lo, double x_hi,
   return l;
 }
 
-// Histogram of the values with the tolerance band: bins by the square-root rule (common
-// practice), spanning the values and the finite limits.
 report::Figure histogram(const LimitStats& s, const std::string& id) {
-  report::Figure fig;
-  fig.id = id;
-  fig.title = s.key + ": distribution against the tolerance band";
-  report::Panel p;
-  p.x.quantity = s.key;
-  p.y.quantity = "tests";
-  p.y.integer_steps = true;
-  const auto& x = s.chart.x;
-  double lo = *std::min_element(x.begin(), x.end()), hi = *std::max_element(x.begin(), x.end());
-  if (std::isfinite(s.lsl)) lo = std::min(lo, s.lsl);
-  if (std::isfinite(s.usl)) hi = std::max(hi, s.usl);
-  if (!(hi > lo)) hi = lo + 1;
-  const std::size_t bins = std::max<std::size_t>(5, static_cast<std::size_t>(std::ceil(std::sqrt(static_cast<double>(x.size())))));
-  const double width = (hi - lo) / static_cast<double>(bins);
-  report::BarSeries b;
-  b.name = "tests per bin";
-  b.bar_width = width * 0.9;
-  b.base = 0;
-  std::vector<double> counts(bins, 0);
-  for (double v : x) counts[std::min(bins - 1, static_cast<std::size_t>((v - lo) / width))] += 1;
-  double peak = 0;
-  for (std::size_t i = 0; i < bins; ++i) {
-    b.x.push_back(lo + (static_cast<double>(i) + 0.5) * width);
-    b.y.push_back(counts[i]);
-    peak = std::max(peak, counts[i]);
-  }
-  p.bars.push_back(std::move(b));
-  p.y.min = 0;
-  p.y.max = peak + 1;
-  if (std::isfinite(s.lsl)) p.lines.push_back(vertical("LSL", s.lsl, 0, peak + 1, "#c0392b"));
-  if (std::isfinite(s.usl)) p.lines.push_back(vertical("USL", s.usl, 0, peak + 1, "#c0392b"));
-  fig.panels.push_back(std::move(p));
-  return fig;
+  report::ToleranceHistogram spec;
+  spec.id = id;
+  spec.title = s.key + ": distribution against the tolerance band";
+  spec.quantity = s.key;
+  spec.count_label = "tests";
+  spec.lo = s.lsl;
+  spec.hi = s.usl;
+  spec.width_px = 720;
+  spec.legend = true;
+  return report::tolerance_histogram(spec, s.chart.x);
 }
 
 report::Figure control_chart(const LimitStats& s, const std::string& id) {
