@@ -16,6 +16,7 @@
 #include "store/database.hpp"
 #include "store_support.hpp"
 #include "support/cli_runner.hpp"
+#include "support/hostile_inputs.hpp"
 
 using periodfit::test::run_cli;
 using periodfit::test::TempDir;
@@ -204,4 +205,30 @@ TEST_CASE("batch: an [identity] section that cannot work is refused at its line 
   CHECK(r.err.find("has 2 groups but name_fields names 1 fields") != std::string::npos);
   CHECK(!std::filesystem::exists(dir.path / "out"));
   CHECK(!std::filesystem::exists(dir.file("x.sqlite")));
+}
+
+TEST_CASE("batch --db: three processes recording the same captures into one SQLite file at once lose and double nothing") {
+  TempDir dir("cli_store_procs");
+  const std::string inputs = make_line(dir, 5);
+  const std::string db = dir.file("line.sqlite");
+  std::string script;
+  for (int p = 0; p < 3; ++p)
+    script += "\"$PF\" batch " + inputs + " --report '" + dir.file("out" + std::to_string(p)) + "' --db '" + db +
+              "' -j 1 -q > '" + dir.file("log" + std::to_string(p)) + "' 2>&1 & ";
+  script += "wait";
+  const auto r = periodfit::test::run_shell(script);
+  CHECK(r.exit_code == 0);
+  long long added = 0;
+  for (int p = 0; p < 3; ++p) {
+    const std::string log = periodfit::test::slurp(dir.path / ("log" + std::to_string(p)));
+    CAPTURE(log);
+    CHECK(log.find("5 pass, 0 fail, 0 error\nrecorded in ") == 0);
+    const auto at = log.find(": ");
+    added += at == std::string::npos ? 0 : std::stoll(log.substr(at + 2));
+  }
+  CHECK(added == 5);  // each capture was new to exactly one of the three
+  CHECK(count(db, "SELECT COUNT(*) FROM capture") == 5);
+  CHECK(count(db, "SELECT COUNT(*) FROM verdict") == 5);
+  CHECK(count(db, "SELECT COUNT(*) FROM run_capture") == 15);
+  CHECK(count(db, "SELECT COUNT(*) FROM run WHERE status = 'complete'") == 3);
 }
