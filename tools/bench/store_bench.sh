@@ -15,36 +15,9 @@ FILES=${FILES:-200}
 SAMPLES=${SAMPLES:-48000}
 ROUNDS=${ROUNDS:-3}
 JOBS=${JOBS:-2}
-mkdir -p "$WORK"
-if [ ! -f "$WORK/captures/unit_$(printf %04d $((FILES - 1))).wav" ]; then
-  echo "generating $FILES captures of $SAMPLES samples in $WORK/captures" >&2
-  /usr/bin/python3 "$ROOT/tools/bench/batch_bench_gen.py" "$WORK/captures" "$FILES" "$SAMPLES"
-fi
-cat > "$WORK/bench.toml" <<'TOML'
-[analysis]
-mode = "frf"
-input = "0"
-output = "1"
-order = "0/2"
-f0_hint_hz = 100
-
-[identity]
-name_pattern = 'unit_([0-9]+)'
-name_fields = ["serial"]
-station = "bench"
-
-[[limit]]
-result = "natural_frequency_hz"
-pole = 1
-nominal = 1200
-tolerance_pct = 5
-
-[[limit]]
-result = "damping"
-pole = 1
-nominal = 0.5
-tolerance = 0.05
-TOML
+source "$ROOT/tools/bench/bench_captures.sh"
+printf '[identity]\nname_pattern = '"'"'unit_([0-9]+)'"'"'\nname_fields = ["serial"]\nstation = "bench"\n' |
+  bench_captures "$WORK" "$FILES" "$SAMPLES"
 
 fps() {  # fps NAME [DB]: one run, prints "files/s cpu-ms-per-file"
   local name=$1 db=${2:-}
