@@ -281,13 +281,17 @@ report::Figure trend(const LimitStats& s, const std::string& id) {
   fig.title = s.key + ": trend over time";
   report::Panel p;
   p.x.quantity = "time since first test";
-  p.x.unit = "h";
   p.y.quantity = s.key;
   const double t0 = epoch_s(s.times.front());
+  const double span_s = epoch_s(s.times.back()) - t0;
+  // Seconds, minutes, hours or days: the largest unit the span covers at least twice.
+  const double scale_s = span_s > 2 * 86400 ? 86400 : span_s > 2 * 3600 ? 3600 : span_s > 120 ? 60 : 1;
+  p.x.unit = scale_s == 86400 ? "d" : scale_s == 3600 ? "h" : scale_s == 60 ? "min" : "s";
   report::PointSeries pts;
   pts.name = "test";
+  pts.color = "#1f5fa8";
   for (std::size_t i = 0; i < s.times.size(); ++i) {
-    pts.x.push_back((epoch_s(s.times[i]) - t0) / 3600);
+    pts.x.push_back((epoch_s(s.times[i]) - t0) / scale_s);
     pts.y.push_back(s.chart.x[i]);
   }
   const double tn = std::max(pts.x.back(), 1e-3);
