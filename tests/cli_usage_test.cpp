@@ -25,6 +25,8 @@ TEST_CASE("cli usage: periodfit --help prints the usage line, the commands and t
       "  excite        write excitation signals (multisines, standard waveforms) as WAV or CSV\n"
       "  batch         run a characterisation over folders of captures; limits, summary, HTML report\n"
       "  gather        combine the report folders of a batch run in shards (batch --shard K/N) into one\n"
+      "  import        record finished batch report folders in a results database\n"
+      "  production    yield, Cp/Cpk with intervals, control charts, board history (results database)\n"
       "\n"
       "`periodfit COMMAND --help` lists a command's options.\n"
       "\n"
@@ -114,10 +116,10 @@ TEST_CASE("cli usage: each kind of usage error is one line naming the option and
   };
   const Case cases[] = {
       // no command / a misspelt one
-      {"", "periodfit: error: no command given; commands: info, analyze, frf, steady-state, excite, batch, gather\n"},
+      {"", "periodfit: error: no command given; commands: info, analyze, frf, steady-state, excite, batch, gather, import, production\n"},
       {"stedy-state --wave sine",
        "periodfit: error: unknown command \"stedy-state\"; did you mean steady-state? (commands: info, analyze, frf, "
-       "steady-state, excite, batch, gather)\n"},
+       "steady-state, excite, batch, gather, import, production)\n"},
       {"--verison", "periodfit: error: unknown option --verison; did you mean --version?\n"},
       // unknown option: did-you-mean by edit distance over the command's own options
       {"steady-state --system '1/(1 + s)' --wave sine --rat 1000", "periodfit: error: unknown option --rat; did you mean --rate?\n"},

@@ -151,3 +151,39 @@ TEST_CASE("html report: key results state u as the terminal does, the natural fr
                        0) == 0);
   for (const auto& row : a.result_rows) CHECK(row.second.find("\xC2\xB1") == std::string::npos);
 }
+
+TEST_CASE("html report: the cross-board view has a column per limit coloured by margin, a histogram per limit and the overlay") {
+  report::CrossBoardView v;
+  v.limits = {{"damping at pole 1", "0.45 … 0.55", "", 0.45, 0.55, false}, {"linear", "yes", "", 0, 0, true}};
+  // Board 1 in the middle (margin 40 % of the width), board 2 close to a bound (5 %), board 3 out,
+  // board 4 not evaluated (an ERROR file).
+  v.cells = {{{true, true, 0.49, 0.4, "pass"}, {true, true, 1, NAN, "pass"}},
+             {{true, true, 0.545, 0.05, "pass"}, {true, true, 1, NAN, "pass"}},
+             {{true, false, 0.62, -0.7, "fail"}, {true, false, 0, NAN, "fail"}},
+             {{}, {}}};
+  v.x_quantity = "frequency";
+  v.x_unit = "Hz";
+  v.x_log = true;
+  v.y_quantity = "|H|";
+  v.y_unit = "dB";
+  v.responses = {{{100, 1000, 4000}, {0, -1, -20}, true}, {{100, 1000, 4000}, {0.1, -0.5, -18.5}, false}, {}, {}};
+  v.response_limits = {{4000, -INFINITY, -18}};
+  const std::string html = report::render_cross_board(v, {"a.csv", "b.csv", "c.csv", "d.csv"});
+  const auto count = [&](const std::string& needle) {
+    std::size_t n = 0;
+    for (auto at = html.find(needle); at != std::string::npos; at = html.find(needle, at + 1)) ++n;
+    return n;
+  };
+  CHECK(count("<th>damping at pole 1") == 1);
+  CHECK(count("<th>linear") == 1);
+  CHECK(count("num m-pass\"") == 3);    // board 1 (both), board 2's yes/no
+  CHECK(count("num m-narrow\"") == 1);  // board 2's damping: 5 % < 10 % left
+  CHECK(count("num m-fail\"") == 2);
+  CHECK(count("num m-none\"") == 2);
+  CHECK(html.find(">0.545<") != std::string::npos);
+  CHECK(html.find(">no<") != std::string::npos);
+  // One histogram (the yes/no limit has none) and the overlay.
+  CHECK(count("<svg") == 2);
+  CHECK(html.find("every board") != std::string::npos);
+  CHECK(report::render_cross_board({}, {}).empty());
+}

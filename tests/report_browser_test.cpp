@@ -115,7 +115,8 @@ TEST_CASE("report: report.html renders in headless chromium without console mess
   REQUIRE(dom.status == 0);
   CHECK(console_lines(dom.log).empty());
   CHECK(count(dom.out, "<script") == 0);
-  // Two files were analysed: three inline SVG plots each (Bode, spectrum, waveform).
-  CHECK(count(dom.out, "<svg ") == 6);
+  // Two files were analysed: three inline SVG plots each (Bode, spectrum, waveform); the
+  // cross-board view adds a histogram per limit (three) and the overlay of the responses.
+  CHECK(count(dom.out, "<svg ") == 6 + 3 + 1);
   CHECK(dom.out.find("&lt;script&gt;alert(1)&lt;/script&gt;") != std::string::npos);
 }

@@ -44,11 +44,26 @@ print_times() {
     fi
   done
 }
-trap print_times EXIT
+# A throwaway PostgreSQL server for the results-database tests (tools/pg-cluster.sh), started
+# once after the install stage and stopped on any exit; its URL reaches the suite as
+# PERIODFIT_TEST_PG_URL (without it those cases print a MESSAGE and skip).
+pg_dir=""
+on_exit() {
+  [ -n "$pg_dir" ] && tools/pg-cluster.sh stop "$pg_dir" || true
+  print_times
+}
+trap on_exit EXIT
 
 begin_stage "install"
 periodfit_install "${PERIODFIT_BUILD_PACKAGES[@]}" "${PERIODFIT_TEST_PACKAGES[@]}"
 end_stage install "install"
+
+if pg_env=$(tools/pg-cluster.sh start); then
+  eval "$pg_env"
+  pg_dir=$PERIODFIT_PG_DIR
+else
+  echo "periodfit: warning: no PostgreSQL test server; the PostgreSQL cases will skip" >&2
+fi
 
 werror=OFF
 [ "${CI:-}" = true ] && werror=ON

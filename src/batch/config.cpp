@@ -114,12 +114,18 @@ class Loader {
   BatchConfig load(const toml::table& root) {
     BatchConfig c;
     c.source = source_;
-    check_keys(root, {"files", "read", "analysis", "report", "verdict", "limit"}, "the config");
+    check_keys(root, {"files", "read", "analysis", "report", "verdict", "limit", "identity", "record"}, "the config");
     if (const auto* node = root.get("files")) load_files(table(*node, "files"), c);
     if (const auto* node = root.get("read")) load_read(table(*node, "read"), c);
     if (const auto* node = root.get("analysis")) load_analysis(table(*node, "analysis"), c);
     if (const auto* node = root.get("report")) load_report(table(*node, "report"), c);
     if (const auto* node = root.get("verdict")) load_verdict(table(*node, "verdict"), c);
+    if (const auto* node = root.get("identity")) load_identity(table(*node, "identity"), c);
+    if (const auto* node = root.get("record")) {
+      const toml::table& t = table(*node, "record");
+      check_keys(t, {"database"}, "[record]");
+      if (const auto* n = t.get("database")) c.database = string(*n, "database");
+    }
     if (const auto* node = root.get("limit")) {
       const auto* array = node->as_array();
       if (!array || !array->is_array_of_tables())
@@ -213,6 +219,25 @@ class Loader {
       checked(*n, [&] { c.plots = parse_plot_selection(text, "plots"); });
     }
     if (const auto* n = t.get("title")) c.title = string(*n, "title");
+  }
+
+  void load_identity(const toml::table& t, BatchConfig& c) const {
+    check_keys(t, {"name_pattern", "name_fields", "preamble", "sidecar", "serial", "lot", "fixture", "station", "operator"},
+               "[identity]");
+    store::IdentitySettings& s = c.identity;
+    if (const auto* n = t.get("name_pattern")) s.name_pattern = string(*n, "name_pattern");
+    if (const auto* n = t.get("name_fields")) s.name_fields = strings(*n, "name_fields");
+    if (const auto* n = t.get("preamble"))
+      for (const auto& [key, value] : table(*n, "preamble"))
+        s.preamble_keys[std::string(key.str())] = string(value, "preamble." + std::string(key.str()));
+    if (const auto* n = t.get("sidecar")) s.sidecar = boolean(*n, "sidecar");
+    for (const auto& f : store::identity_fields())
+      if (const auto* n = t.get(f)) s.config_values[f] = string(*n, f);
+    try {
+      s.validate();
+    } catch (const Error& e) {
+      fail(&t, e.what());
+    }
   }
 
   void load_verdict(const toml::table& t, BatchConfig& c) const {
@@ -339,7 +364,9 @@ BatchConfig parse_batch_config(std::string_view text, const std::string& source)
     throw InputError(source, e.source().begin.line, e.source().begin.column,
                      "TOML: " + std::string(e.description()));
   }
-  return Loader(source).load(root);
+  BatchConfig c = Loader(source).load(root);
+  c.text = std::string(text);
+  return c;
 }
 
 BatchConfig load_batch_config(const std::string& path) {

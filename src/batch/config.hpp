@@ -18,6 +18,7 @@
 #include "core/flags.hpp"
 #include "ident/identify.hpp"
 #include "io/capture_reader.hpp"
+#include "store/identity.hpp"
 
 namespace periodfit::batch {
 
@@ -60,6 +61,12 @@ struct BatchConfig {
   /// Flag codes (core/flags.hpp) that fail a file whatever its limits say; `[verdict]
   /// fail_on_flags`. Default: every flag of severity `invalidates`.
   std::vector<std::string> fail_on_flags = invalidating_flags();
+  /// Who and what each capture belongs to (`[identity]`, store/identity.hpp).
+  store::IdentitySettings identity;
+  /// The results database (`[record] database`): a SQLite path or a postgresql:// URL; "" =
+  /// record nothing unless the command line asks (docs/results-db.md).
+  std::string database;
+  std::string text;  ///< the config file's text ("" when built from flags alone)
 };
 
 /// Parses config text; `source` names it in error messages.

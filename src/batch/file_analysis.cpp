@@ -294,6 +294,8 @@ nlohmann::ordered_json quantity_json(const Quantity& q) {
   j["value"] = q.value;
   j["lo95"] = q.has_interval() ? nlohmann::ordered_json(q.lo95) : nlohmann::ordered_json(nullptr);
   j["hi95"] = q.has_interval() ? nlohmann::ordered_json(q.hi95) : nlohmann::ordered_json(nullptr);
+  j["u"] = std::isfinite(q.u) ? nlohmann::ordered_json(q.u) : nlohmann::ordered_json(nullptr);
+  j["k"] = std::isfinite(q.k) ? nlohmann::ordered_json(q.k) : nlohmann::ordered_json(nullptr);
   return j;
 }
 }  // namespace

@@ -203,9 +203,10 @@ bool is_report_entry(const std::string& name, bool is_folder, bool in_files) {
   if (in_files) return !is_folder && name.size() > 5 && name.ends_with(".json");
   if (is_folder) return name == "files";
   // shard.json and shard-sections.html: a shard's record; gather.json: a gathered run's
-  // (batch/shard.hpp).
+  // (batch/shard.hpp); results.sqlite and its WAL files: `batch --db` alone (store/recorder.hpp).
   return name == "summary.csv" || name == "summary.json" || name == "report.html" || name == "shard.json" ||
-         name == "shard-sections.html" || name == "gather.json";
+         name == "shard-sections.html" || name == "gather.json" || name == "results.sqlite" ||
+         name == "results.sqlite-wal" || name == "results.sqlite-shm";
 }
 
 ReportFolder::ReportFolder(const std::string& destination) : destination_(destination), slot_(kSlots) {

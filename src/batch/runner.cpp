@@ -10,6 +10,7 @@
 #include <condition_variable>
 #include <exception>
 #include <filesystem>
+#include <limits>
 #include <mutex>
 #include <nlohmann/json.hpp>
 #include <numbers>
@@ -26,6 +27,8 @@
 #include "io/scratch_file.hpp"
 #include "report/safe_text.hpp"
 #include "report/svg_plot.hpp"
+#include "store/clock.hpp"
+#include "store/recorder.hpp"
 
 namespace periodfit::batch {
 
@@ -140,6 +143,29 @@ struct FileDone {
   io::ScratchFile::Span section;  ///< its rendered report.html section in the spill file
 };
 
+// The measured response a board contributes to the report's overlay: frf — |H| in dB at each
+// excited harmonic's frequency (mag_db[n=K] at K·f0); analyze — the first channel's harmonic
+// amplitudes in dB re 1 unit (amplitude[n=K]). Keys with a channel selector are other channels.
+report::BoardResponse board_response(const MeasurementSet& m, AnalysisMode mode) {
+  report::BoardResponse r;
+  const std::string prefix = mode == AnalysisMode::identify ? "mag_db[n=" : "amplitude[n=";
+  const Quantity* f0 = m.find("f0_hz");
+  if (mode == AnalysisMode::identify && (!f0 || !std::isfinite(f0->value))) return r;
+  std::vector<std::pair<double, double>> points;
+  for (const auto& [key, q] : m.values()) {
+    if (!key.starts_with(prefix) || key.back() != ']' || key.find(',') != std::string::npos) continue;
+    const double n = std::strtod(key.c_str() + prefix.size(), nullptr);
+    const double y = mode == AnalysisMode::identify ? q.value : (q.value > 0 ? 20 * std::log10(q.value) : std::numeric_limits<double>::quiet_NaN());
+    if (n > 0 && std::isfinite(y)) points.emplace_back(mode == AnalysisMode::identify ? n * f0->value : n, y);
+  }
+  std::sort(points.begin(), points.end());
+  for (const auto& [x, y] : points) {
+    r.x.push_back(x);
+    r.y.push_back(y);
+  }
+  return r;
+}
+
 FileWork process(std::size_t index, const std::string& path, const BatchOptions& options) {
   const BatchConfig& config = options.config;
   FileWork w;
@@ -198,6 +224,8 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     }
     w.result.status = all_passed ? report::FileStatus::pass : report::FileStatus::fail;
     w.section.status = w.result.status;
+    w.result.response = board_response(analysis.measurements, config.mode);
+    w.result.response.passed = all_passed;
     for (const auto& k : analysis.keys) w.result.key_results.emplace_back(k.name, k.machine);
     std::string line;
     for (const auto& k : analysis.keys)
@@ -219,6 +247,23 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     }
   }
 
+  // Who and what the capture belongs to (store/identity.hpp); a malformed sidecar makes the
+  // file an ERROR row like any other unreadable input.
+  store::Identity identity;
+  if (!config.identity.empty()) {
+    try {
+      identity = store::resolve_identity(config.identity, path, analysis.metadata);
+    } catch (const Error& e) {
+      if (w.result.error.empty()) {
+        w.result.error = e.what();
+        w.result.status = w.section.status = report::FileStatus::error;
+        w.section.messages.push_back(w.result.error);
+      }
+    }
+    const auto rows = identity.rows();
+    w.section.metadata.insert(w.section.metadata.begin(), rows.begin(), rows.end());
+  }
+
   json& d = w.document;
   d["path"] = path;
   d["status"] = report::status_text(w.result.status);
@@ -232,6 +277,22 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   d["limits"] = std::move(limits);
   d["measurements"] = measurements_json(analysis.measurements);
   d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
+  json who = json::object();
+  for (const auto& [field, value] : identity.rows()) who[field] = value;
+  d["identity"] = std::move(who);
+  // The capture's size and content hash: its identity in the results database, written here so
+  // an import of this folder later identifies it exactly as a live recording would.
+  json capture = nullptr;
+  try {
+    const store::FileDigest digest = store::sha256_file(path);
+    capture = {{"size_bytes", digest.size}, {"sha256", digest.sha256}};
+  } catch (const Error&) {
+    // an unreadable capture is an ERROR row already; the database identifies it by its JSON
+  }
+  d["capture"] = std::move(capture);
+  json metadata = json::array();
+  for (const auto& [name, value] : analysis.metadata) metadata.push_back({{"name", name}, {"value", value}});
+  d["metadata"] = std::move(metadata);
   return w;
 }
 
@@ -327,6 +388,62 @@ json summary_json(const std::vector<FileResult>& works, const BatchResult& resul
   }
   j["files"] = std::move(files);
   return j;
+}
+
+// Every board against every limit for report.html (report/cross_board.hpp): values in the unit
+// each limit was written in, and the limits that apply to the response overlay.
+report::CrossBoardView cross_board_view(const std::vector<FileResult>& files, const BatchConfig& config) {
+  report::CrossBoardView v;
+  for (const auto& l : config.limits) {
+    report::CrossBoardLimit c;
+    c.name = l.describe();
+    c.allowed = l.allowed_text();
+    c.yes_no = yes_no(l);
+    const ResultInfo* info = find_result(l.result);
+    c.unit = !l.display_unit.empty() ? l.display_unit : (info && !c.yes_no ? std::string(info->unit) : std::string());
+    if (!c.yes_no) {
+      c.lo = std::isfinite(l.lo) ? l.to_display(l.lo) : l.lo;
+      c.hi = std::isfinite(l.hi) ? l.to_display(l.hi) : l.hi;
+      if (c.lo > c.hi) std::swap(c.lo, c.hi);
+    }
+    v.limits.push_back(std::move(c));
+    // Limits on the response itself are drawn on the overlay in its own units (dB).
+    if (config.mode == AnalysisMode::identify && l.result == "mag_db" && l.freq_hz)
+      v.response_limits.push_back({*l.freq_hz, l.lo, l.hi});
+    if (config.mode == AnalysisMode::analyze && l.result == "amplitude" && l.harmonic && l.channel.empty()) {
+      const auto db = [](double a) { return a > 0 && std::isfinite(a) ? 20 * std::log10(a) : -std::numeric_limits<double>::infinity(); };
+      v.response_limits.push_back({static_cast<double>(*l.harmonic), db(l.lo), std::isfinite(l.hi) ? db(l.hi) : std::numeric_limits<double>::infinity()});
+    }
+  }
+  for (const FileResult& f : files) {
+    std::vector<report::CrossBoardCell> row;
+    for (std::size_t i = 0; i < config.limits.size(); ++i) {
+      report::CrossBoardCell c;
+      if (i < f.limits.size()) {
+        const LimitOutcome& o = f.limits[i];
+        c.evaluated = o.evaluated;
+        c.passed = o.passed;
+        c.value = yes_no(config.limits[i]) ? o.measured.value : config.limits[i].to_display(o.measured.value);
+        c.margin_fraction = o.margin_fraction;
+        c.verdict = o.verdict;
+      }
+      row.push_back(std::move(c));
+    }
+    v.cells.push_back(std::move(row));
+    v.responses.push_back(f.response);
+  }
+  if (config.mode == AnalysisMode::identify) {
+    v.x_quantity = "frequency";
+    v.x_unit = "Hz";
+    v.x_log = true;
+    v.y_quantity = "|H|";
+    v.y_unit = "dB";
+  } else {
+    v.x_quantity = "harmonic";
+    v.y_quantity = "amplitude";
+    v.y_unit = "dB re 1 unit";
+  }
+  return v;
 }
 
 }  // namespace
@@ -441,6 +558,33 @@ BatchResult run_batch(const BatchOptions& options) {
   // number of files; report.html is assembled from the spill file in path order at the end.
   io::ScratchFile sections(folder.staging());
   std::vector<FileDone> works(paths.size());
+
+  // The results database: one transaction per capture as each file is done, so a run killed
+  // at any moment leaves whole captures; a database that fails stops recording, never the run
+  // (store/recorder.hpp).
+  std::string database = options.database.empty() ? options.config.database : options.database;
+  const bool in_report = database == kReportDatabase;
+  if (in_report) database = (staging / "results.sqlite").string();
+  std::unique_ptr<store::RunRecording> recording;
+  if (!database.empty()) {
+    store::RunInfo info;
+    info.mode = mode_name(options.config.mode);
+    info.config_source = options.config.source;
+    info.config_text = options.config.text;
+    info.station = options.config.identity.command_values.count("station")
+                       ? options.config.identity.command_values.at("station")
+                       : (options.config.identity.config_values.count("station")
+                              ? options.config.identity.config_values.at("station") : "");
+    info.operator_name = options.config.identity.command_values.count("operator")
+                             ? options.config.identity.command_values.at("operator")
+                             : (options.config.identity.config_values.count("operator")
+                                    ? options.config.identity.config_values.at("operator") : "");
+    info.report_dir = fs::absolute(options.report_dir).lexically_normal().string();
+    info.files_total = static_cast<std::int64_t>(paths.size());
+    recording = std::make_unique<store::RunRecording>(database, std::move(info));
+    result.database = in_report ? (fs::path(options.report_dir) / "results.sqlite").string()
+                                : store::redact_target(database);
+  }
   std::atomic<std::size_t> next{0};
   std::size_t done = 0;
   std::mutex mutex;
@@ -459,6 +603,9 @@ BatchResult run_batch(const BatchOptions& options) {
           FileWork w = process(i, paths[i], options);
           io::write_file_atomic((staging / w.result.json_file).string(),
                                 io::json_text(w.document));
+          if (recording) {
+            recording->record({paths[i], std::nullopt, std::move(w.document), store::utc_now_text()});
+          }
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_section_body(w.section));
           kept.row = report::report_row(w.section);
@@ -510,6 +657,13 @@ BatchResult run_batch(const BatchOptions& options) {
   const auto body = [&](std::size_t i, const report::HtmlSink& sink) { sections.copy(works[i].section, sink); };
   write_report_outputs(folder.staging(), options.config, files, rows, body);
   if (options.shard.active()) write_shard_record(folder.staging(), options, listing, files, rows, body);
+  if (recording) {
+    recording->finish();
+    result.recorded_new = recording->added();
+    result.recorded_known = recording->known();
+    result.database_error = recording->error();
+    recording.reset();  // closes the database (SQLite folds its WAL back) before the folder is published
+  }
   folder.publish();
   const fs::path dir(options.report_dir);
   result.summary_csv = (dir / "summary.csv").string();
@@ -555,6 +709,7 @@ void write_report_outputs(const std::string& folder, const BatchConfig& config,
   overview.settings.emplace_back("limits", std::to_string(config.limits.size()));
   overview.settings.emplace_back("plots", plot_selection_name(config.plots));
   overview.rows = rows;
+  overview.boards = cross_board_view(files, config);
   io::AtomicFile page((staging / "report.html").string());
   report::write_html_report(
       overview,

@@ -22,6 +22,7 @@
 ///   BatchOptions o; o.inputs = {"captures/"}; o.report_dir = "out"; o.config = load_batch_config("limits.toml");
 ///   const BatchResult r = run_batch(o);
 ///   return to_int(batch_exit_code(r));
+#include <cstdint>
 #include <functional>
 #include <string>
 #include <vector>
@@ -58,6 +59,9 @@ struct SettingsRecord {
   std::string hash() const;
 };
 
+/// BatchOptions::database value naming `results.sqlite` in the report folder.
+inline constexpr const char* kReportDatabase = "@report";
+
 struct BatchOptions {
   std::vector<std::string> inputs;  ///< folders (searched per config.files) or single capture files
   std::string report_dir;           ///< output folder, created when missing; required
@@ -74,6 +78,10 @@ struct BatchOptions {
   /// The run id all shards of one run share (shard.json; a results database keys the run by it).
   /// "" = derived: "pf-" + FNV-1a 64 of the tool version, settings hash, inputs and N.
   std::string run_id;
+  /// The results database to record the run in (store/recorder.hpp): a SQLite path or a
+  /// postgresql:// URL; kReportDatabase = `results.sqlite` inside the report folder; "" = the
+  /// config's `[record] database`, else record nothing.
+  std::string database;
 
   void validate() const;  ///< throws OptionError naming the field
 };
@@ -90,6 +98,7 @@ struct FileResult {
   std::vector<LimitOutcome> limits; ///< one per config limit, in config order
   std::string json_file;            ///< per-file JSON, relative to the report folder
   double analysis_s = 0;            ///< wall time of reading + analysing (never written to outputs)
+  report::BoardResponse response;   ///< its points in the report's cross-board overlay
 };
 
 struct BatchResult {
@@ -100,6 +109,12 @@ struct BatchResult {
   int jobs = 1;                     ///< worker threads used
   double elapsed_s = 0;             ///< wall time of the whole run
   double analysis_s = 0;            ///< sum of FileResult::analysis_s
+  /// The results database the run was recorded in ("" = none), the captures it added and those
+  /// it already held (a re-run), and the error that stopped recording ("" = all recorded; the
+  /// report folder is complete either way and can be imported later).
+  std::string database;
+  std::int64_t recorded_new = 0, recorded_known = 0;
+  std::string database_error;
 };
 
 /// The captures a batch would take from `inputs`: regular files named directly, and the files

@@ -81,6 +81,10 @@ json file_record(const FileResult& r, const report::ReportRow& row, const std::s
   }
   j["limits"] = std::move(limits);
   j["json"] = r.json_file;
+  json x = json::array(), y = json::array();
+  for (double v : r.response.x) x.push_back(double_json(v));
+  for (double v : r.response.y) y.push_back(double_json(v));
+  j["response"] = {{"x", std::move(x)}, {"y", std::move(y)}, {"passed", r.response.passed}};
   j["row"] = {{"key_results", row.key_results}, {"failing", row.failing}, {"flags", row.flags}, {"error", row.error}};
   j["section"] = {offset, size};
   return j;
@@ -128,6 +132,11 @@ HeldCapture capture_from(const json& j) {
     r.limits.push_back(std::move(o));
   }
   r.json_file = j.at("json").get<std::string>();
+  const json& response = j.at("response");
+  for (const auto& v : response.at("x")) r.response.x.push_back(double_from(v));
+  for (const auto& v : response.at("y")) r.response.y.push_back(double_from(v));
+  r.response.passed = response.at("passed").get<bool>();
+  if (r.response.x.size() != r.response.y.size()) throw std::invalid_argument("response x and y differ in length");
   // The gather copies this file into the gathered folder: it must be a per-file JSON of the
   // shard's own files/ folder, never a path an edited record points elsewhere with.
   if (!r.json_file.starts_with("files/") || r.json_file.find('/', 6) != std::string::npos ||

@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <map>
 #include <memory>
 #include <string>
 #include <vector>
@@ -20,6 +21,8 @@
 #include "io/number_format.hpp"
 #include "io/output_file.hpp"
 #include "report/table.hpp"
+#include "store/database.hpp"
+#include "store/identity.hpp"
 
 namespace periodfit::cli {
 
@@ -35,6 +38,9 @@ struct BatchArgs {
   std::string shard;                ///< --shard K/N
   bool quiet = false;
   bool timing = false;
+  std::vector<std::string> database;  ///< --db [TARGET]: 0 or 1 value
+  CLI::Option* db_option = nullptr;
+  std::map<std::string, std::string> who;  ///< --serial, --lot, … (store/identity.hpp)
   // Options whose presence decides whether they override the config.
   CLI::Option* patterns = nullptr;
   CLI::Option* recursive = nullptr;
@@ -97,6 +103,7 @@ batch::BatchConfig settings(const BatchArgs& a) {
   if (!c.identify.order.empty() && c.identify.order != "auto")
     ident::parse_model_order(c.identify.order, "--order");
   batch::revalidate_limits(c);  // the flags may have changed the mode or the order
+  for (const auto& [field, value] : a.who) c.identity.command_values[field] = value;
   return c;
 }
 
@@ -139,10 +146,17 @@ void add_setting_options(CLI::App& app, BatchArgs& a) {
                        ->default_str(batch::plot_selection_name(defaults.plots))
                        ->type_name("WHICH");
   add_capture_options(app, a.flags.read);
+  // Who and what the captures are: settings like the others, so every shard of a run records
+  // them and the gather rebuilds the same identity.
+  for (const auto& field : store::identity_fields())
+    app.add_option("--" + field, a.who[field], "the captures' " + field + " (overrides [identity])")
+        ->type_name("TEXT");
 }
 
-constexpr const char* kRunOptions[] = {"--report", "--config", "--jobs", "--shard", "--run-id",
-                                       "--quiet",  "--timing", "--help"};
+// Options that say how and where this process runs, not what the run measures: left out of the
+// settings a shard records (a shard may record in a database the others do not name).
+constexpr const char* kRunOptions[] = {"--report", "--config", "--jobs",   "--shard", "--run-id",
+                                       "--quiet",  "--timing", "--help",   "--db"};
 
 // The setting options as given, in the parser's order: each value as `--name VALUE`, each
 // flag as `--name` (a flag's only value here is its presence). add_setting_options parses them
@@ -207,13 +221,21 @@ Runner add_batch(CLI::App& app) {
   add_setting_options(app, a);
   app.add_flag("--quiet,-q", a.quiet, "no progress and no per-file table; only the closing line");
   app.add_flag("--timing", a.timing, "print throughput and per-file overhead on stderr");
+  a.db_option = app.add_option("--db", a.database,
+                               "record the run in a results database: a SQLite file or a postgresql:// URL; "
+                               "alone: results.sqlite in the report folder (docs/results-db.md)")
+                    ->expected(0, 1)
+                    ->type_name("[TARGET]");
 
   const CLI::App* parsed = &app;
   return [args, parsed]() -> int {
     BatchArgs& b = *args;
+    for (auto it = b.who.begin(); it != b.who.end();) it = it->second.empty() ? b.who.erase(it) : std::next(it);
     if (!b.config_path.empty())
       b.config_text = io::read_file(b.config_path, io::kMaxTextFileBytes);
     b.run.config = settings(b);
+    if (b.db_option->count())
+      b.run.database = b.database.empty() || b.database.front().empty() ? batch::kReportDatabase : b.database.front();
     if (!b.shard.empty()) {
       b.run.shard = batch::parse_shard(b.shard);
       b.run.settings = {b.config_path, b.config_text, setting_words(*parsed)};
@@ -254,8 +276,17 @@ Runner add_batch(CLI::App& app) {
     }
     // Checked: a table that did not arrive is exit 2 with the reason, although the report
     // folder is complete by now (docs/robustness.md, issue 11 class 3).
+    if (!r.database.empty() && r.database_error.empty())
+      out += "recorded in " + r.database + ": " + std::to_string(r.recorded_new) + " new, " +
+             std::to_string(r.recorded_known) + " already recorded\n";
     io::write_stdout(out);
     std::fputs(timing_line.c_str(), stderr);
+    // The report folder is complete; the database is missing results: one line, exit 2, and
+    // the way to catch up (docs/results-db.md, "When the database is down").
+    if (!r.database_error.empty())
+      throw store::DatabaseError(r.database, "not recorded (" + r.database_error +
+                                                 "); the report folder is complete: import it later with "
+                                                 "`periodfit import " + r.report_dir + " --db TARGET`");
     return to_int(batch::batch_exit_code(r));
   };
 }

@@ -23,5 +23,7 @@ Runner add_gather(CLI::App& app);
 /// The BatchConfig a batch run had, from the settings a shard recorded (cmd_batch.cpp parses the
 /// recorded words with the batch's own setting options); used by gather.
 batch::BatchConfig rebuild_batch_config(const batch::SettingsRecord& record);
+Runner add_import(CLI::App& app);
+Runner add_production(CLI::App& app);
 
 }  // namespace periodfit::cli

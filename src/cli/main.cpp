@@ -39,6 +39,10 @@ constexpr Command kCommands[] = {
      periodfit::cli::add_batch},
     {"gather", "combine the report folders of a batch run in shards (batch --shard K/N) into one",
      periodfit::cli::add_gather},
+    {"import", "record finished batch report folders in a results database",
+     periodfit::cli::add_import},
+    {"production", "yield, Cp/Cpk with intervals, control charts, board history (results database)",
+     periodfit::cli::add_production},
 };
 
 constexpr const char* kExitCodes =

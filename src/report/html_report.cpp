@@ -40,6 +40,10 @@ ul.messages li { overflow-wrap: anywhere; }
 .plots { display: flex; flex-wrap: wrap; gap: 12px; }
 .plots svg { max-width: 100%; height: auto; border: 1px solid #eeeeee; }
 a { color: #1f5fa8; }
+table.boards td.m-pass { background: #e3f3e6; } table.boards td.m-narrow { background: #fbeccc; }
+table.boards td.m-fail { background: #f8d9d6; color: var(--fail); } table.boards td.m-none { background: #eeeeee; }
+p.legend span { padding: 1px 6px; margin-right: 6px; } p.legend .m-pass { background: #e3f3e6; }
+p.legend .m-narrow { background: #fbeccc; } p.legend .m-fail { background: #f8d9d6; } p.legend .m-none { background: #eeeeee; }
 footer { margin-top: 40px; color: #666666; font-size: 12px; }
 @media print { h2 { page-break-before: always; } .plots svg { border: none; } }
 )css";
@@ -169,6 +173,12 @@ void write_html_report(const ReportOverview& overview,
     sink(html);
   }
   sink("</tbody>\n</table>\n");
+  {
+    std::vector<std::string> paths;
+    paths.reserve(overview.rows.size());
+    for (const auto& row : overview.rows) paths.push_back(row.path);
+    sink(render_cross_board(overview.boards, paths));
+  }
 
   for (std::size_t i = 0; i < overview.rows.size(); ++i) write_section(i, sink);
   sink("<footer>Written by periodfit " + xml_escape(PERIODFIT_VERSION) +

@@ -25,6 +25,8 @@
 #include <utility>
 #include <vector>
 
+#include "report/cross_board.hpp"
+
 namespace periodfit::report {
 
 enum class FileStatus { pass, fail, error };
@@ -78,6 +80,7 @@ struct ReportOverview {
   std::string title = "periodfit batch report";
   std::vector<std::pair<std::string, std::string>> settings;  ///< shown under the title
   std::vector<ReportRow> rows;  ///< in report order
+  CrossBoardView boards;        ///< every board against every limit (report/cross_board.hpp)
 };
 
 /// Receives the page's bytes in order, in pieces of any size.

@@ -10,35 +10,8 @@ BIN=${1:-$ROOT/build/periodfit}
 WORK=${2:-/tmp/periodfit-bench-batch}
 FILES=${FILES:-400}
 SAMPLES=${SAMPLES:-200000}
-mkdir -p "$WORK"
-if [ ! -f "$WORK/captures/unit_$(printf %04d $((FILES - 1))).wav" ]; then
-  echo "generating $FILES captures of $SAMPLES samples in $WORK/captures" >&2
-  /usr/bin/python3 "$ROOT/tools/bench/batch_bench_gen.py" "$WORK/captures" "$FILES" "$SAMPLES"
-fi
-cat > "$WORK/bench.toml" <<'TOML'
-[analysis]
-mode = "frf"
-input = "0"
-output = "1"
-order = "0/2"
-f0_hint_hz = 100
-
-[report]
-plots = "all"
-
-[[limit]]
-result = "natural_frequency_hz"
-pole = 1
-nominal = 1200
-tolerance_pct = 5
-guard_band = true
-
-[[limit]]
-result = "damping"
-pole = 1
-nominal = 0.5
-tolerance = 0.05
-TOML
+source "$ROOT/tools/bench/bench_captures.sh"
+printf '[report]\nplots = "all"\n' | bench_captures "$WORK" "$FILES" "$SAMPLES"
 
 run() {  # run NAME JOBS PATTERN
   local name=$1 jobs=$2 pattern=$3
