@@ -34,6 +34,10 @@ const std::vector<FlagInfo> kFlags = {
     {"interference", FlagSeverity::caution, "analyze",
      "a line beside the harmonics (hum, another source) carries part of the residual: it counts "
      "as noise in THD+N, SINAD and SNR"},
+    {"harmonics-truncated", FlagSeverity::caution, "analyze, frf",
+     "significant harmonics lie above the count asked for (--harmonics): they count as noise in "
+     "SNR, THD+N and SINAD, f0 and its u rest on fewer lines, and the frf model's adequacy test "
+     "sees only the lines kept"},
     {"drift", FlagSeverity::caution, "analyze",
      "f0 differs between the halves of the record: the figures are averages over the record"},
     {"nonlinear", FlagSeverity::caution, "frf",

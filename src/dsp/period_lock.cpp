@@ -24,9 +24,6 @@ namespace {
 
 constexpr double kPi = std::numbers::pi;
 constexpr double kTwoPi = 2 * std::numbers::pi;
-/// Highest harmonic frequency used by default, as a fraction of fs (room for the
-/// anti-aliasing filter's transition band of a real acquisition; common practice).
-constexpr double kDefaultBandFraction = 0.45;
 /// Default cap on H (the "at most 50").
 constexpr int kDefaultMaxHarmonic = 50;
 /// Harmonics fitted by the standalone resampler are capped: beyond that the residual kernel
@@ -495,7 +492,7 @@ int choose_harmonics(const LockOptions& opt, double fs, double f0, std::size_t n
   const int h = default_harmonic_count(fs, f0, n);
   if (h < 1)
     throw AnalysisError("f0 = " + str(f0) + " Hz has no harmonic below 0.45·fs = " +
-                        str(kDefaultBandFraction * fs) + " Hz");
+                        str(kBandFraction * fs) + " Hz");
   return h;
 }
 
@@ -637,8 +634,13 @@ std::complex<double> HarmonicFit::phasor(int n) const {
   return std::complex<double>(a[i], -b[i]) * std::polar(1.0, -kTwoPi * frac);
 }
 
+int band_limit_harmonics(double fs_hz, double f0_hz) {
+  if (!(fs_hz > 0) || !(f0_hz > 0)) return 0;
+  return std::max(0, harmonic_limit(fs_hz, f0_hz, kBandFraction));
+}
+
 int default_harmonic_count(double fs_hz, double f0_hz, std::size_t samples) {
-  int h = std::min(kDefaultMaxHarmonic, harmonic_limit(fs_hz, f0_hz, kDefaultBandFraction));
+  int h = std::min(kDefaultMaxHarmonic, harmonic_limit(fs_hz, f0_hz, kBandFraction));
   const int by_samples = static_cast<int>((samples / 2 - 2) / 2);  // 2H + 2 ≤ N/2
   return std::max(0, std::min(h, by_samples));
 }
@@ -736,6 +738,9 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
       const int h = stage == 0 ? h_final : std::min(stage, h_final);
       if (stage != 0 && (h == h_final || !all_stages)) continue;  // this stage is the final one: skip
       if (long_record && (stage == 10 || stage == 30)) continue;
+      // A given start is already within the final stage's capture range (±0.5/H bins): it is
+      // the converged f0 of a fit of the same record (lock_channel, the baseline refit).
+      if (given_start && stage != 0) continue;
       const double max_step = 0.25 * record_bin_nu;
       g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
       iterations += g.iterations;
@@ -960,7 +965,7 @@ PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t
   if (samples_per_period < 2)
     throw OptionError("samples_per_period", std::to_string(samples_per_period), "must be >= 2");
   const std::size_t n = x.size();
-  int h = std::min({harmonic_limit(fs_hz, f0_hz, kDefaultBandFraction), (samples_per_period - 1) / 2,
+  int h = std::min({harmonic_limit(fs_hz, f0_hz, kBandFraction), (samples_per_period - 1) / 2,
                     kResampleMaxHarmonic, static_cast<int>(n / 2) - 2});
   h = std::max(h, 0);
   LockOptions opt;
@@ -1030,7 +1035,7 @@ PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic, bool with
     const std::size_t total = M * P;
     std::vector<std::complex<double>> full(total / 2 + 1);
     real_dft(grid.samples, full);
-    const double limit_hz = grid.source_rate_hz > 0 ? kDefaultBandFraction * grid.source_rate_hz
+    const double limit_hz = grid.source_rate_hz > 0 ? kBandFraction * grid.source_rate_hz
                                                     : 0.5 * m * grid.f0_hz;
     const auto kmax = std::min<std::size_t>(total / 2 - 1,
         static_cast<std::size_t>(std::floor(limit_hz / grid.f0_hz * static_cast<double>(P))));

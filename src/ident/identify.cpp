@@ -7,6 +7,7 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
+#include "dsp/analysis_output.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
 #include "io/json_writer.hpp"
@@ -15,8 +16,6 @@ namespace periodfit::ident {
 
 namespace {
 
-/// Harmonics above this fraction of fs are not examined (the lock stage's band limit).
-constexpr double kNyquistFraction = 0.45;
 /// Two captures count as one time base when their rates agree to this relative tolerance
 /// (rates parsed from text may differ in the last digit).
 constexpr double kSameRateRelative = 1e-9;
@@ -135,43 +134,45 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   const int ey = unit_exponent(out.channel->samples);
   const std::vector<double> u_samples = scaled_by(in.channel->samples, -eu);
   const std::vector<double> y_scaled = scaled_by(out.channel->samples, -ey);
-  dsp::HarmonicFit fit_u;
+  // The one lock call (dsp::lock_channel): f0, the automatic harmonic count (every harmonic up
+  // to the band limit significant against its local noise) and the spectra, on the input; the
+  // output is locked with f0 and H forced to the input's, on the same grid.
+  dsp::LockedChannel lu;
   try {
-    fit_u = dsp::fit_harmonics(u_samples, fs, ci.t0_s, lock);
+    lu = dsp::lock_channel(u_samples, fs, ci.t0_s, lock, options.samples_per_period);
   } catch (const AnalysisError& e) {
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
   }
-  r.fundamental = fit_u.fundamental;
+  r.fundamental = lu.fit.fundamental;
+  r.selection = lu.selection;
   r.fundamental.residual_rms = std::ldexp(r.fundamental.residual_rms, eu);
   const double f0 = r.fundamental.f0_hz;
   if (!(f0 > 0) || !std::isfinite(f0))
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
                         "\" has no periodic component");
-  const int nyquist_harmonics = int(std::floor(kNyquistFraction * fs / f0));
+  const int nyquist_harmonics = dsp::band_limit_harmonics(fs, f0);
   if (nyquist_harmonics < 1)
     throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
                         " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
-  const int harmonics = std::min(fit_u.harmonics(), nyquist_harmonics);
-  const int m = options.samples_per_period > 0 ? options.samples_per_period
-                                               : dsp::default_samples_per_period(fs, f0, harmonics);
+  const int harmonics = std::min(lu.fit.harmonics(), nyquist_harmonics);
+  const int m = lu.grid.samples_per_period;
   r.samples_per_period = m;
   dsp::LockOptions forced;
-  forced.f0_hz = f0;
-  forced.max_harmonic = fit_u.harmonics();
-  // The fit keeps its residual; recompute it only if it did not.
-  const auto lock_grid = [m](const std::vector<double>& x, const dsp::HarmonicFit& fit) {
-    if (fit.residual.size() == x.size()) return dsp::resample_fitted(fit.residual, fit, m);
-    return dsp::resample_fitted(dsp::fit_residual(x, fit), fit, m);
-  };
-  // The output's fit and both grids are independent once f0 is known: the output is locked on
-  // a second thread (the lock stage is thread-safe: cached FFTW plans behind a lock).
+  // The input's grid f0 (within 0.1 u of the reported f0 when the final fit did not relock):
+  // both channels must share the grid exactly.
+  forced.f0_hz = lu.grid.f0_hz;
+  forced.max_harmonic = lu.fit.harmonics();
+  // The output's lock is independent once f0 is known: it runs on a second thread (the lock
+  // stage is thread-safe: cached FFTW plans behind a lock).
   const std::vector<double>& y_samples = y_scaled;
   const double y_t0 = out.capture->t0_s;
   auto output_spectra = std::async(std::launch::async, [&, forced] {
-    const dsp::HarmonicFit fit_y = dsp::fit_harmonics(y_samples, fs, y_t0, forced);
-    return dsp::period_spectra(lock_grid(y_samples, fit_y), harmonics);
+    dsp::PeriodSpectra s = dsp::lock_channel(y_samples, fs, y_t0, forced, m).spectra;
+    dsp::truncate_spectra(s, harmonics);
+    return s;
   });
-  const dsp::PeriodSpectra su = dsp::period_spectra(lock_grid(u_samples, fit_u), harmonics);
+  dsp::PeriodSpectra su = std::move(lu.spectra);
+  dsp::truncate_spectra(su, harmonics);
   dsp::PeriodSpectra sy;
   try {
     sy = output_spectra.get();
@@ -196,6 +197,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
                         "channels in units closer to each other (--scale)");
   for (const auto& f : r.frf.flags) r.flags.push_back(f);
   if (r.linearity.nonlinear) r.flags.push_back("nonlinear");
+  if (r.selection.truncated_lines > 0) r.flags.push_back("harmonics-truncated");
 
   if (!options.order.empty()) {
     RationalFitOptions fit = options.fit;
@@ -390,6 +392,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["sample_rate_hz"] = io::json_number(r.sample_rate_hz);
   j["periods"] = r.frf.periods;
   j["samples_per_period"] = r.samples_per_period;
+  j["harmonic_selection"] = dsp::harmonic_selection_json(r.selection);
   j["max_harmonic"] = r.frf.max_harmonic;
   j["skew_s"] = io::json_number(r.skew_s);
   j["frf_method"] = r.frf.method;
@@ -519,6 +522,7 @@ std::string format_identify_report(const IdentifyResult& r) {
                  " (" + r.fundamental.method + ")"},
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
                    " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
+      {"harmonics", dsp::harmonic_selection_text(r.selection)},
       {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
                   io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};

@@ -77,6 +77,7 @@ struct IdentifyResult {
   double sample_rate_hz = 0;
   dsp::Fundamental fundamental;   ///< how f0 was found
   int samples_per_period = 0;     ///< M of the grid
+  dsp::HarmonicSelection selection;  ///< how H was chosen on the input (dsp/period_lock.hpp)
   double skew_s = 0;
   FrfResult frf;
   LinearityResult linearity;
