@@ -121,7 +121,7 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
       "name", "unit", "status", "f0_hz", "f0_u_hz", "f0_method", "periods", "whole_periods",
       "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r", "thd_n",
       "sinad_db", "snr_db", "enob_bits", "full_scale_range", "enob_note", "nad_rms", "noise_rms",
-      "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof", "fit", "drift", "baseline",
+      "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof", "fit", "harmonic_selection", "drift", "baseline",
       "residual_lines", "flags", "warnings", "harmonics"};
   CHECK(keys == expected);
   CHECK(c["name"] == "v_out");

@@ -73,17 +73,17 @@ nlohmann::ordered_json harmonic_selection_json(const HarmonicSelection& s) {
 }
 
 std::string harmonic_selection_text(const HarmonicSelection& s) {
-  std::string out = std::to_string(s.count);
+  std::string out;
   const std::string range = "harmonics 1…" + std::to_string(s.highest_examined);
   if (s.family_alpha > 0) {
     const std::string test = "Holm F test at α = " + io::format_shortest(s.family_alpha) + " (" + s.noise_basis +
                              " noise) over " + range + ": " + std::to_string(s.significant) + " significant" +
                              (s.highest_significant > 0 ? ", highest " + std::to_string(s.highest_significant) : "");
-    out += s.automatic ? " (automatic: " + test + ")" : " (given; " + test + ")";
+    out += s.automatic ? "automatic: " + test : "given; " + test;
   } else {
-    out += s.automatic ? " (automatic: fewer than 2 whole periods, no local noise to test " + range +
-                             " against; all below 0.45·fs, at most 50)"
-                       : " (given)";
+    out += s.automatic ? "automatic: under 2 whole periods, no local noise to test " + range +
+                             " against; all below 0.45·fs, at most 50"
+                       : "given";
   }
   return out;
 }
@@ -234,7 +234,7 @@ std::string analyze_text(const AnalyzeReport& r) {
     kv.emplace_back("periods", people(c.periods, 6) + " (" + std::to_string(c.whole_periods) +
                                    " locked, " + std::to_string(c.samples_per_period) +
                                    " samples per period)");
-    kv.emplace_back("harmonics", harmonic_selection_text(c.selection));
+    kv.emplace_back("harmonics", std::to_string(c.selection.count) + " (" + harmonic_selection_text(c.selection) + ")");
     kv.emplace_back("dc", io::format_with_u(c.dc, c.dc_u, c.unit));
     kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
     kv.emplace_back("THD", percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")");

@@ -521,8 +521,8 @@ std::string format_identify_report(const IdentifyResult& r) {
                                          : sig(r.fundamental.f0_hz, 9) + " Hz") +
                  " (" + r.fundamental.method + ")"},
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
-                   " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
-      {"harmonics", dsp::harmonic_selection_text(r.selection)},
+                   " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic) + " (" +
+                   dsp::harmonic_selection_text(r.selection) + ")"},
       {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
                   io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
