@@ -354,7 +354,7 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   bool top_band_harmonics = false;  // harmonics up near fs/2: aliased ones are to be expected
   for (const auto& line : out.harmonics)
     top_band_harmonics = top_band_harmonics || (line.significant && line.n >= 2 && line.freq_hz >= 0.375 * fs);
-  out.residual_lines = find_residual_lines(fit.residual, fs, f0, top_band_harmonics);
+  out.residual_lines = find_residual_lines(fit.residual, fs, f0, top_band_harmonics, h);
   {
     double amax = 0, harm_power = 0;
     for (double a : amplitudes) amax = std::max(amax, a);

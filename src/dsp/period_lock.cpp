@@ -29,6 +29,10 @@ constexpr int kDefaultMaxHarmonic = 50;
 /// Harmonics fitted by the standalone resampler are capped: beyond that the residual kernel
 /// carries them (ripple ≲ 1e-3), and the Cholesky of the Gram matrix stays cheap.
 constexpr int kResampleMaxHarmonic = 1000;
+/// The coarse search's local noise floor: the median of the bins within this many record bins
+/// of a candidate line, its own ±kLocalGuardBins (the Hann main lobe is ±2 bins) left out.
+constexpr double kLocalFloorBins = 32;
+constexpr double kLocalGuardBins = 4;
 /// Records shorter than this many periods get the 0.02-bin grid search after the FFT peak.
 constexpr double kShortRecordPeriods = 12;
 /// Records longer than twice this are first located on a prefix of this many samples.
@@ -404,10 +408,32 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
     double power;
   };
   std::vector<Peak> candidates;
+  // Local noise floor (issue 12: under 1/f or low-pass noise the noise hump's maxima passed the
+  // record-wide median test and formed a comb at f0/4 … f0/20): a line must also stand
+  // T_loc times above the median of the bins within ±kLocalFloorBins record bins of it (its own
+  // ±kLocalGuardBins excluded). A Hann periodogram's noise bins are exponential, median = ln 2 ×
+  // mean, so with T_loc = ln(M/0.01)/ln 2 over the M = N/2 record bins the chance of a noise
+  // maximum passing anywhere in a noise-only record is about 0.01 (Bonferroni).
+  const double t_local = std::max(25.0, std::log(0.5 * static_cast<double>(n) / 0.01) / std::log(2.0));
+  const auto local_floor = [&](std::size_t k) {
+    const auto half = static_cast<std::size_t>(std::ceil(kLocalFloorBins * record_bin));
+    const auto guard = static_cast<std::size_t>(std::ceil(kLocalGuardBins * record_bin));
+    std::vector<double> near;
+    const std::size_t lo = k > half ? k - half : 1, hi = std::min(p.size() - 1, k + half);
+    for (std::size_t j = lo; j <= hi; ++j)
+      if (j + guard < k || j > k + guard) near.push_back(p[j]);
+    if (near.empty()) return 0.0;
+    std::nth_element(near.begin(), near.begin() + static_cast<long>(near.size() / 2), near.end());
+    return near[near.size() / 2];
+  };
   for (std::size_t k = std::max<std::size_t>(kmin, 1); k <= kmax; ++k)
-    if (p[k] > level && p[k] > p[k - 1] && p[k] >= p[k + 1]) candidates.push_back({refine(k), p[k]});
+    if (p[k] > level && p[k] > p[k - 1] && p[k] >= p[k + 1] && p[k] > t_local * local_floor(k))
+      candidates.push_back({refine(k), p[k]});
   std::sort(candidates.begin(), candidates.end(), [](const Peak& l, const Peak& r) { return l.power > r.power; });
   if (candidates.size() > 400) candidates.resize(400);
+  // The strongest bin may be the top of a coloured-noise hump: the strongest line that stands
+  // out of its local floor is the one to start from.
+  if (!candidates.empty()) f = candidates.front().f;
   const double record_bin_hz = fs / static_cast<double>(n);
   std::vector<Peak> lines;
   for (const auto& c : candidates) {
@@ -512,6 +538,34 @@ int choose_harmonics(const LockOptions& opt, double fs, double f0, std::size_t n
 /// ν (`off_comb`): a chirp's smeared line made a dense comb at ν/44 (100 periods) or ν/13 (20
 /// periods) win by BIC otherwise. Of the candidates that pass, the largest criterion wins. Candidates need ≥ 1.5 periods in the
 /// record, m ≤ 64, and a bounded cost (Σ N·H_m ≤ 4e9). Returns `fit.nu` when none wins.
+/// Evidence that ν/m is one periodic signal and not a common divisor of unrelated lines (issue
+/// 12: two tones at 100 and 141.42 Hz locked 3.449 Hz, their 29th and 41st harmonics; a 100 Hz
+/// tone with 3 Hz AM locked 3.03 Hz, its 32nd–34th): the harmonics of the candidate that stand
+/// out of the noise must fill at least a quarter of the positions up to the highest of them,
+/// the rule the coarse search's comb applies (coarse_frequency). Significant: amplitude² over
+/// its white-noise variance 2σ²/N beyond the χ²(2) quantile at 0.01/H (Bonferroni over the H
+/// harmonics; σ² = RSS/(N − 2H − 2)), and within −30 dB of the strongest: at high SNR an
+/// unrelated line a fraction of a bin off a harmonic leaks significant power into its
+/// neighbours at −40 dB and below, which would fill the comb.
+constexpr double kCombLevel = 1e-3;
+bool comb_filled(const Evaluation& e, int h, double rss, std::size_t n) {
+  const double dof = static_cast<double>(n) - (2.0 * h + 2);
+  if (!(dof > 0)) return false;
+  const double var = 2 * (rss / dof) / static_cast<double>(n);
+  const double threshold = 2 * std::log(100.0 * h);  // −2·ln(0.01/H): χ²(2) tail e^{−z²/2}
+  double strongest = 0;
+  for (int k = 1; k <= h; ++k) strongest = std::max(strongest, e.a(k) * e.a(k) + e.b(k - 1) * e.b(k - 1));
+  int count = 0, highest = 0;
+  for (int k = 1; k <= h; ++k) {
+    const double amp2 = e.a(k) * e.a(k) + e.b(k - 1) * e.b(k - 1);
+    if (amp2 >= kCombLevel * strongest && (var > 0 ? amp2 / var > threshold : amp2 > 0)) {
+      ++count;
+      highest = k;
+    }
+  }
+  return highest > 0 && 4 * count >= highest;
+}
+
 double sub_multiple_fundamental(const SineFitter& fitter, const Evaluation& fit, int h, const LockOptions& opt,
                                 double fs, bool off_comb) {
   const std::size_t n = fitter.size();
@@ -542,7 +596,7 @@ double sub_multiple_fundamental(const SineFitter& fitter, const Evaluation& fit,
     const double rss = fitter.sum_sq() - e.projection;
     if (!(rss > 0) || !(rss_base - rss > 1e-4 * ac_energy)) continue;
     const double score = static_cast<double>(n) * std::log(rss_base / rss) - 2.0 * (h_m - h) * log_n;
-    if (score > best_score) {
+    if (score > best_score && comb_filled(e, h_m, rss, n)) {
       best_score = score;
       best_nu = nu_m;
     }
