@@ -128,7 +128,8 @@ double f0_noise_factor(const LockedChannel& c) {
 }  // namespace
 
 LockedChannel lock_channel(std::span<const double> x, double fs, double t0, const LockOptions& options,
-                           int samples_per_period, const SelectionOptions& selection) {
+                           int samples_per_period, const SelectionOptions& selection,
+                           const std::function<void(const HarmonicFit&, const PeriodGrid&)>& first_grid) {
   validate(options);
   LockedChannel out;
   out.fit = fit_harmonics(x, fs, t0, options);
@@ -142,8 +143,11 @@ LockedChannel lock_channel(std::span<const double> x, double fs, double t0, cons
   const int m = grid_size(h_fit);
   // Candidates: every harmonic below the band limit the grid resolves (a given H above the
   // band limit is examined up to H).
-  const int examined = std::max(h_fit, std::min({band_limit_harmonics(fs, f0), kMaxHarmonic, (m - 1) / 2}));
+  const bool examine = automatic || selection.examine_band;
+  const int examined =
+      examine ? std::max(h_fit, std::min({band_limit_harmonics(fs, f0), kMaxHarmonic, (m - 1) / 2})) : h_fit;
   out.grid = resample_fitted(out.fit.residual, out.fit, m);
+  if (first_grid) first_grid(out.fit, out.grid);
   out.spectra = period_spectra(out.grid, examined, out.grid.periods < 4);
   out.selection = select_harmonics(out.spectra, selection);
   HarmonicSelection& sel = out.selection;

@@ -59,6 +59,7 @@
 ///   dsp::PeriodSpectra s = dsp::period_spectra(g, 10);   // s.mean[1] is the fundamental
 #include <array>
 #include <complex>
+#include <functional>
 #include <span>
 #include <string>
 #include <vector>
@@ -244,6 +245,9 @@ struct HarmonicSelection {
 /// Options of the rule (defaults documented in HarmonicSelection).
 struct SelectionOptions {
   double family_alpha = 0.01;  ///< family-wise false-detection probability per record
+  /// With a given max_harmonic: still examine the band above it (for harmonics-truncated).
+  /// false = spectra of harmonics 0…H only (a second channel locked onto the first's grid).
+  bool examine_band = true;
 };
 
 /// Applies the rule to `spectra` (harmonics 1…spectra.max_harmonic are the candidates). The
@@ -274,8 +278,12 @@ struct LockedChannel {
 /// than 0.1 u or H grew. PeriodSpectra::noise_bin_variance is computed when P < 4 only.
 /// A forced f0 (options.f0_hz) with a given H is the way to lock a second channel of the
 /// same capture onto the first one's grid (frf's output).
+/// `first_grid`, when given, is called with the first fit and its grid, before the selection:
+/// a caller can start locking a second channel with that f0 and H (frf does, on a second
+/// thread); the result's grid keeps that f0 unless it was relocked (grid.f0_hz tells).
 LockedChannel lock_channel(std::span<const double> x, double fs_hz, double t0_s, const LockOptions& options,
-                           int samples_per_period = 0, const SelectionOptions& selection = {});
+                           int samples_per_period = 0, const SelectionOptions& selection = {},
+                           const std::function<void(const HarmonicFit&, const PeriodGrid&)>& first_grid = {});
 
 /// Drops the harmonics above max_harmonic from `spectra` (no-op when it holds fewer).
 void truncate_spectra(PeriodSpectra& spectra, int max_harmonic);

@@ -138,44 +138,73 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   // to the band limit significant against its local noise) and the spectra, on the input; the
   // output is locked with f0 and H forced to the input's, on the same grid.
   dsp::LockedChannel lu;
+  // The output is locked on a second thread with f0 and H of the input's first fit, as soon as
+  // they are known (the lock stage is thread-safe: cached FFTW plans behind a lock); it is
+  // redone only when the input's final lock moved its grid (dsp::lock_channel).
+  const std::vector<double>& y_samples = y_scaled;
+  const double y_t0 = out.capture->t0_s;
+  dsp::SelectionOptions grid_only;
+  grid_only.examine_band = false;
+  const auto lock_output = [&y_samples, fs, y_t0, grid_only](double f0_grid, int h, int m) {
+    dsp::LockOptions forced;
+    forced.f0_hz = f0_grid;
+    forced.max_harmonic = h;
+    return dsp::lock_channel(y_samples, fs, y_t0, forced, m, grid_only).spectra;
+  };
+  std::future<dsp::PeriodSpectra> speculative;
+  double speculative_f0 = 0;
+  int speculative_h = 0;
+  const auto first_grid = [&](const dsp::HarmonicFit& fit, const dsp::PeriodGrid& grid) {
+    speculative_f0 = grid.f0_hz;
+    speculative_h = fit.harmonics();
+    speculative = std::async(std::launch::async, lock_output, grid.f0_hz, fit.harmonics(), grid.samples_per_period);
+  };
   try {
-    lu = dsp::lock_channel(u_samples, fs, ci.t0_s, lock, options.samples_per_period);
+    lu = dsp::lock_channel(u_samples, fs, ci.t0_s, lock, options.samples_per_period, {}, first_grid);
   } catch (const AnalysisError& e) {
+    if (speculative.valid()) speculative.wait();
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
   }
   r.fundamental = lu.fit.fundamental;
   r.selection = lu.selection;
   r.fundamental.residual_rms = std::ldexp(r.fundamental.residual_rms, eu);
   const double f0 = r.fundamental.f0_hz;
-  if (!(f0 > 0) || !std::isfinite(f0))
+  const int nyquist_harmonics = dsp::band_limit_harmonics(fs, f0);
+  const auto drain = [&speculative] {
+    if (!speculative.valid()) return;
+    try {
+      speculative.get();
+    } catch (const Error&) {
+      // the output's own error is reported when it is locked for good
+    }
+  };
+  if (!(f0 > 0) || !std::isfinite(f0)) {
+    drain();
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
                         "\" has no periodic component");
-  const int nyquist_harmonics = dsp::band_limit_harmonics(fs, f0);
-  if (nyquist_harmonics < 1)
+  }
+  if (nyquist_harmonics < 1) {
+    drain();
     throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
                         " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
+  }
   const int harmonics = std::min(lu.fit.harmonics(), nyquist_harmonics);
   const int m = lu.grid.samples_per_period;
   r.samples_per_period = m;
-  dsp::LockOptions forced;
-  // The input's grid f0 (within 0.1 u of the reported f0 when the final fit did not relock):
-  // both channels must share the grid exactly.
-  forced.f0_hz = lu.grid.f0_hz;
-  forced.max_harmonic = lu.fit.harmonics();
-  // The output's lock is independent once f0 is known: it runs on a second thread (the lock
-  // stage is thread-safe: cached FFTW plans behind a lock).
-  const std::vector<double>& y_samples = y_scaled;
-  const double y_t0 = out.capture->t0_s;
-  auto output_spectra = std::async(std::launch::async, [&, forced] {
-    dsp::PeriodSpectra s = dsp::lock_channel(y_samples, fs, y_t0, forced, m).spectra;
-    dsp::truncate_spectra(s, harmonics);
-    return s;
-  });
+  // Both channels must share the grid exactly: the input's grid f0 (within 0.1 u of the reported
+  // f0 when the final fit did not relock) and at least the harmonics reported.
+  const bool reuse = speculative.valid() && speculative_f0 == lu.grid.f0_hz && speculative_h >= harmonics;
+  if (!reuse) {
+    drain();
+    speculative = std::async(std::launch::async, lock_output, lu.grid.f0_hz, lu.fit.harmonics(), m);
+  }
+  auto& output_spectra = speculative;
   dsp::PeriodSpectra su = std::move(lu.spectra);
   dsp::truncate_spectra(su, harmonics);
   dsp::PeriodSpectra sy;
   try {
     sy = output_spectra.get();
+    dsp::truncate_spectra(sy, harmonics);
   } catch (const AnalysisError& e) {
     throw AnalysisError(out.capture->source + ": output channel \"" + out.channel->name + "\": " + e.what());
   }
