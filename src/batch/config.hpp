@@ -35,7 +35,7 @@ struct AnalyzeSettings {
   std::vector<std::string> channels;  ///< channel names or 0-based indices; empty = all data channels
   double f0_hz = 0;       ///< > 0: use exactly this fundamental; 0 = estimate
   double f0_hint_hz = 0;  ///< > 0: search the fundamental near this value
-  int harmonics = 0;      ///< highest harmonic; 0 = all below 0.45·fs, at most 50
+  int harmonics = 0;      ///< highest harmonic; 0 = automatic (dsp::lock_channel's rule)
   void validate() const;  ///< throws OptionError naming the field
 };
 

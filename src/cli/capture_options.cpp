@@ -90,7 +90,8 @@ FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double&
   o.f0_hint = add_frequency_option(app, "--f0-hint", f0_hint_hz,
                                    "search for the fundamental within 20 % either side of this frequency in Hz (0 = anywhere)");
   o.harmonics = app.add_option("--harmonics", max_harmonic,
-                               "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
+                               "highest harmonic to fit and report (0 = automatic: every harmonic below 0.45·fs that stands out of "
+                               "its local noise; a given N flags significant harmonics above it)")
                     ->capture_default_str()
                     ->type_name("N");
   return o;
