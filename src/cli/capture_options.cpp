@@ -82,8 +82,10 @@ double parse_full_scale(std::string_view text, std::string_view option) {
                                                   "MIN < MAX (e.g. -1:1), found \"" + std::string(text) + "\"");
 }
 
-FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
-                                           std::string_view estimated_on) {
+FundamentalOptions add_fundamental_options(CLI::App& app, dsp::LockOptions& lock, std::string_view estimated_on) {
+  double& f0_hz = lock.f0_hz;
+  double& f0_hint_hz = lock.f0_hint_hz;
+  int& max_harmonic = lock.max_harmonic;
   FundamentalOptions o;
   const std::string on = estimated_on.empty() ? "" : " on " + std::string(estimated_on);
   o.f0 = add_frequency_option(app, "--f0", f0_hz, "use exactly this fundamental in Hz, e.g. 1k (0 = estimate it" + on + ")");

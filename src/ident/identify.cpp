@@ -123,10 +123,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   // dsp::resample_to_periods would refit every harmonic below 0.45·fs instead: exact for them
   // too, but N·fs/(2f0) work per channel, hundreds of harmonics for an oversampled capture,
   // where the interpolator is far more accurate than its 1e-3 band-edge bound anyway.
-  dsp::LockOptions lock;
-  lock.f0_hz = options.f0_hz;
-  lock.f0_hint_hz = options.f0_hint_hz;
-  lock.max_harmonic = options.max_harmonic;
+  const dsp::LockOptions& lock = options.lock;
   // Each channel is analysed in a unit where its peak is in [0.5, 1): a power of two, so the
   // scaling is exact, and sums of squares neither overflow (peaks beyond ~1e154) nor sink into
   // sub-normals (below ~1e-154), which had made f0_u 0 and shifted f0 (issue 11, class 7).
@@ -363,13 +360,13 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
 
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
-  if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
-  if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
-  if (max_harmonic < 0)
-    throw OptionError("max_harmonic", std::to_string(max_harmonic), "must be >= 0 (0 = automatic)");
-  if (samples_per_period != 0 && samples_per_period < 2 * std::max(max_harmonic, 1) + 2)
+  if (!(lock.f0_hz >= 0) || !std::isfinite(lock.f0_hz))
+    throw OptionError("f0_hz", io::format_shortest(lock.f0_hz), "must be finite and >= 0 (0 = estimate)");
+  if (!(lock.f0_hint_hz >= 0) || !std::isfinite(lock.f0_hint_hz))
+    throw OptionError("f0_hint_hz", io::format_shortest(lock.f0_hint_hz), "must be finite and >= 0 (0 = none)");
+  if (lock.max_harmonic < 0)
+    throw OptionError("max_harmonic", std::to_string(lock.max_harmonic), "must be >= 0 (0 = automatic)");
+  if (samples_per_period != 0 && samples_per_period < 2 * std::max(lock.max_harmonic, 1) + 2)
     throw OptionError("samples_per_period", std::to_string(samples_per_period),
                       "must be 0 (automatic) or >= 2·max_harmonic + 2");
   frf.validate();
