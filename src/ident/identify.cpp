@@ -360,12 +360,7 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
 
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
-  if (!(lock.f0_hz >= 0) || !std::isfinite(lock.f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(lock.f0_hz), "must be finite and >= 0 (0 = estimate)");
-  if (!(lock.f0_hint_hz >= 0) || !std::isfinite(lock.f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(lock.f0_hint_hz), "must be finite and >= 0 (0 = none)");
-  if (lock.max_harmonic < 0)
-    throw OptionError("max_harmonic", std::to_string(lock.max_harmonic), "must be >= 0 (0 = automatic)");
+  dsp::validate(lock);  // the fundamental's options are analyze's (one struct, one check)
   if (samples_per_period != 0 && samples_per_period < 2 * std::max(lock.max_harmonic, 1) + 2)
     throw OptionError("samples_per_period", std::to_string(samples_per_period),
                       "must be 0 (automatic) or >= 2·max_harmonic + 2");
