@@ -1,5 +1,6 @@
-// Fundamental estimation, the multi-harmonic sine fit, locking onto whole periods and the
-// per-period spectra. Method and sources: see period_lock.hpp.
+// Fundamental estimation and the multi-harmonic sine fit (the resampling onto whole periods is
+// in period_resample.cpp, the per-period spectra in period_spectra.cpp). Method and sources:
+// see period_lock.hpp.
 #include "dsp/period_lock.hpp"
 
 #include <Eigen/Dense>
@@ -15,7 +16,6 @@
 #include <vector>
 
 #include "core/error.hpp"
-#include "core/memory_budget.hpp"
 #include "dsp/fft_plan.hpp"
 #include "io/number_format.hpp"
 
@@ -42,12 +42,6 @@ constexpr double kLongRecordPeriods = 200;
 /// Samples between exact sin/cos restarts of the rotation recurrence (error ≲ 512·ε).
 constexpr std::size_t kRotationBlock = 512;  // kBlock in harmonic_kernel.inc
 
-// Residual interpolation kernel: Kaiser-windowed sinc (Kaiser 1974; Oppenheim & Schafer,
-// Discrete-Time Signal Processing, §7.5.3 design formulas: β = 6 gives ≈ 63 dB stop-band
-// attenuation; with 32 taps the transition band is ≈ 0.12·fs wide around fs/2).
-constexpr int kKernelHalfWidth = 16;
-constexpr double kKaiserBeta = 6.0;
-constexpr int kKernelPhases = 1024;  ///< table resolution in fractional delay (linear interp)
 
 std::string str(double v) { return io::format_shortest(v); }
 
@@ -880,136 +874,6 @@ int default_samples_per_period(double fs_hz, double f0_hz, int max_harmonic) {
   return std::max(m, fft_friendly_size(2 * max_harmonic + 2));
 }
 
-namespace {
-
-struct KernelTable {
-  std::vector<double> t;  // (kKernelPhases + 1) × 2L
-  KernelTable() {
-    constexpr int L = kKernelHalfWidth;
-    t.resize(static_cast<std::size_t>(kKernelPhases + 1) * 2 * L);
-    auto bessel_i0 = [](double v) {
-      double sum = 1, term = 1;
-      for (int k = 1; k < 60; ++k) {
-        term *= (v / (2 * k)) * (v / (2 * k));
-        sum += term;
-        if (term < 1e-17 * sum) break;
-      }
-      return sum;
-    };
-    const double i0b = bessel_i0(kKaiserBeta);
-    for (int q = 0; q <= kKernelPhases; ++q) {
-      const double mu = static_cast<double>(q) / kKernelPhases;
-      for (int tap = 0; tap < 2 * L; ++tap) {
-        const int j = tap - L + 1;
-        const double d = mu - j;
-        double v = 0;
-        if (q == 0)
-          v = j == 0 ? 1 : 0;
-        else if (q == kKernelPhases)
-          v = j == 1 ? 1 : 0;
-        else if (std::abs(d) < L) {
-          const double r = d / L;
-          v = std::sin(kPi * d) / (kPi * d) * bessel_i0(kKaiserBeta * std::sqrt(1 - r * r)) / i0b;
-        }
-        t[static_cast<std::size_t>(q) * 2 * L + static_cast<std::size_t>(tap)] = v;
-      }
-    }
-  }
-};
-
-const KernelTable& kernel_table() {
-  static const KernelTable table;
-  return table;
-}
-
-/// Model value at time t for a fit (direct sin/cos, Chebyshev over n).
-double model_at(const HarmonicFit& fit, double t) {
-  const double theta = kTwoPi * fit.fundamental.f0_hz * (t - fit.tc_s);
-  const double c1 = std::cos(theta), s1 = std::sin(theta);
-  double cp = 1, sp = 0, cc = c1, sc = s1, v = fit.a[0];
-  for (int m = 1; m <= fit.harmonics(); ++m) {
-    const auto i = static_cast<std::size_t>(m);
-    v += fit.a[i] * cc + fit.b[i] * sc;
-    const double cn = 2 * c1 * cc - cp, sn = 2 * c1 * sc - sp;
-    cp = cc;
-    cc = cn;
-    sp = sc;
-    sc = sn;
-  }
-  return v;
-}
-
-}  // namespace
-
-PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& fit, int m) {
-  const std::size_t n = residual.size();
-  const double fs = fit.fs_hz, f0 = fit.fundamental.f0_hz;
-  if (m < 2) throw OptionError("samples_per_period", std::to_string(m), "must be >= 2");
-  // The record's N sample intervals span N·f0/fs periods; the grid holds the whole ones. Its
-  // last point may lie up to one sample interval past the last sample, where the residual is
-  // interpolated one-sidedly (the model part is exact everywhere).
-  // (1e-3 period of slack: a capture of exactly one period whose fitted f0 is a hair low.)
-  const double cycles = static_cast<double>(n) * f0 / fs;
-  const int periods = static_cast<int>(std::floor(cycles + 1e-3));
-  if (periods < 1)
-    throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
-                        " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");
-  // Bounded before allocation (issue 11, class 5): the grid (P·M doubles), one period's model
-  // and the per-period transforms of period_spectra (M complex values), counted as four doubles
-  // per grid sample, a margin for what the caller derives from the grid.
-  const double grid_bytes = 4.0 * 8.0 * static_cast<double>(m) * static_cast<double>(periods);
-  if (const auto over = over_memory_budget(grid_bytes))
-    throw OptionError("samples_per_period", std::to_string(m),
-                      "the locked grid of " + std::to_string(periods) + " periods × " + std::to_string(m) +
-                          " samples needs " + *over);
-  PeriodGrid g;
-  g.f0_hz = f0;
-  g.samples_per_period = m;
-  g.periods = periods;
-  g.start_s = fit.t0_s;
-  g.source_rate_hz = fs;
-  const auto M = static_cast<std::size_t>(m);
-  std::vector<double> model(M);
-  for (std::size_t k = 0; k < M; ++k)
-    model[k] = model_at(fit, fit.t0_s + static_cast<double>(k) / (m * f0));
-  const std::size_t total = M * static_cast<std::size_t>(periods);
-  g.samples.resize(total);
-  constexpr int L = kKernelHalfWidth;
-  const double* table = kernel_table().t.data();
-  const double ratio = fs / (m * f0);  // input samples per grid sample
-  const auto last = static_cast<long>(n) - 1;
-  for (std::size_t idx = 0; idx < total; ++idx) {
-    const double u = static_cast<double>(idx) * ratio;
-    const double fl = std::floor(u);
-    const auto i0 = static_cast<long>(fl);
-    const double qpos = (u - fl) * kKernelPhases;
-    const int q = std::min(static_cast<int>(qpos), kKernelPhases - 1);
-    const double alpha = qpos - q;
-    const double* t0 = table + static_cast<std::size_t>(q) * 2 * L;
-    const double* t1 = t0 + 2 * L;
-    double s = 0;
-    if (i0 - L + 1 >= 0 && i0 + L <= last) {
-      const double* r = residual.data() + (i0 - L + 1);
-      // Four partial sums: the taps' additions are independent, not one latency-bound chain.
-      double p0 = 0, p1 = 0, p2 = 0, p3 = 0;
-      for (int tap = 0; tap < 2 * L; tap += 4) {
-        p0 += (t0[tap] + alpha * (t1[tap] - t0[tap])) * r[tap];
-        p1 += (t0[tap + 1] + alpha * (t1[tap + 1] - t0[tap + 1])) * r[tap + 1];
-        p2 += (t0[tap + 2] + alpha * (t1[tap + 2] - t0[tap + 2])) * r[tap + 2];
-        p3 += (t0[tap + 3] + alpha * (t1[tap + 3] - t0[tap + 3])) * r[tap + 3];
-      }
-      s = (p0 + p1) + (p2 + p3);
-    } else {
-      for (int tap = 0; tap < 2 * L; ++tap) {
-        const long i = i0 - L + 1 + tap;
-        if (i < 0 || i > last) continue;
-        s += (t0[tap] + alpha * (t1[tap] - t0[tap])) * residual[static_cast<std::size_t>(i)];
-      }
-    }
-    g.samples[idx] = model[idx % M] + s;
-  }
-  return g;
-}
 
 PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t0_s, double f0_hz,
                                int samples_per_period) {
@@ -1040,89 +904,6 @@ PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t
   }
   fit.fundamental.f0_hz = f0_hz;
   return resample_fitted(fit_residual(x, fit), fit, samples_per_period);
-}
-
-PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic) {
-  return period_spectra(grid, max_harmonic, true);
-}
-
-PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic, bool with_noise_bins) {
-  const int m = grid.samples_per_period, p = grid.periods;
-  assert(grid.samples.size() == static_cast<std::size_t>(m) * static_cast<std::size_t>(p));
-  if (max_harmonic < 0 || max_harmonic > m / 2)
-    throw OptionError("max_harmonic", std::to_string(max_harmonic),
-                      "must be between 0 and samples_per_period/2 = " + std::to_string(m / 2));
-  const auto M = static_cast<std::size_t>(m), P = static_cast<std::size_t>(p);
-  const auto H = static_cast<std::size_t>(max_harmonic);
-  PeriodSpectra s;
-  s.f0_hz = grid.f0_hz;
-  s.periods = p;
-  s.samples_per_period = m;
-  s.max_harmonic = max_harmonic;
-  // Rotation from the grid's start to the file's time origin: X_n·e^{−j·n·ω0·start}.
-  std::vector<std::complex<double>> rot(H + 1);
-  for (std::size_t k = 0; k <= H; ++k) {
-    const double cycles = static_cast<double>(k) * grid.f0_hz * grid.start_s;
-    rot[k] = std::polar(1.0, -kTwoPi * (cycles - std::floor(cycles)));
-  }
-  // Peak-amplitude scaling: 2/M for a cosine pair, 1/M for dc and the Nyquist bin.
-  auto scale = [](std::size_t k, std::size_t len) {
-    return (k == 0 || 2 * k == len) ? 1.0 / static_cast<double>(len) : 2.0 / static_cast<double>(len);
-  };
-  std::vector<std::complex<double>> spec(M / 2 + 1);
-  s.per_period.assign(P, std::vector<std::complex<double>>(H + 1));
-  s.mean.assign(H + 1, {0, 0});
-  for (std::size_t q = 0; q < P; ++q) {
-    real_dft(std::span<const double>(grid.samples.data() + q * M, M), spec);
-    for (std::size_t k = 0; k <= H; ++k) {
-      std::complex<double> v = spec[k] * scale(k, M) * rot[k];
-      if (k == 0 || 2 * k == M) v = {v.real(), 0.0};  // dc (and Nyquist) are real cosines
-      s.per_period[q][k] = v;
-      s.mean[k] += v / static_cast<double>(P);
-    }
-  }
-  // Noise bins: the full-record spectrum's bins between harmonics (not multiples of P), below
-  // 0.45 of the source's rate (above it the interpolation kernel has filtered the noise out).
-  s.noise_bin_variance.assign(H + 1, 0.0);
-  s.noise_bin_dof = 0;
-  if (p >= 2 && with_noise_bins) {
-    const std::size_t total = M * P;
-    std::vector<std::complex<double>> full(total / 2 + 1);
-    real_dft(grid.samples, full);
-    const double limit_hz = grid.source_rate_hz > 0 ? kBandFraction * grid.source_rate_hz
-                                                    : 0.5 * m * grid.f0_hz;
-    const auto kmax = std::min<std::size_t>(total / 2 - 1,
-        static_cast<std::size_t>(std::floor(limit_hz / grid.f0_hz * static_cast<double>(P))));
-    constexpr std::size_t kWantBins = 32;  // ≥ 64 real dof: coverage of ±1.96u within ~0.5 %
-    int min_dof = std::numeric_limits<int>::max();
-    for (std::size_t k = 0; k <= H; ++k) {
-      const std::size_t centre = k * P;
-      double sum = 0;
-      std::size_t count = 0;
-      for (std::size_t w = 1; count < kWantBins && w <= total / 2; ++w) {
-        bool any = false;
-        for (long sign : {-1L, 1L}) {
-          const long bin = static_cast<long>(centre) + sign * static_cast<long>(w);
-          if (bin < 1 || static_cast<std::size_t>(bin) > kmax) continue;
-          any = true;
-          if (static_cast<std::size_t>(bin) % P == 0) continue;
-          sum += std::norm(full[static_cast<std::size_t>(bin)]);
-          ++count;
-        }
-        if (!any && w > centre + kmax) break;
-      }
-      if (count == 0) {
-        min_dof = 0;
-        continue;
-      }
-      const double sc = (k == 0 ? 1.0 : 2.0) / static_cast<double>(total);
-      s.noise_bin_variance[k] = sc * sc * sum / static_cast<double>(count);
-      min_dof = std::min(min_dof, static_cast<int>(2 * count));
-    }
-    s.noise_bin_dof = min_dof == std::numeric_limits<int>::max() ? 0 : min_dof;
-    if (s.noise_bin_dof == 0) std::fill(s.noise_bin_variance.begin(), s.noise_bin_variance.end(), 0.0);
-  }
-  return s;
 }
 
 }  // namespace periodfit::dsp
