@@ -122,7 +122,7 @@ TEST_CASE("cli analyze: --json - writes the documented fields, thd as a ratio") 
       "samples_per_period", "dc", "dc_u", "rms", "peak", "crest_factor", "thd", "thd_r",
       "thd_above_noise", "thd_upper", "thd_n", "sinad_db", "snr_db", "enob_bits", "full_scale_range",
       "enob_note", "nad_rms", "noise_rms", "noise_floor", "noise_floor_dbc", "noise_method", "noise_dof",
-      "period_scatter_ratio", "quantisation_step", "f0_free_hz", "f0_free_u_hz", "fit", "drift", "baseline",
+      "period_scatter_ratio", "quantisation_step", "f0_free_hz", "f0_free_u_hz", "fit", "harmonic_selection", "drift", "baseline",
       "residual_lines", "flags", "warnings", "harmonics"};
   CHECK(keys == expected);
   CHECK(c["name"] == "v_out");

@@ -99,7 +99,10 @@ TEST_CASE("cli frf: report with header, FRF table, linearity and flags") {
   CHECK(l[0] == "input   " + dir.file("rc.csv") + " \"v_in\" [V]");
   CHECK(l[1] == "output  " + dir.file("rc.csv") + " \"v_out\" [V]");
   CHECK(l[2].substr(0, 8) == "f0      ");
-  CHECK(l[3] == "grid    12 periods × 400 samples, harmonics 1…31");
+  // The square wave's odd harmonics stand out of the noise well above the 31 asked for
+  // (4/(nπ) through the RC, σ = 1e-3): the selection says so, and harmonics-truncated is raised.
+  CHECK(l[3].rfind("grid    12 periods × 400 samples, harmonics 1…31 (given; Holm F test at α = 0.01 (per-period "
+                   "noise) over harmonics 1…179: ", 0) == 0);
   CHECK(l[4] == "frf     per-period-covariance, dof 11, 95 % intervals with k = 2.201 (student-t)");  // t_{0.975,11} = 2.201 (Student-t table)
   CHECK(l[5] == "");
   CHECK(l[6] == "frequency response [V/V]");
@@ -116,7 +119,7 @@ TEST_CASE("cli frf: report with header, FRF table, linearity and flags") {
   // F(2, 22) quantile at 1 − 0.001/15 (Bonferroni over 15 tested harmonics) = 15.37 → 11.9 dB
   // (scipy.stats.f.isf(0.001/15, 2, 22) = 15.366, 10·log10 = 11.87).
   CHECK(l[26] == "linearity: linear (15 unexcited harmonics tested, threshold 11.9 dB above the output noise floor)");
-  CHECK(l.back() == "flags: none");
+  CHECK(l.back() == "flags: harmonics-truncated");
 }
 
 TEST_CASE("cli frf: --json - holds the documented keys; RC pole within 3 sigma and 1 %") {
@@ -131,7 +134,7 @@ TEST_CASE("cli frf: --json - holds the documented keys; RC pole within 3 sigma a
   std::vector<std::string> keys;
   for (const auto& [k, v] : j.items()) keys.push_back(k);
   CHECK(keys == std::vector<std::string>{"f0_hz", "f0_u_hz", "f0_method", "status", "input", "output", "h_unit",
-                                         "sample_rate_hz", "periods", "samples_per_period", "max_harmonic", "skew_s",
+                                         "sample_rate_hz", "periods", "samples_per_period", "harmonic_selection", "max_harmonic", "skew_s",
                                          "frf_method", "frf_dof", "confidence", "coverage_factor", "quantile", "frf",
                                          "linearity", "model", "flags"});
   REQUIRE(j["frf"].size() == 16);  // only excited harmonics: the odd ones

@@ -74,7 +74,11 @@ TEST_CASE("harmonics: half-wave rectified sine has dc A/π, fundamental A/2, eve
     return v;
   };
   const std::size_t n = static_cast<std::size_t>(std::round(3.37 * fs / f0));  // 3.37 periods
-  const auto a = dsp::analyze_channel(sample("hw", n, fs, t0, f), fs, t0);
+  // The table up to `top` is asked for: the automatic count stops at the highest non-zero
+  // line, 34, and harmonic 35 is checked to be 0 too.
+  dsp::AnalyzeOptions options;
+  options.lock.max_harmonic = top;
+  const auto a = dsp::analyze_channel(sample("hw", n, fs, t0, f), fs, t0, options);
   CHECK(std::abs(a.fundamental.f0_hz / f0 - 1) < kExactF0RelTol);
   CHECK(a.harmonics.size() == static_cast<std::size_t>(top));
   CHECK(std::abs(a.dc - A / pi) < kExactAmplitudeTol * A);
@@ -101,7 +105,9 @@ TEST_CASE("harmonics: square wave has odd harmonics 4A/(n pi)") {
     for (int n = 1; n <= top; n += 2) v += 4 * A / (n * pi) * std::sin(2 * pi * n * f0 * (t - tau));
     return v;
   };
-  const auto a = dsp::analyze_channel(sample("sq", 150, fs, 0, f), fs, 0);  // 3.64 periods
+  dsp::AnalyzeOptions options;  // up to `top` (even, so 0): the automatic count stops at 17
+  options.lock.max_harmonic = top;
+  const auto a = dsp::analyze_channel(sample("sq", 150, fs, 0, f), fs, 0, options);  // 3.64 periods
   CHECK(std::abs(a.fundamental.f0_hz / f0 - 1) < kExactF0RelTol);
   for (int k = 1; k <= top; ++k) {
     INFO("harmonic " << k);
@@ -125,8 +131,11 @@ TEST_CASE("harmonics: ideally sampled triangle has odd harmonics 8A/(pi^2 n^2)")
   constexpr double kAliasTol = 1e-4;
   auto f = [&](double t) { return 2 * A / pi * std::asin(std::sin(2 * pi * f0 * (t - tau))); };
   const auto n = static_cast<std::size_t>(3.37 * 16000);
-  const auto a = dsp::analyze_channel(sample("tri", n, fs, 0, f), fs, 0);
+  dsp::AnalyzeOptions options;  // 50 asked for (the automatic count finds ~2000 lines here)
+  options.lock.max_harmonic = 50;
+  const auto a = dsp::analyze_channel(sample("tri", n, fs, 0, f), fs, 0, options);
   CHECK(a.harmonics.size() == 50u);
+  CHECK(a.has_flag("harmonics-truncated"));
   for (int k = 1; k <= 15; ++k) {
     INFO("harmonic " << k);
     const double expected = k % 2 == 1 ? 8 * A / (pi * pi * k * k) : 0.0;
@@ -197,7 +206,9 @@ TEST_CASE("harmonics: white-noise uncertainty of the fundamental is sigma*sqrt(2
   const auto noise = gaussian(n, sigma, 11);
   std::size_t i = 0;
   const Channel c = sample("x", n, fs, 0, [&](double t) { return std::cos(2 * pi * f0 * t) + noise[i++]; });
-  const auto a = dsp::analyze_channel(c, fs, 0);
+  dsp::AnalyzeOptions options;  // harmonic 3 (noise only) is asked for: automatic would stop at 1
+  options.lock.max_harmonic = 3;
+  const auto a = dsp::analyze_channel(c, fs, 0, options);
   CHECK(a.noise_method == "per-period");
   CHECK(a.noise_dof == a.whole_periods - 1);
   const double expected = sigma * std::sqrt(2.0 / static_cast<double>(n));

@@ -149,7 +149,7 @@ void check_root(const ident::Root& p, cd ref) {
 /// stage is given the fundamental's neighbourhood (f0_hint), as a user of --f0-hint would.
 ident::IdentifyOptions options(const std::string& order = "", double f0_hint_hz = kF0) {
   ident::IdentifyOptions o;
-  o.f0_hint_hz = f0_hint_hz;
+  o.lock.f0_hint_hz = f0_hint_hz;
   o.input_channel = "v_in";
   o.output_channel = "v_out";
   o.order = order;
@@ -175,7 +175,7 @@ TEST_CASE("frf: RC low-pass under a square wave recovers the pole -1/tau (60 dB 
   const double sigma_u = rms(x0) * 1e-3, sigma_y = rms(y0) * 1e-3;  // 60 dB SNR on each channel
   const auto capture = two_channel(synthesise(u, sigma_u, rng), synthesise(times(u, h), sigma_y, rng));
   auto o = options("0/1", 0);
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   const auto r = ident::identify(capture, o);
   CHECK(r.fundamental.f0_hz == doctest::Approx(kF0).epsilon(1e-6));
   REQUIRE(r.frf.points.size() == 16);  // odd harmonics 1…31 only
@@ -204,7 +204,7 @@ TEST_CASE("frf: RC low-pass under a half-wave rectified sine") {
   std::mt19937_64 rng(22);
   const auto capture = two_channel(synthesise(u, 1e-4, rng), synthesise(times(u, h), 1e-4, rng));
   auto o = options("0/1", 0);
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   const auto r = ident::identify(capture, o);
   std::vector<int> ns;
   for (const auto& p : r.frf.points) ns.push_back(p.n);
@@ -232,7 +232,7 @@ TEST_CASE("frf: second-order low-pass against scipy.signal.freqs and numpy.roots
   const auto y0 = synthesise(times(u, ref->h), 0, rng);
   const auto capture = two_channel(synthesise(u, rms(x0) * 1e-3, rng), synthesise(times(u, ref->h), rms(y0) * 1e-3, rng));
   auto o = options("0/2");
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   const auto r = ident::identify(capture, o);
   CHECK(r.frf.points.size() == kH);
   check_frf(r, ref->h);
@@ -265,7 +265,7 @@ TEST_CASE("frf: second-order band-pass against scipy.signal.freqs and numpy.root
   const auto y0 = synthesise(times(u, ref->h), 0, rng);
   const auto capture = two_channel(synthesise(u, rms(x0) * 1e-3, rng), synthesise(times(u, ref->h), rms(y0) * 1e-3, rng));
   auto o = options("1/2");
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   const auto r = ident::identify(capture, o);
   check_frf(r, ref->h);
   REQUIRE(r.model.has_value());
@@ -291,7 +291,7 @@ TEST_CASE("frf: a known delay is recovered with --delay") {
   const auto y0 = synthesise(times(u, h), 0, rng);
   const auto capture = two_channel(synthesise(u, rms(x0) * 1e-3, rng), synthesise(times(u, h), rms(y0) * 1e-3, rng));
   auto o = options("0/1");
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   o.estimate_delay = true;
   const auto r = ident::identify(capture, o);
   check_frf(r, h);
@@ -320,7 +320,7 @@ TEST_CASE("frf: skew of the output path is removed as a phase correction") {
   std::mt19937_64 rng(26);
   const auto capture = two_channel(synthesise(u, 1e-4, rng), synthesise(times(u, h_rec), 1e-4, rng));
   auto o = options();
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   o.frf.skew_s = skew;
   const auto r = ident::identify(capture, o);
   check_frf(r, h);
@@ -337,7 +337,7 @@ TEST_CASE("frf: y = v + 0.05 v^2 behind a low-pass is flagged nonlinear, the lin
   for (int n = 1; n <= kH; ++n) h[std::size_t(n)] = 1.0 / cd(1, n * 2 * kPi * kF0 * tau);
   std::mt19937_64 rng(27);
   auto o = options();
-  o.max_harmonic = kH;
+  o.lock.max_harmonic = kH;
   const auto x = synthesise(u, 1e-4, rng);
   const auto linear = ident::identify(two_channel(x, synthesise(times(u, h), 1e-4, rng)), o);
   CHECK(linear.linearity.status == "linear");
@@ -394,7 +394,7 @@ TEST_CASE("frf: bad inputs are errors with whole messages") {
                          UnknownNameError);
   }
   SUBCASE("input without a periodic component") {
-    o.f0_hint_hz = 0;
+    o.lock.f0_hint_hz = 0;
     CHECK_THROWS_WITH_AS(ident::identify(two_channel(std::vector<double>(x.size(), 0.5), x, "dc.csv"), o),
                          "dc.csv: input channel \"v_in\": no periodic component: every sample equals 0.5 (dc only)",
                          AnalysisError);
@@ -449,7 +449,7 @@ TEST_CASE("frf: the chi-square verdict accepts the true order and rejects a too-
     const auto capture =
         two_channel(synthesise(u, rms(x0) * 1e-3, rng), synthesise(times(u, ref->h), rms(y0) * 1e-3, rng));
     auto o = options("0/2");
-    o.max_harmonic = kH;
+    o.lock.max_harmonic = kH;
     adequate += ident::identify(capture, o).model->adequate;
     o.order = "0/1";
     const auto low = ident::identify(capture, o);
@@ -482,7 +482,7 @@ TEST_CASE("frf: --order auto picks the second-order model for a second-order DUT
     const auto capture =
         two_channel(synthesise(u, rms(x0) * 1e-3, rng), synthesise(times(u, h), rms(y0) * 1e-3, rng));
     auto o = options("auto");
-    o.max_harmonic = kH;
+    o.lock.max_harmonic = kH;
     const auto r = ident::identify(capture, o);
     REQUIRE(r.model.has_value());
     REQUIRE(r.model->order_trials.size() >= 3);
@@ -503,11 +503,15 @@ TEST_CASE("frf: --order auto picks the second-order model for a second-order DUT
 TEST_CASE("frf: default options are valid; invalid ones name field, value and constraint") {
   CHECK_NOTHROW(ident::IdentifyOptions{}.validate());
   ident::IdentifyOptions o;
-  o.max_harmonic = -1;
-  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: max_harmonic = -1 (must be >= 0 (0 = automatic))", OptionError);
+  o.lock.max_harmonic = -1;
+  // The fundamental's options are dsp::LockOptions, checked by dsp::validate (period_lock_test).
+  CHECK_THROWS_WITH_AS(o.validate(),
+                       "invalid option: max_harmonic = -1 (must be between 0 (automatic) and 2000 (fit time grows as "
+                       "H³; dsp/period_lock.hpp))",
+                       OptionError);
   o = {};
-  o.f0_hz = -5;
-  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: f0_hz = -5 (must be finite and >= 0 (0 = estimate))", OptionError);
+  o.lock.f0_hz = -5;
+  CHECK_THROWS_WITH_AS(o.validate(), "invalid option: f0_hz = -5 (must be >= 0; 0 = estimate)", OptionError);
 }
 
 // Issue 11, class 8: an output without a response at the excited lines is refused in plain

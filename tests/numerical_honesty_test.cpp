@@ -358,7 +358,7 @@ TEST_CASE("honesty: frf results are invariant to the channels' units from 1e-160
   periodfit::ident::IdentifyOptions o;
   o.input_channel = "u";
   o.output_channel = "y";
-  o.max_harmonic = 4;
+  o.lock.max_harmonic = 4;
   const auto identify = [&](double su, double sy) {
     periodfit::Capture c;
     c.source = "scaled.csv";

@@ -343,18 +343,23 @@ TEST_CASE("signal honesty: 997 Hz with 50 Hz hum at 10 mV locks on 997 Hz and re
   CHECK(std::abs(20 * std::log10(hum.amplitude / a.harmonics[0].amplitude) + 40) < 0.2);
 }
 
-TEST_CASE("signal honesty: two incommensurate tones and an amplitude-modulated tone are flagged not-periodic") {
+TEST_CASE("signal honesty: two incommensurate tones and an amplitude-modulated tone lock the strongest tone and name the other lines") {
   const Channel two = make_channel(
       [](double t) { return std::cos(2 * pi * 100 * t) + std::cos(2 * pi * 141.42 * t + 1); }, 1e-4, 41);
   const Channel am = make_channel(
       [](double t) { return (1 + 0.5 * std::cos(2 * pi * 3 * t)) * std::cos(2 * pi * 100 * t); }, 1e-4, 42);
+  // Issue 12, items 8/10: no sub-multiple lock (3.449 Hz, 3.03 Hz before): the strongest tone is
+  // locked (either of the two equal ones; 100 Hz for AM, its carrier) and the unexplained line is
+  // named. Equal tones leave half the line power unexplained: not-periodic; the AM sidebands at
+  // −12 dBc each (20·log10(0.25)) carry 6 % of it, under kNotPeriodicShare: interference.
+  constexpr double kToneTolHz = 1e-2;  // ≫ u(f0) (~1e-3 Hz with the other tone as noise), ≪ any f/m shift
   for (const Channel* c : {&two, &am}) {
-    try {
-      const auto a = dsp::analyze_channel(*c, kFs, 0);
-      INFO("f0 " << a.fundamental.f0_hz << "\n" << flag_list(a));
-      CHECK(a.has_flag("not-periodic"));
-    } catch (const AnalysisError& e) {
-      MESSAGE("refused: " << e.what());  // a refusal is also an honest answer
-    }
+    const auto a = dsp::analyze_channel(*c, kFs, 0);
+    INFO("f0 " << a.fundamental.f0_hz << "\n" << flag_list(a));
+    const double f0 = a.fundamental.f0_hz;
+    CHECK((std::abs(f0 - 100) < kToneTolHz || std::abs(f0 - 141.42) < kToneTolHz));
+    CHECK((a.has_flag("not-periodic") || a.has_flag("interference")));
+    REQUIRE_FALSE(a.residual_lines.lines.empty());
   }
+  CHECK(dsp::analyze_channel(two, kFs, 0).has_flag("not-periodic"));
 }

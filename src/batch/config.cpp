@@ -199,11 +199,11 @@ class Loader {
     if (const auto* n = only("delay", true)) c.identify.estimate_delay = boolean(*n, "delay");
     if (const auto* n = only("skew_s", true)) c.identify.frf.skew_s = number(*n, "skew_s");
     if (const auto* n = only("min_snr_db", true)) c.identify.frf.min_snr_db = number(*n, "min_snr_db");
-    if (const auto* n = t.get("f0_hz")) c.analyze.f0_hz = c.identify.f0_hz = number(*n, "f0_hz");
+    if (const auto* n = t.get("f0_hz")) c.analyze.lock.f0_hz = c.identify.lock.f0_hz = number(*n, "f0_hz");
     if (const auto* n = t.get("f0_hint_hz"))
-      c.analyze.f0_hint_hz = c.identify.f0_hint_hz = number(*n, "f0_hint_hz");
+      c.analyze.lock.f0_hint_hz = c.identify.lock.f0_hint_hz = number(*n, "f0_hint_hz");
     if (const auto* n = t.get("harmonics"))
-      c.analyze.harmonics = c.identify.max_harmonic = integer(*n, "harmonics");
+      c.analyze.lock.max_harmonic = c.identify.lock.max_harmonic = integer(*n, "harmonics");
     checked(t, [&] {
       if (identify)
         c.identify.validate();
@@ -339,12 +339,12 @@ AnalysisMode parse_mode(std::string_view text, std::string_view field) {
 }
 
 void AnalyzeSettings::validate() const {
-  if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be >= 0 (0 = estimate)");
-  if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be >= 0 (0 = none)");
-  if (harmonics < 0)
-    throw OptionError("harmonics", std::to_string(harmonics), "must be >= 0 (0 = automatic)");
+  if (!(lock.f0_hz >= 0) || !std::isfinite(lock.f0_hz))
+    throw OptionError("f0_hz", io::format_shortest(lock.f0_hz), "must be >= 0 (0 = estimate)");
+  if (!(lock.f0_hint_hz >= 0) || !std::isfinite(lock.f0_hint_hz))
+    throw OptionError("f0_hint_hz", io::format_shortest(lock.f0_hint_hz), "must be >= 0 (0 = none)");
+  if (lock.max_harmonic < 0)
+    throw OptionError("harmonics", std::to_string(lock.max_harmonic), "must be >= 0 (0 = automatic)");
   for (const auto& c : channels)
     if (c.empty()) throw OptionError("channels", "\"\"", "channel names must not be empty");
 }

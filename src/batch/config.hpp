@@ -34,9 +34,9 @@ AnalysisMode parse_mode(std::string_view text, std::string_view field = "mode");
 /// Settings of analyze mode (one result per channel).
 struct AnalyzeSettings {
   std::vector<std::string> channels;  ///< channel names or 0-based indices; empty = all data channels
-  double f0_hz = 0;       ///< > 0: use exactly this fundamental; 0 = estimate
-  double f0_hint_hz = 0;  ///< > 0: search the fundamental near this value
-  int harmonics = 0;      ///< highest harmonic; 0 = all below 0.45·fs, at most 50
+  /// f0_hz, f0_hint_hz and max_harmonic (the `harmonics` key; 0 = the automatic count): the
+  /// options struct analyze and frf share (dsp/period_lock.hpp); set together with identify.lock.
+  dsp::LockOptions lock;
   void validate() const;  ///< throws OptionError naming the field
 };
 

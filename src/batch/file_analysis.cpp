@@ -244,9 +244,7 @@ void measure_channel(const dsp::ChannelAnalysis& c, const std::string& channel, 
 
 FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config) {
   dsp::AnalyzeOptions options;
-  options.lock.f0_hz = config.analyze.f0_hz;
-  options.lock.f0_hint_hz = config.analyze.f0_hint_hz;
-  options.lock.max_harmonic = config.analyze.harmonics;
+  options.lock = config.analyze.lock;
   const dsp::AnalyzeReport report = dsp::analyze_capture(capture, config.analyze.channels, options);
   FileAnalysis a;
   for (std::size_t i = 0; i < report.channels.size(); ++i) {
@@ -349,13 +347,13 @@ std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const Ba
     rows.emplace_back("model order", o.order.empty() ? "none" : o.order);
     rows.emplace_back("delay", o.estimate_delay ? "estimated" : "none");
     rows.emplace_back("min SNR", io::format_shortest(o.frf.min_snr_db) + " dB");
-    f0(o.f0_hz, o.f0_hint_hz, o.max_harmonic);
+    f0(o.lock.f0_hz, o.lock.f0_hint_hz, o.lock.max_harmonic);
   } else {
     const auto& o = config.analyze;
     std::string channels;
     for (const auto& c : o.channels) channels += (channels.empty() ? "" : ", ") + c;
     rows.emplace_back("channels", channels.empty() ? "all" : channels);
-    f0(o.f0_hz, o.f0_hint_hz, o.harmonics);
+    f0(o.lock.f0_hz, o.lock.f0_hint_hz, o.lock.max_harmonic);
   }
   return rows;
 }

@@ -82,15 +82,18 @@ double parse_full_scale(std::string_view text, std::string_view option) {
                                                   "MIN < MAX (e.g. -1:1), found \"" + std::string(text) + "\"");
 }
 
-FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
-                                           std::string_view estimated_on) {
+FundamentalOptions add_fundamental_options(CLI::App& app, dsp::LockOptions& lock, std::string_view estimated_on) {
+  double& f0_hz = lock.f0_hz;
+  double& f0_hint_hz = lock.f0_hint_hz;
+  int& max_harmonic = lock.max_harmonic;
   FundamentalOptions o;
   const std::string on = estimated_on.empty() ? "" : " on " + std::string(estimated_on);
   o.f0 = add_frequency_option(app, "--f0", f0_hz, "use exactly this fundamental in Hz, e.g. 1k (0 = estimate it" + on + ")");
   o.f0_hint = add_frequency_option(app, "--f0-hint", f0_hint_hz,
                                    "search for the fundamental within 20 % either side of this frequency in Hz (0 = anywhere)");
   o.harmonics = app.add_option("--harmonics", max_harmonic,
-                               "highest harmonic to fit and report (0 = all below 0.45·fs, at most 50)")
+                               "highest harmonic to fit and report (0 = automatic: every harmonic below 0.45·fs that stands out of "
+                               "its local noise; a given N flags significant harmonics above it)")
                     ->capture_default_str()
                     ->type_name("N");
   return o;

@@ -11,6 +11,7 @@
 #include <utility>
 #include <vector>
 
+#include "dsp/period_lock.hpp"
 #include "io/capture_reader.hpp"
 
 namespace periodfit::cli {
@@ -29,8 +30,7 @@ struct FundamentalOptions {
 
 /// Declares --f0, --f0-hint and --harmonics. `estimated_on` names what f0 is estimated on when
 /// it differs per command (e.g. "the input"); empty = the channel analysed.
-FundamentalOptions add_fundamental_options(CLI::App& app, double& f0_hz, double& f0_hint_hz, int& max_harmonic,
-                                           std::string_view estimated_on = "");
+FundamentalOptions add_fundamental_options(CLI::App& app, dsp::LockOptions& lock, std::string_view estimated_on = "");
 
 /// An option taking a frequency in Hz or a time in seconds, read with SI prefixes and units by
 /// io::parse_quantity (the CSV preamble's reader): `--rate 1MHz`, `--f0 1.2k`, `--skew 12ns`.

@@ -39,7 +39,7 @@ Runner add_analyze(CLI::App& app) {
                  "channel to analyse: a name, or #N for the data channel at 0-based position N (repeatable; default: all)")
       ->type_name("CH")
       ->allow_extra_args(false);
-  add_fundamental_options(app, lock.f0_hz, lock.f0_hint_hz, lock.max_harmonic);
+  add_fundamental_options(app, lock);
   app.add_option("--samples-per-period", args->options.samples_per_period,
                  "samples per period of the locked grid (0 = automatic)")
       ->capture_default_str()

@@ -96,9 +96,9 @@ batch::BatchConfig settings(const BatchArgs& a) {
   if (a.delay->count()) c.identify.estimate_delay = f.identify.estimate_delay;
   if (a.min_snr->count()) c.identify.frf.min_snr_db = f.identify.frf.min_snr_db;
   if (a.skew->count()) c.identify.frf.skew_s = f.identify.frf.skew_s;
-  if (a.f0->count()) c.analyze.f0_hz = c.identify.f0_hz = f.analyze.f0_hz;
-  if (a.f0_hint->count()) c.analyze.f0_hint_hz = c.identify.f0_hint_hz = f.analyze.f0_hint_hz;
-  if (a.harmonics->count()) c.analyze.harmonics = c.identify.max_harmonic = f.analyze.harmonics;
+  if (a.f0->count()) c.analyze.lock.f0_hz = c.identify.lock.f0_hz = f.analyze.lock.f0_hz;
+  if (a.f0_hint->count()) c.analyze.lock.f0_hint_hz = c.identify.lock.f0_hint_hz = f.analyze.lock.f0_hint_hz;
+  if (a.harmonics->count()) c.analyze.lock.max_harmonic = c.identify.lock.max_harmonic = f.analyze.lock.max_harmonic;
   if (a.plots_option->count()) c.plots = batch::parse_plot_selection(a.plots, "--plots");
   if (!c.identify.order.empty() && c.identify.order != "auto")
     ident::parse_model_order(c.identify.order, "--order");
@@ -137,8 +137,7 @@ void add_setting_options(CLI::App& app, BatchArgs& a) {
                   ->type_name("DB");
   a.skew = add_duration_option(app, "--skew", a.flags.identify.frf.skew_s,
                                "frf: output path delay to remove in seconds, e.g. 12ns");
-  const FundamentalOptions fundamental = add_fundamental_options(
-      app, a.flags.analyze.f0_hz, a.flags.analyze.f0_hint_hz, a.flags.analyze.harmonics);
+  const FundamentalOptions fundamental = add_fundamental_options(app, a.flags.analyze.lock);
   a.f0 = fundamental.f0;
   a.f0_hint = fundamental.f0_hint;
   a.harmonics = fundamental.harmonics;

@@ -136,7 +136,7 @@ Runner add_frf(CLI::App& app) {
   add_duration_option(app, "--skew", a->options.frf.skew_s,
                       "extra delay of the output acquisition path in seconds (e.g. 12ns), removed as a phase "
                       "correction");
-  add_fundamental_options(app, a->options.f0_hz, a->options.f0_hint_hz, a->options.max_harmonic, "the input");
+  add_fundamental_options(app, a->options.lock, "the input");
   app.add_option("--min-snr", a->options.frf.min_snr_db,
                  "input power above the input noise floor, in dB, for a harmonic to count as excited")
       ->capture_default_str()

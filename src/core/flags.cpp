@@ -41,6 +41,10 @@ const std::vector<FlagInfo> kFlags = {
      "the periods repeat exactly (a coherent capture): period-to-period scatter cannot show the "
      "error, so the uncertainties come from the residual or the quantisation step (Δ/√12) over one "
      "period"},
+    {"harmonics-truncated", FlagSeverity::caution, "analyze, frf",
+     "significant harmonics lie above the count asked for (--harmonics): they count as noise in "
+     "SNR, THD+N and SINAD, f0 and its u rest on fewer lines, and the frf model's adequacy test "
+     "sees only the lines kept"},
     {"drift", FlagSeverity::caution, "analyze",
      "f0 differs between the halves of the record: the figures are averages over the record"},
     {"nonlinear", FlagSeverity::caution, "frf",

@@ -57,6 +57,37 @@ AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::str
   return r;
 }
 
+nlohmann::ordered_json harmonic_selection_json(const HarmonicSelection& s) {
+  nlohmann::ordered_json j;
+  j["count"] = s.count;
+  j["automatic"] = s.automatic;
+  j["rule"] = s.rule;
+  j["family_alpha"] = s.family_alpha > 0 ? io::json_number(s.family_alpha) : nlohmann::ordered_json(nullptr);
+  j["noise_basis"] = s.noise_basis;
+  j["highest_examined"] = s.highest_examined;
+  j["significant"] = s.significant;
+  j["highest_significant"] = s.highest_significant;
+  j["truncated_lines"] = s.truncated_lines;
+  j["truncated_dbc"] = s.truncated_lines > 0 ? io::json_number(s.truncated_dbc) : nlohmann::ordered_json(nullptr);
+  return j;
+}
+
+std::string harmonic_selection_text(const HarmonicSelection& s) {
+  std::string out;
+  const std::string range = "harmonics 1…" + std::to_string(s.highest_examined);
+  if (s.family_alpha > 0) {
+    const std::string test = "Holm F test at α = " + io::format_shortest(s.family_alpha) + " (" + s.noise_basis +
+                             " noise) over " + range + ": " + std::to_string(s.significant) + " significant" +
+                             (s.highest_significant > 0 ? ", highest " + std::to_string(s.highest_significant) : "");
+    out += s.automatic ? "automatic: " + test : "given; " + test;
+  } else {
+    out += s.automatic ? "automatic: under 2 whole periods, no local noise to test " + range +
+                             " against; all below 0.45·fs, at most 50"
+                       : "given";
+  }
+  return out;
+}
+
 nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   nlohmann::ordered_json j;
   j["name"] = c.name;
@@ -102,7 +133,9 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   fit["iterations"] = c.fundamental.iterations;
   fit["converged"] = c.fundamental.converged;
   fit["condition"] = io::json_number(c.fundamental.condition);
+  fit["f0_u_noise_factor"] = io::json_number(c.f0_u_noise_factor);
   j["fit"] = fit;
+  j["harmonic_selection"] = harmonic_selection_json(c.selection);
   nlohmann::ordered_json drift;
   const bool checked = c.f0_first_half_hz > 0;
   drift["checked"] = checked;
@@ -210,6 +243,7 @@ std::string analyze_text(const AnalyzeReport& r) {
     kv.emplace_back("periods", people(c.periods, 6) + " (" + std::to_string(c.whole_periods) +
                                    " locked, " + std::to_string(c.samples_per_period) +
                                    " samples per period)");
+    kv.emplace_back("harmonics", std::to_string(c.selection.count) + " (" + harmonic_selection_text(c.selection) + ")");
     kv.emplace_back("dc", io::format_with_u(c.dc, c.dc_u, c.unit));
     kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
     kv.emplace_back("THD", c.distortion.thd_above_noise

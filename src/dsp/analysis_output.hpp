@@ -30,6 +30,13 @@ struct AnalyzeReport {
 AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::string>& channels,
                               const AnalyzeOptions& options = {});
 
+/// How the harmonic count was chosen (docs/analyze-json.md, "harmonic_selection"); frf's JSON
+/// carries the same object.
+nlohmann::ordered_json harmonic_selection_json(const HarmonicSelection& selection);
+/// The same for people, one phrase: "automatic: Holm F test at α = 0.01 (per-period noise) over
+/// harmonics 1…451: 13 significant, highest 25".
+std::string harmonic_selection_text(const HarmonicSelection& selection);
+
 /// One channel's JSON object (keys in the documented order).
 nlohmann::ordered_json channel_json(const ChannelAnalysis& channel);
 /// The whole document: capture description, then "channels".

@@ -251,29 +251,31 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   out.unit = channel.unit;
   const std::span<const double> x(channel.samples);
   const std::size_t n = x.size();
-  HarmonicFit fit;
+  LockedChannel locked;
   try {
-    fit = fit_harmonics(x, fs, t0, options.lock);
+    locked = lock_channel(x, fs, t0, options.lock, options.samples_per_period);
   } catch (const AnalysisError& e) {
     throw AnalysisError("channel \"" + channel.name + "\": " + e.what());
   }
+  out.selection = locked.selection;
   double peak = 0;
   for (double v : x) peak = std::max(peak, std::abs(v));
   // Baseline drift (dsp/baseline.hpp): a significant trend is estimated from the residual, the
-  // harmonics are refitted on x − trend (f0 started where it was), and the trend of the new
-  // residual is added; the noise figures then exclude it.
-  out.baseline = fit_baseline_trend(fit.residual, fit.fundamental.dof, peak);
+  // channel is locked again on x − trend (f0 started where it was, H as chosen), and the trend
+  // of the new residual is added; the noise figures and the grid then exclude it.
+  out.baseline = fit_baseline_trend(locked.fit.residual, locked.fit.fundamental.dof, peak);
   if (out.baseline.significant && options.model_baseline) {
     std::vector<double> detrended(n);
     for (std::size_t k = 0; k < n; ++k) detrended[k] = x[k] - out.baseline.at(k, n);
     LockOptions again = options.lock;
+    again.max_harmonic = locked.fit.harmonics();
     if (again.f0_hz <= 0) {
       again.f0_hint_hz = 0;
-      again.f0_start_hz = fit.fundamental.f0_hz;
-      again.max_harmonic = fit.harmonics();
+      again.f0_start_hz = locked.fit.fundamental.f0_hz;
     }
     try {
-      HarmonicFit refit = fit_harmonics(detrended, fs, t0, again);
+      LockedChannel relocked = lock_channel(detrended, fs, t0, again, options.samples_per_period);
+      HarmonicFit& refit = relocked.fit;
       const BaselineTrend more = fit_baseline_trend(refit.residual, refit.fundamental.dof, peak);
       out.baseline.c1 += more.c1;
       out.baseline.c2 += more.c2;
@@ -284,8 +286,12 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
       refit.fundamental.dof -= 2;
       refit.sigma2 = ss / refit.fundamental.dof;
       refit.fundamental.residual_rms = std::sqrt(ss / static_cast<double>(n));
-      refit.fundamental.iterations += fit.fundamental.iterations;
-      fit = std::move(refit);
+      refit.fundamental.iterations += locked.fit.fundamental.iterations;
+      // The grid is the model plus the residual with the whole trend removed.
+      relocked.grid = resample_fitted(refit.residual, refit, relocked.grid.samples_per_period);
+      relocked.spectra = period_spectra(relocked.grid, refit.harmonics(), relocked.grid.periods < 4);
+      relocked.selection = locked.selection;
+      locked = std::move(relocked);
       out.baseline_modelled = true;
     } catch (const AnalysisError&) {
       // The detrended record has no clear fundamental: keep the first fit, trend in the noise.
@@ -302,23 +308,16 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
     out.baseline.peak_to_peak = hi - lo;
     out.baseline.power = ms / static_cast<double>(n);
   }
+  const HarmonicFit& fit = locked.fit;
+  const PeriodGrid& grid = locked.grid;
+  const PeriodSpectra& spectra = locked.spectra;
+  out.f0_u_noise_factor = locked.f0_u_noise_factor;
   const double f0 = fit.fundamental.f0_hz;
   const int h = fit.harmonics();
   out.fundamental = fit.fundamental;
   if (!fit.fundamental.converged) out.status = "not-converged";
   out.periods = static_cast<double>(n) * f0 / fs;
-
-  // Lock: fitted model at the grid times + interpolated residual.
-  const std::vector<double>& residual = fit.residual;
-  const int m = options.samples_per_period > 0 ? std::max(options.samples_per_period, 2 * h + 2)
-                                               : default_samples_per_period(fs, f0, h);
-  PeriodGrid grid;
-  try {
-    grid = resample_fitted(residual, fit, m);
-  } catch (const AnalysisError& e) {
-    throw AnalysisError("channel \"" + channel.name + "\": " + e.what());
-  }
-  const PeriodSpectra spectra = period_spectra(grid, h, grid.periods < 4);
+  const int m = grid.samples_per_period;
   out.whole_periods = grid.periods;
   out.samples_per_period = m;
   double sumsq = 0;
@@ -536,7 +535,7 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   bool top_band_harmonics = false;  // harmonics up near fs/2: aliased ones are to be expected
   for (const auto& line : out.harmonics)
     top_band_harmonics = top_band_harmonics || (line.significant && line.n >= 2 && line.freq_hz >= 0.375 * fs);
-  out.residual_lines = find_residual_lines(fit.residual, fs, f0, top_band_harmonics);
+  out.residual_lines = find_residual_lines(fit.residual, fs, f0, top_band_harmonics, h);
   {
     double amax = 0, harm_power = 0;
     for (double a : amplitudes) amax = std::max(amax, a);
@@ -587,6 +586,16 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
                                                "counted as noise in THD+N, SINAD and SNR"});
     }
   }
+  if (out.selection.truncated_lines > 0)
+    out.flags.push_back({"harmonics-truncated",
+                         std::to_string(out.selection.truncated_lines) + " significant harmonic" +
+                             (out.selection.truncated_lines > 1 ? "s" : "") + " above the " +
+                             std::to_string(h) + " asked for (up to " +
+                             std::to_string(out.selection.significant_harmonics.back()) + ", " +
+                             io::format_fixed(out.selection.truncated_dbc, 1) +
+                             " dBc in all) are left out: they count as noise in SNR, THD+N and SINAD, "
+                             "are missing from THD, and widen f0's uncertainty (leave --harmonics out "
+                             "to include every significant harmonic)"});
   if (clip.clipped)
     out.flags.push_back({"clipped", std::to_string(clip.count) + " samples (" + sig(100 * clip.share, 3) +
                                         " % of the record; a sine puts " + sig(100 * clip.expected_share, 2) +

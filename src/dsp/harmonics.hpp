@@ -89,6 +89,8 @@ struct ChannelAnalysis {
   std::string unit;
   std::string status = "ok";    ///< "ok", or "not-converged" (the fit hit its iteration cap)
   Fundamental fundamental;      ///< f0, f0_u, method, dof, iterations, condition
+  HarmonicSelection selection;  ///< how the harmonic count was chosen (period_lock.hpp)
+  double f0_u_noise_factor = 1; ///< u(f0) over its white-noise value (local noise per harmonic)
   double periods = 0;           ///< the record's length in periods, N·f0/fs (fractional)
   int whole_periods = 0;        ///< P: periods on the locked grid
   int samples_per_period = 0;   ///< M of the locked grid

@@ -1,5 +1,6 @@
-// Fundamental estimation, the multi-harmonic sine fit, locking onto whole periods and the
-// per-period spectra. Method and sources: see period_lock.hpp.
+// Fundamental estimation and the multi-harmonic sine fit (the resampling onto whole periods is
+// in period_resample.cpp, the per-period spectra in period_spectra.cpp). Method and sources:
+// see period_lock.hpp.
 #include "dsp/period_lock.hpp"
 
 #include <Eigen/Dense>
@@ -15,7 +16,6 @@
 #include <vector>
 
 #include "core/error.hpp"
-#include "core/memory_budget.hpp"
 #include "dsp/fft_plan.hpp"
 #include "io/number_format.hpp"
 
@@ -24,14 +24,15 @@ namespace {
 
 constexpr double kPi = std::numbers::pi;
 constexpr double kTwoPi = 2 * std::numbers::pi;
-/// Highest harmonic frequency used by default, as a fraction of fs (room for the
-/// anti-aliasing filter's transition band of a real acquisition; common practice).
-constexpr double kDefaultBandFraction = 0.45;
 /// Default cap on H (the issue's "at most 50").
 constexpr int kDefaultMaxHarmonic = 50;
 /// Harmonics fitted by the standalone resampler are capped: beyond that the residual kernel
 /// carries them (ripple ≲ 1e-3), and the Cholesky of the Gram matrix stays cheap.
 constexpr int kResampleMaxHarmonic = 1000;
+/// The coarse search's local noise floor: the median of the bins within this many record bins
+/// of a candidate line, its own ±kLocalGuardBins (the Hann main lobe is ±2 bins) left out.
+constexpr double kLocalFloorBins = 32;
+constexpr double kLocalGuardBins = 4;
 /// Records shorter than this many periods get the 0.02-bin grid search after the FFT peak.
 constexpr double kShortRecordPeriods = 12;
 /// Records longer than twice this are first located on a prefix of this many samples.
@@ -41,12 +42,6 @@ constexpr double kLongRecordPeriods = 200;
 /// Samples between exact sin/cos restarts of the rotation recurrence (error ≲ 512·ε).
 constexpr std::size_t kRotationBlock = 512;  // kBlock in harmonic_kernel.inc
 
-// Residual interpolation kernel: Kaiser-windowed sinc (Kaiser 1974; Oppenheim & Schafer,
-// Discrete-Time Signal Processing, §7.5.3 design formulas: β = 6 gives ≈ 63 dB stop-band
-// attenuation; with 32 taps the transition band is ≈ 0.12·fs wide around fs/2).
-constexpr int kKernelHalfWidth = 16;
-constexpr double kKaiserBeta = 6.0;
-constexpr int kKernelPhases = 1024;  ///< table resolution in fractional delay (linear interp)
 
 std::string str(double v) { return io::format_shortest(v); }
 
@@ -407,10 +402,32 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
     double power;
   };
   std::vector<Peak> candidates;
+  // Local noise floor (issue 12: under 1/f or low-pass noise the noise hump's maxima passed the
+  // record-wide median test and formed a comb at f0/4 … f0/20): a line must also stand
+  // T_loc times above the median of the bins within ±kLocalFloorBins record bins of it (its own
+  // ±kLocalGuardBins excluded). A Hann periodogram's noise bins are exponential, median = ln 2 ×
+  // mean, so with T_loc = ln(M/0.01)/ln 2 over the M = N/2 record bins the chance of a noise
+  // maximum passing anywhere in a noise-only record is about 0.01 (Bonferroni).
+  const double t_local = std::max(25.0, std::log(0.5 * static_cast<double>(n) / 0.01) / std::log(2.0));
+  const auto local_floor = [&](std::size_t k) {
+    const auto half = static_cast<std::size_t>(std::ceil(kLocalFloorBins * record_bin));
+    const auto guard = static_cast<std::size_t>(std::ceil(kLocalGuardBins * record_bin));
+    std::vector<double> near;
+    const std::size_t lo = k > half ? k - half : 1, hi = std::min(p.size() - 1, k + half);
+    for (std::size_t j = lo; j <= hi; ++j)
+      if (j + guard < k || j > k + guard) near.push_back(p[j]);
+    if (near.empty()) return 0.0;
+    std::nth_element(near.begin(), near.begin() + static_cast<long>(near.size() / 2), near.end());
+    return near[near.size() / 2];
+  };
   for (std::size_t k = std::max<std::size_t>(kmin, 1); k <= kmax; ++k)
-    if (p[k] > level && p[k] > p[k - 1] && p[k] >= p[k + 1]) candidates.push_back({refine(k), p[k]});
+    if (p[k] > level && p[k] > p[k - 1] && p[k] >= p[k + 1] && p[k] > t_local * local_floor(k))
+      candidates.push_back({refine(k), p[k]});
   std::sort(candidates.begin(), candidates.end(), [](const Peak& l, const Peak& r) { return l.power > r.power; });
   if (candidates.size() > 400) candidates.resize(400);
+  // The strongest bin may be the top of a coloured-noise hump: the strongest line that stands
+  // out of its local floor is the one to start from.
+  if (!candidates.empty()) f = candidates.front().f;
   const double record_bin_hz = fs / static_cast<double>(n);
   std::vector<Peak> lines;
   for (const auto& c : candidates) {
@@ -495,7 +512,7 @@ int choose_harmonics(const LockOptions& opt, double fs, double f0, std::size_t n
   const int h = default_harmonic_count(fs, f0, n);
   if (h < 1)
     throw AnalysisError("f0 = " + str(f0) + " Hz has no harmonic below 0.45·fs = " +
-                        str(kDefaultBandFraction * fs) + " Hz");
+                        str(kBandFraction * fs) + " Hz");
   return h;
 }
 
@@ -515,6 +532,34 @@ int choose_harmonics(const LockOptions& opt, double fs, double f0, std::size_t n
 /// ν (`off_comb`): a chirp's smeared line made a dense comb at ν/44 (100 periods) or ν/13 (20
 /// periods) win by BIC otherwise. Of the candidates that pass, the largest criterion wins. Candidates need ≥ 1.5 periods in the
 /// record, m ≤ 64, and a bounded cost (Σ N·H_m ≤ 4e9). Returns `fit.nu` when none wins.
+/// Evidence that ν/m is one periodic signal and not a common divisor of unrelated lines (issue
+/// 12: two tones at 100 and 141.42 Hz locked 3.449 Hz, their 29th and 41st harmonics; a 100 Hz
+/// tone with 3 Hz AM locked 3.03 Hz, its 32nd–34th): the harmonics of the candidate that stand
+/// out of the noise must fill at least a quarter of the positions up to the highest of them,
+/// the rule the coarse search's comb applies (coarse_frequency). Significant: amplitude² over
+/// its white-noise variance 2σ²/N beyond the χ²(2) quantile at 0.01/H (Bonferroni over the H
+/// harmonics; σ² = RSS/(N − 2H − 2)), and within −30 dB of the strongest: at high SNR an
+/// unrelated line a fraction of a bin off a harmonic leaks significant power into its
+/// neighbours at −40 dB and below, which would fill the comb.
+constexpr double kCombLevel = 1e-3;
+bool comb_filled(const Evaluation& e, int h, double rss, std::size_t n) {
+  const double dof = static_cast<double>(n) - (2.0 * h + 2);
+  if (!(dof > 0)) return false;
+  const double var = 2 * (rss / dof) / static_cast<double>(n);
+  const double threshold = 2 * std::log(100.0 * h);  // −2·ln(0.01/H): χ²(2) tail e^{−z²/2}
+  double strongest = 0;
+  for (int k = 1; k <= h; ++k) strongest = std::max(strongest, e.a(k) * e.a(k) + e.b(k - 1) * e.b(k - 1));
+  int count = 0, highest = 0;
+  for (int k = 1; k <= h; ++k) {
+    const double amp2 = e.a(k) * e.a(k) + e.b(k - 1) * e.b(k - 1);
+    if (amp2 >= kCombLevel * strongest && (var > 0 ? amp2 / var > threshold : amp2 > 0)) {
+      ++count;
+      highest = k;
+    }
+  }
+  return highest > 0 && 4 * count >= highest;
+}
+
 double sub_multiple_fundamental(const SineFitter& fitter, const Evaluation& fit, int h, const LockOptions& opt,
                                 double fs, bool off_comb) {
   const std::size_t n = fitter.size();
@@ -545,7 +590,7 @@ double sub_multiple_fundamental(const SineFitter& fitter, const Evaluation& fit,
     const double rss = fitter.sum_sq() - e.projection;
     if (!(rss > 0) || !(rss_base - rss > 1e-4 * ac_energy)) continue;
     const double score = static_cast<double>(n) * std::log(rss_base / rss) - 2.0 * (h_m - h) * log_n;
-    if (score > best_score) {
+    if (score > best_score && comb_filled(e, h_m, rss, n)) {
       best_score = score;
       best_nu = nu_m;
     }
@@ -637,8 +682,13 @@ std::complex<double> HarmonicFit::phasor(int n) const {
   return std::complex<double>(a[i], -b[i]) * std::polar(1.0, -kTwoPi * frac);
 }
 
+int band_limit_harmonics(double fs_hz, double f0_hz) {
+  if (!(fs_hz > 0) || !(f0_hz > 0)) return 0;
+  return std::max(0, harmonic_limit(fs_hz, f0_hz, kBandFraction));
+}
+
 int default_harmonic_count(double fs_hz, double f0_hz, std::size_t samples) {
-  int h = std::min(kDefaultMaxHarmonic, harmonic_limit(fs_hz, f0_hz, kDefaultBandFraction));
+  int h = std::min(kDefaultMaxHarmonic, harmonic_limit(fs_hz, f0_hz, kBandFraction));
   const int by_samples = static_cast<int>((samples / 2 - 2) / 2);  // 2H + 2 ≤ N/2
   return std::max(0, std::min(h, by_samples));
 }
@@ -736,6 +786,9 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
       const int h = stage == 0 ? h_final : std::min(stage, h_final);
       if (stage != 0 && (h == h_final || !all_stages)) continue;  // this stage is the final one: skip
       if (long_record && (stage == 10 || stage == 30)) continue;
+      // A given start is already within the final stage's capture range (±0.5/H bins): it is
+      // the converged f0 of a fit of the same record (lock_channel, the baseline refit).
+      if (given_start && stage != 0) continue;
       const double max_step = 0.25 * record_bin_nu;
       g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
       iterations += g.iterations;
@@ -821,136 +874,6 @@ int default_samples_per_period(double fs_hz, double f0_hz, int max_harmonic) {
   return std::max(m, fft_friendly_size(2 * max_harmonic + 2));
 }
 
-namespace {
-
-struct KernelTable {
-  std::vector<double> t;  // (kKernelPhases + 1) × 2L
-  KernelTable() {
-    constexpr int L = kKernelHalfWidth;
-    t.resize(static_cast<std::size_t>(kKernelPhases + 1) * 2 * L);
-    auto bessel_i0 = [](double v) {
-      double sum = 1, term = 1;
-      for (int k = 1; k < 60; ++k) {
-        term *= (v / (2 * k)) * (v / (2 * k));
-        sum += term;
-        if (term < 1e-17 * sum) break;
-      }
-      return sum;
-    };
-    const double i0b = bessel_i0(kKaiserBeta);
-    for (int q = 0; q <= kKernelPhases; ++q) {
-      const double mu = static_cast<double>(q) / kKernelPhases;
-      for (int tap = 0; tap < 2 * L; ++tap) {
-        const int j = tap - L + 1;
-        const double d = mu - j;
-        double v = 0;
-        if (q == 0)
-          v = j == 0 ? 1 : 0;
-        else if (q == kKernelPhases)
-          v = j == 1 ? 1 : 0;
-        else if (std::abs(d) < L) {
-          const double r = d / L;
-          v = std::sin(kPi * d) / (kPi * d) * bessel_i0(kKaiserBeta * std::sqrt(1 - r * r)) / i0b;
-        }
-        t[static_cast<std::size_t>(q) * 2 * L + static_cast<std::size_t>(tap)] = v;
-      }
-    }
-  }
-};
-
-const KernelTable& kernel_table() {
-  static const KernelTable table;
-  return table;
-}
-
-/// Model value at time t for a fit (direct sin/cos, Chebyshev over n).
-double model_at(const HarmonicFit& fit, double t) {
-  const double theta = kTwoPi * fit.fundamental.f0_hz * (t - fit.tc_s);
-  const double c1 = std::cos(theta), s1 = std::sin(theta);
-  double cp = 1, sp = 0, cc = c1, sc = s1, v = fit.a[0];
-  for (int m = 1; m <= fit.harmonics(); ++m) {
-    const auto i = static_cast<std::size_t>(m);
-    v += fit.a[i] * cc + fit.b[i] * sc;
-    const double cn = 2 * c1 * cc - cp, sn = 2 * c1 * sc - sp;
-    cp = cc;
-    cc = cn;
-    sp = sc;
-    sc = sn;
-  }
-  return v;
-}
-
-}  // namespace
-
-PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& fit, int m) {
-  const std::size_t n = residual.size();
-  const double fs = fit.fs_hz, f0 = fit.fundamental.f0_hz;
-  if (m < 2) throw OptionError("samples_per_period", std::to_string(m), "must be >= 2");
-  // The record's N sample intervals span N·f0/fs periods; the grid holds the whole ones. Its
-  // last point may lie up to one sample interval past the last sample, where the residual is
-  // interpolated one-sidedly (the model part is exact everywhere).
-  // (1e-3 period of slack: a capture of exactly one period whose fitted f0 is a hair low.)
-  const double cycles = static_cast<double>(n) * f0 / fs;
-  const int periods = static_cast<int>(std::floor(cycles + 1e-3));
-  if (periods < 1)
-    throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
-                        " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");
-  // Bounded before allocation (issue 11, class 5): the grid (P·M doubles), one period's model
-  // and the per-period transforms of period_spectra (M complex values), counted as four doubles
-  // per grid sample, a margin for what the caller derives from the grid.
-  const double grid_bytes = 4.0 * 8.0 * static_cast<double>(m) * static_cast<double>(periods);
-  if (const auto over = over_memory_budget(grid_bytes))
-    throw OptionError("samples_per_period", std::to_string(m),
-                      "the locked grid of " + std::to_string(periods) + " periods × " + std::to_string(m) +
-                          " samples needs " + *over);
-  PeriodGrid g;
-  g.f0_hz = f0;
-  g.samples_per_period = m;
-  g.periods = periods;
-  g.start_s = fit.t0_s;
-  g.source_rate_hz = fs;
-  const auto M = static_cast<std::size_t>(m);
-  std::vector<double> model(M);
-  for (std::size_t k = 0; k < M; ++k)
-    model[k] = model_at(fit, fit.t0_s + static_cast<double>(k) / (m * f0));
-  const std::size_t total = M * static_cast<std::size_t>(periods);
-  g.samples.resize(total);
-  constexpr int L = kKernelHalfWidth;
-  const double* table = kernel_table().t.data();
-  const double ratio = fs / (m * f0);  // input samples per grid sample
-  const auto last = static_cast<long>(n) - 1;
-  for (std::size_t idx = 0; idx < total; ++idx) {
-    const double u = static_cast<double>(idx) * ratio;
-    const double fl = std::floor(u);
-    const auto i0 = static_cast<long>(fl);
-    const double qpos = (u - fl) * kKernelPhases;
-    const int q = std::min(static_cast<int>(qpos), kKernelPhases - 1);
-    const double alpha = qpos - q;
-    const double* t0 = table + static_cast<std::size_t>(q) * 2 * L;
-    const double* t1 = t0 + 2 * L;
-    double s = 0;
-    if (i0 - L + 1 >= 0 && i0 + L <= last) {
-      const double* r = residual.data() + (i0 - L + 1);
-      // Four partial sums: the taps' additions are independent, not one latency-bound chain.
-      double p0 = 0, p1 = 0, p2 = 0, p3 = 0;
-      for (int tap = 0; tap < 2 * L; tap += 4) {
-        p0 += (t0[tap] + alpha * (t1[tap] - t0[tap])) * r[tap];
-        p1 += (t0[tap + 1] + alpha * (t1[tap + 1] - t0[tap + 1])) * r[tap + 1];
-        p2 += (t0[tap + 2] + alpha * (t1[tap + 2] - t0[tap + 2])) * r[tap + 2];
-        p3 += (t0[tap + 3] + alpha * (t1[tap + 3] - t0[tap + 3])) * r[tap + 3];
-      }
-      s = (p0 + p1) + (p2 + p3);
-    } else {
-      for (int tap = 0; tap < 2 * L; ++tap) {
-        const long i = i0 - L + 1 + tap;
-        if (i < 0 || i > last) continue;
-        s += (t0[tap] + alpha * (t1[tap] - t0[tap])) * residual[static_cast<std::size_t>(i)];
-      }
-    }
-    g.samples[idx] = model[idx % M] + s;
-  }
-  return g;
-}
 
 PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t0_s, double f0_hz,
                                int samples_per_period) {
@@ -960,7 +883,7 @@ PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t
   if (samples_per_period < 2)
     throw OptionError("samples_per_period", std::to_string(samples_per_period), "must be >= 2");
   const std::size_t n = x.size();
-  int h = std::min({harmonic_limit(fs_hz, f0_hz, kDefaultBandFraction), (samples_per_period - 1) / 2,
+  int h = std::min({harmonic_limit(fs_hz, f0_hz, kBandFraction), (samples_per_period - 1) / 2,
                     kResampleMaxHarmonic, static_cast<int>(n / 2) - 2});
   h = std::max(h, 0);
   LockOptions opt;
@@ -981,89 +904,6 @@ PeriodGrid resample_to_periods(std::span<const double> x, double fs_hz, double t
   }
   fit.fundamental.f0_hz = f0_hz;
   return resample_fitted(fit_residual(x, fit), fit, samples_per_period);
-}
-
-PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic) {
-  return period_spectra(grid, max_harmonic, true);
-}
-
-PeriodSpectra period_spectra(const PeriodGrid& grid, int max_harmonic, bool with_noise_bins) {
-  const int m = grid.samples_per_period, p = grid.periods;
-  assert(grid.samples.size() == static_cast<std::size_t>(m) * static_cast<std::size_t>(p));
-  if (max_harmonic < 0 || max_harmonic > m / 2)
-    throw OptionError("max_harmonic", std::to_string(max_harmonic),
-                      "must be between 0 and samples_per_period/2 = " + std::to_string(m / 2));
-  const auto M = static_cast<std::size_t>(m), P = static_cast<std::size_t>(p);
-  const auto H = static_cast<std::size_t>(max_harmonic);
-  PeriodSpectra s;
-  s.f0_hz = grid.f0_hz;
-  s.periods = p;
-  s.samples_per_period = m;
-  s.max_harmonic = max_harmonic;
-  // Rotation from the grid's start to the file's time origin: X_n·e^{−j·n·ω0·start}.
-  std::vector<std::complex<double>> rot(H + 1);
-  for (std::size_t k = 0; k <= H; ++k) {
-    const double cycles = static_cast<double>(k) * grid.f0_hz * grid.start_s;
-    rot[k] = std::polar(1.0, -kTwoPi * (cycles - std::floor(cycles)));
-  }
-  // Peak-amplitude scaling: 2/M for a cosine pair, 1/M for dc and the Nyquist bin.
-  auto scale = [](std::size_t k, std::size_t len) {
-    return (k == 0 || 2 * k == len) ? 1.0 / static_cast<double>(len) : 2.0 / static_cast<double>(len);
-  };
-  std::vector<std::complex<double>> spec(M / 2 + 1);
-  s.per_period.assign(P, std::vector<std::complex<double>>(H + 1));
-  s.mean.assign(H + 1, {0, 0});
-  for (std::size_t q = 0; q < P; ++q) {
-    real_dft(std::span<const double>(grid.samples.data() + q * M, M), spec);
-    for (std::size_t k = 0; k <= H; ++k) {
-      std::complex<double> v = spec[k] * scale(k, M) * rot[k];
-      if (k == 0 || 2 * k == M) v = {v.real(), 0.0};  // dc (and Nyquist) are real cosines
-      s.per_period[q][k] = v;
-      s.mean[k] += v / static_cast<double>(P);
-    }
-  }
-  // Noise bins: the full-record spectrum's bins between harmonics (not multiples of P), below
-  // 0.45 of the source's rate (above it the interpolation kernel has filtered the noise out).
-  s.noise_bin_variance.assign(H + 1, 0.0);
-  s.noise_bin_dof = 0;
-  if (p >= 2 && with_noise_bins) {
-    const std::size_t total = M * P;
-    std::vector<std::complex<double>> full(total / 2 + 1);
-    real_dft(grid.samples, full);
-    const double limit_hz = grid.source_rate_hz > 0 ? kDefaultBandFraction * grid.source_rate_hz
-                                                    : 0.5 * m * grid.f0_hz;
-    const auto kmax = std::min<std::size_t>(total / 2 - 1,
-        static_cast<std::size_t>(std::floor(limit_hz / grid.f0_hz * static_cast<double>(P))));
-    constexpr std::size_t kWantBins = 32;  // ≥ 64 real dof: coverage of ±1.96u within ~0.5 %
-    int min_dof = std::numeric_limits<int>::max();
-    for (std::size_t k = 0; k <= H; ++k) {
-      const std::size_t centre = k * P;
-      double sum = 0;
-      std::size_t count = 0;
-      for (std::size_t w = 1; count < kWantBins && w <= total / 2; ++w) {
-        bool any = false;
-        for (long sign : {-1L, 1L}) {
-          const long bin = static_cast<long>(centre) + sign * static_cast<long>(w);
-          if (bin < 1 || static_cast<std::size_t>(bin) > kmax) continue;
-          any = true;
-          if (static_cast<std::size_t>(bin) % P == 0) continue;
-          sum += std::norm(full[static_cast<std::size_t>(bin)]);
-          ++count;
-        }
-        if (!any && w > centre + kmax) break;
-      }
-      if (count == 0) {
-        min_dof = 0;
-        continue;
-      }
-      const double sc = (k == 0 ? 1.0 : 2.0) / static_cast<double>(total);
-      s.noise_bin_variance[k] = sc * sc * sum / static_cast<double>(count);
-      min_dof = std::min(min_dof, static_cast<int>(2 * count));
-    }
-    s.noise_bin_dof = min_dof == std::numeric_limits<int>::max() ? 0 : min_dof;
-    if (s.noise_bin_dof == 0) std::fill(s.noise_bin_variance.begin(), s.noise_bin_variance.end(), 0.0);
-  }
-  return s;
 }
 
 }  // namespace periodfit::dsp

@@ -59,6 +59,7 @@
 ///   dsp::PeriodSpectra s = dsp::period_spectra(g, 10);   // s.mean[1] is the fundamental
 #include <array>
 #include <complex>
+#include <functional>
 #include <span>
 #include <string>
 #include <vector>
@@ -73,10 +74,21 @@ namespace periodfit::dsp {
 /// already need 4000+ samples per period and a noise floor no capture has.
 inline constexpr int kMaxHarmonic = 2000;
 
+/// The band limit: harmonics are examined up to this fraction of fs (room for the
+/// anti-aliasing filter's transition band of a real acquisition; common practice). The one
+/// definition every stage (lock, analyze, frf, batch) uses.
+inline constexpr double kBandFraction = 0.45;
+
+/// Highest harmonic below kBandFraction·fs for the fundamental f0_hz (0 when f0 is above it).
+int band_limit_harmonics(double fs_hz, double f0_hz);
+
 struct LockOptions {
   double f0_hint_hz = 0;   ///< 0 = estimate from the data; > 0 = search near this value
   double f0_hz = 0;        ///< > 0 = use exactly this fundamental (no estimation)
-  int max_harmonic = 0;    ///< highest harmonic H; 0 = all below 0.45·fs, at most 50
+  /// Highest harmonic H. 0 = automatic where the caller locks through lock_channel (every
+  /// harmonic up to the band limit that is significant against its local noise; see
+  /// select_harmonics); for fit_harmonics alone, 0 = all below 0.45·fs, at most 50.
+  int max_harmonic = 0;
   double rel_tolerance = 1e-12;  ///< Gauss–Newton stop on |Δf|/f
   int max_iterations = 50;       ///< Gauss–Newton iteration cap
   /// > 0: skip the coarse search and start Gauss–Newton here (a value known to be within a
@@ -186,6 +198,95 @@ int default_samples_per_period(double fs_hz, double f0_hz, int max_harmonic);
 /// `residual` (from fit_residual).
 PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& fit,
                            int samples_per_period);
+
+// ---- the one lock call: f0, the harmonic count, the grid and the period spectra ------------
+
+/// How the harmonic count H of a locked channel was chosen.
+///
+/// ## The automatic rule (max_harmonic = 0)
+/// Every harmonic n = 1…K up to the band limit K = ⌊0.45·fs/f0⌋ (capped at kMaxHarmonic and by
+/// the grid) is tested for a line against its own, local noise:
+///   - P ≥ 4 whole periods ("per-period"): with X_{n,p} the phasor of period p and X̄_n their
+///     mean, F_n = P·|X̄_n|² / s_n², s_n² = Σ_p |X_{n,p} − X̄_n|²/(P − 1). Under noise alone
+///     (circular complex Gaussian per-period errors, independent between periods) F_n follows
+///     the F(2, 2P − 2) distribution exactly (ratio of the χ²(2) of the mean to the
+///     χ²(2P − 2) of the scatter; the two-dimensional Hotelling T² with circular symmetry,
+///     Hotelling 1931), whose tail is closed-form: Pr(F > f) = (1 + f/(P − 1))^{−(P−1)}.
+///     The scatter is that of harmonic n itself, so coloured noise (1/f, a low-pass floor)
+///     is judged where it is, not by the record's average level.
+///   - 2 ≤ P < 4 ("noise-bins"): F_n = |X̄_n|² / v_n with v_n the mean power of the
+///     non-harmonic bins next to n (PeriodSpectra::noise_bin_variance), F(2, 2·bins).
+///   - P = 1: no local noise estimate; the count stays that of the fit (rule "fallback").
+/// The K p-values are judged together by Holm's step-down procedure (Holm 1979, "A simple
+/// sequentially rejective multiple test procedure", Scand. J. Statist. 6:65–70): sorted
+/// ascending, p_(i) is significant while p_(j) ≤ α/(K − j + 1) for every j ≤ i. It holds the
+/// family-wise error rate — the probability that a record with no line at all above n = 0
+/// gets one or more false detections — at α = family_alpha under any dependence between
+/// the lines, and is uniformly more powerful than Bonferroni's α/K.
+/// H is then the highest significant harmonic (at least 1), so the f0 fit and every reported
+/// table include every significant line; harmonics below H that are not significant stay in
+/// the linear model (it is contiguous) and are reported with their uncertainties.
+struct HarmonicSelection {
+  bool automatic = false;     ///< true: H chosen by the rule; false: max_harmonic given
+  std::string rule;           ///< "holm-f-test", "given", or "fallback" (P = 1)
+  std::string noise_basis;    ///< "per-period", "noise-bins" or "none"
+  double family_alpha = 0;    ///< α of the rule (0 when no test ran)
+  int count = 0;              ///< H: harmonics in the fit and the reported tables
+  int highest_examined = 0;   ///< K: highest harmonic tested
+  int significant = 0;        ///< significant lines among 1…K
+  int highest_significant = 0;  ///< 0 when none
+  /// With a given max_harmonic: the significant lines above it, and their total power
+  /// relative to the fundamental (dBc; −inf-free: 0 lines → 0 and no flag).
+  int truncated_lines = 0;
+  double truncated_dbc = 0;
+  std::vector<int> significant_harmonics;  ///< ascending
+};
+
+/// Options of the rule (defaults documented in HarmonicSelection).
+struct SelectionOptions {
+  double family_alpha = 0.01;  ///< family-wise false-detection probability per record
+  /// With a given max_harmonic: still examine the band above it (for harmonics-truncated).
+  /// false = spectra of harmonics 0…H only (a second channel locked onto the first's grid).
+  bool examine_band = true;
+};
+
+/// Applies the rule to `spectra` (harmonics 1…spectra.max_harmonic are the candidates). The
+/// returned count is the highest significant harmonic (≥ 1); automatic is left false and the
+/// caller decides. Needs per_period (P ≥ 4) or noise_bin_variance (P ≥ 2); P = 1 gives rule
+/// "fallback" with no line tested.
+HarmonicSelection select_harmonics(const PeriodSpectra& spectra, const SelectionOptions& options = {});
+
+/// One channel locked onto whole periods: the whole-record fit that gave f0, the grid, the
+/// per-period spectra of harmonics 0…H and how H was chosen.
+struct LockedChannel {
+  HarmonicFit fit;
+  PeriodGrid grid;
+  PeriodSpectra spectra;          ///< max_harmonic = selection.count
+  HarmonicSelection selection;
+  /// u(f0) from the harmonics in the model with their local noise levels: the white-noise
+  /// u(f0) of the fit scaled by √(Σ w_n / Σ w_n/r_n), w_n = n²·A_n² (each harmonic's share of
+  /// the information on f0) and r_n its per-period noise power over the white-noise value
+  /// (first order, harmonics independent; equals the fit's u for white noise). fit.unit_cov's
+  /// f0 terms are scaled to match. 1 when P < 4.
+  double f0_u_noise_factor = 1;
+};
+
+/// The lock every command uses (analyze, frf, batch): fit_harmonics (f0 estimated, or forced),
+/// then the grid with `samples_per_period` (0 = default_samples_per_period; a given M is raised
+/// to 2H + 2), the spectra up to the band limit, the harmonic selection, and — when H changed —
+/// the fit again with H harmonics (from the f0 found) and the grid again when f0 moved by more
+/// than 0.1 u or H grew. PeriodSpectra::noise_bin_variance is computed when P < 4 only.
+/// A forced f0 (options.f0_hz) with a given H is the way to lock a second channel of the
+/// same capture onto the first one's grid (frf's output).
+/// `first_grid`, when given, is called with the first fit and its grid, before the selection:
+/// a caller can start locking a second channel with that f0 and H (frf does, on a second
+/// thread); the result's grid keeps that f0 unless it was relocked (grid.f0_hz tells).
+LockedChannel lock_channel(std::span<const double> x, double fs_hz, double t0_s, const LockOptions& options,
+                           int samples_per_period = 0, const SelectionOptions& selection = {},
+                           const std::function<void(const HarmonicFit&, const PeriodGrid&)>& first_grid = {});
+
+/// Drops the harmonics above max_harmonic from `spectra` (no-op when it holds fewer).
+void truncate_spectra(PeriodSpectra& spectra, int max_harmonic);
 
 /// Test hook: run the streamed sums with one instruction set ("avx512", "avx2", "base"; ""
 /// = by CPU features again). Returns false when this CPU lacks it. Not for production use.

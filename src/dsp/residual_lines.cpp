@@ -23,7 +23,8 @@ double hann_gain(double d) {
 
 }  // namespace
 
-ResidualLines find_residual_lines(std::span<const double> residual, double fs, double f0, bool folded) {
+ResidualLines find_residual_lines(std::span<const double> residual, double fs, double f0, bool folded,
+                                  int fitted_harmonics) {
   ResidualLines out;
   // A 7-smooth length within 1/8 of the record (FFTW is fastest there); the tail is dropped.
   std::size_t n = residual.size();
@@ -59,8 +60,13 @@ ResidualLines find_residual_lines(std::span<const double> residual, double fs, d
     double f = std::fmod(order * f0, fs);
     if (f > 0.5 * fs) f = fs - f;
     const double c = f / bin_hz;
-    const long lo = static_cast<long>(std::floor(c - kHarmonicGuardBins));
-    const long hi = static_cast<long>(std::ceil(c + kHarmonicGuardBins));
+    // A fitted harmonic is gone from the residual: only its nearest bin ±kFittedGuardBins is
+    // guarded, so 3 Hz AM sidebands of a fitted tone in a 1 s record stay visible (issue 12).
+    // Not when folded harmonics are expected: orders beyond max_order land anywhere, and the
+    // wider guards hide some of them as before.
+    const bool fitted = !folded && order <= fitted_harmonics && order * f0 < 0.5 * fs;
+    const long lo = fitted ? std::lround(c) - kFittedGuardBins : static_cast<long>(std::floor(c - kHarmonicGuardBins));
+    const long hi = fitted ? std::lround(c) + kFittedGuardBins : static_cast<long>(std::ceil(c + kHarmonicGuardBins));
     for (long k = std::max(0L, lo); k <= hi && k < static_cast<long>(p.size()); ++k) excluded[static_cast<std::size_t>(k)] = 1;
   }
   // Local floor: median of each block's non-excluded bins / ln 2.

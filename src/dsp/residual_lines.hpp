@@ -31,6 +31,8 @@ inline constexpr double kLineFalseAlarm = 1e-3;
 inline constexpr int kFloorBlock = 64;
 inline constexpr int kLowBins = 4;
 inline constexpr int kHarmonicGuardBins = 3;
+/// Guard of a harmonic the fit removed (orders 1…fitted_harmonics): its nearest bin ± this.
+inline constexpr int kFittedGuardBins = 2;
 /// Share of the spectrum the guards around folded harmonics (orders above fs/2/f0) may cover.
 inline constexpr double kFoldedShare = 0.25;
 
@@ -49,6 +51,9 @@ struct ResidualLines {
 
 /// `folded`: also guard the harmonics folded back from above fs/2 (the caller passes true when
 /// the record shows harmonics near the top of the band, so aliased ones are to be expected).
-ResidualLines find_residual_lines(std::span<const double> residual, double fs_hz, double f0_hz, bool folded);
+/// `fitted_harmonics`: orders up to it were fitted (removed from the residual) and get the
+/// narrower kFittedGuardBins guard (not with `folded`); 0 = none.
+ResidualLines find_residual_lines(std::span<const double> residual, double fs_hz, double f0_hz, bool folded,
+                                  int fitted_harmonics = 0);
 
 }  // namespace periodfit::dsp

@@ -7,6 +7,7 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
+#include "dsp/analysis_output.hpp"
 #include "io/number_format.hpp"
 #include "report/table.hpp"
 #include "io/json_writer.hpp"
@@ -15,8 +16,6 @@ namespace periodfit::ident {
 
 namespace {
 
-/// Harmonics above this fraction of fs are not examined (the lock stage's band limit).
-constexpr double kNyquistFraction = 0.45;
 /// Two captures count as one time base when their rates agree to this relative tolerance
 /// (rates parsed from text may differ in the last digit).
 constexpr double kSameRateRelative = 1e-9;
@@ -124,10 +123,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   // dsp::resample_to_periods would refit every harmonic below 0.45·fs instead: exact for them
   // too, but N·fs/(2f0) work per channel, hundreds of harmonics for an oversampled capture,
   // where the interpolator is far more accurate than its 1e-3 band-edge bound anyway.
-  dsp::LockOptions lock;
-  lock.f0_hz = options.f0_hz;
-  lock.f0_hint_hz = options.f0_hint_hz;
-  lock.max_harmonic = options.max_harmonic;
+  const dsp::LockOptions& lock = options.lock;
   // Each channel is analysed in a unit where its peak is in [0.5, 1): a power of two, so the
   // scaling is exact, and sums of squares neither overflow (peaks beyond ~1e154) nor sink into
   // sub-normals (below ~1e-154), which had made f0_u 0 and shifted f0 (issue 11, class 7).
@@ -135,46 +131,77 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   const int ey = unit_exponent(out.channel->samples);
   const std::vector<double> u_samples = scaled_by(in.channel->samples, -eu);
   const std::vector<double> y_scaled = scaled_by(out.channel->samples, -ey);
-  dsp::HarmonicFit fit_u;
-  try {
-    fit_u = dsp::fit_harmonics(u_samples, fs, ci.t0_s, lock);
-  } catch (const AnalysisError& e) {
-    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
-  }
-  r.fundamental = fit_u.fundamental;
-  r.fundamental.residual_rms = std::ldexp(r.fundamental.residual_rms, eu);
-  const double f0 = r.fundamental.f0_hz;
-  if (!(f0 > 0) || !std::isfinite(f0))
-    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
-                        "\" has no periodic component");
-  const int nyquist_harmonics = int(std::floor(kNyquistFraction * fs / f0));
-  if (nyquist_harmonics < 1)
-    throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
-                        " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
-  const int harmonics = std::min(fit_u.harmonics(), nyquist_harmonics);
-  const int m = options.samples_per_period > 0 ? options.samples_per_period
-                                               : dsp::default_samples_per_period(fs, f0, harmonics);
-  r.samples_per_period = m;
-  dsp::LockOptions forced;
-  forced.f0_hz = f0;
-  forced.max_harmonic = fit_u.harmonics();
-  // The fit keeps its residual; recompute it only if it did not.
-  const auto lock_grid = [m](const std::vector<double>& x, const dsp::HarmonicFit& fit) {
-    if (fit.residual.size() == x.size()) return dsp::resample_fitted(fit.residual, fit, m);
-    return dsp::resample_fitted(dsp::fit_residual(x, fit), fit, m);
-  };
-  // The output's fit and both grids are independent once f0 is known: the output is locked on
-  // a second thread (the lock stage is thread-safe: cached FFTW plans behind a lock).
+  // The one lock call (dsp::lock_channel): f0, the automatic harmonic count (every harmonic up
+  // to the band limit significant against its local noise) and the spectra, on the input; the
+  // output is locked with f0 and H forced to the input's, on the same grid.
+  dsp::LockedChannel lu;
+  // The output is locked on a second thread with f0 and H of the input's first fit, as soon as
+  // they are known (the lock stage is thread-safe: cached FFTW plans behind a lock); it is
+  // redone only when the input's final lock moved its grid (dsp::lock_channel).
   const std::vector<double>& y_samples = y_scaled;
   const double y_t0 = out.capture->t0_s;
-  auto output_spectra = std::async(std::launch::async, [&, forced] {
-    const dsp::HarmonicFit fit_y = dsp::fit_harmonics(y_samples, fs, y_t0, forced);
-    return dsp::period_spectra(lock_grid(y_samples, fit_y), harmonics);
-  });
-  const dsp::PeriodSpectra su = dsp::period_spectra(lock_grid(u_samples, fit_u), harmonics);
+  dsp::SelectionOptions grid_only;
+  grid_only.examine_band = false;
+  const auto lock_output = [&y_samples, fs, y_t0, grid_only](double f0_grid, int h, int m) {
+    dsp::LockOptions forced;
+    forced.f0_hz = f0_grid;
+    forced.max_harmonic = h;
+    return dsp::lock_channel(y_samples, fs, y_t0, forced, m, grid_only).spectra;
+  };
+  std::future<dsp::PeriodSpectra> speculative;
+  double speculative_f0 = 0;
+  int speculative_h = 0;
+  const auto first_grid = [&](const dsp::HarmonicFit& fit, const dsp::PeriodGrid& grid) {
+    speculative_f0 = grid.f0_hz;
+    speculative_h = fit.harmonics();
+    speculative = std::async(std::launch::async, lock_output, grid.f0_hz, fit.harmonics(), grid.samples_per_period);
+  };
+  try {
+    lu = dsp::lock_channel(u_samples, fs, ci.t0_s, lock, options.samples_per_period, {}, first_grid);
+  } catch (const AnalysisError& e) {
+    if (speculative.valid()) speculative.wait();
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
+  }
+  r.fundamental = lu.fit.fundamental;
+  r.selection = lu.selection;
+  r.fundamental.residual_rms = std::ldexp(r.fundamental.residual_rms, eu);
+  const double f0 = r.fundamental.f0_hz;
+  const int nyquist_harmonics = dsp::band_limit_harmonics(fs, f0);
+  const auto drain = [&speculative] {
+    if (!speculative.valid()) return;
+    try {
+      speculative.get();
+    } catch (const Error&) {
+      // the output's own error is reported when it is locked for good
+    }
+  };
+  if (!(f0 > 0) || !std::isfinite(f0)) {
+    drain();
+    throw AnalysisError(ci.source + ": input channel \"" + in.channel->name +
+                        "\" has no periodic component");
+  }
+  if (nyquist_harmonics < 1) {
+    drain();
+    throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
+                        " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
+  }
+  const int harmonics = std::min(lu.fit.harmonics(), nyquist_harmonics);
+  const int m = lu.grid.samples_per_period;
+  r.samples_per_period = m;
+  // Both channels must share the grid exactly: the input's grid f0 (within 0.1 u of the reported
+  // f0 when the final fit did not relock) and at least the harmonics reported.
+  const bool reuse = speculative.valid() && speculative_f0 == lu.grid.f0_hz && speculative_h >= harmonics;
+  if (!reuse) {
+    drain();
+    speculative = std::async(std::launch::async, lock_output, lu.grid.f0_hz, lu.fit.harmonics(), m);
+  }
+  auto& output_spectra = speculative;
+  dsp::PeriodSpectra su = std::move(lu.spectra);
+  dsp::truncate_spectra(su, harmonics);
   dsp::PeriodSpectra sy;
   try {
     sy = output_spectra.get();
+    dsp::truncate_spectra(sy, harmonics);
   } catch (const AnalysisError& e) {
     throw AnalysisError(out.capture->source + ": output channel \"" + out.channel->name + "\": " + e.what());
   }
@@ -196,6 +223,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
                         "channels in units closer to each other (--scale)");
   for (const auto& f : r.frf.flags) r.flags.push_back(f);
   if (r.linearity.nonlinear) r.flags.push_back("nonlinear");
+  if (r.selection.truncated_lines > 0) r.flags.push_back("harmonics-truncated");
 
   if (!options.order.empty()) {
     RationalFitOptions fit = options.fit;
@@ -332,13 +360,8 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
 
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
-  if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
-  if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
-  if (max_harmonic < 0)
-    throw OptionError("max_harmonic", std::to_string(max_harmonic), "must be >= 0 (0 = automatic)");
-  if (samples_per_period != 0 && samples_per_period < 2 * std::max(max_harmonic, 1) + 2)
+  dsp::validate(lock);  // the fundamental's options are analyze's (one struct, one check)
+  if (samples_per_period != 0 && samples_per_period < 2 * std::max(lock.max_harmonic, 1) + 2)
     throw OptionError("samples_per_period", std::to_string(samples_per_period),
                       "must be 0 (automatic) or >= 2·max_harmonic + 2");
   frf.validate();
@@ -390,6 +413,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["sample_rate_hz"] = io::json_number(r.sample_rate_hz);
   j["periods"] = r.frf.periods;
   j["samples_per_period"] = r.samples_per_period;
+  j["harmonic_selection"] = dsp::harmonic_selection_json(r.selection);
   j["max_harmonic"] = r.frf.max_harmonic;
   j["skew_s"] = io::json_number(r.skew_s);
   j["frf_method"] = r.frf.method;
@@ -518,7 +542,8 @@ std::string format_identify_report(const IdentifyResult& r) {
                                          : sig(r.fundamental.f0_hz, 9) + " Hz") +
                  " (" + r.fundamental.method + ")"},
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
-                   " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
+                   " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic) + " (" +
+                   dsp::harmonic_selection_text(r.selection) + ")"},
       {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
                   io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};

@@ -54,9 +54,10 @@ struct IdentifyOptions {
   /// two captures the output capture's only data channel (an error naming the file when it
   /// has several).
   std::string output_channel;
-  double f0_hz = 0;                  ///< > 0: use exactly this fundamental; 0 = estimate on the input
-  double f0_hint_hz = 0;             ///< > 0: search the fundamental near this value
-  int max_harmonic = 0;              ///< highest harmonic examined; 0 = dsp::default_harmonic_count
+  /// The fundamental and the harmonic count (f0_hz, f0_hint_hz, max_harmonic): the one options
+  /// struct analyze, frf and batch share (dsp/period_lock.hpp); f0 is estimated on the input,
+  /// max_harmonic 0 = the automatic count (dsp::lock_channel).
+  dsp::LockOptions lock;
   /// Samples per period of the resampling grid; 0 = dsp::default_samples_per_period (fs/f0
   /// when an integer, else the next FFT-friendly size, at least 2·max_harmonic + 2).
   int samples_per_period = 0;
@@ -77,6 +78,7 @@ struct IdentifyResult {
   double sample_rate_hz = 0;
   dsp::Fundamental fundamental;   ///< how f0 was found
   int samples_per_period = 0;     ///< M of the grid
+  dsp::HarmonicSelection selection;  ///< how H was chosen on the input (dsp/period_lock.hpp)
   double skew_s = 0;
   FrfResult frf;
   LinearityResult linearity;

@@ -37,8 +37,8 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
     // the limits may have reached toml++.
     if (nested.active && nested.depth >= static_cast<std::size_t>(periodfit::io::kMaxNestingDepth)) __builtin_trap();
     // A loaded config has been validated (batch/config.hpp): its numeric settings are finite.
-    if (!std::isfinite(config.read.rate_hz) || !std::isfinite(config.analyze.f0_hz) ||
-        !std::isfinite(config.analyze.f0_hint_hz) || !std::isfinite(config.identify.f0_hz))
+    if (!std::isfinite(config.read.rate_hz) || !std::isfinite(config.analyze.lock.f0_hz) ||
+        !std::isfinite(config.analyze.lock.f0_hint_hz) || !std::isfinite(config.identify.lock.f0_hz))
       __builtin_trap();
   } catch (const periodfit::Error&) {
   }
