@@ -524,6 +524,19 @@ ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0
   out.noise_floor_dbc = amplitudes[1] > 0 && out.noise_floor > 0
                             ? 20 * std::log10(out.noise_floor / amplitudes[1])
                             : 0;
+  // The automatic count kept no harmonic above the fundamental: lines 2…K were examined and none
+  // stood out of its noise (Holm, α = 0.01), so the table's THD of 0 is not a measurement. Its
+  // one-sided 95 % bound is that of K − 1 noise-only lines at the white noise floor: each |A_n|²
+  // is noise_floor²·χ²(2)/2, their sum noise_floor²·(K − 1)·(1 + 1.645/√(K − 1)) at 95 % (normal
+  // approximation of χ²(2(K − 1)), common practice); coloured noise makes it approximate.
+  if (out.selection.automatic && amplitudes.size() <= 2 && out.selection.highest_examined > 1 &&
+      amplitudes[1] > 0) {
+    const double lines = static_cast<double>(out.selection.highest_examined - 1);
+    out.distortion.thd_above_noise = false;
+    out.distortion.thd_upper =
+        std::sqrt(out.noise_floor * out.noise_floor * lines * (1 + 1.6448536269514722 / std::sqrt(lines))) /
+        amplitudes[1];
+  }
 
   // ---- flags -----------------------------------------------------------------------------
   if (!fit.fundamental.converged)
