@@ -232,3 +232,31 @@ TEST_CASE("batch --db: three processes recording the same captures into one SQLi
   CHECK(count(db, "SELECT COUNT(*) FROM run_capture") == 15);
   CHECK(count(db, "SELECT COUNT(*) FROM run WHERE status = 'complete'") == 3);
 }
+
+TEST_CASE("batch --shard --db: the shards of one run record into one database under their shared run id; nothing doubled") {
+  // docs/scale-out.md, "A shared database": every shard derives the same run id alone, records
+  // its captures in its own run row carrying that id and K/N, and a shard run twice adds no
+  // capture (the identity is the capture's content under the same version and config).
+  TempDir dir("cli_store_shards");
+  const std::string inputs = make_line(dir, 7);
+  const std::string db = dir.file("line.sqlite");
+  for (int k = 1; k <= 3; ++k) {
+    const auto r = run_cli("batch " + inputs + " --shard " + std::to_string(k) + "/3 --report '" +
+                           dir.file("s" + std::to_string(k)) + "' --db '" + db + "' -q");
+    CHECK_MESSAGE(r.exit_code == 0, r.err);
+  }
+  CHECK(count(db, "SELECT COUNT(*) FROM capture") == 7);
+  CHECK(count(db, "SELECT COUNT(*) FROM run WHERE shard_count = 3 AND status = 'complete'") == 3);
+  CHECK(count(db, "SELECT COUNT(DISTINCT batch_run_id) FROM run") == 1);
+  CHECK(count(db, "SELECT COUNT(DISTINCT shard_index) FROM run") == 3);
+  // Shard 2 again (a re-submitted array task): a fourth run row, no new capture.
+  const auto again = run_cli("batch " + inputs + " --shard 2/3 --report '" + dir.file("s2") + "' --db '" + db + "' -q");
+  CHECK(again.exit_code == 0);
+  CHECK(again.out.find(": 0 new,") != std::string::npos);
+  CHECK(count(db, "SELECT COUNT(*) FROM capture") == 7);
+  CHECK(count(db, "SELECT COUNT(*) FROM run") == 4);
+  // The shards still gather into one report folder.
+  const auto g = run_cli("gather '" + dir.file("s1") + "' '" + dir.file("s2") + "' '" + dir.file("s3") +
+                         "' --report '" + dir.file("all") + "'");
+  CHECK_MESSAGE(g.exit_code == 0, g.err);
+}

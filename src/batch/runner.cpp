@@ -581,6 +581,11 @@ BatchResult run_batch(const BatchOptions& options) {
                                     ? options.config.identity.config_values.at("operator") : "");
     info.report_dir = fs::absolute(options.report_dir).lexically_normal().string();
     info.files_total = static_cast<std::int64_t>(paths.size());
+    if (options.shard.active()) {
+      info.batch_run_id = shard_run_id(options);
+      info.shard_index = options.shard.index;
+      info.shard_count = options.shard.count;
+    }
     recording = std::make_unique<store::RunRecording>(database, std::move(info));
     result.database = in_report ? (fs::path(options.report_dir) / "results.sqlite").string()
                                 : store::redact_target(database);

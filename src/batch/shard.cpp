@@ -161,6 +161,12 @@ std::string derived_run_id(const BatchOptions& o) {
   return "pf-" + hex64(fnv1a_64(identity));
 }
 
+}  // namespace
+
+std::string shard_run_id(const BatchOptions& o) { return o.run_id.empty() ? derived_run_id(o) : o.run_id; }
+
+namespace {
+
 /// A shard's report folder as the gather reads it.
 struct Manifest {
   std::string folder;
@@ -382,7 +388,7 @@ void write_shard_record(const std::string& folder, const BatchOptions& options,
   j["format"] = kShardFormat;
   j["version"] = kShardVersion;
   j["periodfit"] = PERIODFIT_VERSION;
-  j["run_id"] = options.run_id.empty() ? derived_run_id(options) : options.run_id;
+  j["run_id"] = shard_run_id(options);
   j["shard"] = {{"index", options.shard.index},
                 {"count", options.shard.count},
                 {"partition", "fnv1a-64(path relative to its input folder) mod count + 1"}};

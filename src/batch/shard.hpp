@@ -87,6 +87,11 @@ struct GatherResult {
   std::string gather_json;            ///< path of gather.json when written
 };
 
+/// The run id a shard records (shard.json) and its database run row carries: options.run_id,
+/// else "pf-" + FNV-1a 64 of the tool version, settings hash, N and inputs, which every shard of
+/// the run derives alone (docs/scale-out.md).
+std::string shard_run_id(const BatchOptions& options);
+
 /// Checks the shards and, when they make one complete run, writes the gathered report folder.
 /// Throws InputError (one line naming two folders and what differs) for shards of different
 /// runs: another tool version, config hash, run id, partition count or inputs; IoError/

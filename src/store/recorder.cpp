@@ -68,11 +68,15 @@ Recorder::Recorder(const std::string& target, RunInfo info)
   in_transaction(*db_, [&] {
     run_id_ = *db_->insert_returning_id(
         "INSERT INTO run (tool_version, mode, config_source, config_text, config_hash, host, report_dir, origin,"
-        " started_at, status, files_total, station, operator) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, 'incomplete', ?, ?, ?)",
+        " started_at, status, files_total, station, operator, batch_run_id, shard_index, shard_count)"
+        " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, 'incomplete', ?, ?, ?, ?, ?, ?)",
         {info_.tool_version, info_.mode, info_.config_source, info_.config_text, config_hash_, info_.host,
          info_.report_dir, info_.origin, utc_now_text(), info_.files_total,
          info_.station.empty() ? Value{} : Value{info_.station},
-         info_.operator_name.empty() ? Value{} : Value{info_.operator_name}});
+         info_.operator_name.empty() ? Value{} : Value{info_.operator_name},
+         info_.batch_run_id.empty() ? Value{} : Value{info_.batch_run_id},
+         info_.shard_count > 0 ? Value{static_cast<std::int64_t>(info_.shard_index)} : Value{},
+         info_.shard_count > 0 ? Value{static_cast<std::int64_t>(info_.shard_count)} : Value{}});
   });
 }
 

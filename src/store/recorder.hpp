@@ -42,6 +42,10 @@ struct RunInfo {
   std::string station, operator_name;
   std::string report_dir;
   std::int64_t files_total = 0;
+  /// A shard of a sharded batch (batch --shard K/N): the run id all its shards share, and K, N.
+  /// "" and 0 for an unsharded run.
+  std::string batch_run_id;
+  int shard_index = 0, shard_count = 0;
 };
 
 /// SHA-256 of the config text: the config part of a capture's identity.

@@ -62,6 +62,25 @@ std::vector<std::string> version_2(Dialect) {
   };
 }
 
+// Version 3: the runs of one sharded batch (batch --shard K/N, docs/scale-out.md) share the
+// batch run id every shard derives alone; each shard is one run row, so a query groups them.
+std::vector<std::string> version_3(Dialect) {
+  return {
+      "ALTER TABLE run ADD COLUMN batch_run_id TEXT",
+      "ALTER TABLE run ADD COLUMN shard_index INTEGER",
+      "ALTER TABLE run ADD COLUMN shard_count INTEGER",
+      "CREATE INDEX run_by_batch_run_id ON run (batch_run_id)",
+  };
+}
+
+std::vector<std::string> version_statements(int v, Dialect d) {
+  switch (v) {
+    case 1: return version_1(d);
+    case 2: return version_2(d);
+    default: return version_3(d);
+  }
+}
+
 bool has_version_table(Connection& db) {
   const auto rows = db.dialect() == Dialect::sqlite
                         ? db.query("SELECT name FROM sqlite_master WHERE type = 'table' AND name = 'schema_version'")
@@ -90,7 +109,7 @@ int migrate(Connection& db, int target) {
                                            " was written by a newer periodfit (this one knows up to " +
                                            std::to_string(target) + "); use that periodfit or a newer one");
     for (int v = found + 1; v <= target; ++v) {
-      const auto statements = v == 1 ? version_1(db.dialect()) : version_2(db.dialect());
+      const auto statements = version_statements(v, db.dialect());
       for (const auto& sql : statements) db.execute(sql);
       db.execute("INSERT INTO schema_version (version, migrated_at) VALUES (?, ?)",
                  {static_cast<std::int64_t>(v), utc_now_text()});

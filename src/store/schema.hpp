@@ -15,7 +15,7 @@
 
 namespace periodfit::store {
 
-inline constexpr int kSchemaVersion = 2;
+inline constexpr int kSchemaVersion = 3;
 
 /// The schema version of `db` (0 = empty database, no periodfit tables).
 int schema_version(Connection& db);
