@@ -9,7 +9,7 @@
 #include "ident/frf.hpp"
 #include "ident/identify.hpp"
 #include "io/capture_reader.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "report/result_plots.hpp"
 
 namespace periodfit::batch {
@@ -21,7 +21,7 @@ constexpr double kNormal95 = 1.959963984540054;
 
 std::string sig(double v) {
   if (!std::isfinite(v)) return std::isnan(v) ? "n/a" : (v > 0 ? "inf" : "-inf");
-  return io::format_significant(v == 0 ? 0.0 : v, 6);
+  return format_significant(v == 0 ? 0.0 : v, 6);
 }
 
 std::string with_unit(const std::string& number, const std::string& unit) {
@@ -32,7 +32,7 @@ std::string with_unit(const std::string& number, const std::string& unit) {
 // u labelled, GUM 7.2.6 digits); the 95 % intervals are in the limit table and summary.
 std::string pm(double value, double u, const std::string& unit) {
   if (!std::isfinite(u)) return with_unit(sig(value), unit);
-  return io::format_with_u(value, u, unit);
+  return format_with_u(value, u, unit);
 }
 
 Quantity db_quantity(double mag, double lo, double hi) {
@@ -45,7 +45,7 @@ Quantity db_quantity(double mag, double lo, double hi) {
 void add_key(FileAnalysis& a, std::string name, std::string label, double value,
              const std::string& unit) {
   const bool ok = std::isfinite(value);
-  a.keys.push_back({std::move(name), std::move(label), ok ? io::format_shortest(value) : "",
+  a.keys.push_back({std::move(name), std::move(label), ok ? format_shortest(value) : "",
                     ok ? with_unit(sig(value), unit) : ""});
 }
 
@@ -209,7 +209,7 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   }
   rows.insert(rows.end(), a.result_rows.begin(), a.result_rows.end());
   std::string lin = r.linearity.status;
-  if (r.linearity.level_db) lin += ", distortion " + io::format_fixed(*r.linearity.level_db, 1) + " dB";
+  if (r.linearity.level_db) lin += ", distortion " + format_fixed(*r.linearity.level_db, 1) + " dB";
   rows.emplace_back("linearity", lin);
   a.result_rows = std::move(rows);
 
@@ -336,8 +336,8 @@ std::vector<std::string> analysis_key_names(const BatchConfig& config) {
 std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const BatchConfig& config) {
   std::vector<std::pair<std::string, std::string>> rows;
   const auto f0 = [&](double f0_hz, double hint, int harmonics) {
-    rows.emplace_back("fundamental", f0_hz > 0 ? io::format_shortest(f0_hz) + " Hz (forced)"
-                                     : hint > 0 ? "estimated near " + io::format_shortest(hint) + " Hz"
+    rows.emplace_back("fundamental", f0_hz > 0 ? format_shortest(f0_hz) + " Hz (forced)"
+                                     : hint > 0 ? "estimated near " + format_shortest(hint) + " Hz"
                                                 : "estimated");
     rows.emplace_back("harmonics", harmonics > 0 ? std::to_string(harmonics) : "automatic");
   };
@@ -346,7 +346,7 @@ std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const Ba
     rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + (o.output_channel.empty() ? "#1" : o.output_channel));
     rows.emplace_back("model order", o.order.empty() ? "none" : o.order);
     rows.emplace_back("delay", o.estimate_delay ? "estimated" : "none");
-    rows.emplace_back("min SNR", io::format_shortest(o.frf.min_snr_db) + " dB");
+    rows.emplace_back("min SNR", format_shortest(o.frf.min_snr_db) + " dB");
     f0(o.f0_hz, o.f0_hint_hz, o.max_harmonic);
   } else {
     const auto& o = config.analyze;

@@ -19,11 +19,11 @@
 #include "batch/report_folder.hpp"
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/json_writer.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::batch {
@@ -238,21 +238,21 @@ constexpr const char* kLimitColumns[] = {"u",   "k",       "lo95",    "hi95",   
                                          "max", "allowed", "passed",  "verdict", "margin",
                                          "margin_fraction"};
 
-std::string csv_number(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
+std::string csv_number(double v) { return std::isfinite(v) ? format_shortest(v) : ""; }
 
 std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& config) {
   std::string out = "path,status";
-  for (const auto& key : analysis_key_names(config)) out += "," + report::csv_cell(key);
+  for (const auto& key : analysis_key_names(config)) out += "," + csv_cell(key);
   for (std::size_t i = 0; i < config.limits.size(); ++i) {
     const std::string prefix = "limit" + std::to_string(i + 1) + ":";
-    out += "," + report::csv_cell(prefix + config.limits[i].key());
-    for (const char* column : kLimitColumns) out += "," + report::csv_cell(prefix + column);
+    out += "," + csv_cell(prefix + config.limits[i].key());
+    for (const char* column : kLimitColumns) out += "," + csv_cell(prefix + column);
   }
   out += ",flags,failing_flags,failing_limits,message\n";
   for (const auto& w : works) {
     const FileResult& r = w.result;
-    out += report::csv_cell(r.path) + "," + report::status_text(r.status);
-    for (const auto& [key, value] : r.key_results) out += "," + report::csv_cell(value);
+    out += csv_cell(r.path) + "," + report::status_text(r.status);
+    for (const auto& [key, value] : r.key_results) out += "," + csv_cell(value);
     for (std::size_t i = 0; i < config.limits.size(); ++i) {
       const Limit& l = config.limits[i];
       const bool have = i < r.limits.size();
@@ -269,9 +269,9 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
       out += "," + (interval ? csv_number(q.hi95) : "");
       out += "," + (yes_no(l) ? "" : csv_number(l.lo));
       out += "," + (yes_no(l) ? "" : csv_number(l.hi));
-      out += "," + report::csv_cell(l.allowed_text());
+      out += "," + csv_cell(l.allowed_text());
       out += "," + (have ? std::string(r.limits[i].passed ? "true" : "false") : "");
-      out += "," + (have ? report::csv_cell(r.limits[i].verdict) : "");
+      out += "," + (have ? csv_cell(r.limits[i].verdict) : "");
       out += "," + (have ? csv_number(r.limits[i].margin) : "");
       out += "," + (have ? csv_number(r.limits[i].margin_fraction) : "");
     }
@@ -279,8 +279,8 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
     for (std::size_t i = 0; i < r.limits.size(); ++i)
       if (!r.limits[i].passed)
         failing += (failing.empty() ? "" : "; ") + failing_limit_text(config.limits[i], r.limits[i]);
-    out += "," + report::csv_cell(flags_text(r.flags)) + "," + report::csv_cell(flags_text(r.failing_flags));
-    out += "," + report::csv_cell(failing) + "," + report::csv_cell(r.error) + "\n";
+    out += "," + csv_cell(flags_text(r.flags)) + "," + csv_cell(flags_text(r.failing_flags));
+    out += "," + csv_cell(failing) + "," + csv_cell(r.error) + "\n";
   }
   return out;
 }
@@ -336,7 +336,7 @@ void BatchOptions::validate() const {
   if (report_dir.empty()) throw OptionError("report", "\"\"", "a report folder is required");
   if (jobs < 0) throw OptionError("jobs", std::to_string(jobs), "must be >= 0 (0 = hardware threads)");
   if (!(progress_interval_s > 0))
-    throw OptionError("progress_interval_s", io::format_shortest(progress_interval_s), "must be > 0");
+    throw OptionError("progress_interval_s", format_shortest(progress_interval_s), "must be > 0");
   if (config.mode == AnalysisMode::identify)
     config.identify.validate();
   else

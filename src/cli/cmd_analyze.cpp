@@ -6,7 +6,7 @@
 #include <vector>
 
 #include "cli/capture_options.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "cli/commands.hpp"
 #include "core/exit_code.hpp"
 #include "dsp/analysis_output.hpp"
@@ -73,12 +73,12 @@ Runner add_analyze(CLI::App& app) {
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
     for (const auto& w : channel_selector_warnings(capture, args->channels, args->read))
-      std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
+      std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(w, false).c_str());
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
         std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n",
-                     report::terminal_text(channel.name, false).c_str(),
-                     report::terminal_text(flag.message, false).c_str());
+                     terminal_text(channel.name, false).c_str(),
+                     terminal_text(flag.message, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

@@ -7,7 +7,7 @@
 
 #include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
@@ -101,7 +101,7 @@ Runner add_excite(CLI::App& app) {
     if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::excitation_json(r)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
     outputs.publish(outputs.stdout_free() ? predict::excitation_text(r) : std::string());
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(w, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

@@ -7,14 +7,14 @@
 #include <vector>
 
 #include "cli/capture_options.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "cli/commands.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "ident/identify.hpp"
 #include "ident/model_file.hpp"
 #include "io/capture_reader.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_set.hpp"
 #include "report/result_plots.hpp"
 #include "report/svg_plot.hpp"
@@ -61,7 +61,7 @@ void read_pair(const IdentifyArgs& a, Capture& input, Capture& output) {
   io::apply_read_options(output, out_opts);
 }
 
-void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(message, false).c_str()); }
+void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(message, false).c_str()); }
 
 int run(const IdentifyArgs& a) {
   if (!a.model_path.empty() && a.options.order.empty())
@@ -96,11 +96,11 @@ int run(const IdentifyArgs& a) {
   for (const auto& flag : r.flags) {
     if (flag == "nonlinear")
       warn("nonlinear: output lines at harmonics the input does not excite (" +
-           io::format_fixed(r.linearity.level_db.value_or(0), 1) + " dB relative to the excited output)");
+           format_fixed(r.linearity.level_db.value_or(0), 1) + " dB relative to the excited output)");
     else if (flag == "model-inadequate" && r.model)
       warn("model " + std::to_string(r.model->order.num) + "/" + std::to_string(r.model->order.den) +
-           " is not adequate: cost " + io::format_significant(r.model->cost, 4) + " outside the band [" +
-           io::format_significant(r.model->chi2_lower, 4) + ", " + io::format_significant(r.model->chi2_upper, 4) +
+           " is not adequate: cost " + format_significant(r.model->cost, 4) + " outside the band [" +
+           format_significant(r.model->chi2_lower, 4) + ", " + format_significant(r.model->chi2_upper, 4) +
            "] for dof " + std::to_string(r.model->dof) + " (" + r.model->band_method + ")");
     else if (flag == "unstable-pole")
       warn("the fitted model has a pole with Re p >= 0 (unstable)");

@@ -7,24 +7,24 @@
 #include <string>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
-#include "report/safe_text.hpp"
-#include "report/table.hpp"
+#include "core/number_format.hpp"
+#include "core/safe_text.hpp"
+#include "core/table.hpp"
 #include "io/json_writer.hpp"
 
 namespace periodfit::dsp {
 namespace {
 
-std::string shortest(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
+std::string shortest(double v) { return std::isfinite(v) ? format_shortest(v) : ""; }
 
 std::string people(double v, int digits = 6) {
-  return std::isfinite(v) ? io::format_significant(v, digits) : "undefined";
+  return std::isfinite(v) ? format_significant(v, digits) : "undefined";
 }
 
-std::string db(double v) { return std::isfinite(v) ? io::format_fixed(v, 2) + " dB" : "undefined"; }
+std::string db(double v) { return std::isfinite(v) ? format_fixed(v, 2) + " dB" : "undefined"; }
 
 std::string percent(double ratio) {
-  return std::isfinite(ratio) ? io::format_significant(100 * ratio, 4) + " %" : "undefined";
+  return std::isfinite(ratio) ? format_significant(100 * ratio, 4) + " %" : "undefined";
 }
 
 }  // namespace
@@ -179,7 +179,7 @@ std::string harmonics_csv(const AnalyzeReport& r) {
   std::string out = "channel,unit,n,freq_hz,amplitude,amplitude_u,phase_deg,phase_u_deg,significant\n";
   for (const auto& c : r.channels)
     for (const auto& h : c.harmonics)
-      out += report::csv_cell(c.name) + "," + report::csv_cell(c.unit) + "," + std::to_string(h.n) + "," +
+      out += csv_cell(c.name) + "," + csv_cell(c.unit) + "," + std::to_string(h.n) + "," +
              shortest(h.freq_hz) + "," + shortest(h.amplitude) + "," + shortest(h.amplitude_u) + "," +
              shortest(h.phase_deg) + "," + shortest(h.phase_u_deg) + "," +
              (h.significant ? "yes" : "no") + "\n";
@@ -194,41 +194,41 @@ std::string analyze_text(const AnalyzeReport& r) {
     out += "\n" + c.name + (c.unit.empty() ? "" : " [" + c.unit + "]") + "\n";
     std::vector<std::pair<std::string, std::string>> kv;
     // Standard uncertainties are labelled u and set the digits printed (GUM 7.2.6).
-    std::string f0 = c.fundamental.f0_u_hz > 0 ? io::format_with_u(c.fundamental.f0_hz, c.fundamental.f0_u_hz, "Hz")
+    std::string f0 = c.fundamental.f0_u_hz > 0 ? format_with_u(c.fundamental.f0_hz, c.fundamental.f0_u_hz, "Hz")
                                                : people(c.fundamental.f0_hz, 10) + " Hz";
     f0 += " (" + c.fundamental.method + ", " + std::to_string(c.fundamental.harmonics_fitted) + " harmonics)";
     kv.emplace_back("f0", f0);
     kv.emplace_back("periods", people(c.periods, 6) + " (" + std::to_string(c.whole_periods) +
                                    " locked, " + std::to_string(c.samples_per_period) +
                                    " samples per period)");
-    kv.emplace_back("dc", io::format_with_u(c.dc, c.dc_u, c.unit));
+    kv.emplace_back("dc", format_with_u(c.dc, c.dc_u, c.unit));
     kv.emplace_back("rms", people(c.rms) + u + ", crest factor " + people(c.crest_factor, 4));
     kv.emplace_back("THD", percent(c.distortion.thd) + " (THD_R " + percent(c.distortion.thd_r) + ")");
     kv.emplace_back("THD+N", percent(c.distortion.thd_n) + ", SINAD " + db(c.distortion.sinad_db) +
                                  ", SNR " + db(c.distortion.snr_db));
     kv.emplace_back("ENOB", std::isfinite(c.distortion.enob_bits)
-                                ? io::format_fixed(c.distortion.enob_bits, 2) + " bits (full scale " +
+                                ? format_fixed(c.distortion.enob_bits, 2) + " bits (full scale " +
                                       people(c.full_scale_range, 6) + u + " peak-to-peak, " + c.enob_note + ")"
                                 : "not reported: " + c.enob_note);
     if (c.baseline.significant)
       kv.emplace_back("baseline", "drifts " + people(c.baseline.peak_to_peak, 3) + u + " peak-to-peak" +
                                       (c.baseline_modelled ? " (fitted, not counted as noise)" : " (counted as noise)"));
     kv.emplace_back("noise floor", people(c.noise_floor, 3) + u + " per line (" +
-                                       io::format_fixed(c.noise_floor_dbc, 1) + " dBc)");
+                                       format_fixed(c.noise_floor_dbc, 1) + " dBc)");
     kv.emplace_back("uncertainty", c.noise_method + ", " + std::to_string(c.noise_dof) + " dof");
     std::string flags;
     for (const auto& f : c.flags) flags += (flags.empty() ? "" : ", ") + f.code;
     kv.emplace_back("flags", flags.empty() ? "none" : flags);
-    out += report::render_key_values(kv, 2);
+    out += render_key_values(kv, 2);
     // Each u column is the standard uncertainty of the column to its left, in its unit; the
     // last says whether the line stands out of the noise (JSON/CSV "significant") and when its
     // phase is undefined because the amplitude is consistent with 0.
     const std::string per = c.unit.empty() ? "" : "/" + c.unit;
-    report::Table t({{"n"}, {"freq/Hz"}, {"amplitude" + per}, {"u" + per}, {"phase/deg"}, {"u/deg"},
-                     {"significant", report::Table::Align::left}});
+    Table t({{"n"}, {"freq/Hz"}, {"amplitude" + per}, {"u" + per}, {"phase/deg"}, {"u/deg"},
+                     {"significant", Table::Align::left}});
     for (const auto& h : c.harmonics) {
-      const io::ValueText amplitude = io::format_value_u(h.amplitude, h.amplitude_u);
-      const io::ValueText phase = io::format_value_u(h.phase_deg, h.phase_u_deg);
+      const ValueText amplitude = format_value_u(h.amplitude, h.amplitude_u);
+      const ValueText phase = format_value_u(h.phase_deg, h.phase_u_deg);
       t.add_row({std::to_string(h.n), people(h.freq_hz, 8), amplitude.value, amplitude.u,
                  h.phase_defined ? phase.value : "undefined", h.phase_defined ? phase.u : "-",
                  std::string(h.significant ? "yes" : "no") +

@@ -7,8 +7,8 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
-#include "report/table.hpp"
+#include "core/number_format.hpp"
+#include "core/table.hpp"
 #include "io/json_writer.hpp"
 
 namespace periodfit::ident {
@@ -31,7 +31,7 @@ std::string list_harmonics(const std::vector<int>& n) {
   return s;
 }
 
-std::string sig(double v, int digits = 6) { return std::isfinite(v) ? io::format_significant(v, digits) : "-"; }
+std::string sig(double v, int digits = 6) { return std::isfinite(v) ? format_significant(v, digits) : "-"; }
 
 /// How the cost band was found, for the text report (ident/cost_band.hpp).
 std::string band_text(const std::string& method) {
@@ -149,8 +149,8 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
                         "\" has no periodic component");
   const int nyquist_harmonics = int(std::floor(kNyquistFraction * fs / f0));
   if (nyquist_harmonics < 1)
-    throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
-                        " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
+    throw AnalysisError(ci.source + ": fundamental " + format_shortest(f0) +
+                        " Hz is above 0.45 of the sample rate " + format_shortest(fs) + " Hz");
   const int harmonics = std::min(fit_u.harmonics(), nyquist_harmonics);
   const int m = options.samples_per_period > 0 ? options.samples_per_period
                                                : dsp::default_samples_per_period(fs, f0, harmonics);
@@ -279,8 +279,8 @@ double parameter_value(const RationalFitResult& f, std::size_t i) {
   return f.delay_s;
 }
 
-/// A value with its standard uncertainty, labelled u, digits as GUM 7.2.6 (io::format_with_u).
-std::string with_u(double v, double u, std::string_view unit = "") { return io::format_with_u(v, u, unit); }
+/// A value with its standard uncertainty, labelled u, digits as GUM 7.2.6 (format_with_u).
+std::string with_u(double v, double u, std::string_view unit = "") { return format_with_u(v, u, unit); }
 
 /// The value and u cells of a table row (GUM 7.2.6 digits); "-" for both when not finite.
 void add_value_u(std::vector<std::string>& row, double v, double u) {
@@ -288,19 +288,19 @@ void add_value_u(std::vector<std::string>& row, double v, double u) {
     row.insert(row.end(), {"-", "-"});
     return;
   }
-  const io::ValueText t = io::format_value_u(v, u);
+  const ValueText t = format_value_u(v, u);
   row.insert(row.end(), {t.value, t.u});
 }
 
 /// "[lo, hi]" rounded to the decimal place of u (the column header states level and k).
 std::string interval_cell(double lo, double hi, double u) {
-  return "[" + io::format_value_u(lo, u).value + ", " + io::format_value_u(hi, u).value + "]";
+  return "[" + format_value_u(lo, u).value + ", " + format_value_u(hi, u).value + "]";
 }
 
-/// A value with its standard uncertainty, stated as everywhere else (io::format_with_u: GUM
+/// A value with its standard uncertainty, stated as everywhere else (format_with_u: GUM
 /// digits, "value unit, u = u unit"); "u undefined" where first-order theory gives none.
 std::string with_u(double v, double u, bool defined, const char* unit = "") {
-  if (defined && std::isfinite(u)) return io::format_with_u(v, u, unit);
+  if (defined && std::isfinite(u)) return format_with_u(v, u, unit);
   return sig(v) + (*unit ? std::string(" ") + unit : std::string()) + ", u undefined";
 }
 
@@ -333,9 +333,9 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
   if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
+    throw OptionError("f0_hz", format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
   if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
+    throw OptionError("f0_hint_hz", format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
   if (max_harmonic < 0)
     throw OptionError("max_harmonic", std::to_string(max_harmonic), "must be >= 0 (0 = automatic)");
   if (samples_per_period != 0 && samples_per_period < 2 * std::max(max_harmonic, 1) + 2)
@@ -362,8 +362,8 @@ IdentifyResult identify(const Capture& input_capture, const Capture& output_capt
   options.validate();
   const double a = input_capture.sample_rate_hz, b = output_capture.sample_rate_hz;
   if (std::abs(a - b) > kSameRateRelative * std::max(std::abs(a), std::abs(b)))
-    throw AnalysisError("input and output captures differ in sample rate: " + io::format_shortest(a) +
-                        " Hz (" + input_capture.source + ") vs " + io::format_shortest(b) + " Hz (" +
+    throw AnalysisError("input and output captures differ in sample rate: " + format_shortest(a) +
+                        " Hz (" + input_capture.source + ") vs " + format_shortest(b) + " Hz (" +
                         output_capture.source + ")");
   if (input_capture.sample_count() != output_capture.sample_count())
     throw AnalysisError("input and output captures differ in length: " +
@@ -508,7 +508,6 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
 }
 
 std::string format_identify_report(const IdentifyResult& r) {
-  using report::Table;
   std::string out;
   const std::string unit = h_unit(r);
   std::vector<std::pair<std::string, std::string>> head{
@@ -520,26 +519,26 @@ std::string format_identify_report(const IdentifyResult& r) {
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
                    " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
       {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
-                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
-                  io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
-  if (r.skew_s != 0) head.push_back({"skew", io::format_shortest(r.skew_s) + " s (output lag removed)"});
-  out += report::render_key_values(head);
+                  format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
+                  format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
+  if (r.skew_s != 0) head.push_back({"skew", format_shortest(r.skew_s) + " s (output lag removed)"});
+  out += render_key_values(head);
   out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
   // u(…) columns are standard uncertainties; the interval columns are the expanded intervals
   // at the level and k of the "frf" line, their level in the header.
-  const std::string pct = io::format_fixed(100 * r.frf.confidence, 0) + " %";
+  const std::string pct = format_fixed(100 * r.frf.confidence, 0) + " %";
   Table t({{"n"}, {"freq_Hz"}, {"|H|"}, {"u(|H|)"}, {"|H|_dB"}, {"phase_deg"}, {"u(phase)"},
            {"|H| " + pct + " interval", Table::Align::left}, {"phase " + pct + " interval", Table::Align::left},
            {"SNR_in_dB"}});
   for (const auto& p : r.frf.points) {
     std::vector<std::string> row{std::to_string(p.n), sig(p.freq_hz, 7)};
     add_value_u(row, p.mag, p.mag_u);
-    row.push_back(io::format_fixed(p.mag_db, 3));
+    row.push_back(format_fixed(p.mag_db, 3));
     add_value_u(row, p.phase_deg, p.phase_u_deg);
     row.push_back(interval_cell(p.mag_lo, p.mag_hi, p.mag_u));
     row.push_back(p.phase_defined ? interval_cell(p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg)
                                   : std::string("phase undefined (|H| consistent with 0)"));
-    row.push_back(io::format_fixed(p.input_snr_db, 1));
+    row.push_back(format_fixed(p.input_snr_db, 1));
     t.add_row(std::move(row));
   }
   out += t.render(2);
@@ -547,7 +546,7 @@ std::string format_identify_report(const IdentifyResult& r) {
   out += "\nlinearity: " + r.linearity.status;
   if (r.linearity.status != "untested")
     out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
-           io::format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
+           format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
   else if (!r.linearity.reason.empty())
     out += ": " + r.linearity.reason;
   out += "\n";
@@ -557,7 +556,7 @@ std::string format_identify_report(const IdentifyResult& r) {
     std::vector<int> ns;
     for (const auto& l : ls) ns.push_back(l.n);
     out += std::string("  ") + parity + " harmonics " + list_harmonics(ns) + ": " +
-           io::format_fixed(level.value_or(0), 1) + " dB relative to the excited output power\n";
+           format_fixed(level.value_or(0), 1) + " dB relative to the excited output power\n";
   };
   lines("even", r.linearity.even, r.linearity.even_level_db);
   lines("odd", r.linearity.odd, r.linearity.odd_level_db);
@@ -586,7 +585,7 @@ std::string format_identify_report(const IdentifyResult& r) {
     roots("poles", f.poles);
     roots("zeros", f.zeros);
     out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " +
-           io::format_fixed(100 * r.model_confidence, 0) + " % band [" + sig(f.chi2_lower) + ", " +
+           format_fixed(100 * r.model_confidence, 0) + " % band [" + sig(f.chi2_lower) + ", " +
            sig(f.chi2_upper) + "] (" + band_text(f.band_method) + ", expected " + sig(f.cost_expected) +
            "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
   }
@@ -598,7 +597,6 @@ std::string format_identify_report(const IdentifyResult& r) {
 }
 
 std::string format_roots_table(const std::vector<Root>& roots) {
-  using report::Table;
   Table t({{"root", Table::Align::left},
            {"freq_Hz", Table::Align::left},
            {"damping_ratio", Table::Align::left},

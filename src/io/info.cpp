@@ -4,8 +4,8 @@
 #include <cassert>
 #include <cmath>
 
-#include "io/number_format.hpp"
-#include "report/table.hpp"
+#include "core/number_format.hpp"
+#include "core/table.hpp"
 
 namespace periodfit::io {
 
@@ -210,7 +210,7 @@ std::string info_text(const CaptureInfo& info) {
   // (is the record long enough, is the clock regular, is the resolution enough, is it clipped).
   std::string out = info.source + "  (" + info.format + ", " + std::to_string(info.channels.size()) +
                     (info.channels.size() == 1 ? " channel)\n" : " channels)\n");
-  out += report::render_key_values(
+  out += render_key_values(
       {
           {"record", std::to_string(info.samples) + " samples at " + format_significant(info.sample_rate_hz, 9) +
                          " Hz = " + format_significant(info.duration_s, 9) + " s, first sample at t = " +
@@ -238,7 +238,7 @@ std::string info_text(const CaptureInfo& info) {
     if (c.flat_at_extremes > 0)
       flat += " held at the min or max in runs of " + std::to_string(kFlatRun) +
               " or more (clipping, or flat tops by design)";
-    out += report::render_key_values(
+    out += render_key_values(
         {
             {"fundamental", fundamental},
             {"dc", with_unit(c.mean, c.unit)},
@@ -251,7 +251,7 @@ std::string info_text(const CaptureInfo& info) {
   }
   if (!info.metadata.empty()) {
     out += "\n  preamble\n";
-    out += report::render_key_values(info.metadata, 4);
+    out += render_key_values(info.metadata, 4);
   }
   return out;
 }

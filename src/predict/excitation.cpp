@@ -12,9 +12,9 @@
 #include "core/memory_budget.hpp"
 #include "dsp/fft_plan.hpp"
 #include "io/audio_writer.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
-#include "report/table.hpp"
+#include "core/table.hpp"
 
 namespace periodfit::predict {
 
@@ -30,9 +30,9 @@ constexpr double kMaxFileSamples = 1e9;
 /// Harmonics listed for a wave excitation.
 constexpr int kWaveHarmonicsListed = 50;
 
-std::string num(double v) { return io::format_shortest(v); }
+std::string num(double v) { return format_shortest(v); }
 /// Frequencies in messages for people: 9 significant digits hide binary rounding.
-std::string hz(double v) { return io::format_significant(v, 9); }
+std::string hz(double v) { return format_significant(v, 9); }
 
 std::string trim(std::string_view s) {
   while (!s.empty() && (s.front() == ' ' || s.front() == '\t')) s.remove_prefix(1);
@@ -324,8 +324,8 @@ std::string excitation_bytes(const ExciteResult& r, const std::string& path) {
     out += '\n';
     out.reserve(total * static_cast<std::size_t>(24 + 22 * r.channels));
     for (std::size_t k = 0; k < total; ++k) {
-      out += io::format_shortest(static_cast<double>(k) / r.rate_hz);
-      const std::string v = io::format_shortest(r.period[k % r.period.size()]);
+      out += format_shortest(static_cast<double>(k) / r.rate_hz);
+      const std::string v = format_shortest(r.period[k % r.period.size()]);
       for (int c = 0; c < r.channels; ++c) {
         out += ',';
         out += v;
@@ -399,7 +399,7 @@ std::vector<std::pair<int, double>> parse_amplitude_spectrum(std::string_view te
 }
 
 std::string excitation_text(const ExciteResult& r) {
-  const auto g = [](double v) { return io::format_significant(v, 9); };
+  const auto g = [](double v) { return format_significant(v, 9); };
   std::vector<std::pair<std::string, std::string>> kv;
   kv.emplace_back("signal", r.method);
   kv.emplace_back("f0", g(r.f0_hz) + " Hz" + (r.adjusted == "f0" ? " (adjusted from " + g(r.f0_requested_hz) + " Hz)" : ""));
@@ -407,16 +407,16 @@ std::string excitation_text(const ExciteResult& r) {
                   g(r.rate_hz) + " Hz" + (r.adjusted == "rate" ? " (adjusted from " + g(r.rate_requested_hz) + " Hz)" : ""));
   kv.emplace_back("samples per period", std::to_string(r.samples_per_period));
   kv.emplace_back("periods", std::to_string(r.periods) + " (" + std::to_string(r.sample_count()) + " samples, " +
-                                 io::format_significant(static_cast<double>(r.sample_count()) / r.rate_hz, 6) + " s)");
+                                 format_significant(static_cast<double>(r.sample_count()) / r.rate_hz, 6) + " s)");
   kv.emplace_back("channels", std::to_string(r.channels) + (r.channels > 1 ? " (identical copies)" : ""));
   kv.emplace_back("format", std::string(sample_format_name(r.format)));
-  kv.emplace_back("peak", io::format_significant(r.peak, 9) + " (requested " + g(r.amplitude_requested) + ")" +
+  kv.emplace_back("peak", format_significant(r.peak, 9) + " (requested " + g(r.amplitude_requested) + ")" +
                               (r.full_scale_code > 0 ? ", max code " + std::to_string(r.max_code) + " of " +
                                                            std::to_string(r.full_scale_code - 1)
                                                      : ""));
-  kv.emplace_back("rms", io::format_significant(r.rms, 6));
-  kv.emplace_back("crest factor", io::format_fixed(r.crest_factor, 4) + " (" +
-                                      io::format_fixed(20 * std::log10(r.crest_factor), 2) + " dB)");
+  kv.emplace_back("rms", format_significant(r.rms, 6));
+  kv.emplace_back("crest factor", format_fixed(r.crest_factor, 4) + " (" +
+                                      format_fixed(20 * std::log10(r.crest_factor), 2) + " dB)");
   if (r.method == "multisine, random phases") kv.emplace_back("seed", std::to_string(r.seed));
   if (r.signal == "multisine") {
     std::string list;
@@ -425,7 +425,7 @@ std::string excitation_text(const ExciteResult& r) {
     if (show < r.harmonics.size()) list += ",… (" + std::to_string(r.harmonics.size()) + " in all)";
     kv.emplace_back("harmonics", list);
   }
-  return report::render_key_values(kv);
+  return render_key_values(kv);
 }
 
 nlohmann::ordered_json excitation_json(const ExciteResult& r) {

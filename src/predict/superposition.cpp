@@ -9,8 +9,8 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
-#include "report/table.hpp"
+#include "core/number_format.hpp"
+#include "core/table.hpp"
 #include "io/json_writer.hpp"
 
 namespace periodfit::predict {
@@ -37,9 +37,9 @@ constexpr int kTailMaxExtra = 6'000'000;  // 3 × the largest automatic count
 /// means |Y_n| falls slower than n^{−1.15}, and the extrapolated rest would exceed 9× the octave.
 constexpr double kTailDivergentRatio = 0.9;
 
-std::string num(double v) { return io::format_shortest(v); }
+std::string num(double v) { return format_shortest(v); }
 /// Frequencies in messages for people: 9 significant digits hide the rounding of ω/(2π).
-std::string hz(double v) { return io::format_significant(v, 9); }
+std::string hz(double v) { return format_significant(v, 9); }
 
 /// One period of y at t_k = k/(M·f0): the folded inverse DFT of dsp::sample_period.
 std::vector<double> folded_period(const std::vector<std::complex<double>>& y, int m) {
@@ -470,7 +470,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     if (const auto over = over_memory_budget(samples * kBytesPerPredictedSample))
       throw OptionError(options.rate_hz > 0 ? "rate_hz" : "periods",
                         options.rate_hz > 0 ? num(rate) : std::to_string(options.periods),
-                        io::format_significant(samples, 3) + " samples need " + *over);
+                        format_significant(samples, 3) + " samples need " + *over);
   };
   if (folded) {
     check_samples(m_round * options.periods);
@@ -589,7 +589,7 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
     if (tail_diverges)
       r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) +
                            " fall as 1/n or slower, so their sum does not converge (" +
-                           io::format_significant(r.output_tail_estimate, 3) + " up to harmonic " +
+                           format_significant(r.output_tail_estimate, 3) + " up to harmonic " +
                            std::to_string(r.tail_checked_to) +
                            "): the samples, min, max and ripple show the truncation at any harmonic count" +
                            (dsp::wave_has_jumps(wave) ? " (Gibbs overshoot next to the input's jumps, which "
@@ -597,8 +597,8 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
                                                       : ""));
     else
       r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) + " sum to up to " +
-                           io::format_significant(r.output_tail_estimate, 3) + " (" +
-                           io::format_significant(100 * r.output_tail_estimate / peak, 3) +
+                           format_significant(r.output_tail_estimate, 3) + " (" +
+                           format_significant(100 * r.output_tail_estimate / peak, 3) +
                            " % of the output peak): samples, min, max and ripple can be off by that much; "
                            "raise the harmonic count");
   }
@@ -643,10 +643,10 @@ dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
 }
 
 std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
-  const auto g = [](double v) { return io::format_significant(v, 6); };
-  // A standard uncertainty is labelled u and sets the digits (GUM 7.2.6, io::format_with_u).
+  const auto g = [](double v) { return format_significant(v, 6); };
+  // A standard uncertainty is labelled u and sets the digits (GUM 7.2.6, format_with_u).
   const auto with_u = [&](double v, double u, std::string_view unit = "") {
-    return r.has_uncertainty ? io::format_with_u(v, u, unit) : g(v) + (unit.empty() ? "" : " " + std::string(unit));
+    return r.has_uncertainty ? format_with_u(v, u, unit) : g(v) + (unit.empty() ? "" : " " + std::string(unit));
   };
   std::vector<std::pair<std::string, std::string>> kv;
   kv.emplace_back("method", r.method);
@@ -654,13 +654,13 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   kv.emplace_back("f0", g(r.f0_hz) + " Hz");
   std::string count = std::to_string(r.harmonics) + " (" + r.harmonic_count_method;
   if (std::isfinite(r.input_left_out_fraction))
-    count += "; input energy left out " + io::format_significant(r.input_left_out_fraction, 3) + " of the total";
+    count += "; input energy left out " + format_significant(r.input_left_out_fraction, 3) + " of the total";
   kv.emplace_back("harmonics used", count + ")");
   if (std::isfinite(r.output_tail_estimate))
     kv.emplace_back("output tail",
                     r.output_tail_method == "none"
                         ? std::string("0 (the input's series ends at N)")
-                        : io::format_significant(r.output_tail_estimate, 3) + " (sum of |Y_n| over n > N: " +
+                        : format_significant(r.output_tail_estimate, 3) + " (sum of |Y_n| over n > N: " +
                               r.output_tail_method + ", explicit to n = " + std::to_string(r.tail_checked_to) + ")");
   else
     kv.emplace_back("output tail", "unknown (no model or closed form beyond the harmonics used)");
@@ -674,8 +674,7 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
     for (std::size_t i = 0; i < r.flags.size(); ++i) f += (i ? ", " : "") + r.flags[i];
     kv.emplace_back("flags", f);
   }
-  std::string out = report::render_key_values(kv);
-  using report::Table;
+  std::string out = render_key_values(kv);
   std::vector<Table::Column> cols{{"n"}, {"freq_Hz"}, {"amplitude"}};
   if (r.has_uncertainty) cols.push_back({"u_amplitude"});
   cols.push_back({"phase_deg"});
@@ -690,15 +689,15 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
     const auto& h = r.harmonics_out[i];
     std::vector<std::string> row{std::to_string(h.n), g(h.freq_hz)};
     if (r.has_uncertainty) {
-      const io::ValueText amplitude = io::format_value_u(h.amplitude, h.amplitude_u);
-      const io::ValueText phase = io::format_value_u(h.phase_deg, h.phase_u_deg);
+      const ValueText amplitude = format_value_u(h.amplitude, h.amplitude_u);
+      const ValueText phase = format_value_u(h.phase_deg, h.phase_u_deg);
       row.insert(row.end(), {amplitude.value, amplitude.u, phase.value, phase.u});
     } else {
       row.push_back(g(h.amplitude));
-      row.push_back(io::format_fixed(h.phase_deg, 3));
+      row.push_back(format_fixed(h.phase_deg, 3));
     }
     row.push_back(g(std::abs(h.gain)));
-    row.push_back(io::format_fixed(phase_deg(h.gain), 3));
+    row.push_back(format_fixed(phase_deg(h.gain), 3));
     row.push_back(h.source);
     t.add_row(std::move(row));
   }
@@ -714,12 +713,12 @@ std::string format_predict_csv(const PredictResult& r) {
   std::string out = u ? "time_s,value,value_u\n" : "time_s,value\n";
   out.reserve(r.value.size() * 48);
   for (std::size_t k = 0; k < r.value.size(); ++k) {
-    out += io::format_shortest(r.time_s[k]);
+    out += format_shortest(r.time_s[k]);
     out += ',';
-    out += io::format_shortest(r.value[k]);
+    out += format_shortest(r.value[k]);
     if (u) {
       out += ',';
-      out += io::format_shortest(r.value_u[k]);
+      out += format_shortest(r.value_u[k]);
     }
     out += '\n';
   }
