@@ -12,7 +12,7 @@
 #include <string>
 #include <vector>
 
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 #include "core/number_format.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
@@ -202,7 +202,7 @@ TEST_CASE("cli frf: --save-model writes a model file that reads back") {
                          "--order 0/1 --save-model " + q(dir.file("rc.model.json")) + " --json " +
                          q(dir.file("rc.json")));
   REQUIRE(r.exit_code == 0);
-  const auto model = periodfit::ident::read_model_file(dir.file("rc.model.json"));
+  const auto model = periodfit::output::read_model_file(dir.file("rc.model.json"));
   const auto j = nlohmann::json::parse(periodfit::test::slurp(dir.file("rc.json")));
   CHECK(model.model.den.size() == 2);
   CHECK(model.model.den[0] == j["model"]["den"][0].get<double>());

@@ -72,6 +72,31 @@ TEST_CASE("layering: no source in src/ includes a header of a later stage") {
   CHECK(files > 100);
 }
 
+TEST_CASE("layering: heavy headers stay in the .cpp files of the stages that need them") {
+  // DEVELOPERS.md, "Pay only for what you include": Eigen, FFTW, libsndfile and toml++ never in
+  // a header (CLI11 only in the driver's); nlohmann/json only from the output stage on, whose
+  // headers return JSON documents.
+  const std::filesystem::path src = std::filesystem::path(PERIODFIT_SOURCE_DIR) / "src";
+  for (const auto& entry : std::filesystem::recursive_directory_iterator(src)) {
+    if (!entry.is_regular_file()) continue;
+    const auto relative = std::filesystem::relative(entry.path(), src);
+    const std::string stage = relative.begin()->string();
+    const bool header = entry.path().extension() == ".hpp";
+    std::istringstream lines(read_text(entry.path()));
+    std::string line;
+    while (std::getline(lines, line)) {
+      if (line.rfind("#include <", 0) != 0) continue;
+      const std::string_view name = std::string_view(line).substr(10);
+      const bool heavy = name.starts_with("Eigen/") || name.starts_with("unsupported/") ||
+                         name.starts_with("fftw3") || name.starts_with("sndfile") ||
+                         name.starts_with("toml++/") || (name.starts_with("CLI/") && stage != "cli");
+      if (header && heavy) FAIL_CHECK("src/", relative.string(), ": ", line);
+      if (name.starts_with("nlohmann/") && stage_rank(stage) < stage_rank("output"))
+        FAIL_CHECK("src/", relative.string(), ": ", line, " in a compute stage");
+    }
+  }
+}
+
 TEST_CASE("layering: the check rejects a back-edge and accepts earlier stages") {
   CHECK(layering_violations("dsp", "#include \"core/error.hpp\"\n#include \"io/info.hpp\"\n").empty());
   CHECK(layering_violations("cli", "#include \"batch/runner.hpp\"\n").empty());

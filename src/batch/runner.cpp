@@ -20,7 +20,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/number_format.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
 #include "core/safe_text.hpp"
@@ -80,13 +80,13 @@ json limit_json(const Limit& l, std::size_t index) {
   j["label"] = l.label;
   j["description"] = l.describe();
   j["allowed"] = l.allowed_text();
-  j["lo"] = io::json_number(l.lo);
-  j["hi"] = io::json_number(l.hi);
+  j["lo"] = output::json_number(l.lo);
+  j["hi"] = output::json_number(l.hi);
   j["guard_band"] = l.guard_band;
   return j;
 }
 
-json number_or_null(double v) { return std::isfinite(v) ? io::json_number(v) : json(nullptr); }
+json number_or_null(double v) { return std::isfinite(v) ? output::json_number(v) : json(nullptr); }
 
 bool yes_no(const Limit& l) {
   const ResultInfo* info = find_result(l.result);
@@ -102,12 +102,12 @@ json outcome_json(const Limit& l, const LimitOutcome& o, std::size_t index) {
   if (o.evaluated && yes_no(l))
     j["value"] = o.measured.value != 0;
   else
-    j["value"] = o.evaluated ? io::json_number(o.measured.value) : json(nullptr);
+    j["value"] = o.evaluated ? output::json_number(o.measured.value) : json(nullptr);
   const bool interval = o.evaluated && !yes_no(l) && o.measured.has_interval();
   j["u"] = o.evaluated && !yes_no(l) ? number_or_null(o.measured.u) : json(nullptr);
   j["k"] = interval ? number_or_null(o.measured.k) : json(nullptr);
-  j["lo95"] = interval ? io::json_number(o.measured.lo95) : json(nullptr);
-  j["hi95"] = interval ? io::json_number(o.measured.hi95) : json(nullptr);
+  j["lo95"] = interval ? output::json_number(o.measured.lo95) : json(nullptr);
+  j["hi95"] = interval ? output::json_number(o.measured.hi95) : json(nullptr);
   j["min"] = yes_no(l) ? json(nullptr) : number_or_null(l.lo);
   j["max"] = yes_no(l) ? json(nullptr) : number_or_null(l.hi);
   j["allowed"] = l.allowed_text();
@@ -446,7 +446,7 @@ BatchResult run_batch(const BatchOptions& options) {
         {
           FileWork w = process(i, paths[i], options);
           io::write_file_atomic((staging / w.result.json_file).string(),
-                                io::json_text(w.document));
+                                output::json_text(w.document));
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_report_section(w.section, i + 1));
           kept.row = report::report_row(w.section);
@@ -495,7 +495,7 @@ BatchResult run_batch(const BatchOptions& options) {
     }
   }
   io::write_file_atomic((staging / "summary.csv").string(), summary_csv(works, options.config));
-  io::write_file_atomic((staging / "summary.json").string(), io::json_text(summary_json(works, result, options)));
+  io::write_file_atomic((staging / "summary.json").string(), output::json_text(summary_json(works, result, options)));
 
   report::ReportOverview overview;
   overview.title = options.config.title;

@@ -21,8 +21,6 @@ using Eigen::MatrixXd;
 using Eigen::VectorXd;
 using cplx = std::complex<double>;
 
-std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
-
 int parameter_count(ModelOrder o, bool delay) { return o.num + 1 + o.den + (delay ? 1 : 0); }
 
 /// The FRF in scaled frequency x = ω/ω_ref, with the Cholesky factor of each 2×2 covariance
@@ -429,6 +427,8 @@ void require(bool ok, const char* field, const std::string& value, const char* c
 }
 
 }  // namespace
+
+std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
 
 ModelOrder parse_model_order(std::string_view text, std::string_view field) {
   ModelOrder o;

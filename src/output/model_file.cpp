@@ -1,4 +1,4 @@
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 
 #include <nlohmann/json.hpp>
 
@@ -12,9 +12,11 @@
 #include "io/input_limits.hpp"
 #include "core/number_format.hpp"
 #include "io/output_file.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
-namespace periodfit::ident {
+// The model and fit types are the ident stage's; their names are used as ident spells them.
+namespace periodfit::output {
+using namespace ident;
 
 namespace {
 
@@ -148,7 +150,7 @@ std::string format_model_file(const ModelFile& file) {
                          {"cov_re_im", p.cov_re_im}});
     doc["frf"] = std::move(pts);
   }
-  return io::json_text(doc);
+  return json_text(doc);
 }
 
 void write_model_file(const std::string& path, const ModelFile& file) {
@@ -316,4 +318,4 @@ ModelFile read_model_file(const std::string& path) {
                           [&] { return parse_model_file(io::read_file(path, io::kMaxTextFileBytes), path); });
 }
 
-}  // namespace periodfit::ident
+}  // namespace periodfit::output

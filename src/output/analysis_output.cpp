@@ -1,7 +1,5 @@
 // JSON, CSV and text renderings of an analysis (see analysis_output.hpp, docs/analyze-json.md).
-#include "dsp/analysis_output.hpp"
-
-#include "core/memory_budget.hpp"
+#include "output/analysis_output.hpp"
 
 #include <cmath>
 #include <string>
@@ -10,9 +8,12 @@
 #include "core/number_format.hpp"
 #include "core/safe_text.hpp"
 #include "core/table.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
-namespace periodfit::dsp {
+// The results rendered here are the dsp stage's; their names are used as dsp spells them.
+namespace periodfit::output {
+using namespace dsp;
+
 namespace {
 
 std::string shortest(double v) { return std::isfinite(v) ? format_shortest(v) : ""; }
@@ -29,106 +30,78 @@ std::string percent(double ratio) {
 
 }  // namespace
 
-AnalyzeReport analyze_capture(const Capture& capture, const std::vector<std::string>& channels,
-                              const AnalyzeOptions& options) {
-  validate(options);
-  AnalyzeReport r;
-  r.source = capture.source;
-  r.format = capture.format;
-  r.sample_rate_hz = capture.sample_rate_hz;
-  r.t0_s = capture.t0_s;
-  r.samples = capture.sample_count();
-  std::vector<std::size_t> indices;
-  if (channels.empty()) {
-    for (std::size_t i = 0; i < capture.channels.size(); ++i) indices.push_back(i);
-  } else {
-    for (const auto& sel : channels) indices.push_back(capture.channel_index(sel));
-  }
-  // analyze_channel names the channel; the file is named here, so every analysis error says
-  // where the data came from (issue 11, class 10).
-  for (std::size_t i : indices)
-    with_memory_step("analysing channel \"" + capture.channels[i].name + "\" of " + capture.source, [&] {
-      try {
-        r.channels.push_back(analyze_channel(capture.channels[i], capture.sample_rate_hz, capture.t0_s, options));
-      } catch (const AnalysisError& e) {
-        throw AnalysisError(capture.source + ": " + e.what());
-      }
-    });
-  return r;
-}
-
 nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   nlohmann::ordered_json j;
   j["name"] = c.name;
   j["unit"] = c.unit;
   j["status"] = c.status;
-  j["f0_hz"] = io::json_number(c.fundamental.f0_hz);
-  j["f0_u_hz"] = io::json_number(c.fundamental.f0_u_hz);
+  j["f0_hz"] = json_number(c.fundamental.f0_hz);
+  j["f0_u_hz"] = json_number(c.fundamental.f0_u_hz);
   j["f0_method"] = c.fundamental.method;
-  j["periods"] = io::json_number(c.periods);
+  j["periods"] = json_number(c.periods);
   j["whole_periods"] = c.whole_periods;
   j["samples_per_period"] = c.samples_per_period;
-  j["dc"] = io::json_number(c.dc);
-  j["dc_u"] = io::json_number(c.dc_u);
-  j["rms"] = io::json_number(c.rms);
-  j["peak"] = io::json_number(c.peak_abs);
-  j["crest_factor"] = io::json_number(c.crest_factor);
-  j["thd"] = io::json_number(c.distortion.thd);
-  j["thd_r"] = io::json_number(c.distortion.thd_r);
-  j["thd_n"] = io::json_number(c.distortion.thd_n);
-  j["sinad_db"] = io::json_number(c.distortion.sinad_db);
-  j["snr_db"] = io::json_number(c.distortion.snr_db);
-  j["enob_bits"] = std::isfinite(c.distortion.enob_bits) ? io::json_number(c.distortion.enob_bits)
+  j["dc"] = json_number(c.dc);
+  j["dc_u"] = json_number(c.dc_u);
+  j["rms"] = json_number(c.rms);
+  j["peak"] = json_number(c.peak_abs);
+  j["crest_factor"] = json_number(c.crest_factor);
+  j["thd"] = json_number(c.distortion.thd);
+  j["thd_r"] = json_number(c.distortion.thd_r);
+  j["thd_n"] = json_number(c.distortion.thd_n);
+  j["sinad_db"] = json_number(c.distortion.sinad_db);
+  j["snr_db"] = json_number(c.distortion.snr_db);
+  j["enob_bits"] = std::isfinite(c.distortion.enob_bits) ? json_number(c.distortion.enob_bits)
                                                            : nlohmann::ordered_json(nullptr);
-  j["full_scale_range"] = c.full_scale_range > 0 ? io::json_number(c.full_scale_range)
+  j["full_scale_range"] = c.full_scale_range > 0 ? json_number(c.full_scale_range)
                                                  : nlohmann::ordered_json(nullptr);
   j["enob_note"] = c.enob_note;
-  j["nad_rms"] = io::json_number(c.distortion.nad_rms);
-  j["noise_rms"] = io::json_number(c.noise_rms);
-  j["noise_floor"] = io::json_number(c.noise_floor);
-  j["noise_floor_dbc"] = io::json_number(c.noise_floor_dbc);
+  j["nad_rms"] = json_number(c.distortion.nad_rms);
+  j["noise_rms"] = json_number(c.noise_rms);
+  j["noise_floor"] = json_number(c.noise_floor);
+  j["noise_floor_dbc"] = json_number(c.noise_floor_dbc);
   j["noise_method"] = c.noise_method;
   j["noise_dof"] = c.noise_dof;
   nlohmann::ordered_json fit;
   fit["harmonics"] = c.fundamental.harmonics_fitted;
   fit["dof"] = c.fundamental.dof;
-  fit["residual_rms"] = io::json_number(c.fundamental.residual_rms);
+  fit["residual_rms"] = json_number(c.fundamental.residual_rms);
   fit["iterations"] = c.fundamental.iterations;
   fit["converged"] = c.fundamental.converged;
-  fit["condition"] = io::json_number(c.fundamental.condition);
+  fit["condition"] = json_number(c.fundamental.condition);
   j["fit"] = fit;
   nlohmann::ordered_json drift;
   const bool checked = c.f0_first_half_hz > 0;
   drift["checked"] = checked;
-  drift["f0_first_half_hz"] = checked ? io::json_number(c.f0_first_half_hz) : nullptr;
-  drift["f0_second_half_hz"] = checked ? io::json_number(c.f0_second_half_hz) : nullptr;
-  drift["sigmas"] = checked ? io::json_number(c.drift_sigmas) : nullptr;
+  drift["f0_first_half_hz"] = checked ? json_number(c.f0_first_half_hz) : nullptr;
+  drift["f0_second_half_hz"] = checked ? json_number(c.f0_second_half_hz) : nullptr;
+  drift["sigmas"] = checked ? json_number(c.drift_sigmas) : nullptr;
   j["drift"] = drift;
   nlohmann::ordered_json baseline;
   baseline["method"] = "legendre-2";
   baseline["significant"] = c.baseline.significant;
   baseline["modelled"] = c.baseline_modelled;
-  baseline["peak_to_peak"] = io::json_number(c.baseline.peak_to_peak);
+  baseline["peak_to_peak"] = json_number(c.baseline.peak_to_peak);
   const double a1 = c.harmonics.empty() ? 0 : c.harmonics.front().amplitude;
   baseline["peak_to_peak_dbc"] = a1 > 0 && c.baseline.peak_to_peak > 0
-                                     ? io::json_number(20 * std::log10(c.baseline.peak_to_peak / a1))
+                                     ? json_number(20 * std::log10(c.baseline.peak_to_peak / a1))
                                      : nlohmann::ordered_json(nullptr);
-  baseline["c1"] = io::json_number(c.baseline.c1);
-  baseline["c2"] = io::json_number(c.baseline.c2);
-  baseline["z1"] = io::json_number(c.baseline.z1);
-  baseline["z2"] = io::json_number(c.baseline.z2);
+  baseline["c1"] = json_number(c.baseline.c1);
+  baseline["c2"] = json_number(c.baseline.c2);
+  baseline["z1"] = json_number(c.baseline.z1);
+  baseline["z2"] = json_number(c.baseline.z2);
   j["baseline"] = baseline;
   nlohmann::ordered_json lines;
-  lines["threshold_db"] = io::json_number(c.residual_lines.threshold_db);
+  lines["threshold_db"] = json_number(c.residual_lines.threshold_db);
   lines["bins_examined"] = c.residual_lines.bins_examined;
-  lines["explained_share"] = io::json_number(c.explained_share);
+  lines["explained_share"] = json_number(c.explained_share);
   nlohmann::ordered_json list = nlohmann::ordered_json::array();
   for (const auto& l : c.residual_lines.lines) {
     nlohmann::ordered_json row;
-    row["freq_hz"] = io::json_number(l.freq_hz);
-    row["amplitude"] = io::json_number(l.amplitude);
-    row["level_dbc"] = a1 > 0 ? io::json_number(20 * std::log10(l.amplitude / a1)) : nlohmann::ordered_json(nullptr);
-    row["over_floor_db"] = io::json_number(l.over_floor_db);
+    row["freq_hz"] = json_number(l.freq_hz);
+    row["amplitude"] = json_number(l.amplitude);
+    row["level_dbc"] = a1 > 0 ? json_number(20 * std::log10(l.amplitude / a1)) : nlohmann::ordered_json(nullptr);
+    row["over_floor_db"] = json_number(l.over_floor_db);
     list.push_back(row);
   }
   lines["lines"] = list;
@@ -145,14 +118,14 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   for (const auto& h : c.harmonics) {
     nlohmann::ordered_json row;
     row["n"] = h.n;
-    row["freq_hz"] = io::json_number(h.freq_hz);
-    row["amplitude"] = io::json_number(h.amplitude);
-    row["amplitude_u"] = io::json_number(h.amplitude_u);
-    row["phase_deg"] = io::json_number(h.phase_deg);
-    row["phase_u_deg"] = io::json_number(h.phase_u_deg);
+    row["freq_hz"] = json_number(h.freq_hz);
+    row["amplitude"] = json_number(h.amplitude);
+    row["amplitude_u"] = json_number(h.amplitude_u);
+    row["phase_deg"] = json_number(h.phase_deg);
+    row["phase_u_deg"] = json_number(h.phase_u_deg);
     row["significant"] = h.significant;
-    row["amplitude_lo"] = io::json_number(h.amplitude_lo);
-    row["amplitude_hi"] = io::json_number(h.amplitude_hi);
+    row["amplitude_lo"] = json_number(h.amplitude_lo);
+    row["amplitude_hi"] = json_number(h.amplitude_hi);
     row["phase_defined"] = h.phase_defined;
     row["phase_note"] = h.phase_defined ? nlohmann::ordered_json(nullptr)
                                         : nlohmann::ordered_json("undefined: amplitude consistent with 0 at 95 %");
@@ -166,8 +139,8 @@ nlohmann::ordered_json analyze_json(const AnalyzeReport& r) {
   nlohmann::ordered_json j;
   j["source"] = r.source;
   j["format"] = r.format;
-  j["sample_rate_hz"] = io::json_number(r.sample_rate_hz);
-  j["t0_s"] = io::json_number(r.t0_s);
+  j["sample_rate_hz"] = json_number(r.sample_rate_hz);
+  j["t0_s"] = json_number(r.t0_s);
   j["samples"] = r.samples;
   nlohmann::ordered_json channels = nlohmann::ordered_json::array();
   for (const auto& c : r.channels) channels.push_back(channel_json(c));
@@ -239,4 +212,4 @@ std::string analyze_text(const AnalyzeReport& r) {
   return out;
 }
 
-}  // namespace periodfit::dsp
+}  // namespace periodfit::output
