@@ -188,7 +188,7 @@ TEST_CASE("frf: RC low-pass under a square wave recovers the pole -1/tau (60 dB 
   check_root(r.model->poles[0], cd(-1 / tau, 0));
   CHECK(std::abs(r.model->poles[0].time_constant_s - tau) <= kSigmaBound * r.model->poles[0].time_constant_u_s);
   CHECK(std::abs(r.model->dc_gain - 1) <= kSigmaBound * r.model->dc_gain_u);
-  CHECK(r.linearity.status == "linear");
+  CHECK(r.linearity.status == LinearityStatus::linear);
 }
 
 TEST_CASE("frf: RC low-pass under a half-wave rectified sine") {
@@ -341,12 +341,12 @@ TEST_CASE("frf: y = v + 0.05 v^2 behind a low-pass is flagged nonlinear, the lin
   o.max_harmonic = kH;
   const auto x = synthesise(u, 1e-4, rng);
   const auto linear = ident::identify(two_channel(x, synthesise(times(u, h), 1e-4, rng)), o);
-  CHECK(linear.linearity.status == "linear");
+  CHECK(linear.linearity.status == LinearityStatus::linear);
   CHECK(linear.flags.empty());
   const auto bent = ident::identify(
       two_channel(x, synthesise(times(u, h), 1e-4, rng, [](double v) { return v + 0.05 * v * v; })), o);
-  CHECK(bent.linearity.status == "nonlinear");
-  CHECK(bent.flags == std::vector<std::string>{"nonlinear"});
+  CHECK(bent.linearity.status == LinearityStatus::nonlinear);
+  CHECK(bent.flags == std::vector<Flag>{Flag::nonlinear});
   CHECK(bent.linearity.odd.empty());  // product-to-sum rule: x² of odd harmonics is even
   CHECK_FALSE(bent.linearity.even.empty());
   REQUIRE(bent.linearity.even_level_db.has_value());
@@ -455,8 +455,8 @@ TEST_CASE("frf: the chi-square verdict accepts the true order and rejects a too-
     o.order = "0/1";
     const auto low = ident::identify(capture, o);
     CHECK_FALSE(low.model->adequate);
-    CHECK(low.status == "model-inadequate");
-    CHECK(low.flags == std::vector<std::string>{"model-inadequate"});
+    CHECK(low.status == Status::model_inadequate);
+    CHECK(low.flags == std::vector<Flag>{Flag::model_inadequate});
   }
   CHECK(adequate >= kMinAdequate);
 }
@@ -531,7 +531,7 @@ TEST_CASE("frf: a constant, zero or noise-only output is refused as carrying no 
     CAPTURE((*y)[0]);
     try {
       const auto r = ident::identify(two_channel(x, *y, "dead.csv"), o);
-      FAIL("frf returned a result (status " << r.status << ") for an output without response");
+      FAIL("frf returned a result (status " << code(r.status) << ") for an output without response");
     } catch (const AnalysisError& e) {
       const std::string what = e.what();
       CHECK_MESSAGE(what.find("dead.csv: ") == 0, what);

@@ -117,7 +117,7 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
     m.set(measurement_key("phase_deg", {}, p.n),
           {p.phase_deg, p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg, kf});
   }
-  if (r.linearity.status != "untested") m.set("linear", Quantity::exact(r.linearity.nonlinear ? 0 : 1));
+  if (r.linearity.status != LinearityStatus::untested) m.set("linear", Quantity::exact(r.linearity.nonlinear ? 0 : 1));
 
   std::string order_text;
   if (r.model) {
@@ -181,13 +181,13 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   add_key_bool(a, "adequate", "adequate",
                r.model ? std::optional<bool>(r.model->adequate) : std::nullopt, "");
   add_key_bool(a, "linear", "linear",
-               r.linearity.status == "untested" ? std::nullopt : std::optional<bool>(!r.linearity.nonlinear),
+               r.linearity.status == LinearityStatus::untested ? std::nullopt : std::optional<bool>(!r.linearity.nonlinear),
                "untested");
 
   a.result_rows = output::identify_summary_rows(r, capture);
 
-  a.flags = r.flags;
-  for (const auto& f : r.flags) a.messages.push_back("flag: " + f);
+  a.flags = codes(r.flags);
+  for (const auto& f : a.flags) a.messages.push_back("flag: " + f);
   a.figures = report::identify_figures(capture, r);
   a.result_json = output::identify_json(r);
   return a;

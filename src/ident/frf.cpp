@@ -152,7 +152,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
   r.confidence = options.confidence;
   r.coverage_factor = coverage_factor(options.confidence, r.dof);
   r.quantile = r.dof > kNormalQuantileDof ? "normal" : "student-t";
-  if (!per_period) r.flags.push_back("few-periods");
+  if (!per_period) r.flags.push_back(Flag::few_periods);
 
   // Deskew: the recorded output lags by skew_s, so Y_true = Y_rec·e^{+jnω0·skew}. Rotating the
   // per-period phasors too keeps their spread about the rotated mean unchanged.
@@ -267,7 +267,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     }
     r.points.push_back(pt);
   }
-  if (at_floor) r.flags.push_back("numerical-floor");
+  if (at_floor) r.flags.push_back(Flag::numerical_floor);
   if (r.points.empty())
     throw AnalysisError("FRF: no excited harmonic: no input harmonic 1…" +
                         std::to_string(input.max_harmonic) + " exceeds the input noise floor by " +

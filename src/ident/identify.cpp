@@ -179,7 +179,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
                         "\" (or its variance) exceeds the range of double precision numbers; give the "
                         "channels in units closer to each other (--scale)");
   for (const auto& f : r.frf.flags) r.flags.push_back(f);
-  if (r.linearity.nonlinear) r.flags.push_back("nonlinear");
+  if (r.linearity.nonlinear) r.flags.push_back(Flag::nonlinear);
 
   if (!options.order.empty()) {
     RationalFitOptions fit = options.fit;
@@ -204,16 +204,16 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     }
     r.model_confidence = fit.confidence;
     if (!r.model->adequate) {
-      r.flags.push_back("model-inadequate");
-      r.status = "model-inadequate";
+      r.flags.push_back(Flag::model_inadequate);
+      r.status = Status::model_inadequate;
     }
-    if (r.model->unstable) r.flags.push_back("unstable-pole");
-    if (!(r.model->condition_number <= kIllConditionedJacobian)) r.flags.push_back("ill-conditioned");
-    if (!r.model->covariance_defined) r.flags.push_back("parameter-u-undefined");
+    if (r.model->unstable) r.flags.push_back(Flag::unstable_pole);
+    if (!(r.model->condition_number <= kIllConditionedJacobian)) r.flags.push_back(Flag::ill_conditioned);
+    if (!r.model->covariance_defined) r.flags.push_back(Flag::parameter_u_undefined);
     if (r.model->status == LeastSquaresStatus::max_iterations ||
         r.model->status == LeastSquaresStatus::failed) {
-      r.flags.push_back("model-not-converged");
-      r.status = "model-not-converged";
+      r.flags.push_back(Flag::model_not_converged);
+      r.status = Status::model_not_converged;
     }
   }
   return r;

@@ -35,6 +35,7 @@
 #include "ident/frf.hpp"
 #include "ident/linearity.hpp"
 #include "ident/rational_fit.hpp"
+#include "core/flags.hpp"
 
 namespace periodfit::ident {
 
@@ -69,7 +70,7 @@ struct IdentifyOptions {
 };
 
 struct IdentifyResult {
-  std::string status = "ok";      ///< "ok", or "model-inadequate" / "model-not-converged"
+  Status status = Status::ok;     ///< ok, or model_inadequate / model_not_converged
   std::string input_source, output_source;
   std::string input_channel, output_channel;  ///< channel names as in the captures
   std::string input_unit, output_unit;
@@ -81,7 +82,7 @@ struct IdentifyResult {
   LinearityResult linearity;
   std::optional<RationalFitResult> model;  ///< present when an order was asked for
   double model_confidence = 0.95;  ///< level of the χ² adequacy band
-  std::vector<std::string> flags;  ///< "nonlinear", "model-inadequate", "unstable-pole", "few-periods", "ill-conditioned"
+  std::vector<Flag> flags;  ///< nonlinear, model_inadequate, unstable_pole, few_periods, ill_conditioned, …
 };
 
 /// Both channels from one capture.

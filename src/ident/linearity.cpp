@@ -29,7 +29,7 @@ LinearityResult check_linearity(const FrfResult& frf, const dsp::PeriodSpectra& 
     if (frf.output_noise_floor[std::size_t(n)] > 0) tested.push_back(n);
   r.tested = int(tested.size());
   if (tested.empty() || r.dof < 1) {
-    r.status = "untested";
+    r.status = LinearityStatus::untested;
     if (frf.unexcited.empty())
       r.reason = "the input excites every harmonic up to " + std::to_string(frf.max_harmonic) +
                  ", so none is left free to show distortion; an input with unexcited harmonics (e.g. a "
@@ -72,7 +72,7 @@ LinearityResult check_linearity(const FrfResult& frf, const dsp::PeriodSpectra& 
     }
   }
   r.nonlinear = !r.odd.empty() || !r.even.empty();
-  r.status = r.nonlinear ? "nonlinear" : "linear";
+  r.status = r.nonlinear ? LinearityStatus::nonlinear : LinearityStatus::linear;
   if (r.nonlinear) r.level_db = 10 * std::log10((odd_power + even_power) / excited_power);
   if (!r.odd.empty()) r.odd_level_db = 10 * std::log10(odd_power / excited_power);
   if (!r.even.empty()) r.even_level_db = 10 * std::log10(even_power / excited_power);

@@ -52,9 +52,9 @@ std::string excitation_text(const ExciteResult& r) {
   const auto g = [](double v) { return format_significant(v, 9); };
   std::vector<std::pair<std::string, std::string>> kv;
   kv.emplace_back("signal", r.method);
-  kv.emplace_back("f0", g(r.f0_hz) + " Hz" + (r.adjusted == "f0" ? " (adjusted from " + g(r.f0_requested_hz) + " Hz)" : ""));
+  kv.emplace_back("f0", g(r.f0_hz) + " Hz" + (r.adjusted == LoopAdjust::f0 ? " (adjusted from " + g(r.f0_requested_hz) + " Hz)" : ""));
   kv.emplace_back("sample rate",
-                  g(r.rate_hz) + " Hz" + (r.adjusted == "rate" ? " (adjusted from " + g(r.rate_requested_hz) + " Hz)" : ""));
+                  g(r.rate_hz) + " Hz" + (r.adjusted == LoopAdjust::rate ? " (adjusted from " + g(r.rate_requested_hz) + " Hz)" : ""));
   kv.emplace_back("samples per period", std::to_string(r.samples_per_period));
   kv.emplace_back("periods", std::to_string(r.periods) + " (" + std::to_string(r.sample_count()) + " samples, " +
                                  format_significant(static_cast<double>(r.sample_count()) / r.rate_hz, 6) + " s)");
@@ -67,7 +67,7 @@ std::string excitation_text(const ExciteResult& r) {
   kv.emplace_back("rms", format_significant(r.rms, 6));
   kv.emplace_back("crest factor", format_fixed(r.crest_factor, 4) + " (" +
                                       format_fixed(20 * std::log10(r.crest_factor), 2) + " dB)");
-  if (r.method == "multisine, random phases") kv.emplace_back("seed", std::to_string(r.seed));
+  if (r.phases == PhaseRule::random) kv.emplace_back("seed", std::to_string(r.seed));
   if (r.signal == "multisine") {
     std::string list;
     const std::size_t show = std::min<std::size_t>(r.harmonics.size(), 12);
@@ -83,12 +83,12 @@ nlohmann::ordered_json excitation_json(const ExciteResult& r) {
   j["status"] = r.status;
   j["signal"] = r.signal;
   j["method"] = r.method;
-  j["seed"] = r.method == "multisine, random phases" ? nlohmann::ordered_json(r.seed) : nlohmann::ordered_json(nullptr);
+  j["seed"] = r.phases == PhaseRule::random ? nlohmann::ordered_json(r.seed) : nlohmann::ordered_json(nullptr);
   j["f0_requested_hz"] = r.f0_requested_hz;
   j["f0_hz"] = r.f0_hz;
   j["rate_requested_hz"] = r.rate_requested_hz;
   j["rate_hz"] = r.rate_hz;
-  j["adjusted"] = r.adjusted;
+  j["adjusted"] = !r.adjusted ? "none" : *r.adjusted == LoopAdjust::f0 ? "f0" : "rate";
   j["samples_per_period"] = r.samples_per_period;
   j["periods"] = r.periods;
   j["samples"] = r.sample_count();

@@ -149,7 +149,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["f0_hz"] = output::json_number(r.fundamental.f0_hz);
   j["f0_u_hz"] = output::json_number(r.fundamental.f0_u_hz);
   j["f0_method"] = r.fundamental.method;
-  j["status"] = r.status;
+  j["status"] = code(r.status);
   j["input"] = json{{"source", r.input_source}, {"channel", r.input_channel}, {"unit", r.input_unit}};
   j["output"] = json{{"source", r.output_source}, {"channel", r.output_channel}, {"unit", r.output_unit}};
   j["h_unit"] = h_unit(r);
@@ -188,7 +188,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   }
   j["frf"] = frf;
   json lin;
-  lin["status"] = r.linearity.status;
+  lin["status"] = code(r.linearity.status);
   lin["reason"] = r.linearity.reason;
   lin["nonlinear"] = r.linearity.nonlinear;
   lin["method"] = r.linearity.method;
@@ -269,7 +269,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   } else {
     j["model"] = nullptr;
   }
-  j["flags"] = r.flags;
+  j["flags"] = codes(r.flags);
   return j;
 }
 
@@ -309,8 +309,8 @@ std::string format_identify_report(const IdentifyResult& r) {
   }
   out += t.render(2);
 
-  out += "\nlinearity: " + r.linearity.status;
-  if (r.linearity.status != "untested")
+  out += "\nlinearity: " + std::string(code(r.linearity.status));
+  if (r.linearity.status != LinearityStatus::untested)
     out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
            format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
   else if (!r.linearity.reason.empty())
@@ -356,7 +356,7 @@ std::string format_identify_report(const IdentifyResult& r) {
            "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
   }
   std::string flags;
-  for (std::size_t i = 0; i < r.flags.size(); ++i) flags += (i ? ", " : "") + r.flags[i];
+  for (std::size_t i = 0; i < r.flags.size(); ++i) flags += (i ? ", " : "") + std::string(code(r.flags[i]));
   out += "\nflags: " + (flags.empty() ? std::string("none") : flags);
   out += "\n";
   return out;
@@ -410,7 +410,7 @@ std::vector<std::pair<std::string, std::string>> identify_summary_rows(const Ide
       rows.emplace_back("pole " + std::to_string(++entry), root_summary(pole));
     }
   }
-  std::string lin = r.linearity.status;
+  std::string lin(code(r.linearity.status));
   if (r.linearity.level_db) lin += ", distortion " + format_fixed(*r.linearity.level_db, 1) + " dB";
   rows.emplace_back("linearity", lin);
   return rows;
@@ -419,23 +419,23 @@ std::vector<std::pair<std::string, std::string>> identify_summary_rows(const Ide
 std::vector<std::string> identify_warnings(const IdentifyResult& r) {
   std::vector<std::string> out;
   for (const auto& flag : r.flags) {
-    if (flag == "nonlinear")
+    if (flag == Flag::nonlinear)
       out.push_back("nonlinear: output lines at harmonics the input does not excite (" +
                     format_fixed(r.linearity.level_db.value_or(0), 1) + " dB relative to the excited output)");
-    else if (flag == "model-inadequate" && r.model)
+    else if (flag == Flag::model_inadequate && r.model)
       out.push_back("model " + order_text(r.model->order) + " is not adequate: cost " +
                     format_significant(r.model->cost, 4) + " outside the band [" +
                     format_significant(r.model->chi2_lower, 4) + ", " + format_significant(r.model->chi2_upper, 4) +
                     "] for dof " + std::to_string(r.model->dof) + " (" + r.model->band_method + ")");
-    else if (flag == "unstable-pole")
+    else if (flag == Flag::unstable_pole)
       out.push_back("the fitted model has a pole with Re p >= 0 (unstable)");
-    else if (flag == "few-periods")
+    else if (flag == Flag::few_periods)
       out.push_back("only " + std::to_string(r.frf.periods) +
                     " whole periods: uncertainties come from the neighbouring noise bins");
-    else if (flag == "numerical-floor")
+    else if (flag == Flag::numerical_floor)
       out.push_back("the record looks noise-free: some FRF variances were raised to the numerical floor, "
                     "so the uncertainties and the chi-square verdict say little");
-    else if (flag == "model-not-converged")
+    else if (flag == Flag::model_not_converged)
       out.push_back("the model fit did not converge: the parameters are the best found, not an optimum");
   }
   return out;

@@ -21,7 +21,7 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   };
   std::vector<std::pair<std::string, std::string>> kv;
   kv.emplace_back("method", r.method);
-  kv.emplace_back("status", r.status);
+  kv.emplace_back("status", std::string(code(r.status)));
   kv.emplace_back("f0", g(r.f0_hz) + " Hz");
   std::string count = std::to_string(r.harmonics) + " (" + r.harmonic_count_method;
   if (std::isfinite(r.input_left_out_fraction))
@@ -42,7 +42,7 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   kv.emplace_back("THD", r.thd_defined ? with_u(100 * r.thd, 100 * r.thd_u, "%") : "undefined (no fundamental)");
   if (!r.flags.empty()) {
     std::string f;
-    for (std::size_t i = 0; i < r.flags.size(); ++i) f += (i ? ", " : "") + r.flags[i];
+    for (std::size_t i = 0; i < r.flags.size(); ++i) f += (i ? ", " : "") + std::string(code(r.flags[i]));
     kv.emplace_back("flags", f);
   }
   std::string out = render_key_values(kv);
@@ -100,7 +100,7 @@ nlohmann::ordered_json predict_json(const PredictResult& r) {
   using nlohmann::ordered_json;
   const auto u = [&](double v) { return r.has_uncertainty ? output::json_number(v) : ordered_json(nullptr); };
   ordered_json j;
-  j["status"] = r.status;
+  j["status"] = code(r.status);
   j["method"] = r.method;
   j["f0_hz"] = r.f0_hz;
   j["harmonics_used"] = r.harmonics;
@@ -143,7 +143,7 @@ nlohmann::ordered_json predict_json(const PredictResult& r) {
   j["harmonics"] = std::move(hs);
   j["samples"] = {{"rate_hz", r.rate_hz}, {"count", r.value.size()}, {"method", r.sampling_method},
                   {"dense_points", r.dense_points}};
-  j["flags"] = r.flags;
+  j["flags"] = codes(r.flags);
   j["warnings"] = r.warnings;
   return j;
 }

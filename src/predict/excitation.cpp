@@ -181,15 +181,14 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
   const int m = static_cast<int>(m_real);
   r.samples_per_period = m;
   if (std::abs(ratio - m_real) <= kWholeRelative * m_real) {
-    r.adjusted = "none";
     r.f0_hz = o.f0_hz;
     r.rate_hz = o.rate_hz;
   } else if (o.adjust == LoopAdjust::f0) {
-    r.adjusted = "f0";
+    r.adjusted = LoopAdjust::f0;
     r.rate_hz = o.rate_hz;
     r.f0_hz = o.rate_hz / m_real;
   } else {
-    r.adjusted = "rate";
+    r.adjusted = LoopAdjust::rate;
     r.f0_hz = o.f0_hz;
     r.rate_hz = m_real * o.f0_hz;
     if (o.format != SampleFormat::text) {
@@ -242,13 +241,16 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
         phase[k] = wrap_phase(phase[k - 1] - 2 * kPi * cumulative);
       }
       r.method = "multisine, schroeder phases";
+      r.phases = PhaseRule::schroeder;
     } else if (o.phases == PhaseRule::random) {
       std::mt19937_64 engine(o.seed);
       for (double& p : phase) p = wrap_phase(2 * kPi * static_cast<double>(engine() >> 11) * 0x1p-53);
       r.seed = o.seed;
       r.method = "multisine, random phases";
+      r.phases = PhaseRule::random;
     } else {
       r.method = "multisine, zero phases";
+      r.phases = PhaseRule::zero;
     }
     dsp::FourierSeries s{r.f0_hz, std::vector<std::complex<double>>(static_cast<std::size_t>(selected.back()) + 1, 0.0)};
     for (std::size_t i = 0; i < selected.size(); ++i)
@@ -302,10 +304,10 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
     const std::complex<double> z = 2.0 * spectrum[static_cast<std::size_t>(n)] / static_cast<double>(m);
     r.harmonics.push_back({n, n * r.f0_hz, std::abs(z), std::arg(z) * 180 / kPi});
   }
-  if (r.adjusted == "f0")
+  if (r.adjusted == LoopAdjust::f0)
     r.warnings.push_back("f0 adjusted from " + hz(o.f0_hz) + " Hz to " + hz(r.f0_hz) + " Hz so a period holds " +
                          std::to_string(m) + " samples");
-  if (r.adjusted == "rate")
+  if (r.adjusted == LoopAdjust::rate)
     r.warnings.push_back("sample rate adjusted from " + hz(o.rate_hz) + " Hz to " + hz(r.rate_hz) +
                          " Hz so a period holds " + std::to_string(m) + " samples");
   r.period = std::move(x);

@@ -41,6 +41,7 @@
 ///   ExciteResult r = generate_excitation(o);   // r.samples (one period), r.crest_factor
 ///   output::write_excitation("ms.wav", r);  // output/excitation_output.hpp
 #include <cstdint>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <utility>
@@ -111,7 +112,8 @@ struct ExciteResult {
   std::string signal;
   double f0_requested_hz = 0, f0_hz = 0;
   double rate_requested_hz = 0, rate_hz = 0;
-  std::string adjusted;           ///< "none", "f0" or "rate"
+  std::optional<LoopAdjust> adjusted;  ///< which one gave way; empty = none (M was already whole)
+  std::optional<PhaseRule> phases;     ///< multisine: the phase rule used; empty for a wave
   int samples_per_period = 0;     ///< M
   int periods = 0;
   int channels = 1;

@@ -387,7 +387,7 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     r.thd = r.thd_defined ? std::sqrt(distortion_s) / std::ldexp(std::abs(y1), -unit_exp) : 0;
   }
   if (!r.thd_defined) {
-    r.flags.push_back("no-fundamental");
+    r.flags.push_back(Flag::no_fundamental);
   }
   if (r.has_uncertainty) {
     Sensitivity s;
@@ -581,9 +581,9 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
   const double peak = std::max(std::abs(r.max), std::abs(r.min));
   if (tail_diverges ||
       (std::isfinite(r.output_tail_estimate) && r.output_tail_estimate > kVisibleTailFraction * peak)) {
-    r.status = "truncation-visible";
-    r.flags.push_back("truncation-visible");
-    if (dsp::wave_has_jumps(wave)) r.flags.push_back("gibbs");
+    r.status = Status::truncation_visible;
+    r.flags.push_back(Flag::truncation_visible);
+    if (dsp::wave_has_jumps(wave)) r.flags.push_back(Flag::gibbs);
     if (tail_diverges)
       r.warnings.push_back("the output harmonics above " + std::to_string(input.harmonics) +
                            " fall as 1/n or slower, so their sum does not converge (" +

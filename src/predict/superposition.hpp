@@ -48,6 +48,7 @@
 #include "dsp/waveforms.hpp"
 #include "ident/model.hpp"
 #include "ident/rational_fit.hpp"
+#include "core/flags.hpp"
 
 namespace periodfit::predict {
 
@@ -106,7 +107,7 @@ struct PredictedHarmonic {
 };
 
 struct PredictResult {
-  std::string status = "ok";     ///< "ok" or "truncation-visible" (see the header comment)
+  Status status = Status::ok;    ///< ok or truncation_visible (see the header comment)
   std::string method;            ///< "superposition (model)", "… (measured FRF)", "… (measured FRF + model)"
   double f0_hz = 0;
   int harmonics = 0;             ///< N, input harmonics used
@@ -133,7 +134,7 @@ struct PredictResult {
   std::string sampling_method;   ///< "folded-dft" or "direct"
   int dense_points = 0;          ///< grid points per period used for min/max
   std::vector<double> time_s, value, value_u;  ///< samples (value_u empty without uncertainty)
-  std::vector<std::string> flags;     ///< "gibbs", "truncation-visible", "no-fundamental"
+  std::vector<Flag> flags;            ///< gibbs, truncation_visible, no_fundamental
   std::vector<std::string> warnings;  ///< sentences for people (the CLI prints them to stderr)
 };
 
