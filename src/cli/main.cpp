@@ -12,6 +12,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
+#include "io/csv_reader.hpp"
 #include "io/output_file.hpp"
 #include "core/safe_text.hpp"
 
@@ -72,7 +73,9 @@ int close_stdout(int exit_code) {
 static int run_main(int argc, char** argv) {
   using periodfit::ExitCode;
   using periodfit::to_int;
+  // The process-wide signal handlers, installed here and nowhere in the library.
   periodfit::io::install_interrupt_cleanup();
+  periodfit::io::install_mapped_file_guard();
   CLI::App app{"periodfit: measurement post-processor for sampled periodic waveforms", "periodfit"};
   app.footer(kExitCodes);
   app.require_subcommand(1);

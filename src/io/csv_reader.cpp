@@ -27,6 +27,7 @@
 #include "core/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/quantity.hpp"
+#include "io/file_handle.hpp"
 
 namespace periodfit::io {
 
@@ -1185,7 +1186,11 @@ extern "C" void on_mapped_file_sigbus(int signal_number, siginfo_t* info, void* 
   std::raise(signal_number);
 }
 
-void install_sigbus_guard() {
+std::atomic<bool> g_guard_installed{false};
+
+}  // namespace
+
+void install_mapped_file_guard() {
   static std::once_flag once;
   std::call_once(once, [] {
     struct sigaction action {};
@@ -1193,8 +1198,11 @@ void install_sigbus_guard() {
     sigemptyset(&action.sa_mask);
     action.sa_flags = SA_SIGINFO;
     ::sigaction(SIGBUS, &action, &g_previous_sigbus);
+    g_guard_installed.store(true);
   });
 }
+
+namespace {
 
 // A read-only mapping of a regular file; pages behind the parse are given back.
 class MappedFile {
@@ -1202,7 +1210,6 @@ class MappedFile {
   MappedFile(const MappedFile&) = delete;
   MappedFile& operator=(const MappedFile&) = delete;
   MappedFile(void* base, std::size_t size) : base_(base), size_(size) {
-    install_sigbus_guard();
     for (std::size_t i = 0; i < kGuardSlots; ++i) {
       char* expected = nullptr;
       if (g_guarded[i].base.compare_exchange_strong(expected, static_cast<char*>(base))) {
@@ -1274,28 +1281,19 @@ Capture parse_csv(std::string_view text, std::string_view name, const CsvOptions
 }
 
 Capture read_csv(const std::string& path, const CsvOptions& options) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
-  struct stat info {};
-  if (::fstat(fd, &info) != 0) {
-    const int e = errno;
-    ::close(fd);
-    throw IoError(path, "cannot read", e);
-  }
-  if (S_ISDIR(info.st_mode)) {
-    ::close(fd);
-    throw IoError(path, "cannot read", EISDIR);
-  }
-  if (!S_ISREG(info.st_mode) || info.st_size == 0) {
-    // Pipes and devices have no size to map; an empty file has nothing to map.
-    ::close(fd);
+  FileHandle handle = FileHandle::open_readable(path);
+  if (!handle.regular() || handle.size() == 0 || !g_guard_installed.load()) {
+    // Pipes and devices have no size to map; an empty file has nothing to map; and without the
+    // guard (installed by main, not by the library) a file cut short under the mapping would
+    // kill the process, so it is read instead.
+    handle.close();
     const std::string bytes = read_file(path, max_piped_capture_bytes());
     return parse_csv(bytes, path, options);
   }
-  const auto size = static_cast<std::size_t>(info.st_size);
-  void* base = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, fd, 0);
+  const auto size = static_cast<std::size_t>(handle.size());
+  void* base = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, handle.fd(), 0);
   const int map_errno = errno;
-  ::close(fd);
+  handle.close();
   if (base == MAP_FAILED) throw IoError(path, "cannot read", map_errno);
   MappedFile file(base, size);
   ::madvise(base, size, MADV_SEQUENTIAL);
