@@ -202,6 +202,8 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     } catch (const AnalysisError& e) {
       throw AnalysisError(ci.source + ": model fit: " + e.what());
     }
+    // A model the data cannot determine leaves identify nothing to report for the order asked.
+    if (!r.model->fitted_model()) throw AnalysisError(ci.source + ": model fit: " + r.model->message);
     r.model_confidence = fit.confidence;
     if (!r.model->adequate) {
       r.flags.push_back(Flag::model_inadequate);

@@ -258,6 +258,15 @@ constexpr int kGridSkIterations = 2;
 
 /// The full fit at one order: linear start (with the delay grid when T is free), then the
 /// weighted nonlinear least squares. Throws AnalysisError when singular.
+/// The result of a fit the data cannot determine: no model, the status and why.
+RationalFitResult singular_fit(ModelOrder order, LeastSquaresStatus status, std::string message) {
+  RationalFitResult r;
+  r.order = order;
+  r.status = status;
+  r.message = std::move(message);
+  return r;
+}
+
 RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const RationalFitOptions& o) {
   const int M = order.num, N = order.den;
   const bool with_delay = o.estimate_delay;
@@ -296,9 +305,10 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
     start = linear_start(d, order, fixed_delay, o.max_sk_iterations, o.sk_tolerance);
   }
   if (start.singular || !std::isfinite(start.cost))
-    throw AnalysisError(what + " is singular: the linearised start has rank " + std::to_string(start.rank) + " < " +
-                        std::to_string(start.columns) + " (the data cannot determine this many coefficients; " +
-                        "lower the order)");
+    return singular_fit(order, LeastSquaresStatus::singular,
+                        what + " is singular: the linearised start has rank " + std::to_string(start.rank) + " < " +
+                            std::to_string(start.columns) + " (the data cannot determine this many coefficients; " +
+                            "lower the order)");
 
   // Weighted nonlinear least squares of the whitened residuals, analytic Jacobian.
   LeastSquaresProblem problem;
@@ -338,8 +348,9 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   if (with_delay) theta0.push_back(start.model.delay);
   const LeastSquaresResult ls = solve_least_squares(problem, theta0, o.least_squares);
   if (ls.status == LeastSquaresStatus::singular || ls.status == LeastSquaresStatus::failed)
-    throw AnalysisError(what + " is singular: " + ls.message + " (the data cannot determine this many parameters; " +
-                        "lower the order)");
+    return singular_fit(order, ls.status,
+                        what + " is singular: " + ls.message + " (the data cannot determine this many parameters; " +
+                            "lower the order)");
 
   RationalFitResult out;
   out.order = order;
@@ -504,8 +515,11 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
     OrderTrial t;
     t.order = order;
     t.parameters = parameter_count(order, options.estimate_delay);
-    try {
-      RationalFitResult r = fit_order(d, order, options);
+    RationalFitResult r = fit_order(d, order, options);
+    if (!r.fitted_model()) {
+      t.failed = true;
+      t.note = r.message;
+    } else {
       t.cost = r.cost;
       t.dof = r.dof;
       t.chi2_upper = r.chi2_upper;
@@ -515,12 +529,8 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
       t.aic = r.cost * chi2_scale + 2 * t.parameters;
       t.mdl = r.cost * chi2_scale + t.parameters * std::log(2.0 * K);
       t.passed = r.cost <= r.chi2_upper;
-      fits.push_back(std::move(r));
-    } catch (const AnalysisError& e) {
-      t.failed = true;
-      t.note = e.what();
-      fits.emplace_back();
     }
+    fits.push_back(std::move(r));
     trials.push_back(t);
     if (t.passed) break;
   }
@@ -545,9 +555,14 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
       }
     }
   }
-  if (best == trials.size())
-    throw AnalysisError("no model order up to " + std::to_string(options.auto_max_den_order) +
-                        " could be fitted: every fit was singular (first: " + trials.front().note + ")");
+  if (best == trials.size()) {
+    RationalFitResult none = singular_fit(trials.front().order, LeastSquaresStatus::singular,
+                                          "no model order up to " + std::to_string(options.auto_max_den_order) +
+                                              " could be fitted: every fit was singular (first: " +
+                                              trials.front().note + ")");
+    none.order_trials = std::move(trials);
+    return none;
+  }
   RationalFitResult r = std::move(fits[best]);
   r.order_decided_by = decided;
   r.order_trials = std::move(trials);
