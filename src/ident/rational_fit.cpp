@@ -182,23 +182,6 @@ LinearStart linear_start(const ScaledData& d, ModelOrder order, double delay, in
   return out;
 }
 
-/// Roots of c_0 + c_1 s + … + c_n s^n (c_n ≠ 0) as eigenvalues of the companion matrix.
-std::vector<cplx> roots(const std::vector<double>& c) {
-  const auto n = static_cast<Index>(c.size()) - 1;
-  if (n < 1) return {};
-  const double lead = c.back();
-  MatrixXd comp = MatrixXd::Zero(n, n);
-  for (Index i = 1; i < n; ++i) comp(i, i - 1) = 1;
-  for (Index i = 0; i < n; ++i) comp(i, n - 1) = -c[static_cast<std::size_t>(i)] / lead;
-  Eigen::EigenSolver<MatrixXd> es(comp, false);
-  std::vector<cplx> r;
-  for (Index i = 0; i < n; ++i) r.push_back(es.eigenvalues()(i));
-  std::sort(r.begin(), r.end(), [](cplx p, cplx q) {
-    if (std::abs(p) != std::abs(q)) return std::abs(p) < std::abs(q);
-    return p.imag() < q.imag();
-  });
-  return r;
-}
 
 /// One root p' (scaled) of the polynomial with coefficients `c` whose free coefficients occupy
 /// parameters [first, first + free) of θ'; fills value, 1σ and the derived quantities.
@@ -405,9 +388,9 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   std::vector<double> a_s(th.begin() + M + 1, th.begin() + M + 1 + N);
   a_s.push_back(1);
   const std::vector<double> b_s(th.begin(), th.begin() + M + 1);
-  for (cplx p : roots(a_s)) out.poles.push_back(describe_root(p, a_s, static_cast<std::size_t>(M + 1), static_cast<std::size_t>(N), cov, d.omega_ref));
+  for (cplx p : polynomial_roots(a_s)) out.poles.push_back(describe_root(p, a_s, static_cast<std::size_t>(M + 1), static_cast<std::size_t>(N), cov, d.omega_ref));
   if (M >= 1 && b_s.back() != 0)
-    for (cplx z : roots(b_s)) out.zeros.push_back(describe_root(z, b_s, 0, static_cast<std::size_t>(M + 1), cov, d.omega_ref));
+    for (cplx z : polynomial_roots(b_s)) out.zeros.push_back(describe_root(z, b_s, 0, static_cast<std::size_t>(M + 1), cov, d.omega_ref));
   for (const Root& p : out.poles) out.unstable = out.unstable || p.value.real() >= 0;
 
   // dc gain b_0/a_0 (the ω_ref factors cancel), gradient (1/a'_0, −b'_0/a'_0²).

@@ -1,6 +1,5 @@
 #include "predict/superposition.hpp"
 
-#include <Eigen/Eigenvalues>
 #include <algorithm>
 #include <charconv>
 #include <cmath>
@@ -166,18 +165,7 @@ ident::RationalModel model_from_coefficients(std::vector<double> num_c, std::vec
 }
 
 std::vector<std::complex<double>> model_poles(const ident::RationalModel& model) {
-  const std::size_t order = model.den.empty() ? 0 : model.den.size() - 1;
-  if (order == 0) return {};
-  const double lead = model.den.back();
-  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(order), static_cast<Eigen::Index>(order));
-  for (std::size_t i = 0; i < order; ++i) {
-    c(0, static_cast<Eigen::Index>(i)) = -model.den[order - 1 - i] / lead;
-    if (i + 1 < order) c(static_cast<Eigen::Index>(i + 1), static_cast<Eigen::Index>(i)) = 1;
-  }
-  Eigen::EigenSolver<Eigen::MatrixXd> solver(c, false);
-  std::vector<std::complex<double>> poles;
-  for (Eigen::Index i = 0; i < solver.eigenvalues().size(); ++i) poles.push_back(solver.eigenvalues()[i]);
-  return poles;
+  return ident::polynomial_roots(model.den);
 }
 
 void PredictOptions::validate() const {
