@@ -12,7 +12,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
-#include "io/csv_reader.hpp"
+#include "io/mapped_file.hpp"
 #include "io/output_file.hpp"
 #include "core/safe_text.hpp"
 

@@ -41,17 +41,9 @@ struct CsvOptions {
 Capture parse_csv(std::string_view text, std::string_view name, const CsvOptions& options = {});
 
 /// Reads and parses the file at `path` without holding a copy of its text: the file is mapped
-/// (once install_mapped_file_guard has run) and the pages already parsed are released as the
+/// (io/mapped_file.hpp, once install_mapped_file_guard has run) and the pages already parsed are released as the
 /// parse advances. Throws IoError for a
 /// missing, unreadable or directory path.
 Capture read_csv(const std::string& path, const CsvOptions& options = {});
-
-/// Installs the process's SIGBUS handler that lets read_csv map files: a file cut shorter while
-/// it is mapped then becomes an InputError instead of killing the process. Signal handlers are
-/// process-wide state, so the library never installs one itself: main calls this once at start
-/// (the CLI and the test runner do). Without it read_csv reads the file (up to the piped-input
-/// limit, io/input_limits.hpp) instead of mapping it. Faults outside read_csv's mappings are
-/// passed to the handler installed before, or get the default action.
-void install_mapped_file_guard();
 
 }  // namespace periodfit::io

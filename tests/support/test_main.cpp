@@ -3,7 +3,7 @@
 #define DOCTEST_CONFIG_IMPLEMENT
 #include <doctest/doctest.h>
 
-#include "io/csv_reader.hpp"
+#include "io/mapped_file.hpp"
 
 int main(int argc, char** argv) {
   periodfit::io::install_mapped_file_guard();
