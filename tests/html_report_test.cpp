@@ -17,6 +17,7 @@
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
 #include "report/html_report.hpp"
+#include "report/figures.hpp"
 #include "report/svg_plot.hpp"
 #include "support/cli_runner.hpp"
 #include "support/lowpass_bode.hpp"

@@ -12,6 +12,7 @@
 #include "io/capture_reader.hpp"
 #include "core/number_format.hpp"
 #include "report/result_plots.hpp"
+#include "report/figures.hpp"
 
 namespace periodfit::batch {
 

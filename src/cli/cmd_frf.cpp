@@ -18,6 +18,7 @@
 #include "core/number_format.hpp"
 #include "io/output_set.hpp"
 #include "report/result_plots.hpp"
+#include "report/figures.hpp"
 #include "report/svg_plot.hpp"
 #include "output/json_writer.hpp"
 

@@ -1,4 +1,5 @@
 #include "report/result_plots.hpp"
+#include "report/figures.hpp"
 
 #include <algorithm>
 #include <cmath>

@@ -18,6 +18,7 @@
 #include "dsp/capture_analysis.hpp"
 #include "dsp/harmonics.hpp"
 #include "ident/identify.hpp"
+#include "report/figures.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::report {
