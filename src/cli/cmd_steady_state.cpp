@@ -17,6 +17,7 @@
 #include "io/capture_reader.hpp"
 #include "io/output_set.hpp"
 #include "output/predict_output.hpp"
+#include "predict/input_series.hpp"
 #include "predict/superposition.hpp"
 #include "output/json_writer.hpp"
 

@@ -147,12 +147,4 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
 PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSystem& system,
                                    const PredictOptions& options = {});
 
-/// Parses one `n:amp:phase_deg` term (the --harmonic option). Throws OptionError.
-dsp::HarmonicTerm parse_harmonic_term(std::string_view text);
-
-/// The series of a capture channel's analysed harmonics (dsp/harmonics.hpp): dc, then
-/// A_n·e^{jφ_n} for n = 1…H; method "measured", left-out fraction unknown (NaN).
-dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
-                                              const std::vector<std::complex<double>>& phasors);
-
 }  // namespace periodfit::predict
