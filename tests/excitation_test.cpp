@@ -11,6 +11,7 @@
 
 #include "core/error.hpp"
 #include "io/audio_writer.hpp"
+#include "output/excitation_output.hpp"
 #include "predict/excitation.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
@@ -123,14 +124,14 @@ TEST_CASE("excitation: harmonic lists parse ranges and mixes, and bad items are 
 TEST_CASE("excitation: a period holds a whole number of samples, by adjusting f0 or the rate") {
   auto o = multisine("1-10", 997, 48000);
   auto r = predict::generate_excitation(o);
-  CHECK(r.adjusted == "f0");
+  CHECK(r.adjusted == predict::LoopAdjust::f0);
   CHECK(r.samples_per_period == 48);
   CHECK(r.f0_hz == 1000);
   REQUIRE(r.warnings.size() == 1);
   CHECK(r.warnings[0] == "f0 adjusted from 997 Hz to 1000 Hz so a period holds 48 samples");
   o.adjust = predict::LoopAdjust::rate;
   r = predict::generate_excitation(o);
-  CHECK(r.adjusted == "rate");
+  CHECK(r.adjusted == predict::LoopAdjust::rate);
   CHECK(r.f0_hz == 997);
   CHECK(r.rate_hz == 47856);  // 48 × 997
   o.f0_hz = 1001.3;
@@ -141,7 +142,7 @@ TEST_CASE("excitation: a period holds a whole number of samples, by adjusting f0
                        OptionError);
   o.f0_hz = 1000;
   r = predict::generate_excitation(o);
-  CHECK(r.adjusted == "none");
+  CHECK(!r.adjusted.has_value());
   // Harmonics at or above Nyquist are refused.
   CHECK_THROWS_WITH_AS(predict::generate_excitation(multisine("1-24", 1000, 48000)),
                        "invalid option: harmonics = 1-24 (harmonic 24 (24000 Hz) must lie below half the sample "
@@ -161,7 +162,7 @@ TEST_CASE("excitation: the WAV file loops seamlessly and reads back exactly thro
     o.format = fmt;
     const auto r = predict::generate_excitation(o);
     const std::string path = dir.file("ms.wav");
-    predict::write_excitation(path, r);
+    output::write_excitation(path, r);
     const Wav w = read_wav(path);
     INFO("format " << predict::sample_format_name(fmt));
     CHECK(w.info.samplerate == 48000);

@@ -3,6 +3,7 @@
 // "channel: code" form maps back to its code.
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <filesystem>
 #include <fstream>
 #include <regex>
@@ -17,9 +18,11 @@ using namespace periodfit;
 namespace fs = std::filesystem;
 
 TEST_CASE("flags: every flag code the sources raise is in the table, with a sentence") {
-  // The sources raise flags as `flags.push_back("code")` or `flags.push_back({"code", …})`;
-  // a new flag without a table row would reach a batch verdict with no severity.
-  const std::regex raise(R"(flags\.push_back\(\s*\{?\s*"([a-z0-9-]+)\")");
+  // The sources raise flags as `flags.push_back("code")` or `flags.push_back({"code", …})`
+  // (analyze's channel flags), or as `flags.push_back(Flag::name)` (frf, steady-state), whose
+  // code is the name with '-' for '_'; a new flag without a table row would reach a batch
+  // verdict with no severity.
+  const std::regex raise(R"(flags\.push_back\(\s*(?:\{?\s*"([a-z0-9-]+)\"|Flag::([a-z0-9_]+)))");
   std::set<std::string> raised;
   for (const auto& e : fs::recursive_directory_iterator(fs::path(PERIODFIT_SOURCE_DIR) / "src")) {
     if (e.path().extension() != ".cpp") continue;
@@ -27,7 +30,11 @@ TEST_CASE("flags: every flag code the sources raise is in the table, with a sent
     std::stringstream text;
     text << in.rdbuf();
     const std::string s = text.str();
-    for (std::sregex_iterator it(s.begin(), s.end(), raise), end; it != end; ++it) raised.insert((*it)[1]);
+    for (std::sregex_iterator it(s.begin(), s.end(), raise), end; it != end; ++it) {
+      std::string code = (*it)[1].matched ? (*it)[1].str() : (*it)[2].str();
+      std::replace(code.begin(), code.end(), '_', '-');
+      raised.insert(code);
+    }
   }
   // From `grep -rn "flags.push_back" src/` at the time of writing: the analyze, identify and
   // predict flags.
@@ -50,6 +57,22 @@ TEST_CASE("flags: the default failing set is the invalidates flags, clipped and 
   CHECK(find_flag("numerical-floor")->severity == FlagSeverity::info);
   CHECK(std::string(severity_name(FlagSeverity::invalidates)) == "invalidates");
   CHECK(find_flag("no-such-flag") == nullptr);
+}
+
+TEST_CASE("flags: every Flag has its row, in the enum's order, and statuses take their flag's code") {
+  // flag_info indexes the table by the enum's value, so row i must be Flag i.
+  const auto& table = flag_catalogue();
+  for (std::size_t i = 0; i < table.size(); ++i) {
+    CAPTURE(table[i].code);
+    CHECK(static_cast<std::size_t>(table[i].flag) == i);
+    CHECK(&flag_info(table[i].flag) == &table[i]);
+  }
+  CHECK(table.size() == static_cast<std::size_t>(Flag::no_fundamental) + 1);
+  CHECK(code(Status::ok) == "ok");
+  CHECK(code(Status::model_inadequate) == "model-inadequate");
+  CHECK(code(Status::model_not_converged) == "model-not-converged");
+  CHECK(code(Status::truncation_visible) == "truncation-visible");
+  CHECK(codes({Flag::nonlinear, Flag::gibbs}) == std::vector<std::string>{"nonlinear", "gibbs"});
 }
 
 TEST_CASE("flags: a batch row's channel prefix is stripped to the code") {

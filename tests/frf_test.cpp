@@ -246,7 +246,7 @@ TEST_CASE("frf: generator noise that passes through the DUT cancels in Y/U (corr
                                   k2 * (max_y * max_y + p.mag * p.mag * max_u * max_u) / std::norm(p.u));
     CHECK(p.var_h <= floor * (1 + 1e-9));
   }
-  CHECK(frf.flags == std::vector<std::string>{"numerical-floor"});
+  CHECK(frf.flags == std::vector<Flag>{Flag::numerical_floor});
 }
 
 TEST_CASE("frf: 95 % intervals of |H| and phase cover with Student-t at P = 5") {
@@ -290,7 +290,7 @@ TEST_CASE("frf: few periods use the neighbouring noise bins and their dof") {
   const auto frf = ident::compute_frf(su, sy);
   CHECK(frf.method == "noise-bins");
   CHECK(frf.dof == su.noise_bin_dof);
-  CHECK(frf.flags == std::vector<std::string>{"few-periods"});
+  CHECK(frf.flags == std::vector<Flag>{Flag::few_periods});
   REQUIRE(frf.points.size() == 5);
   for (const auto& p : frf.points) {
     const auto i = std::size_t(p.n);

@@ -225,7 +225,7 @@ TEST_CASE("harmonic count: a 200-line multisine through a second-order low-pass 
   CHECK(r.frf.points.size() == static_cast<std::size_t>(kLines));
   REQUIRE(r.model.has_value());
   CHECK(r.model->adequate);
-  CHECK(r.status == "ok");
+  CHECK(r.status == periodfit::Status::ok);
   // f0 within 3 u (the issue: the 50-harmonic fit's u was ~40× its actual error).
   constexpr double kSigmaBound = 3;
   CHECK(std::abs(r.fundamental.f0_hz - f0) <= kSigmaBound * r.fundamental.f0_u_hz);

@@ -17,6 +17,7 @@
 
 #include "core/error.hpp"
 #include "ident/identify.hpp"
+#include "output/identify_output.hpp"
 #include "support/python_ref.hpp"
 
 using namespace periodfit;
@@ -187,7 +188,7 @@ TEST_CASE("frf: RC low-pass under a square wave recovers the pole -1/tau (60 dB 
   check_root(r.model->poles[0], cd(-1 / tau, 0));
   CHECK(std::abs(r.model->poles[0].time_constant_s - tau) <= kSigmaBound * r.model->poles[0].time_constant_u_s);
   CHECK(std::abs(r.model->dc_gain - 1) <= kSigmaBound * r.model->dc_gain_u);
-  CHECK(r.linearity.status == "linear");
+  CHECK(r.linearity.status == LinearityStatus::linear);
 }
 
 TEST_CASE("frf: RC low-pass under a half-wave rectified sine") {
@@ -340,12 +341,12 @@ TEST_CASE("frf: y = v + 0.05 v^2 behind a low-pass is flagged nonlinear, the lin
   o.lock.max_harmonic = kH;
   const auto x = synthesise(u, 1e-4, rng);
   const auto linear = ident::identify(two_channel(x, synthesise(times(u, h), 1e-4, rng)), o);
-  CHECK(linear.linearity.status == "linear");
+  CHECK(linear.linearity.status == LinearityStatus::linear);
   CHECK(linear.flags.empty());
   const auto bent = ident::identify(
       two_channel(x, synthesise(times(u, h), 1e-4, rng, [](double v) { return v + 0.05 * v * v; })), o);
-  CHECK(bent.linearity.status == "nonlinear");
-  CHECK(bent.flags == std::vector<std::string>{"nonlinear"});
+  CHECK(bent.linearity.status == LinearityStatus::nonlinear);
+  CHECK(bent.flags == std::vector<Flag>{Flag::nonlinear});
   CHECK(bent.linearity.odd.empty());  // product-to-sum rule: x² of odd harmonics is even
   CHECK_FALSE(bent.linearity.even.empty());
   REQUIRE(bent.linearity.even_level_db.has_value());
@@ -454,8 +455,8 @@ TEST_CASE("frf: the chi-square verdict accepts the true order and rejects a too-
     o.order = "0/1";
     const auto low = ident::identify(capture, o);
     CHECK_FALSE(low.model->adequate);
-    CHECK(low.status == "model-inadequate");
-    CHECK(low.flags == std::vector<std::string>{"model-inadequate"});
+    CHECK(low.status == Status::model_inadequate);
+    CHECK(low.flags == std::vector<Flag>{Flag::model_inadequate});
   }
   CHECK(adequate >= kMinAdequate);
 }
@@ -487,7 +488,7 @@ TEST_CASE("frf: --order auto picks the second-order model for a second-order DUT
     REQUIRE(r.model.has_value());
     REQUIRE(r.model->order_trials.size() >= 3);
     CHECK_FALSE(r.model->order_trials[0].passed);  // 0/1 never fits a second-order DUT
-    const auto j = ident::identify_json(r);
+    const auto j = output::identify_json(r);
     CHECK(j["model"]["den"].back() == 1.0);  // monic, ascending powers
     CHECK(j["model"]["order_trials"].size() == r.model->order_trials.size());
     if (r.model->order.num == 0 && r.model->order.den == 2) {
@@ -534,7 +535,7 @@ TEST_CASE("frf: a constant, zero or noise-only output is refused as carrying no 
     CAPTURE((*y)[0]);
     try {
       const auto r = ident::identify(two_channel(x, *y, "dead.csv"), o);
-      FAIL("frf returned a result (status " << r.status << ") for an output without response");
+      FAIL("frf returned a result (status " << code(r.status) << ") for an output without response");
     } catch (const AnalysisError& e) {
       const std::string what = e.what();
       CHECK_MESSAGE(what.find("dead.csv: ") == 0, what);
@@ -570,16 +571,16 @@ TEST_CASE("frf: poles and zeros print frequency first in Hz, each value with u="
   ident::Root origin;             // a zero at s = 0: no corner, no time constant
   ident::Root repeated = real;
   repeated.uncertainty_defined = false;
-  CHECK(ident::format_roots_table({real, pair, conjugate, origin, repeated}) ==
+  CHECK(output::format_roots_table({real, pair, conjugate, origin, repeated}) ==
         "  root            freq_Hz               damping_ratio       Q                   time_constant_s\n"
         "  --------------  --------------------  ------------------  ------------------  ---------------------\n"
         "  real            159.2, u = 1.6        -                   -                   0.001000, u = 1.0e-05\n"
         "  complex pair    1200.0, u = 3.0       0.3500, u = 0.0020  1.4286, u = 0.0082  -\n"
         "  real, at s = 0  0, u = 0              -                   -                   -\n"
         "  real            159.155, u undefined  -                   -                   0.001, u undefined\n");
-  CHECK(ident::root_summary(pair) ==
+  CHECK(output::root_summary(pair) ==
         "complex pair: natural frequency 1200.0 Hz, u = 3.0 Hz, damping ratio 0.3500, u = 0.0020, Q 1.4286, "
         "u = 0.0082");
-  CHECK(ident::root_summary(real) ==
+  CHECK(output::root_summary(real) ==
         "real: corner frequency 159.2 Hz, u = 1.6 Hz, time constant 0.001000 s, u = 1.0e-05 s");
 }

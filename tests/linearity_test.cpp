@@ -103,7 +103,7 @@ TEST_CASE("linearity: a linear DUT is not flagged") {
   const auto sy = spectra_of(waveform(through_lowpass(u), rng, kSigma));
   const auto frf = ident::compute_frf(su, sy);
   const auto lin = ident::check_linearity(frf, sy);
-  CHECK(lin.status == "linear");
+  CHECK(lin.status == LinearityStatus::linear);
   CHECK_FALSE(lin.nonlinear);
   CHECK(lin.tested == kH - 6);
   CHECK(lin.dof == 2 * (kP - 1));
@@ -118,7 +118,7 @@ TEST_CASE("linearity: a noise-free linear DUT is not flagged (rounding is not di
   const auto su = spectra_of(waveform(u, rng, 0));
   const auto sy = spectra_of(waveform(through_lowpass(u), rng, 0));
   const auto lin = ident::check_linearity(ident::compute_frf(su, sy), sy);
-  CHECK(lin.status == "linear");
+  CHECK(lin.status == LinearityStatus::linear);
 }
 
 TEST_CASE("linearity: an input exciting every harmonic leaves the test untested, and says why") {
@@ -130,7 +130,7 @@ TEST_CASE("linearity: an input exciting every harmonic leaves the test untested,
   const auto frf = ident::compute_frf(su, sy);
   REQUIRE(frf.unexcited.empty());
   const auto lin = ident::check_linearity(frf, sy);
-  CHECK(lin.status == "untested");
+  CHECK(lin.status == LinearityStatus::untested);
   CHECK(lin.reason ==
         "the input excites every harmonic up to 20, so none is left free to show distortion; an input with "
         "unexcited harmonics (e.g. a multisine with gaps from periodfit excite) allows the test");
@@ -144,7 +144,7 @@ TEST_CASE("linearity: y = v + 0.05 v^2 behind a low-pass raises nonlinear, even 
   const auto sy = spectra_of(waveform(v, rng, kSigma, 0.05));
   const auto frf = ident::compute_frf(su, sy);
   const auto lin = ident::check_linearity(frf, sy);
-  CHECK(lin.status == "nonlinear");
+  CHECK(lin.status == LinearityStatus::nonlinear);
   CHECK(lin.nonlinear);
   // x² of an odd multisine lands on even harmonics only (product-to-sum rule): the skipped odd
   // harmonics 5 and 11 stay clean.

@@ -10,6 +10,8 @@
 #include <sstream>
 
 #include "core/error.hpp"
+#include "output/predict_output.hpp"
+#include "predict/input_series.hpp"
 #include "predict/superposition.hpp"
 #include "support/python_ref.hpp"
 
@@ -118,7 +120,7 @@ TEST_CASE("superposition: RC and second-order low-pass steady states match scipy
     CHECK(g.max_error < kLsimRelTol * g.peak);
     // The reported tail covers the truncation error (1.1: extrapolation; 1e-8: lsim's own error).
     CHECK(g.max_error <= 1.1 * r.output_tail_estimate + 1e-8 * g.peak);
-    CHECK(r.status == "ok");
+    CHECK(r.status == Status::ok);
     CHECK(r.sampling_method == "folded-dft");
     // The extremes agree with the simulation's extremes too.
     const auto lo_hi = std::minmax_element(ref.begin(), ref.end());
@@ -145,7 +147,7 @@ TEST_CASE("superposition: the output tail estimate bounds the error of an automa
   const auto ref = lsim_period({1 / tau}, {1 / tau, 1}, "half-wave", a, f0);
   const Agreement g = compare(r, ref);
   INFO("N = " << r.harmonics << ", error " << g.max_error << ", estimate " << r.output_tail_estimate);
-  CHECK(r.status == "truncation-visible");
+  CHECK(r.status == Status::truncation_visible);
   CHECK(r.output_tail_estimate > predict::kVisibleTailFraction * g.peak);
   CHECK(g.max_error <= kTailEstimateFactor * r.output_tail_estimate + 1e-8 * g.peak);
   CHECK(g.max_error > 0.5 * r.output_tail_estimate);  // the estimate is not wildly pessimistic
@@ -161,9 +163,9 @@ TEST_CASE("superposition: a system that passes high frequencies shows Gibbs on a
   predict::PredictOptions o;
   o.truncation.harmonics = 2001;
   const auto r = predict::predict_steady_state(wave(WaveKind::square, 1, 50), sys, o);
-  CHECK(r.status == "truncation-visible");
+  CHECK(r.status == Status::truncation_visible);
   CHECK(r.output_tail_method == "summed (diverges)");
-  CHECK(std::find(r.flags.begin(), r.flags.end(), "gibbs") != r.flags.end());
+  CHECK(std::find(r.flags.begin(), r.flags.end(), Flag::gibbs) != r.flags.end());
   REQUIRE(r.warnings.size() == 1);
   CHECK(r.warnings[0].find("does not converge") != std::string::npos);
   // H = 1 + 1000/(s + 1000): the square plus its RC-filtered copy, which reaches tanh(T/4τ) =
@@ -200,7 +202,7 @@ TEST_CASE("superposition: RC with tau >> T on a full-wave rectified input ripple
   // Peak-to-peak ripple ≈ 2·A_2: higher terms add at most 2·Σ_{k≥2} A_2k ≈ 15 % of it.
   CHECK(r.ripple_pp == doctest::Approx(2 * a2).epsilon(0.16));
   CHECK_FALSE(r.thd_defined);  // no fundamental at f0
-  CHECK(std::find(r.flags.begin(), r.flags.end(), "no-fundamental") != r.flags.end());
+  CHECK(std::find(r.flags.begin(), r.flags.end(), Flag::no_fundamental) != r.flags.end());
 }
 
 TEST_CASE("superposition: closed forms for a sine through a first-order low-pass") {
@@ -220,7 +222,7 @@ TEST_CASE("superposition: closed forms for a sine through a first-order low-pass
   CHECK(r.rms == doctest::Approx(std::sqrt(0.25 + amp * amp / 2)).epsilon(1e-14));
   CHECK(r.ripple_pp == doctest::Approx(2 * amp).epsilon(1e-12));  // Newton-refined extremes
   CHECK(r.thd == 0);
-  CHECK(r.status == "ok");
+  CHECK(r.status == Status::ok);
   CHECK(r.output_tail_estimate == 0);
   CHECK_FALSE(r.has_uncertainty);
   CHECK(r.value_u.empty());
@@ -427,10 +429,10 @@ TEST_CASE("superposition: CSV and JSON carry the documented fields") {
   predict::PredictOptions o;
   o.default_samples_per_period = 4;
   const auto r = predict::predict_steady_state(wave(WaveKind::sine, 1, 250), sys, o);
-  const std::string csv = predict::format_predict_csv(r);
+  const std::string csv = output::format_predict_csv(r);
   CHECK(csv.rfind("time_s,value,value_u\n0,", 0) == 0);
   CHECK(std::count(csv.begin(), csv.end(), '\n') == 5);
-  const auto j = predict::predict_json(r);
+  const auto j = output::predict_json(r);
   std::vector<std::string> keys;
   for (const auto& [k, v] : j.items()) keys.push_back(k);
   CHECK(keys == std::vector<std::string>{"status", "method", "f0_hz", "harmonics_used", "harmonic_count_method",

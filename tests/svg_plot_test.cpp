@@ -11,6 +11,7 @@
 #include <string>
 #include <vector>
 
+#include "report/figures.hpp"
 #include "report/svg_plot.hpp"
 #include "support/cli_runner.hpp"
 #include "support/lowpass_bode.hpp"

@@ -10,7 +10,7 @@
 #include "core/memory_budget.hpp"
 #include "io/input_limits.hpp"
 #include "core/flags.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 
 namespace periodfit::batch {
@@ -340,9 +340,9 @@ AnalysisMode parse_mode(std::string_view text, std::string_view field) {
 
 void AnalyzeSettings::validate() const {
   if (!(lock.f0_hz >= 0) || !std::isfinite(lock.f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(lock.f0_hz), "must be >= 0 (0 = estimate)");
+    throw OptionError("f0_hz", format_shortest(lock.f0_hz), "must be >= 0 (0 = estimate)");
   if (!(lock.f0_hint_hz >= 0) || !std::isfinite(lock.f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(lock.f0_hint_hz), "must be >= 0 (0 = none)");
+    throw OptionError("f0_hint_hz", format_shortest(lock.f0_hint_hz), "must be >= 0 (0 = none)");
   if (lock.max_harmonic < 0)
     throw OptionError("harmonics", std::to_string(lock.max_harmonic), "must be >= 0 (0 = automatic)");
   for (const auto& c : channels)

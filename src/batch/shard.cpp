@@ -17,7 +17,7 @@
 
 #include "batch/report_folder.hpp"
 #include "core/error.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 #include "io/output_file.hpp"
 
 namespace periodfit::batch {
@@ -401,7 +401,7 @@ void write_shard_record(const std::string& folder, const BatchOptions& options,
   for (const auto& [path, shard] : listing) list.push_back({path, shard});
   j["listing"] = std::move(list);
   j["held"] = std::move(held);
-  io::write_file_atomic((dir / kManifest).string(), io::json_text(j));
+  io::write_file_atomic((dir / kManifest).string(), output::json_text(j));
 }
 
 void GatherOptions::validate() const {
@@ -550,7 +550,7 @@ GatherResult gather_shards(const GatherOptions& options) {
     used.push_back({{"index", k}, {"folder", m.folder}, {"captures", m.held.size()}});
   }
   record["from"] = std::move(used);
-  io::write_file_atomic((staging / "gather.json").string(), io::json_text(record));
+  io::write_file_atomic((staging / "gather.json").string(), output::json_text(record));
   folder.publish();
 
   out.complete = true;

@@ -11,7 +11,7 @@
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 
 namespace periodfit::cli {
 
@@ -23,7 +23,7 @@ struct GatherArgs {
 };
 
 void gather_warning(const std::string& line) {
-  const std::string text = "periodfit: warning: " + report::terminal_text(line, false) + "\n";
+  const std::string text = "periodfit: warning: " + terminal_text(line, false) + "\n";
   std::fputs(text.c_str(), stderr);
 }
 

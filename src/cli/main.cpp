@@ -12,8 +12,9 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
+#include "io/mapped_file.hpp"
 #include "io/output_file.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 
 namespace {
 
@@ -51,7 +52,7 @@ constexpr const char* kExitCodes =
 
 void print_error(const std::string& message) {
   // The message may quote input text (names, cells, paths): one line, controls shown as \xHH.
-  std::fprintf(stderr, "periodfit: error: %s\n", periodfit::report::terminal_text(message, false).c_str());
+  std::fprintf(stderr, "periodfit: error: %s\n", periodfit::terminal_text(message, false).c_str());
 }
 
 /// The one place standard output is flushed and closed, whatever the command printed (help,
@@ -78,7 +79,9 @@ int close_stdout(int exit_code) {
 static int run_main(int argc, char** argv) {
   using periodfit::ExitCode;
   using periodfit::to_int;
+  // The process-wide signal handlers, installed here and nowhere in the library.
   periodfit::io::install_interrupt_cleanup();
+  periodfit::io::install_mapped_file_guard();
   CLI::App app{"periodfit: measurement post-processor for sampled periodic waveforms", "periodfit"};
   app.footer(kExitCodes);
   app.require_subcommand(1);

@@ -10,8 +10,10 @@
 ///   uncertainties that rest on an approximation).
 /// - `info`: a fact about the signal or the method that does not qualify the numbers.
 ///
-/// Results carry flags as plain codes ("clipped"); analyze-mode batch rows prefix the channel
-/// ("v_out: clipped"), which flag_code() strips.
+/// The frf and steady-state results carry flags as `Flag` values, and their statuses as `Status`
+/// values; both are written as their codes ("model-inadequate") through this table, which is
+/// the only place a code is spelled. analyze's channel flags carry the code (dsp/harmonics.hpp);
+/// analyze-mode batch rows prefix the channel ("v_out: clipped"), which flag_code() strips.
 ///
 /// Usage:
 ///   if (const FlagInfo* f = find_flag(flag_code(text)); f && f->severity == FlagSeverity::invalidates) …
@@ -23,10 +25,19 @@ namespace periodfit {
 
 enum class FlagSeverity { invalidates, caution, info };
 
+/// Every flag, in catalogue (documentation) order.
+enum class Flag {
+  clipped, aliasing_risk, not_converged, dc_only, not_periodic, forced_f0_off, model_not_converged,
+  few_periods, baseline_drift, interference, identical_periods, harmonics_truncated, drift,
+  nonlinear, model_inadequate, unstable_pole, ill_conditioned, parameter_u_undefined,
+  numerical_floor, truncation_visible, gibbs, no_fundamental
+};
+
 /// "invalidates", "caution", "info".
 const char* severity_name(FlagSeverity severity);
 
 struct FlagInfo {
+  Flag flag;
   std::string_view code;       ///< as results carry it: "clipped"
   FlagSeverity severity;
   std::string_view raised_by;  ///< "analyze", "frf", "steady-state" (the commands whose results carry it)
@@ -38,6 +49,29 @@ const std::vector<FlagInfo>& flag_catalogue();
 
 /// The entry for `code`, or nullptr.
 const FlagInfo* find_flag(std::string_view code);
+
+/// The entry of `flag` (every Flag has one).
+const FlagInfo& flag_info(Flag flag);
+
+/// The code results are written with: flag_info(flag).code.
+std::string_view code(Flag flag);
+
+/// The codes of `flags`, in order (for JSON arrays and batch rows).
+std::vector<std::string> codes(const std::vector<Flag>& flags);
+
+/// The outcome of a result: ok, or the flag that decided it otherwise (an frf model that is not
+/// adequate or did not converge, a steady-state series cut where it still shows). The code of a
+/// status that is not ok is its flag's code, so severity and sentence are the flag's.
+enum class Status { ok, model_inadequate, model_not_converged, truncation_visible };
+
+/// "ok", or the deciding flag's code.
+std::string_view code(Status status);
+
+/// How a linearity check came out (ident/linearity.hpp).
+enum class LinearityStatus { linear, nonlinear, untested };
+
+/// "linear", "nonlinear", "untested".
+std::string_view code(LinearityStatus status);
 
 /// The code of a flag as a batch row writes it: "v_out: clipped" → "clipped", "clipped" → itself.
 std::string_view flag_code(std::string_view flag);

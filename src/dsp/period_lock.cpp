@@ -17,7 +17,7 @@
 
 #include "core/error.hpp"
 #include "dsp/fft_plan.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::dsp {
 namespace {
@@ -43,7 +43,7 @@ constexpr double kLongRecordPeriods = 200;
 constexpr std::size_t kRotationBlock = 512;  // kBlock in harmonic_kernel.inc
 
 
-std::string str(double v) { return io::format_shortest(v); }
+std::string str(double v) { return format_shortest(v); }
 
 // ---- closed-form sums over s = k − (N−1)/2, k = 0…N−1 --------------------------------------
 // D(u) = Σ cos(2us) = sin(Nu)/sin(u) (Dirichlet kernel); Σ s·sin(2us) = −D'(u)/2;
@@ -845,9 +845,9 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   if (a1sq == 0 || (var1 > 0 && a1sq / var1 < threshold)) {
     const double z = var1 > 0 ? std::sqrt(a1sq / var1) : 0;
     throw AnalysisError("no periodic component stands out of the noise: the strongest candidate, " +
-                        io::format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
-                        io::format_significant(z, 3) + " standard uncertainties (needs " +
-                        io::format_significant(std::sqrt(threshold), 3) + ")");
+                        format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
+                        format_significant(z, 3) + " standard uncertainties (needs " +
+                        format_significant(std::sqrt(threshold), 3) + ")");
   }
   return fit;
 }

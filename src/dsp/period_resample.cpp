@@ -9,7 +9,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "dsp/period_lock.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::dsp {
 namespace {
@@ -23,7 +23,7 @@ constexpr int kKernelHalfWidth = 16;
 constexpr double kKaiserBeta = 6.0;
 constexpr int kKernelPhases = 1024;  ///< table resolution in fractional delay (linear interp)
 
-std::string str(double v) { return io::format_shortest(v); }
+std::string str(double v) { return format_shortest(v); }
 
 }  // namespace
 
@@ -99,7 +99,7 @@ PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& 
   const double cycles = static_cast<double>(n) * f0 / fs;
   const int periods = static_cast<int>(std::floor(cycles + 1e-3));
   if (periods < 1)
-    throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
+    throw AnalysisError("the record spans " + format_significant(cycles, 4) +
                         " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");
   // Bounded before allocation (issue 11, class 5): the grid (P·M doubles), one period's model
   // and the per-period transforms of period_spectra (M complex values), counted as four doubles

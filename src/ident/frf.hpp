@@ -57,6 +57,7 @@
 
 #include "dsp/period_lock.hpp"
 #include "ident/rational_fit.hpp"
+#include "core/flags.hpp"
 
 namespace periodfit::ident {
 
@@ -124,7 +125,7 @@ struct FrfResult {
   int output_noise_dof = 0;          ///< dof of output_noise_floor
   /// "few-periods" (noise-bin method), "numerical-floor" (some point's variance was below
   /// (kNumericalFloorRelative·|H|)², i.e. a noise-free record, and was raised to it)
-  std::vector<std::string> flags;
+  std::vector<Flag> flags;
 };
 
 /// FRF at the excited harmonics of `input`. Throws AnalysisError when the two spectra are not

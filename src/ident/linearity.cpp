@@ -5,15 +5,15 @@
 #include <cmath>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
 void LinearityOptions::validate() const {
   if (!(false_alarm > 0 && false_alarm < 1))
-    throw OptionError("false_alarm", io::format_shortest(false_alarm), "must be in (0, 1)");
+    throw OptionError("false_alarm", format_shortest(false_alarm), "must be in (0, 1)");
   if (!std::isfinite(min_level_dbc) || min_level_dbc > 0)
-    throw OptionError("min_level_dbc", io::format_shortest(min_level_dbc),
+    throw OptionError("min_level_dbc", format_shortest(min_level_dbc),
                       "must be finite and <= 0");
 }
 
@@ -29,7 +29,7 @@ LinearityResult check_linearity(const FrfResult& frf, const dsp::PeriodSpectra& 
     if (frf.output_noise_floor[std::size_t(n)] > 0) tested.push_back(n);
   r.tested = int(tested.size());
   if (tested.empty() || r.dof < 1) {
-    r.status = "untested";
+    r.status = LinearityStatus::untested;
     if (frf.unexcited.empty())
       r.reason = "the input excites every harmonic up to " + std::to_string(frf.max_harmonic) +
                  ", so none is left free to show distortion; an input with unexcited harmonics (e.g. a "
@@ -72,7 +72,7 @@ LinearityResult check_linearity(const FrfResult& frf, const dsp::PeriodSpectra& 
     }
   }
   r.nonlinear = !r.odd.empty() || !r.even.empty();
-  r.status = r.nonlinear ? "nonlinear" : "linear";
+  r.status = r.nonlinear ? LinearityStatus::nonlinear : LinearityStatus::linear;
   if (r.nonlinear) r.level_db = 10 * std::log10((odd_power + even_power) / excited_power);
   if (!r.odd.empty()) r.odd_level_db = 10 * std::log10(odd_power / excited_power);
   if (!r.even.empty()) r.even_level_db = 10 * std::log10(even_power / excited_power);

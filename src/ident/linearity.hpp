@@ -30,6 +30,7 @@
 
 #include "dsp/period_lock.hpp"
 #include "ident/frf.hpp"
+#include "core/flags.hpp"
 
 namespace periodfit::ident {
 
@@ -53,7 +54,7 @@ struct DistortionLine {
 };
 
 struct LinearityResult {
-  std::string status;        ///< "linear", "nonlinear", or "untested" (no harmonic left free)
+  LinearityStatus status = LinearityStatus::untested;  ///< untested: no harmonic left free
   std::string reason;        ///< why "untested", in words; "" otherwise
   bool nonlinear = false;
   std::string method = "F-test at unexcited harmonics (Bonferroni)";

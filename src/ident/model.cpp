@@ -1,5 +1,8 @@
 #include "ident/model.hpp"
 
+#include <Eigen/Eigenvalues>
+#include <algorithm>
+
 #include <cassert>
 
 namespace periodfit::ident {
@@ -31,6 +34,25 @@ std::vector<std::complex<double>> RationalModel::response_gradient(double omega_
   for (std::size_t i = 0; i + 1 < den.size(); ++i, power *= s) g.push_back(-h * power / a);
   if (delay_estimated) g.push_back(-s * h);
   return g;
+}
+
+// The companion matrix of the monic polynomial (Golub & Van Loan, Matrix Computations, §7.4.6);
+// its eigenvalues are the roots, to the backward stability of the QR algorithm.
+std::vector<std::complex<double>> polynomial_roots(const std::vector<double>& c) {
+  const auto n = static_cast<Eigen::Index>(c.size()) - 1;
+  if (n < 1) return {};
+  const double lead = c.back();
+  Eigen::MatrixXd comp = Eigen::MatrixXd::Zero(n, n);
+  for (Eigen::Index i = 1; i < n; ++i) comp(i, i - 1) = 1;
+  for (Eigen::Index i = 0; i < n; ++i) comp(i, n - 1) = -c[static_cast<std::size_t>(i)] / lead;
+  Eigen::EigenSolver<Eigen::MatrixXd> es(comp, false);
+  std::vector<std::complex<double>> r;
+  for (Eigen::Index i = 0; i < n; ++i) r.push_back(es.eigenvalues()(i));
+  std::sort(r.begin(), r.end(), [](std::complex<double> p, std::complex<double> q) {
+    if (std::abs(p) != std::abs(q)) return std::abs(p) < std::abs(q);
+    return p.imag() < q.imag();
+  });
+  return r;
 }
 
 }  // namespace periodfit::ident

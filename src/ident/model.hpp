@@ -18,6 +18,10 @@ namespace periodfit::ident {
 /// degree 100 (the fit itself stops at 12 for an automatic order), so no real model is refused.
 inline constexpr std::size_t kMaxModelDegree = 100;
 
+/// Roots of c_0 + c_1 s + … + c_n s^n (c_n ≠ 0), as the eigenvalues of the companion matrix,
+/// sorted by |p| then Im p; empty for a constant. The one root finder of B(s) and A(s).
+std::vector<std::complex<double>> polynomial_roots(const std::vector<double>& c);
+
 struct RationalModel {
   std::vector<double> num;   ///< b_0 … b_M
   std::vector<double> den;   ///< a_0 … a_N, a_N == 1

@@ -10,7 +10,7 @@
 
 #include "core/error.hpp"
 #include "ident/cost_band.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -20,8 +20,6 @@ using Eigen::Index;
 using Eigen::MatrixXd;
 using Eigen::VectorXd;
 using cplx = std::complex<double>;
-
-std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
 
 int parameter_count(ModelOrder o, bool delay) { return o.num + 1 + o.den + (delay ? 1 : 0); }
 
@@ -41,7 +39,7 @@ ScaledData scale(const std::vector<FrfPoint>& points) {
   double w_min = std::numeric_limits<double>::infinity(), w_max = 0;
   for (std::size_t k = 0; k < points.size(); ++k) {
     const FrfPoint& p = points[k];
-    const std::string where = "FRF point " + std::to_string(k + 1) + " (omega = " + io::format_shortest(p.omega_rad_s) +
+    const std::string where = "FRF point " + std::to_string(k + 1) + " (omega = " + format_shortest(p.omega_rad_s) +
                               " rad/s)";
     if (!(std::isfinite(p.omega_rad_s) && p.omega_rad_s > 0))
       throw AnalysisError(where + ": the frequency must be finite and > 0");
@@ -50,8 +48,8 @@ ScaledData scale(const std::vector<FrfPoint>& points) {
     const double det = p.var_re * p.var_im - p.cov_re_im * p.cov_re_im;
     if (!(std::isfinite(det) && p.var_re > 0 && p.var_im > 0 && det > 0))
       throw AnalysisError(where + ": the covariance of (Re, Im) is not positive definite (var_re = " +
-                          io::format_shortest(p.var_re) + ", var_im = " + io::format_shortest(p.var_im) +
-                          ", cov = " + io::format_shortest(p.cov_re_im) + ")");
+                          format_shortest(p.var_re) + ", var_im = " + format_shortest(p.var_im) +
+                          ", cov = " + format_shortest(p.cov_re_im) + ")");
     w_min = std::min(w_min, p.omega_rad_s);
     w_max = std::max(w_max, p.omega_rad_s);
   }
@@ -184,23 +182,6 @@ LinearStart linear_start(const ScaledData& d, ModelOrder order, double delay, in
   return out;
 }
 
-/// Roots of c_0 + c_1 s + … + c_n s^n (c_n ≠ 0) as eigenvalues of the companion matrix.
-std::vector<cplx> roots(const std::vector<double>& c) {
-  const auto n = static_cast<Index>(c.size()) - 1;
-  if (n < 1) return {};
-  const double lead = c.back();
-  MatrixXd comp = MatrixXd::Zero(n, n);
-  for (Index i = 1; i < n; ++i) comp(i, i - 1) = 1;
-  for (Index i = 0; i < n; ++i) comp(i, n - 1) = -c[static_cast<std::size_t>(i)] / lead;
-  Eigen::EigenSolver<MatrixXd> es(comp, false);
-  std::vector<cplx> r;
-  for (Index i = 0; i < n; ++i) r.push_back(es.eigenvalues()(i));
-  std::sort(r.begin(), r.end(), [](cplx p, cplx q) {
-    if (std::abs(p) != std::abs(q)) return std::abs(p) < std::abs(q);
-    return p.imag() < q.imag();
-  });
-  return r;
-}
 
 /// One root p' (scaled) of the polynomial with coefficients `c` whose free coefficients occupy
 /// parameters [first, first + free) of θ'; fills value, 1σ and the derived quantities.
@@ -260,6 +241,15 @@ constexpr int kGridSkIterations = 2;
 
 /// The full fit at one order: linear start (with the delay grid when T is free), then the
 /// weighted nonlinear least squares. Throws AnalysisError when singular.
+/// The result of a fit the data cannot determine: no model, the status and why.
+RationalFitResult singular_fit(ModelOrder order, LeastSquaresStatus status, std::string message) {
+  RationalFitResult r;
+  r.order = order;
+  r.status = status;
+  r.message = std::move(message);
+  return r;
+}
+
 RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const RationalFitOptions& o) {
   const int M = order.num, N = order.den;
   const bool with_delay = o.estimate_delay;
@@ -298,9 +288,10 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
     start = linear_start(d, order, fixed_delay, o.max_sk_iterations, o.sk_tolerance);
   }
   if (start.singular || !std::isfinite(start.cost))
-    throw AnalysisError(what + " is singular: the linearised start has rank " + std::to_string(start.rank) + " < " +
-                        std::to_string(start.columns) + " (the data cannot determine this many coefficients; " +
-                        "lower the order)");
+    return singular_fit(order, LeastSquaresStatus::singular,
+                        what + " is singular: the linearised start has rank " + std::to_string(start.rank) + " < " +
+                            std::to_string(start.columns) + " (the data cannot determine this many coefficients; " +
+                            "lower the order)");
 
   // Weighted nonlinear least squares of the whitened residuals, analytic Jacobian.
   LeastSquaresProblem problem;
@@ -340,8 +331,9 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   if (with_delay) theta0.push_back(start.model.delay);
   const LeastSquaresResult ls = solve_least_squares(problem, theta0, o.least_squares);
   if (ls.status == LeastSquaresStatus::singular || ls.status == LeastSquaresStatus::failed)
-    throw AnalysisError(what + " is singular: " + ls.message + " (the data cannot determine this many parameters; " +
-                        "lower the order)");
+    return singular_fit(order, ls.status,
+                        what + " is singular: " + ls.message + " (the data cannot determine this many parameters; " +
+                            "lower the order)");
 
   RationalFitResult out;
   out.order = order;
@@ -396,9 +388,9 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   std::vector<double> a_s(th.begin() + M + 1, th.begin() + M + 1 + N);
   a_s.push_back(1);
   const std::vector<double> b_s(th.begin(), th.begin() + M + 1);
-  for (cplx p : roots(a_s)) out.poles.push_back(describe_root(p, a_s, static_cast<std::size_t>(M + 1), static_cast<std::size_t>(N), cov, d.omega_ref));
+  for (cplx p : polynomial_roots(a_s)) out.poles.push_back(describe_root(p, a_s, static_cast<std::size_t>(M + 1), static_cast<std::size_t>(N), cov, d.omega_ref));
   if (M >= 1 && b_s.back() != 0)
-    for (cplx z : roots(b_s)) out.zeros.push_back(describe_root(z, b_s, 0, static_cast<std::size_t>(M + 1), cov, d.omega_ref));
+    for (cplx z : polynomial_roots(b_s)) out.zeros.push_back(describe_root(z, b_s, 0, static_cast<std::size_t>(M + 1), cov, d.omega_ref));
   for (const Root& p : out.poles) out.unstable = out.unstable || p.value.real() >= 0;
 
   // dc gain b_0/a_0 (the ω_ref factors cancel), gradient (1/a'_0, −b'_0/a'_0²).
@@ -430,6 +422,8 @@ void require(bool ok, const char* field, const std::string& value, const char* c
 
 }  // namespace
 
+std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
+
 ModelOrder parse_model_order(std::string_view text, std::string_view field) {
   ModelOrder o;
   const auto slash = text.find('/');
@@ -458,10 +452,10 @@ void RationalFitOptions::validate() const {
   }
   require(auto_max_den_order >= 1 && auto_max_den_order <= 12, "auto_max_den_order",
           std::to_string(auto_max_den_order), "must be in 1…12");
-  require(std::isfinite(delay_s) && delay_s >= 0, "delay_s", io::format_shortest(delay_s), "must be finite and >= 0");
-  require(confidence > 0 && confidence < 1, "confidence", io::format_shortest(confidence), "must be in (0, 1)");
+  require(std::isfinite(delay_s) && delay_s >= 0, "delay_s", format_shortest(delay_s), "must be finite and >= 0");
+  require(confidence > 0 && confidence < 1, "confidence", format_shortest(confidence), "must be in (0, 1)");
   require(max_sk_iterations >= 0, "max_sk_iterations", std::to_string(max_sk_iterations), "must be >= 0");
-  require(sk_tolerance > 0 && std::isfinite(sk_tolerance), "sk_tolerance", io::format_shortest(sk_tolerance),
+  require(sk_tolerance > 0 && std::isfinite(sk_tolerance), "sk_tolerance", format_shortest(sk_tolerance),
           "must be finite and > 0");
   require(delay_grid_points >= 0 && delay_grid_points <= 100000, "delay_grid_points",
           std::to_string(delay_grid_points), "must be in 0…100000");
@@ -504,8 +498,11 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
     OrderTrial t;
     t.order = order;
     t.parameters = parameter_count(order, options.estimate_delay);
-    try {
-      RationalFitResult r = fit_order(d, order, options);
+    RationalFitResult r = fit_order(d, order, options);
+    if (!r.fitted_model()) {
+      t.failed = true;
+      t.note = r.message;
+    } else {
       t.cost = r.cost;
       t.dof = r.dof;
       t.chi2_upper = r.chi2_upper;
@@ -515,12 +512,8 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
       t.aic = r.cost * chi2_scale + 2 * t.parameters;
       t.mdl = r.cost * chi2_scale + t.parameters * std::log(2.0 * K);
       t.passed = r.cost <= r.chi2_upper;
-      fits.push_back(std::move(r));
-    } catch (const AnalysisError& e) {
-      t.failed = true;
-      t.note = e.what();
-      fits.emplace_back();
     }
+    fits.push_back(std::move(r));
     trials.push_back(t);
     if (t.passed) break;
   }
@@ -545,9 +538,14 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
       }
     }
   }
-  if (best == trials.size())
-    throw AnalysisError("no model order up to " + std::to_string(options.auto_max_den_order) +
-                        " could be fitted: every fit was singular (first: " + trials.front().note + ")");
+  if (best == trials.size()) {
+    RationalFitResult none = singular_fit(trials.front().order, LeastSquaresStatus::singular,
+                                          "no model order up to " + std::to_string(options.auto_max_den_order) +
+                                              " could be fitted: every fit was singular (first: " +
+                                              trials.front().note + ")");
+    none.order_trials = std::move(trials);
+    return none;
+  }
   RationalFitResult r = std::move(fits[best]);
   r.order_decided_by = decided;
   r.order_trials = std::move(trials);

@@ -82,6 +82,9 @@ struct ModelOrder {
 /// callers check for it first.
 ModelOrder parse_model_order(std::string_view text, std::string_view field = "order");
 
+/// "M/N", the one spelling of an order in messages, reports and outputs (parse_model_order's input).
+std::string order_text(ModelOrder order);
+
 enum class InformationCriterion {
   aic,  ///< Akaike: V + 2·n_θ
   mdl,  ///< Rissanen's minimum description length: V + n_θ·ln(2K)
@@ -169,10 +172,17 @@ struct RationalFitResult {
   std::string order_decided_by;        ///< "requested", "chi2", "aic" or "mdl"
   std::vector<OrderTrial> order_trials;  ///< auto: every order tried, in the order tried
   LeastSquaresStatus status = LeastSquaresStatus::failed;  ///< of the final nonlinear fit
+  /// singular / failed: why (rank of the linear start or of the Jacobian, "lower the order");
+  /// the numbers above are then meaningless. Empty otherwise.
+  std::string message;
   std::string method;                  ///< e.g. "levy+sk(12)+ml-lm(7)"
   int sk_iterations = 0;
   int iterations = 0;                  ///< LM iterations of the final fit
   std::vector<std::complex<double>> fitted;  ///< Ĥ(jω_k) at the input points
+  /// A model came out: the fit was neither singular nor failed (it may still not have converged).
+  bool fitted_model() const {
+    return status != LeastSquaresStatus::singular && status != LeastSquaresStatus::failed;
+  }
   /// The final nonlinear fit reached an optimum (else `status` says why not; numbers are the best found).
   bool converged() const {
     return status == LeastSquaresStatus::converged_cost || status == LeastSquaresStatus::converged_step ||
@@ -180,12 +190,15 @@ struct RationalFitResult {
   }
 };
 
-/// Fits the model (see the header). Throws AnalysisError when there are too few points for the
-/// order (the message says how many are needed), when the fit is singular (rank-deficient
-/// linear start or Jacobian) or a point is invalid (ω ≤ 0, non-finite values, a covariance that
-/// is not positive definite; the message names the point), and OptionError for invalid options.
+/// Fits the model (see the header). A fit the data cannot determine (rank-deficient linear
+/// start or Jacobian) is a result: status singular (or failed) with `message`, no model
+/// (fitted_model() false). Throws AnalysisError when there are too few points for the order
+/// (the message says how many are needed) or a point is invalid (ω ≤ 0, non-finite values, a
+/// covariance that is not positive definite; the message names the point), and OptionError
+/// for invalid options.
 /// Auto order: orders are tried by increasing n_θ (then lower N), M ≤ N ≤ auto_max_den_order;
-/// the first whose cost ≤ chi2_upper wins ("chi2"), else the lowest fallback criterion.
+/// the first whose cost ≤ chi2_upper wins ("chi2"), else the lowest fallback criterion; when
+/// every order is singular the result is singular, its message naming the first failure.
 RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const RationalFitOptions& options = {});
 
 /// Minimum number of FRF points for `order` (2 real equations per point, n_θ parameters, at

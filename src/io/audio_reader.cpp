@@ -18,6 +18,7 @@
 #include <optional>
 
 #include "core/error.hpp"
+#include "io/file_handle.hpp"
 
 namespace periodfit::io {
 
@@ -366,50 +367,30 @@ bool is_bw64(std::string_view head) { return head.substr(0, 4) == "BW64"; }
 }  // namespace
 
 Capture read_audio(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
-  struct stat st {};
-  if (::fstat(fd, &st) != 0 || S_ISDIR(st.st_mode)) {
-    const int e = S_ISDIR(st.st_mode) ? EISDIR : errno;
-    ::close(fd);
-    throw IoError(path, "cannot read", e);
-  }
-  const auto size = static_cast<std::uint64_t>(st.st_size);
+  FileHandle handle = FileHandle::open_readable(path);  // closed on every way out
+  const int fd = handle.fd();
+  const auto size = handle.size();
   const ReadAt read_at = [fd](std::uint64_t offset, void* out, std::size_t n) {
     if (n == 0) return false;
     const ssize_t got = ::pread(fd, out, n, static_cast<off_t>(offset));
     return got == static_cast<ssize_t>(n);
   };
-  if (auto problem = container_problem(size, read_at)) {
-    ::close(fd);
-    throw InputError(path, 0, 0, *problem);
-  }
+  if (auto problem = container_problem(size, read_at)) throw InputError(path, 0, 0, *problem);
   char head[4] = {};
   if (size >= 4 && read_at(0, head, 4) && is_bw64(std::string_view(head, 4))) {
     Bw64File bw{fd, static_cast<sf_count_t>(size), 0};
     SF_VIRTUAL_IO io{bw64_length, bw64_seek, bw64_read, bw64_write, bw64_tell};
     SF_INFO info{};
+    // Declared after `handle`, so libsndfile lets go of the descriptor before it is closed.
     SndFile file(sf_open_virtual(&io, SFM_READ, &info, &bw));
-    if (!file) {
-      ::close(fd);
-      open_failed(path);
-    }
-    Capture capture;
-    try {
-      capture = decode(file.get(), info, path, size);
-    } catch (...) {
-      file.reset();
-      ::close(fd);
-      throw;
-    }
-    file.reset();
-    ::close(fd);
+    if (!file) open_failed(path);
+    Capture capture = decode(file.get(), info, path, size);
     capture.format = "bw64";
     return capture;
   }
   SF_INFO info{};
   // close_desc = true: libsndfile owns the descriptor from here on.
-  SndFile file(sf_open_fd(fd, SFM_READ, &info, SF_TRUE));
+  SndFile file(sf_open_fd(handle.release(), SFM_READ, &info, SF_TRUE));
   if (!file) open_failed(path);
   return decode(file.get(), info, path, size);
 }

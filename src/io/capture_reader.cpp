@@ -12,8 +12,9 @@
 #include "core/memory_budget.hpp"
 #include "io/audio_reader.hpp"
 #include "io/csv_reader.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
+#include "io/file_handle.hpp"
 
 namespace periodfit::io {
 
@@ -28,28 +29,16 @@ struct Probe {
 };
 
 Probe probe(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
-  struct stat info {};
-  if (::fstat(fd, &info) != 0 || S_ISDIR(info.st_mode)) {
-    const int e = S_ISDIR(info.st_mode) ? EISDIR : errno;
-    ::close(fd);
-    throw IoError(path, "cannot read", e);
-  }
+  const FileHandle file = FileHandle::open_readable(path);
   Probe p;
-  p.regular = S_ISREG(info.st_mode);
-  if (!p.regular) {
-    ::close(fd);
-    return p;
-  }
+  p.regular = file.regular();
+  if (!p.regular) return p;
   char head[16];
   ssize_t n = 0;
   do {
-    n = ::read(fd, head, sizeof head);
+    n = ::read(file.fd(), head, sizeof head);
   } while (n < 0 && errno == EINTR);
-  const int e = errno;
-  ::close(fd);
-  if (n < 0) throw IoError(path, "cannot read", e);
+  if (n < 0) throw IoError(path, "cannot read", errno);
   p.head.assign(head, static_cast<std::size_t>(n));
   return p;
 }

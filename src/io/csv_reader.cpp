@@ -24,9 +24,11 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/quantity.hpp"
+#include "io/file_handle.hpp"
+#include "io/mapped_file.hpp"
 
 namespace periodfit::io {
 
@@ -1148,101 +1150,6 @@ void Parser::slow_row(const Line& line) {
   }
 }
 
-// A file cut shorter while it is mapped (another process truncating it, a network share going
-// away) makes every access past the new end raise SIGBUS. The guard below catches that for the
-// mappings registered here: it maps zero pages over the rest of the mapping (mmap is a plain
-// system call, safe in practice inside the handler), marks the mapping truncated and returns,
-// so the parse runs on to its end and read_csv reports the truncation as an input error.
-// Faults outside our mappings get the default action.
-constexpr std::size_t kGuardSlots = 64;
-struct GuardSlot {
-  std::atomic<char*> base{nullptr};
-  std::atomic<std::size_t> size{0};
-  std::atomic<bool> truncated{false};
-};
-std::array<GuardSlot, kGuardSlots> g_guarded;
-struct sigaction g_previous_sigbus {};
-
-extern "C" void on_mapped_file_sigbus(int signal_number, siginfo_t* info, void* context) {
-  char* const fault = static_cast<char*>(info->si_addr);
-  for (auto& slot : g_guarded) {
-    char* const base = slot.base.load();
-    const std::size_t size = slot.size.load();
-    if (base && fault >= base && fault < base + size) {
-      const auto page = static_cast<std::uintptr_t>(::sysconf(_SC_PAGESIZE));
-      char* const from = reinterpret_cast<char*>(reinterpret_cast<std::uintptr_t>(fault) / page * page);
-      ::mmap(from, static_cast<std::size_t>(base + size - from), PROT_READ,
-             MAP_PRIVATE | MAP_ANONYMOUS | MAP_FIXED, -1, 0);
-      slot.truncated.store(true);
-      return;
-    }
-  }
-  if (g_previous_sigbus.sa_flags & SA_SIGINFO) {
-    g_previous_sigbus.sa_sigaction(signal_number, info, context);
-    return;
-  }
-  std::signal(signal_number, SIG_DFL);
-  std::raise(signal_number);
-}
-
-void install_sigbus_guard() {
-  static std::once_flag once;
-  std::call_once(once, [] {
-    struct sigaction action {};
-    action.sa_sigaction = on_mapped_file_sigbus;
-    sigemptyset(&action.sa_mask);
-    action.sa_flags = SA_SIGINFO;
-    ::sigaction(SIGBUS, &action, &g_previous_sigbus);
-  });
-}
-
-// A read-only mapping of a regular file; pages behind the parse are given back.
-class MappedFile {
- public:
-  MappedFile(const MappedFile&) = delete;
-  MappedFile& operator=(const MappedFile&) = delete;
-  MappedFile(void* base, std::size_t size) : base_(base), size_(size) {
-    install_sigbus_guard();
-    for (std::size_t i = 0; i < kGuardSlots; ++i) {
-      char* expected = nullptr;
-      if (g_guarded[i].base.compare_exchange_strong(expected, static_cast<char*>(base))) {
-        g_guarded[i].truncated.store(false);
-        g_guarded[i].size.store(size);
-        slot_ = i;
-        break;
-      }
-    }
-  }
-  ~MappedFile() {
-    if (slot_ < kGuardSlots) {
-      g_guarded[slot_].size.store(0);
-      g_guarded[slot_].base.store(nullptr);
-    }
-    if (base_) ::munmap(base_, size_);
-  }
-  /// True once an access found the file shorter than when it was mapped.
-  bool truncated() const { return slot_ < kGuardSlots && g_guarded[slot_].truncated.load(); }
-  std::string_view text() const { return {static_cast<const char*>(base_), size_}; }
-  void release_before(std::size_t offset) {
-    const auto page = static_cast<std::size_t>(::sysconf(_SC_PAGESIZE));
-    const std::size_t end = offset / page * page;
-    if (end > released_) {
-      ::madvise(static_cast<char*>(base_) + released_, end - released_, MADV_DONTNEED);
-      released_ = end;
-    }
-  }
-  void release_all() {
-    ::madvise(base_, size_, MADV_DONTNEED);
-    released_ = 0;
-  }
-
- private:
-  void* base_;
-  std::size_t size_;
-  std::size_t released_ = 0;
-  std::size_t slot_ = kGuardSlots;  ///< guard slot; kGuardSlots = unguarded (all slots busy)
-};
-
 }  // namespace
 
 // Runs the parser; a line split into more than kMaxColumns fields becomes an InputError at the
@@ -1274,31 +1181,18 @@ Capture parse_csv(std::string_view text, std::string_view name, const CsvOptions
 }
 
 Capture read_csv(const std::string& path, const CsvOptions& options) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
-  struct stat info {};
-  if (::fstat(fd, &info) != 0) {
-    const int e = errno;
-    ::close(fd);
-    throw IoError(path, "cannot read", e);
-  }
-  if (S_ISDIR(info.st_mode)) {
-    ::close(fd);
-    throw IoError(path, "cannot read", EISDIR);
-  }
-  if (!S_ISREG(info.st_mode) || info.st_size == 0) {
-    // Pipes and devices have no size to map; an empty file has nothing to map.
-    ::close(fd);
+  FileHandle handle = FileHandle::open_readable(path);
+  if (!handle.regular() || handle.size() == 0 || !mapped_file_guard_installed()) {
+    // Pipes and devices have no size to map; an empty file has nothing to map; and without the
+    // guard (installed by main, not by the library) a file cut short under the mapping would
+    // kill the process, so it is read instead.
+    handle.close();
     const std::string bytes = read_file(path, max_piped_capture_bytes());
     return parse_csv(bytes, path, options);
   }
-  const auto size = static_cast<std::size_t>(info.st_size);
-  void* base = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, fd, 0);
-  const int map_errno = errno;
-  ::close(fd);
-  if (base == MAP_FAILED) throw IoError(path, "cannot read", map_errno);
-  MappedFile file(base, size);
-  ::madvise(base, size, MADV_SEQUENTIAL);
+  const auto size = static_cast<std::size_t>(handle.size());
+  MappedFile file(handle);
+  handle.close();
   // Detection reads the start again after the row count, so only the pages after the sample
   // are given back during the count; the parse then releases everything behind it.
   const Release release = [&file](std::size_t offset) {

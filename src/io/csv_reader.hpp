@@ -41,7 +41,8 @@ struct CsvOptions {
 Capture parse_csv(std::string_view text, std::string_view name, const CsvOptions& options = {});
 
 /// Reads and parses the file at `path` without holding a copy of its text: the file is mapped
-/// and the pages already parsed are released as the parse advances. Throws IoError for a
+/// (io/mapped_file.hpp, once install_mapped_file_guard has run) and the pages already parsed are released as the
+/// parse advances. Throws IoError for a
 /// missing, unreadable or directory path.
 Capture read_csv(const std::string& path, const CsvOptions& options = {});
 

@@ -16,6 +16,7 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
+#include "io/file_handle.hpp"
 
 namespace periodfit::io {
 
@@ -276,22 +277,16 @@ void install_interrupt_cleanup() {
 }
 
 std::string read_file(const std::string& path, std::size_t max_bytes, const ReadCheck& check) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
   // Closed on every way out, the throws of `check` included.
-  struct Closer {
-    int fd;
-    ~Closer() { ::close(fd); }
-  } closer{fd};
-  struct stat info {};
-  if (::fstat(fd, &info) == 0 && S_ISDIR(info.st_mode)) throw IoError(path, "cannot read", EISDIR);
+  const FileHandle file = FileHandle::open_readable(path);
+  const int fd = file.fd();
   const auto too_large = [&] {
     throw InputError(path, 0, 0,
                      "larger than the " + format_bytes(static_cast<double>(max_bytes)) + " limit for this input");
   };
   std::string bytes;
-  if (info.st_size > 0 && static_cast<std::uint64_t>(info.st_size) > max_bytes) too_large();
-  if (info.st_size > 0) bytes.reserve(static_cast<std::size_t>(info.st_size));
+  if (file.size() > max_bytes) too_large();
+  if (file.size() > 0) bytes.reserve(static_cast<std::size_t>(file.size()));
   char buffer[1 << 16];
   for (;;) {
     const ssize_t n = ::read(fd, buffer, sizeof buffer);

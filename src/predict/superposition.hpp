@@ -50,11 +50,10 @@
 #include <string_view>
 #include <vector>
 
-#include <nlohmann/json.hpp>
-
 #include "dsp/waveforms.hpp"
 #include "ident/model.hpp"
 #include "ident/rational_fit.hpp"
+#include "core/flags.hpp"
 
 namespace periodfit::predict {
 
@@ -70,6 +69,9 @@ ident::RationalModel model_from_coefficients(std::vector<double> num, std::vecto
 
 /// Poles of a model (roots of den, rad/s), from the companion matrix eigenvalues.
 std::vector<std::complex<double>> model_poles(const ident::RationalModel& model);
+
+/// ∠z in degrees, in (−180, 180]: the convention of every phase in a PredictResult.
+double phase_deg(std::complex<double> z);
 
 /// The system to predict through.
 struct PredictSystem {
@@ -118,7 +120,7 @@ struct PredictedHarmonic {
 };
 
 struct PredictResult {
-  std::string status = "ok";     ///< "ok" or "truncation-visible" (see the header comment)
+  Status status = Status::ok;    ///< ok or truncation_visible (see the header comment)
   std::string method;            ///< "superposition (model)", "… (measured FRF)", "… (measured FRF + model)"
   double f0_hz = 0;
   int harmonics = 0;             ///< N, input harmonics used
@@ -148,7 +150,7 @@ struct PredictResult {
   std::string sampling_method;   ///< "folded-dft" or "direct"
   int dense_points = 0;          ///< grid points per period used for min/max
   std::vector<double> time_s, value, value_u;  ///< samples (value_u empty without uncertainty)
-  std::vector<std::string> flags;     ///< "gibbs", "truncation-visible", "no-fundamental"
+  std::vector<Flag> flags;            ///< gibbs, truncation_visible, no_fundamental
   std::vector<std::string> warnings;  ///< sentences for people (the CLI prints them to stderr)
 };
 
@@ -161,23 +163,5 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
 /// closed-form harmonics beyond N.
 PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSystem& system,
                                    const PredictOptions& options = {});
-
-/// `time_s,value[,value_u]` lines (docs/steady-state-json.md), doubles shortest round-trip.
-std::string format_predict_csv(const PredictResult& result);
-
-/// The text report for people: a key/value summary and the harmonic table (first
-/// `list_harmonics` harmonics, 0 = all), every line ending in '\n'.
-std::string predict_text(const PredictResult& result, std::size_t list_harmonics = 0);
-
-/// Parses one `n:amp:phase_deg` term (the --harmonic option). Throws OptionError.
-dsp::HarmonicTerm parse_harmonic_term(std::string_view text);
-
-/// The series of a capture channel's analysed harmonics (dsp/harmonics.hpp): dc, then
-/// A_n·e^{jφ_n} for n = 1…H; method "measured", left-out fraction unknown (NaN).
-dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
-                                              const std::vector<std::complex<double>>& phasors);
-
-/// The JSON document of docs/steady-state-json.md (keys in that order).
-nlohmann::ordered_json predict_json(const PredictResult& result);
 
 }  // namespace periodfit::predict

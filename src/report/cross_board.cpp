@@ -3,7 +3,7 @@
 #include <algorithm>
 #include <cmath>
 
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::report {
@@ -18,7 +18,7 @@ constexpr std::size_t kMaxOverlayCurves = 400;
 
 std::string number(double v) {
   if (!std::isfinite(v)) return "-";
-  return io::format_significant(v, 5);
+  return format_significant(v, 5);
 }
 
 Figure histogram(const CrossBoardLimit& limit, const std::vector<double>& values, std::size_t index) {

@@ -15,9 +15,10 @@
 #include <vector>
 
 #include "core/capture.hpp"
-#include "dsp/analysis_output.hpp"
+#include "dsp/capture_analysis.hpp"
 #include "dsp/harmonics.hpp"
 #include "ident/identify.hpp"
+#include "report/figures.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::report {

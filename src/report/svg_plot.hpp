@@ -15,7 +15,7 @@
 ///   report::BodePlotData bode{.title = "board 07", .freq_hz = f, .mag = m, .mag_u95 = mu,
 ///                              .phase_deg = p, .phase_u95_deg = pu};
 ///   bode.model = [&](double f_hz) { return model.response(2 * std::numbers::pi * f_hz); };
-///   io::write_file_atomic("bode.svg", report::svg_document(report::bode_figure(bode)));
+///   io::write_file_atomic("bode.svg", report::svg_document(report::bode_figure(bode)));  // report/figures.hpp
 #include <complex>
 #include <functional>
 #include <limits>
@@ -64,6 +64,9 @@ std::vector<Tick> axis_ticks(const Axis& axis, double lo, double hi, std::string
 /// The range an axis shows for data spanning [data_lo, data_hi]: explicit min/max win; else the
 /// data range widened to tick steps (linear) or 1-2-5 values (log).
 std::pair<double, double> axis_range(const Axis& axis, double data_lo, double data_hi);
+
+/// Widens [lo, hi] to hold `v` when it can be shown: finite, and > 0 on a log axis.
+void extend(double& lo, double& hi, double v, bool log);
 
 /// A number with an SI prefix and at most `significant` digits: 1500 → "1.5k", 0.002 → "2m".
 std::string format_si(double value, int significant = 3);
@@ -119,54 +122,5 @@ std::string render_svg(const Figure& figure);
 
 /// The figure as a standalone .svg document (XML declaration + element).
 std::string svg_document(const Figure& figure);
-
-// --- the report's plots ----------------------------------------------------------------------
-
-/// A measured frequency response with 95 % intervals, and optionally a model to overlay.
-struct BodePlotData {
-  std::string id = "bode";
-  std::string title;
-  std::vector<double> freq_hz;        ///< measured frequencies (excited harmonics)
-  std::vector<double> mag;            ///< |H| (linear, output unit per input unit)
-  std::vector<double> mag_u95;        ///< half-width of the 95 % interval of |H|; empty = none
-  std::vector<double> phase_deg;      ///< ∠H in degrees (wrapped or not; unwrapped for display)
-  std::vector<double> phase_u95_deg;  ///< half-width of the 95 % interval of ∠H; empty = none
-  /// H(j2πf) of a fitted model, sampled densely over the plotted range; empty = no model curve.
-  std::function<std::complex<double>(double f_hz)> model;
-  std::string measured_label = "measured, 95 % interval";
-  std::string model_label = "fitted model";
-};
-
-/// Magnitude (dB) and phase (°) panels over a log frequency axis.
-Figure bode_figure(const BodePlotData& data);
-
-/// Harmonic amplitudes of one channel.
-struct SpectrumPlotData {
-  std::string id = "spectrum";
-  std::string title;
-  std::string unit;                ///< channel unit ("V"); the y axis reads "dB re 1 V"
-  std::vector<int> harmonic;       ///< harmonic numbers (0 = dc allowed)
-  std::vector<double> amplitude;   ///< peak amplitudes, same length
-  std::vector<double> noise_floor; ///< per harmonic, amplitude-equivalent noise; empty = none
-  double range_db = 120;           ///< dB shown below the largest bar
-};
-
-/// Bars of 20·log10(A_n / 1 unit) against harmonic number.
-Figure spectrum_figure(const SpectrumPlotData& data);
-
-/// One period of a measured waveform and its harmonic reconstruction.
-struct WaveformPlotData {
-  std::string id = "waveform";
-  std::string title;
-  std::string quantity = "signal";  ///< y axis name, e.g. the channel name
-  std::string unit;                 ///< y axis unit
-  std::vector<double> t_s, y;       ///< measured samples, t within one period from its start
-  std::vector<double> fit_t_s, fit_y;  ///< reconstruction from the harmonics
-  std::string measured_label = "measured";
-  std::string fit_label = "reconstruction";
-  std::size_t max_markers = 240;    ///< measured samples beyond this are thinned evenly
-};
-
-Figure waveform_figure(const WaveformPlotData& data);
 
 }  // namespace periodfit::report

@@ -7,7 +7,7 @@
 #include <limits>
 #include <unordered_map>
 
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::store {
 
@@ -126,7 +126,7 @@ class SqliteConnection final : public Connection {
         switch (sqlite3_column_type(stmt, c)) {
           case SQLITE_NULL: row.emplace_back(std::nullopt); break;
           case SQLITE_INTEGER: row.emplace_back(std::to_string(sqlite3_column_int64(stmt, c))); break;
-          case SQLITE_FLOAT: row.emplace_back(io::format_shortest(sqlite3_column_double(stmt, c))); break;
+          case SQLITE_FLOAT: row.emplace_back(format_shortest(sqlite3_column_double(stmt, c))); break;
           default: {
             const auto* text = reinterpret_cast<const char*>(sqlite3_column_text(stmt, c));
             row.emplace_back(std::string(text ? text : "", static_cast<std::size_t>(sqlite3_column_bytes(stmt, c))));
@@ -220,7 +220,7 @@ class PgConnection final : public Connection {
         texts[i] = std::to_string(*n);
       else if (const auto* d = std::get_if<double>(&v)) {
         if (!bindable_double(*d)) continue;
-        texts[i] = io::format_shortest(*d);
+        texts[i] = format_shortest(*d);
       } else if (const auto* s = std::get_if<std::string>(&v))
         texts[i] = *s;
       else

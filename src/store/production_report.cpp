@@ -6,12 +6,12 @@
 #include <ctime>
 #include <nlohmann/json.hpp>
 
-#include "io/json_writer.hpp"
-#include "io/number_format.hpp"
+#include "output/json_writer.hpp"
+#include "core/number_format.hpp"
 #include "report/cross_board.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "report/svg_plot.hpp"
-#include "report/table.hpp"
+#include "core/table.hpp"
 #include "store/production.hpp"
 
 namespace periodfit::store {
@@ -20,13 +20,13 @@ using json = nlohmann::ordered_json;
 
 namespace {
 
-std::string num(double v, int digits = 4) { return std::isfinite(v) ? io::format_significant(v, digits) : "-"; }
-std::string csv_num(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
-json json_num(double v) { return std::isfinite(v) ? io::json_number(v) : json(nullptr); }
+std::string num(double v, int digits = 4) { return std::isfinite(v) ? format_significant(v, digits) : "-"; }
+std::string csv_num(double v) { return std::isfinite(v) ? format_shortest(v) : ""; }
+json json_num(double v) { return std::isfinite(v) ? output::json_number(v) : json(nullptr); }
 
 std::string ci_text(double value, double lo, double hi, double level) {
   if (!std::isfinite(value)) return "-";
-  return num(value, 3) + " (" + io::format_shortest(level * 100) + " %: " + num(lo, 3) + " … " + num(hi, 3) + ")";
+  return num(value, 3) + " (" + format_shortest(level * 100) + " %: " + num(lo, 3) + " … " + num(hi, 3) + ")";
 }
 
 std::string selection_text(const ProductionQuery& q) {
@@ -62,18 +62,18 @@ std::string production_text(const ProductionReport& r) {
   out += "tests: " + std::to_string(r.captures) + " (" + std::to_string(r.passed) + " pass, " +
          std::to_string(r.failed) + " fail, " + std::to_string(r.errors) + " error)";
   if (r.captures > 0)
-    out += ", yield " + io::format_fixed(100 * r.yield, 1) + " %, " + r.first_test + " … " + r.last_test;
+    out += ", yield " + format_fixed(100 * r.yield, 1) + " %, " + r.first_test + " … " + r.last_test;
   out += "\n";
   if (!r.limits.empty()) {
-    report::Table t({{"limit", report::Table::Align::left},
-                     {"allowed", report::Table::Align::left},
-                     {"n", report::Table::Align::right},
-                     {"fail", report::Table::Align::right},
-                     {"mean", report::Table::Align::right},
-                     {"s", report::Table::Align::right},
-                     {"Cp (CI)", report::Table::Align::left},
-                     {"Cpk (CI)", report::Table::Align::left},
-                     {"chart signals", report::Table::Align::left}});
+    Table t({{"limit", Table::Align::left},
+                     {"allowed", Table::Align::left},
+                     {"n", Table::Align::right},
+                     {"fail", Table::Align::right},
+                     {"mean", Table::Align::right},
+                     {"s", Table::Align::right},
+                     {"Cp (CI)", Table::Align::left},
+                     {"Cpk (CI)", Table::Align::left},
+                     {"chart signals", Table::Align::left}});
     for (const auto& s : r.limits) {
       const Capability& c = s.capability;
       std::string signals = s.chart.signals.empty() ? "none" : std::to_string(s.chart.signals.size());
@@ -85,7 +85,7 @@ std::string production_text(const ProductionReport& r) {
         for (int rule : rules) signals += " " + std::to_string(rule);
         signals += ")";
       }
-      t.add_row({report::terminal_text(s.key, false), report::terminal_text(s.allowed, false), std::to_string(c.n),
+      t.add_row({terminal_text(s.key, false), terminal_text(s.allowed, false), std::to_string(c.n),
                  std::to_string(s.failed), num(c.mean), num(c.sd, 3),
                  c.status == "ok" ? ci_text(c.cp, c.cp_lo, c.cp_hi, c.confidence) : c.status,
                  c.status == "ok" ? ci_text(c.cpk, c.cpk_lo, c.cpk_hi, c.confidence) : c.status, signals});
@@ -93,29 +93,29 @@ std::string production_text(const ProductionReport& r) {
     out += "\n" + t.render();
     for (const auto& s : r.limits) {
       if (s.chart.status != "ok") continue;
-      out += "\n" + report::terminal_text(s.key, false) + ": individuals chart centre " + num(s.chart.centre) +
+      out += "\n" + terminal_text(s.key, false) + ": individuals chart centre " + num(s.chart.centre) +
              ", limits " + num(s.chart.lcl) + " … " + num(s.chart.ucl) + ", MR̄ " + num(s.chart.mr_bar) +
              " (MR UCL " + num(s.chart.mr_ucl) + ")\n";
       for (const auto& g : s.chart.signals)
         out += "  point " + std::to_string(g.index + 1) + " (" + s.times[g.index] +
-               (s.serials[g.index].empty() ? "" : ", serial " + report::terminal_text(s.serials[g.index], false)) +
+               (s.serials[g.index].empty() ? "" : ", serial " + terminal_text(s.serials[g.index], false)) +
                "): " + g.text + "\n";
     }
   }
   if (!r.query.board.empty()) {
-    out += "\nboard " + report::terminal_text(r.query.board, false) + ": " + std::to_string(r.history.size()) + " tests\n";
-    report::Table t({{"tested", report::Table::Align::left},
-                     {"status", report::Table::Align::left},
-                     {"lot", report::Table::Align::left},
-                     {"station", report::Table::Align::left},
-                     {"failing limits", report::Table::Align::left},
-                     {"capture", report::Table::Align::left}});
+    out += "\nboard " + terminal_text(r.query.board, false) + ": " + std::to_string(r.history.size()) + " tests\n";
+    Table t({{"tested", Table::Align::left},
+                     {"status", Table::Align::left},
+                     {"lot", Table::Align::left},
+                     {"station", Table::Align::left},
+                     {"failing limits", Table::Align::left},
+                     {"capture", Table::Align::left}});
     for (const auto& h : r.history) {
       std::string failing;
       for (const auto& v : h.verdicts)
         if (!v.passed) failing += (failing.empty() ? "" : "; ") + v.key + " = " + num(v.value);
-      t.add_row({h.tested_at, h.status, report::terminal_text(h.lot, false), report::terminal_text(h.station, false),
-                 failing.empty() ? "-" : report::terminal_text(failing, false), report::terminal_text(h.path, false)});
+      t.add_row({h.tested_at, h.status, terminal_text(h.lot, false), terminal_text(h.station, false),
+                 failing.empty() ? "-" : terminal_text(failing, false), terminal_text(h.path, false)});
     }
     out += t.render();
   }
@@ -128,18 +128,18 @@ std::string production_csv(const ProductionReport& r) {
     out = "serial,tested_at,status,lot,station,fixture,operator,run_id,path,limit,value,margin,passed,verdict\n";
     for (const auto& h : r.history)
       for (const auto& v : h.verdicts)
-        out += report::csv_cell(r.query.board) + "," + h.tested_at + "," + h.status + "," + report::csv_cell(h.lot) +
-               "," + report::csv_cell(h.station) + "," + report::csv_cell(h.fixture) + "," +
-               report::csv_cell(h.operator_name) + "," + std::to_string(h.run_id) + "," + report::csv_cell(h.path) +
-               "," + report::csv_cell(v.key) + "," + csv_num(v.value) + "," + csv_num(v.margin) + "," +
-               (v.passed ? "true" : "false") + "," + report::csv_cell(v.verdict) + "\n";
+        out += csv_cell(r.query.board) + "," + h.tested_at + "," + h.status + "," + csv_cell(h.lot) +
+               "," + csv_cell(h.station) + "," + csv_cell(h.fixture) + "," +
+               csv_cell(h.operator_name) + "," + std::to_string(h.run_id) + "," + csv_cell(h.path) +
+               "," + csv_cell(v.key) + "," + csv_num(v.value) + "," + csv_num(v.margin) + "," +
+               (v.passed ? "true" : "false") + "," + csv_cell(v.verdict) + "\n";
     return out;
   }
   out = "limit,allowed,lsl,usl,tests,failed,n,mean,sd,min,max,cp,cp_lo,cp_hi,cpk,cpk_lo,cpk_hi,confidence,status,"
         "centre,ucl,lcl,mr_bar,mr_ucl,signals\n";
   for (const auto& s : r.limits) {
     const Capability& c = s.capability;
-    out += report::csv_cell(s.key) + "," + report::csv_cell(s.allowed) + "," + csv_num(s.lsl) + "," + csv_num(s.usl) +
+    out += csv_cell(s.key) + "," + csv_cell(s.allowed) + "," + csv_num(s.lsl) + "," + csv_num(s.usl) +
            "," + std::to_string(s.tests) + "," + std::to_string(s.failed) + "," + std::to_string(c.n) + "," +
            csv_num(c.mean) + "," + csv_num(c.sd) + "," + csv_num(c.min) + "," + csv_num(c.max) + "," + csv_num(c.cp) +
            "," + csv_num(c.cp_lo) + "," + csv_num(c.cp_hi) + "," + csv_num(c.cpk) + "," + csv_num(c.cpk_lo) + "," +
@@ -199,7 +199,7 @@ std::string production_json(const ProductionReport& r) {
                        {"path", h.path}, {"verdicts", std::move(verdicts)}});
   }
   j["history"] = std::move(history);
-  return io::json_text(j);
+  return output::json_text(j);
 }
 
 namespace {
@@ -317,7 +317,7 @@ std::string production_html(const ProductionReport& r) {
   h += "<p>Tests: " + std::to_string(r.captures) + " (" + std::to_string(r.passed) + " pass, " +
        std::to_string(r.failed) + " fail, " + std::to_string(r.errors) + " error)";
   if (r.captures > 0)
-    h += "; yield " + io::format_fixed(100 * r.yield, 1) + " %; " + xml_escape(r.first_test) + " … " +
+    h += "; yield " + format_fixed(100 * r.yield, 1) + " %; " + xml_escape(r.first_test) + " … " +
          xml_escape(r.last_test);
   h += ".</p>\n";
   if (!r.limits.empty()) {

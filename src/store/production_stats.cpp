@@ -7,13 +7,13 @@
 #include <numeric>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::store {
 
 void CapabilityOptions::validate() const {
   if (!(confidence > 0 && confidence < 1))
-    throw OptionError("confidence", io::format_shortest(confidence), "must be in (0, 1)");
+    throw OptionError("confidence", format_shortest(confidence), "must be in (0, 1)");
 }
 
 Capability capability(const std::vector<double>& values, double lsl, double usl, const CapabilityOptions& options) {

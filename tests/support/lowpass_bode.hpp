@@ -7,6 +7,7 @@
 #include <numbers>
 #include <string>
 
+#include "report/figures.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::test {
