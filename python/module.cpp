@@ -31,7 +31,11 @@
 #include "io/capture_reader.hpp"
 #include "io/json_writer.hpp"
 #include "io/number_format.hpp"
+#include "ident/frf.hpp"
+#include "ident/model_file.hpp"
+#include "ident/system_expression.hpp"
 #include "predict/excitation.hpp"
+#include "predict/superposition.hpp"
 
 namespace py = pybind11;
 
@@ -139,12 +143,12 @@ void bind_errors(py::module_& m) {
 using CapturePtr = std::shared_ptr<const Capture>;
 
 void bind_capture(py::module_& m) {
-  py::class_<Capture, std::shared_ptr<Capture>>(m, "Capture", R"(A capture read from a file.
+  py::class_<Capture, std::shared_ptr<Capture>>(m, "Capture", R"doc(A capture read from a file.
 
 Attributes: source (path), format ("csv", "wav", ...), rate (Hz), t0 (s, time of the first
 sample relative to the file's origin), names, units, metadata (preamble key/values), and
 channels: {name: samples} with each samples array a read-only float64 view (no copy).
-capture["v_out"] or capture["#1"] selects a channel as the CLI's --channel does.)")
+capture["v_out"] or capture["#1"] selects a channel as the CLI's --channel does.)doc")
       .def_property_readonly("source", [](const Capture& c) { return c.source; })
       .def_property_readonly("format", [](const Capture& c) { return c.format; })
       .def_property_readonly("rate", [](const Capture& c) { return c.sample_rate_hz; }, "sample rate, Hz")
@@ -188,11 +192,11 @@ capture["v_out"] or capture["#1"] selects a channel as the CLI's --channel does.
           return c;
         },
         py::arg("path"), py::kw_only(), py::arg("rate") = 0.0, py::arg("time_column") = "",
-        R"(Reads a capture (CSV or audio) as `periodfit info/analyze FILE` does.
+        R"doc(Reads a capture (CSV or audio) as `periodfit info/analyze FILE` does.
 
 rate: sample rate in Hz overriding the file's (0 = from the file).
 time_column: CSV only: "" = detect, "none" = no time column, else its name or position.
-Raises IoError, InputError (path:line:column: ...), OptionError.)");
+Raises IoError, InputError (path:line:column: ...), OptionError.)doc");
 }
 
 // --- analyze ----------------------------------------------------------------------------------
@@ -203,13 +207,13 @@ struct Analysis {
 using AnalysisPtr = std::shared_ptr<const Analysis>;
 
 void bind_analyze(py::module_& m) {
-  py::class_<Analysis, std::shared_ptr<Analysis>>(m, "Analysis", R"(One channel's analysis (periodfit analyze).
+  py::class_<Analysis, std::shared_ptr<Analysis>>(m, "Analysis", R"doc(One channel's analysis (periodfit analyze).
 
 f0, f0_u: fundamental and its standard uncertainty u (1 sigma), Hz. n, freq, amplitude,
 amplitude_u, phase, phase_u: per harmonic n = 1..H (amplitude peak, channel unit; phase degrees
 of cos(n*w0*t + phi), t = 0 at the capture's origin; *_u standard uncertainties). thd, thd_n
 (ratios), sinad, snr (dB), enob (bits, None without a full-scale range), flags (codes).
-to_dict() is the channel object of the analyze JSON (docs/analyze-json.md).)")
+to_dict() is the channel object of the analyze JSON (docs/analyze-json.md).)doc")
       .def_property_readonly("name", [](const Analysis& a) { return a.result.name; })
       .def_property_readonly("unit", [](const Analysis& a) { return a.result.unit; })
       .def_property_readonly("status", [](const Analysis& a) { return a.result.status; })
@@ -280,13 +284,13 @@ to_dict() is the channel object of the analyze JSON (docs/analyze-json.md).)")
         py::arg("samples"), py::arg("rate"), py::kw_only(), py::arg("t0") = 0.0, py::arg("name") = "ch0",
         py::arg("unit") = "", py::arg("f0") = 0.0, py::arg("f0_hint") = 0.0, py::arg("harmonics") = 0,
         py::arg("samples_per_period") = 0, py::arg("full_scale") = 0.0,
-        R"(Analyses one channel as `periodfit analyze` does and returns an Analysis.
+        R"doc(Analyses one channel as `periodfit analyze` does and returns an Analysis.
 
 samples: 1-D array of real numbers (float64 C-contiguous is read in place).
 rate: sample rate, Hz. t0: time of samples[0], s. name, unit: as the channel's.
 f0 > 0 forces the fundamental (Hz); f0_hint > 0 searches near it; harmonics N > 0 examines
 n = 1..N (0 = automatic); samples_per_period: M of the locked grid (0 = automatic);
-full_scale: the converter's full-scale range in the channel's unit, for ENOB (IEEE Std 1241).)");
+full_scale: the converter's full-scale range in the channel's unit, for ENOB (IEEE Std 1241).)doc");
 }
 
 // --- excite -----------------------------------------------------------------------------------
@@ -297,12 +301,12 @@ struct Excitation {
 };
 
 void bind_excite(py::module_& m) {
-  py::class_<Excitation, std::shared_ptr<Excitation>>(m, "Excitation", R"(An excitation signal (periodfit excite).
+  py::class_<Excitation, std::shared_ptr<Excitation>>(m, "Excitation", R"doc(An excitation signal (periodfit excite).
 
 samples: the whole signal (periods x M values) as the file would hold it, read-only float64;
 period: one period; rate, f0 (Hz, after the looping adjustment), crest_factor, peak, rms;
 n, freq, amplitude, phase: the harmonics of the written period (peak, degrees, cos convention).
-to_dict() is the excite JSON summary (docs/excite.md); write(path) writes the WAV or CSV file.)")
+to_dict() is the excite JSON summary (docs/excite.md); write(path) writes the WAV or CSV file.)doc")
       .def_property_readonly("samples", [](const std::shared_ptr<Excitation>& e) { return view(e->samples, e); })
       .def_property_readonly("period", [](const std::shared_ptr<Excitation>& e) { return view(e->result.period, e); })
       .def_property_readonly("rate", [](const Excitation& e) { return e.result.rate_hz; })
@@ -367,14 +371,14 @@ to_dict() is the excite JSON summary (docs/excite.md); write(path) writes the WA
         py::arg("skip_every") = 0, py::arg("phases") = "schroeder", py::arg("seed") = 1, py::arg("duty") = 0.5,
         py::arg("band_limited") = false, py::arg("adjust") = "f0", py::arg("format") = "pcm24",
         py::arg("spectrum") = py::none(),
-        R"(Builds an excitation signal as `periodfit excite` does (docs/excite.md).
+        R"doc(Builds an excitation signal as `periodfit excite` does (docs/excite.md).
 
 signal: "multisine" or a wave (sine, square, triangle, sawtooth, half-wave, full-wave, pulse).
 harmonics: multisine harmonic list ("1-200", "2,5,11"); odd / skip_every select from it;
 phases: "schroeder", "random" (seed) or "zero"; spectrum: [(n, relative amplitude), ...].
 f0, rate: requested Hz; adjust: "f0" or "rate" gives way so a period is a whole number of
 samples. amplitude: peak of the whole waveform; format: pcm16, pcm24, float or csv (the
-quantisation of the samples and of write()).)");
+quantisation of the samples and of write()).)doc");
 }
 
 // --- frf --------------------------------------------------------------------------------------
@@ -389,12 +393,12 @@ py::array_t<double> frf_column(const Response& r, F f) {
 }
 
 void bind_frf(py::module_& m) {
-  py::class_<Response, std::shared_ptr<Response>>(m, "Response", R"(A DUT's frequency response (periodfit frf).
+  py::class_<Response, std::shared_ptr<Response>>(m, "Response", R"doc(A DUT's frequency response (periodfit frf).
 
 n, freq (Hz), h (complex H(jn*w0)), mag, mag_u, mag_lo, mag_hi (|H| with its standard
 uncertainty u and its interval at `confidence`, never below 0), mag_db, phase, phase_u (degrees)
 at every excited harmonic; f0, f0_u; model: the fitted model's part of the JSON (dict) or None;
-adequate (bool or None); flags (codes). to_dict() is the frf JSON document (docs/frf-json.md).)")
+adequate (bool or None); flags (codes). to_dict() is the frf JSON document (docs/frf-json.md).)doc")
       .def_property_readonly("f0", [](const Response& r) { return r.result.fundamental.f0_hz; })
       .def_property_readonly("f0_u", [](const Response& r) { return r.result.fundamental.f0_u_hz; })
       .def_property_readonly("confidence", [](const Response& r) { return r.result.frf.confidence; })
@@ -465,13 +469,159 @@ adequate (bool or None); flags (codes). to_dict() is the frf JSON document (docs
         py::arg("delay") = false, py::arg("f0") = 0.0, py::arg("f0_hint") = 0.0, py::arg("harmonics") = 0,
         py::arg("skew") = 0.0, py::arg("confidence") = 0.95, py::arg("min_snr") = 20.0, py::arg("x_name") = "in",
         py::arg("y_name") = "out", py::arg("x_unit") = "", py::arg("y_unit") = "",
-        R"(Measures the frequency response H = Y/X at the excited harmonics, as `periodfit frf` does.
+        R"doc(Measures the frequency response H = Y/X at the excited harmonics, as `periodfit frf` does.
 
 x, y: DUT input and output, 1-D arrays sampled together at `rate` Hz (t0: time of sample 0).
 order: "" (no model), "M/N" or "auto": fit B(s)/A(s) (delay=True: also e^{-sT}).
 f0 forces the fundamental (Hz), f0_hint searches near it; harmonics N > 0 examines n <= N.
 skew: output acquisition delay to remove, s; confidence: level of the intervals; min_snr: dB
-above the input noise floor for a harmonic to count as excited.)");
+above the input noise floor for a harmonic to count as excited.)doc");
+}
+
+// --- steady state -----------------------------------------------------------------------------
+
+struct SteadyState {
+  predict::PredictResult result;
+};
+
+/// The system of steady_state(): exactly one of an expression, a model file or a Response.
+predict::PredictSystem system_from(const std::optional<std::string>& expression, double delay,
+                                   const std::optional<std::string>& model_path,
+                                   const std::shared_ptr<Response>& response, const std::string& response_from) {
+  const int given = int(expression.has_value()) + int(model_path.has_value()) + int(response != nullptr);
+  if (given != 1) throw OptionError("system", std::to_string(given) + " given", "give exactly one of system=, model=, response=");
+  if (response_from != "model" && response_from != "measured")
+    throw UnknownNameError("response_from value", response_from, {"model", "measured"});
+  predict::PredictSystem sys;
+  sys.prefer_measured = response_from == "measured";
+  if (expression) {
+    ident::SystemExpressionOptions so;
+    so.source = "system";
+    const ident::SystemExpressionResult parsed = ident::parse_system_expression(*expression, so);
+    sys.model = predict::model_from_coefficients(parsed.model.num, parsed.model.den, delay);
+  } else if (model_path) {
+    const ident::ModelFile file = ident::read_model_file(*model_path);
+    if (!file.model.den.empty()) sys.model = file.model;
+    sys.measured = file.frf;
+    if (sys.prefer_measured && file.frf.empty())
+      throw InputError(*model_path, 0, 0, "response_from='measured': the model file holds no measured FRF points");
+  } else {
+    if (response->result.model) sys.model = response->result.model->model;
+    sys.measured = ident::fit_points(response->result.frf);
+    if (!sys.model && !sys.prefer_measured)
+      throw OptionError("response", "(no model)", "fit a model (frf(..., order=...)) or pass response_from='measured'");
+  }
+  return sys;
+}
+
+void bind_steady_state(py::module_& m) {
+  py::class_<SteadyState, std::shared_ptr<SteadyState>>(m, "SteadyState", R"doc(A DUT's steady-state output (periodfit steady-state).
+
+n, freq, amplitude, amplitude_u, phase, phase_u: output harmonics (peak; degrees, cos
+convention; *_u standard uncertainties u, 0 when no covariance was propagated); dc, dc_u, rms,
+rms_u, ripple_pp, ripple_pp_u, thd (ratio or None); time, value, value_u: samples of the output
+(`periods` periods at `rate`). to_dict() is the steady-state JSON (docs/steady-state-json.md).)doc")
+      .def_property_readonly("f0", [](const SteadyState& s) { return s.result.f0_hz; })
+      .def_property_readonly("method", [](const SteadyState& s) { return s.result.method; })
+      .def_property_readonly("n", [](const SteadyState& s) {
+        return column<int>(s.result.harmonics_out, [](const predict::PredictedHarmonic& h) { return h.n; });
+      })
+      .def_property_readonly("freq", [](const SteadyState& s) {
+        return column<double>(s.result.harmonics_out, [](const predict::PredictedHarmonic& h) { return h.freq_hz; });
+      })
+      .def_property_readonly("amplitude", [](const SteadyState& s) {
+        return column<double>(s.result.harmonics_out, [](const predict::PredictedHarmonic& h) { return h.amplitude; });
+      })
+      .def_property_readonly("amplitude_u", [](const SteadyState& s) {
+        return column<double>(s.result.harmonics_out, [](const predict::PredictedHarmonic& h) { return h.amplitude_u; });
+      })
+      .def_property_readonly("phase", [](const SteadyState& s) {
+        return column<double>(s.result.harmonics_out, [](const predict::PredictedHarmonic& h) { return h.phase_deg; });
+      })
+      .def_property_readonly("phase_u", [](const SteadyState& s) {
+        return column<double>(s.result.harmonics_out, [](const predict::PredictedHarmonic& h) { return h.phase_u_deg; });
+      })
+      .def_property_readonly("dc", [](const SteadyState& s) { return s.result.dc; })
+      .def_property_readonly("dc_u", [](const SteadyState& s) { return s.result.dc_u; })
+      .def_property_readonly("rms", [](const SteadyState& s) { return s.result.rms; })
+      .def_property_readonly("rms_u", [](const SteadyState& s) { return s.result.rms_u; })
+      .def_property_readonly("ripple_pp", [](const SteadyState& s) { return s.result.ripple_pp; })
+      .def_property_readonly("ripple_pp_u", [](const SteadyState& s) { return s.result.ripple_pp_u; })
+      .def_property_readonly("thd", [](const SteadyState& s) -> std::optional<double> {
+        return s.result.thd_defined ? std::optional<double>(s.result.thd) : std::nullopt;
+      })
+      .def_property_readonly("rate", [](const SteadyState& s) { return s.result.rate_hz; })
+      .def_property_readonly("time", [](const std::shared_ptr<SteadyState>& s) { return view(s->result.time_s, s); })
+      .def_property_readonly("value", [](const std::shared_ptr<SteadyState>& s) { return view(s->result.value, s); })
+      .def_property_readonly("value_u", [](const std::shared_ptr<SteadyState>& s) { return view(s->result.value_u, s); })
+      .def_property_readonly("flags", [](const SteadyState& s) { return s.result.flags; })
+      .def_property_readonly("warnings", [](const SteadyState& s) { return s.result.warnings; })
+      .def("to_dict", [](const SteadyState& s) { return parse_json(predict::predict_json(s.result).dump()); },
+           "the steady-state JSON document (docs/steady-state-json.md)");
+
+  m.def("steady_state",
+        [](std::optional<std::string> system, double delay, std::optional<std::string> model,
+           std::shared_ptr<Response> response, const std::string& response_from, std::optional<std::string> wave,
+           double amplitude, double f0, double duty, double offset,
+           std::optional<std::vector<std::tuple<int, double, double>>> terms, const py::object& input,
+           double input_rate, double input_t0, int harmonics, double energy_bound, int periods, double rate) {
+          predict::PredictSystem sys = system_from(system, delay, model, response, response_from);
+          predict::PredictOptions o;
+          o.truncation.harmonics = harmonics;
+          o.truncation.max_left_out_fraction = energy_bound;
+          o.periods = periods;
+          o.rate_hz = rate;
+          const int inputs = int(wave.has_value()) + int(terms.has_value()) + int(!input.is_none());
+          if (inputs != 1) throw OptionError("input", std::to_string(inputs) + " given", "give exactly one of wave=, terms=, input=");
+          auto out = std::make_shared<SteadyState>();
+          if (!input.is_none()) {
+            const Samples s = samples_from(input, "input");
+            positive_rate(input_rate);
+            py::gil_scoped_release release;
+            dsp::AnalyzeOptions ao;
+            ao.lock.max_harmonic = harmonics;
+            const dsp::ChannelAnalysis an =
+                dsp::analyze_channel(dsp::SampleView{"input", "", s.values}, input_rate, input_t0, ao);
+            std::vector<std::complex<double>> phasors;
+            for (const auto& h : an.harmonics) phasors.push_back(h.phasor);
+            out->result = predict::predict_steady_state(
+                predict::series_from_measurement(an.fundamental.f0_hz, an.dc, phasors), sys, o);
+            return out;
+          }
+          dsp::WaveSpec w;
+          w.amplitude_v = amplitude;
+          w.f0_hz = f0;
+          w.duty = duty;
+          w.offset_v = offset;
+          if (terms) {
+            w.kind = dsp::WaveKind::harmonics;
+            for (const auto& t : *terms) w.terms.push_back({std::get<0>(t), std::get<1>(t), std::get<2>(t)});
+          } else {
+            w.kind = dsp::parse_wave_kind(*wave);
+            if (w.kind == dsp::WaveKind::harmonics)
+              throw OptionError("wave", "harmonics", "give the terms with terms=[(n, amplitude, phase_deg), ...]");
+          }
+          py::gil_scoped_release release;
+          out->result = predict::predict_steady_state(w, sys, o);
+          return out;
+        },
+        py::kw_only(), py::arg("system") = py::none(), py::arg("delay") = 0.0, py::arg("model") = py::none(),
+        py::arg("response") = nullptr, py::arg("response_from") = "model", py::arg("wave") = py::none(),
+        py::arg("amplitude") = 1.0, py::arg("f0") = 1000.0, py::arg("duty") = 0.5, py::arg("offset") = 0.0,
+        py::arg("terms") = py::none(), py::arg("input") = py::none(), py::arg("input_rate") = 0.0,
+        py::arg("input_t0") = 0.0, py::arg("harmonics") = 0, py::arg("energy_bound") = 1e-6, py::arg("periods") = 1,
+        py::arg("rate") = 0.0,
+        R"doc(The DUT's steady-state output for a periodic input by Fourier-series superposition, as
+`periodfit steady-state` does (docs/steady-state-json.md).
+
+System (one of): system="1/(1 + 1e-3*s)" (H(s) in rad/s, docs/system-expression.md; delay: its
+dead time, s); model="dut.model.json" (a model file written by frf); response=frf(...) (its
+fitted model, or its measured points with response_from="measured").
+Input (one of): wave="square" (sine, square, triangle, sawtooth, half-wave, full-wave, pulse)
+with amplitude (peak), f0 (Hz), duty, offset; terms=[(n, amplitude, phase_deg), ...] at f0;
+input=samples of a measured input (input_rate Hz, input_t0 s), analysed as analyze() does.
+harmonics: input harmonics used (0 = automatic, energy left out <= energy_bound);
+periods, rate: the samples returned in time/value (rate 0 = 1000 samples per period).)doc");
 }
 
 }  // namespace
@@ -483,6 +633,7 @@ PYBIND11_MODULE(_periodfit, m) {
   periodfit::python::bind_capture(m);
   periodfit::python::bind_analyze(m);
   periodfit::python::bind_frf(m);
+  periodfit::python::bind_steady_state(m);
   periodfit::python::bind_excite(m);
   m.attr("__version__") = PERIODFIT_VERSION;
 }

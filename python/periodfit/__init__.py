@@ -27,16 +27,18 @@ from ._periodfit import (  # noqa: F401
     IoError,
     OptionError,
     Response,
+    SteadyState,
     UnknownNameError,
     __version__,
     analyze,
     excite,
     frf,
     read_capture,
+    steady_state,
 )
 
 __all__ = [
     "Error", "InputError", "IoError", "OptionError", "AnalysisError", "UnknownNameError",
-    "Capture", "Analysis", "Response", "Excitation",
-    "read_capture", "analyze", "frf", "excite", "__version__",
+    "Capture", "Analysis", "Response", "SteadyState", "Excitation",
+    "read_capture", "analyze", "frf", "steady_state", "excite", "__version__",
 ]
