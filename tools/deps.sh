@@ -5,13 +5,15 @@ PERIODFIT_BUILD_PACKAGES=(
   build-essential cmake ninja-build pkg-config
   libfftw3-dev libeigen3-dev libsndfile1-dev libcli11-dev doctest-dev
   nlohmann-json3-dev libtomlplusplus-dev libboost-dev libtbb-dev
+  python3-dev pybind11-dev
 )
 # Only the test suite needs these: reference libraries for the outside-source checks, an XML
 # checker for the SVG plots, a headless browser for the HTML report, clang for fuzzing and the
-# sanitizer build, and ccache so a later run on the same machine recompiles only what changed.
+# sanitizer build, ccache so a later run on the same machine recompiles only what changed, and
+# pytest for the Python module's tests.
 PERIODFIT_TEST_PACKAGES=(
   python3 python3-numpy python3-scipy python3-pandas libxml2-utils chromium
-  clang libclang-rt-14-dev ccache
+  clang libclang-rt-14-dev ccache python3-pytest
 )
 
 # periodfit_install PACKAGE…: installs whichever of the packages are missing. As root it runs
