@@ -19,12 +19,12 @@
 #include "batch/config.hpp"
 #include "batch/file_analysis.hpp"
 #include "batch/runner.hpp"
-#include "report/safe_text.hpp"
-#include "report/table.hpp"
+#include "core/safe_text.hpp"
+#include "core/table.hpp"
 #include "batch_fixture.hpp"
 #include "core/error.hpp"
 #include "core/flags.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "support/cli_runner.hpp"
 
 using namespace periodfit;
@@ -328,14 +328,14 @@ tolerance = "20 mV"
   const std::vector<std::string> l1(c.begin() + 7, c.begin() + 19);
   const double m1 = 0.08 - thd;  // by hand: negative, outside
   CHECK(l1 == std::vector<std::string>{c[5], "", "", "", "", "", "0.08", "\xE2\x89\xA4 8 %", "false",
-                                       "fail: outside the range", io::format_shortest(m1),
-                                       io::format_shortest(m1 / 0.08)});
+                                       "fail: outside the range", format_shortest(m1),
+                                       format_shortest(m1 / 0.08)});
   // limit 2: thd ≤ −20 dB = 0.1 (20·log10 of an amplitude ratio) passes.
   const std::vector<std::string> l2(c.begin() + 19, c.begin() + 31);
   const double hi2 = std::pow(10.0, -20.0 / 20);
-  CHECK(l2 == std::vector<std::string>{c[5], "", "", "", "", "", io::format_shortest(hi2),
+  CHECK(l2 == std::vector<std::string>{c[5], "", "", "", "", "", format_shortest(hi2),
                                        "\xE2\x89\xA4 \xE2\x88\x92" "20 dB", "true", "pass",
-                                       io::format_shortest(hi2 - thd), io::format_shortest((hi2 - thd) / hi2)});
+                                       format_shortest(hi2 - thd), format_shortest((hi2 - thd) / hi2)});
   // limit 3: f0 1.2 kHz ± 5 Hz = 1195 … 1205 Hz; f0's interval is value ± 1.96·u.
   const double f0 = std::stod(c[31]);
   CHECK(c[31] == c[3]);
@@ -608,21 +608,21 @@ TEST_CASE("batch: a dangling symbolic link that matches becomes an ERROR row say
 
 TEST_CASE("batch: CSV text cells that a spreadsheet would run as formulas are quoted; numbers are not") {
   // Issue 11, class 9; OWASP "CSV injection": a leading = + - @ TAB CR makes a formula.
-  CHECK(report::csv_cell("=2+5*cmd|calc") == "'=2+5*cmd|calc");
-  CHECK(report::csv_cell("@SUM(A1)") == "'@SUM(A1)");
-  CHECK(report::csv_cell("-x,y") == "\"'-x,y\"");
-  CHECK(report::csv_cell("-1.5") == "-1.5");
-  CHECK(report::csv_cell("+3e-2") == "+3e-2");
-  CHECK(report::csv_cell("v_out") == "v_out");
-  CHECK(report::csv_cell("a\"b") == "\"a\"\"b\"");
+  CHECK(csv_cell("=2+5*cmd|calc") == "'=2+5*cmd|calc");
+  CHECK(csv_cell("@SUM(A1)") == "'@SUM(A1)");
+  CHECK(csv_cell("-x,y") == "\"'-x,y\"");
+  CHECK(csv_cell("-1.5") == "-1.5");
+  CHECK(csv_cell("+3e-2") == "+3e-2");
+  CHECK(csv_cell("v_out") == "v_out");
+  CHECK(csv_cell("a\"b") == "\"a\"\"b\"");
 }
 
 TEST_CASE("batch: control characters from inputs are shown as \\xHH on the terminal") {
-  CHECK(report::terminal_text("a\x1b]0;x\x07" "b\rc", false) == "a\\x1b]0;x\\x07b\\x0dc");
-  CHECK(report::terminal_text("l1\nl2\t", false) == "l1\\nl2\\t");
-  CHECK(report::terminal_text("l1\nl2", true) == "l1\nl2");
-  CHECK(report::terminal_text("\xC2\x9b" "31m \xC2\xB0", false) == "\\x9b31m \xC2\xB0");  // C1 CSI; ° kept
-  report::Table t({{"file", report::Table::Align::left}});
+  CHECK(terminal_text("a\x1b]0;x\x07" "b\rc", false) == "a\\x1b]0;x\\x07b\\x0dc");
+  CHECK(terminal_text("l1\nl2\t", false) == "l1\\nl2\\t");
+  CHECK(terminal_text("l1\nl2", true) == "l1\nl2");
+  CHECK(terminal_text("\xC2\x9b" "31m \xC2\xB0", false) == "\\x9b31m \xC2\xB0");  // C1 CSI; ° kept
+  Table t({{"file", Table::Align::left}});
   t.add_row({"x\x1b[2J"});
   CHECK(t.render() == "file\n--------\nx\\x1b[2J\n");
 }

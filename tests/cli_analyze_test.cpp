@@ -15,8 +15,8 @@
 
 #include <nlohmann/json.hpp>
 
-#include "io/number_format.hpp"
-#include "report/table.hpp"
+#include "core/number_format.hpp"
+#include "core/table.hpp"
 #include "support/cli_runner.hpp"
 
 using periodfit::test::run_cli;
@@ -67,7 +67,7 @@ TEST_CASE("cli analyze: text report lists every channel, the figures and every h
 }
 
 TEST_CASE("cli analyze: text states each uncertainty as u with GUM digits; every table column labelled") {
-  // The text's numbers are the JSON's rounded as GUM 7.2.6 (io::format_value_u), so the whole
+  // The text's numbers are the JSON's rounded as GUM 7.2.6 (format_value_u), so the whole
   // f0 and dc lines and the whole harmonic table are rebuilt from the JSON of the same run.
   TempDir dir("cli_analyze_u");
   write_text(dir.file("cap.csv"), two_channel_csv(3000, 10000, 50.3));
@@ -78,20 +78,20 @@ TEST_CASE("cli analyze: text states each uncertainty as u with GUM digits; every
   const auto c = nlohmann::json::parse(json.out)["channels"][0];
   CHECK(text.out.find("\xC2\xB1") == std::string::npos);  // no bare "±"
   const std::string f0_line = "  f0           " +
-                              periodfit::io::format_with_u(c["f0_hz"].get<double>(), c["f0_u_hz"].get<double>(), "Hz") +
+                              periodfit::format_with_u(c["f0_hz"].get<double>(), c["f0_u_hz"].get<double>(), "Hz") +
                               " (sine-fit, 3 harmonics)\n";
   CHECK(text.out.find(f0_line) != std::string::npos);
   const std::string dc_line =
-      "  dc           " + periodfit::io::format_with_u(c["dc"].get<double>(), c["dc_u"].get<double>()) + "\n";
+      "  dc           " + periodfit::format_with_u(c["dc"].get<double>(), c["dc_u"].get<double>()) + "\n";
   CHECK(text.out.find(dc_line) != std::string::npos);
-  periodfit::report::Table t({{"n"}, {"freq/Hz"}, {"amplitude"}, {"u"}, {"phase/deg"}, {"u/deg"},
-                              {"significant", periodfit::report::Table::Align::left}});
+  periodfit::Table t({{"n"}, {"freq/Hz"}, {"amplitude"}, {"u"}, {"phase/deg"}, {"u/deg"},
+                              {"significant", periodfit::Table::Align::left}});
   for (const auto& h : c["harmonics"]) {
-    const auto a = periodfit::io::format_value_u(h["amplitude"].get<double>(), h["amplitude_u"].get<double>());
-    const auto p = periodfit::io::format_value_u(h["phase_deg"].get<double>(), h["phase_u_deg"].get<double>());
+    const auto a = periodfit::format_value_u(h["amplitude"].get<double>(), h["amplitude_u"].get<double>());
+    const auto p = periodfit::format_value_u(h["phase_deg"].get<double>(), h["phase_u_deg"].get<double>());
     // A line whose amplitude is consistent with 0 has no phase (docs/analyze-json.md).
     const bool phase = h["phase_defined"].get<bool>();
-    t.add_row({std::to_string(h["n"].get<int>()), periodfit::io::format_significant(h["freq_hz"].get<double>(), 8),
+    t.add_row({std::to_string(h["n"].get<int>()), periodfit::format_significant(h["freq_hz"].get<double>(), 8),
                a.value, a.u, phase ? p.value : "undefined", phase ? p.u : "-",
                std::string(h["significant"].get<bool>() ? "yes" : "no") +
                    (phase ? "" : " (amplitude consistent with 0: phase undefined)")});
@@ -101,7 +101,7 @@ TEST_CASE("cli analyze: text states each uncertainty as u with GUM digits; every
   CHECK(text.out.substr(text.out.size() - table.size()) == table);
   // The fundamental (amplitude 0.5, noise 1e-4 over 3000 samples) has u of a few 1e-6: the
   // value is printed to u's second significant digit, never to a fixed 6 digits.
-  const auto a1 = periodfit::io::format_value_u(c["harmonics"][0]["amplitude"].get<double>(),
+  const auto a1 = periodfit::format_value_u(c["harmonics"][0]["amplitude"].get<double>(),
                                                 c["harmonics"][0]["amplitude_u"].get<double>());
   CHECK(a1.u.size() <= 7);  // two significant digits: "2.6e-06" at most
 }

@@ -10,7 +10,7 @@
 #include <vector>
 
 #include "batch_fixture.hpp"
-#include "report/table.hpp"
+#include "core/table.hpp"
 #include "support/cli_runner.hpp"
 
 using periodfit::test::run_cli;
@@ -206,11 +206,11 @@ TEST_CASE("cli batch: the table shows each file's flags; a FAIL line shows value
   // the Student-t 97.5 % quantile for the noise estimate's degrees of freedom (analyze JSON
   // noise_dof); the amplitude's u is ~1e-12 V for this noise-free capture, so the interval
   // rounds to the value.
-  periodfit::report::Table table({{"file", periodfit::report::Table::Align::left},
-                                  {"status", periodfit::report::Table::Align::left},
-                                  {"flags", periodfit::report::Table::Align::left},
+  periodfit::Table table({{"file", periodfit::Table::Align::left},
+                                  {"status", periodfit::Table::Align::left},
+                                  {"flags", periodfit::Table::Align::left},
                                   {"why not PASS (value, 95 % interval, allowed range) / message",
-                                   periodfit::report::Table::Align::left}});
+                                   periodfit::Table::Align::left}});
   table.add_row({dir.file("in") + "/a.csv", "FAIL", "-",
                  "amplitude at harmonic 1 = 1 V (95 %: 1 \xE2\x80\xA6 1, k = 2.07), allowed 1.1 V \xC2\xB1 "
                  "50 mV (+1 more)"});

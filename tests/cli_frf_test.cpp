@@ -12,8 +12,8 @@
 #include <string>
 #include <vector>
 
-#include "ident/model_file.hpp"
-#include "io/number_format.hpp"
+#include "output/model_file.hpp"
+#include "core/number_format.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
 
@@ -202,7 +202,7 @@ TEST_CASE("cli frf: --save-model writes a model file that reads back") {
                          "--order 0/1 --save-model " + q(dir.file("rc.model.json")) + " --json " +
                          q(dir.file("rc.json")));
   REQUIRE(r.exit_code == 0);
-  const auto model = periodfit::ident::read_model_file(dir.file("rc.model.json"));
+  const auto model = periodfit::output::read_model_file(dir.file("rc.model.json"));
   const auto j = nlohmann::json::parse(periodfit::test::slurp(dir.file("rc.json")));
   CHECK(model.model.den.size() == 2);
   CHECK(model.model.den[0] == j["model"]["den"][0].get<double>());
@@ -373,10 +373,10 @@ TEST_CASE("cli frf: the text lists poles frequency first in Hz with u=; rad/s st
   REQUIRE(json.exit_code == 0);
   const auto pole = nlohmann::json::parse(json.out)["model"]["poles"][0];
   // The same fit printed twice: corner frequency |p|/2π and τ = −1/p from the JSON's rad/s values
-  // (closed forms), stated with GUM digits as every value with a u (io::format_with_u).
+  // (closed forms), stated with GUM digits as every value with a u (format_with_u).
   const double re = pole["re"].get<double>(), re_u = pole["re_u"].get<double>();
-  const std::string freq = periodfit::io::format_with_u(std::abs(re) / (2 * kPi), re_u / (2 * kPi));
-  const std::string tau = periodfit::io::format_with_u(pole["time_constant_s"].get<double>(),
+  const std::string freq = periodfit::format_with_u(std::abs(re) / (2 * kPi), re_u / (2 * kPi));
+  const std::string tau = periodfit::format_with_u(pole["time_constant_s"].get<double>(),
                                                        pole["time_constant_u_s"].get<double>());
   const auto at = text.out.find("\npoles\n");
   REQUIRE(at != std::string::npos);

@@ -7,7 +7,7 @@
 #include <numbers>
 #include <nlohmann/json.hpp>
 
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 #include "support/cli_runner.hpp"
 
 using namespace periodfit;
@@ -19,7 +19,7 @@ constexpr double kPi = std::numbers::pi;
 constexpr double kJsonRel = 1e-12;
 
 void write_rc_model(const std::string& path, bool with_covariance, bool with_frf, double f0 = 100) {
-  ident::ModelFile f;
+  output::ModelFile f;
   f.model.num = {1000};
   f.model.den = {1000, 1};
   if (with_covariance) f.model.covariance = {{4, 1}, {1, 9}};
@@ -31,7 +31,7 @@ void write_rc_model(const std::string& path, bool with_covariance, bool with_frf
       const double w = 2 * kPi * f0 * n;
       f.frf.push_back(ident::FrfPoint::circular(w, f.model.response(w) * 0.98, 1e-6));
     }
-  ident::write_model_file(path, f);
+  output::write_model_file(path, f);
 }
 }  // namespace
 

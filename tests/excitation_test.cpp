@@ -11,6 +11,7 @@
 
 #include "core/error.hpp"
 #include "io/audio_writer.hpp"
+#include "output/excitation_output.hpp"
 #include "predict/excitation.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
@@ -161,7 +162,7 @@ TEST_CASE("excitation: the WAV file loops seamlessly and reads back exactly thro
     o.format = fmt;
     const auto r = predict::generate_excitation(o);
     const std::string path = dir.file("ms.wav");
-    predict::write_excitation(path, r);
+    output::write_excitation(path, r);
     const Wav w = read_wav(path);
     INFO("format " << predict::sample_format_name(fmt));
     CHECK(w.info.samplerate == 48000);

@@ -13,7 +13,7 @@
 #include "batch/config.hpp"
 #include "batch/file_analysis.hpp"
 #include "batch_fixture.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
 #include "report/html_report.hpp"
@@ -143,9 +143,9 @@ TEST_CASE("html report: key results state u as the terminal does, the natural fr
     if (row.first == "dc gain") dc_gain = row.second;
     if (row.first == "pole 1") pole_row = row.second;
   }
-  CHECK(dc_gain == io::format_with_u(model["dc_gain"].get<double>(), model["dc_gain_u"].get<double>()));
+  CHECK(dc_gain == format_with_u(model["dc_gain"].get<double>(), model["dc_gain_u"].get<double>()));
   CHECK(pole_row.rfind("complex pair: natural frequency " +
-                           io::format_with_u(pole["natural_frequency_rad_s"].get<double>() * to_hz,
+                           format_with_u(pole["natural_frequency_rad_s"].get<double>() * to_hz,
                                              pole["natural_frequency_u_rad_s"].get<double>() * to_hz, "Hz") +
                            ", ",
                        0) == 0);

@@ -17,6 +17,7 @@
 
 #include "core/error.hpp"
 #include "ident/identify.hpp"
+#include "output/identify_output.hpp"
 #include "support/python_ref.hpp"
 
 using namespace periodfit;
@@ -487,7 +488,7 @@ TEST_CASE("frf: --order auto picks the second-order model for a second-order DUT
     REQUIRE(r.model.has_value());
     REQUIRE(r.model->order_trials.size() >= 3);
     CHECK_FALSE(r.model->order_trials[0].passed);  // 0/1 never fits a second-order DUT
-    const auto j = ident::identify_json(r);
+    const auto j = output::identify_json(r);
     CHECK(j["model"]["den"].back() == 1.0);  // monic, ascending powers
     CHECK(j["model"]["order_trials"].size() == r.model->order_trials.size());
     if (r.model->order.num == 0 && r.model->order.den == 2) {
@@ -566,16 +567,16 @@ TEST_CASE("frf: poles and zeros print frequency first in Hz, each value with u="
   ident::Root origin;             // a zero at s = 0: no corner, no time constant
   ident::Root repeated = real;
   repeated.uncertainty_defined = false;
-  CHECK(ident::format_roots_table({real, pair, conjugate, origin, repeated}) ==
+  CHECK(output::format_roots_table({real, pair, conjugate, origin, repeated}) ==
         "  root            freq_Hz               damping_ratio       Q                   time_constant_s\n"
         "  --------------  --------------------  ------------------  ------------------  ---------------------\n"
         "  real            159.2, u = 1.6        -                   -                   0.001000, u = 1.0e-05\n"
         "  complex pair    1200.0, u = 3.0       0.3500, u = 0.0020  1.4286, u = 0.0082  -\n"
         "  real, at s = 0  0, u = 0              -                   -                   -\n"
         "  real            159.155, u undefined  -                   -                   0.001, u undefined\n");
-  CHECK(ident::root_summary(pair) ==
+  CHECK(output::root_summary(pair) ==
         "complex pair: natural frequency 1200.0 Hz, u = 3.0 Hz, damping ratio 0.3500, u = 0.0020, Q 1.4286, "
         "u = 0.0082");
-  CHECK(ident::root_summary(real) ==
+  CHECK(output::root_summary(real) ==
         "real: corner frequency 159.2 Hz, u = 1.6 Hz, time constant 0.001000 s, u = 1.0e-05 s");
 }

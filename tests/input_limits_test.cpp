@@ -9,7 +9,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "dsp/period_lock.hpp"
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 #include "ident/rational_fit.hpp"
 #include "io/csv_reader.hpp"
 #include "io/input_limits.hpp"
@@ -48,11 +48,11 @@ TEST_CASE("input limits: JSON nesting up to the limit passes, one more level is 
 TEST_CASE("input limits: the issue's 50 000-deep model file is a located error, not a stack overflow") {
   // The first '[' of model.num is byte 55 (0-based; the 55-byte prefix above); level 65 is 62
   // brackets later (2 levels are the document and model objects): column 55 + 62 + 1 = 118.
-  CHECK_THROWS_WITH_AS(ident::parse_model_file(deep_model(50'000), "deep.model.json"),
+  CHECK_THROWS_WITH_AS(output::parse_model_file(deep_model(50'000), "deep.model.json"),
                        "deep.model.json:1:118: nested more than 64 levels deep (the limit for periodfit's input files)",
                        InputError);
   // At the limit the nesting check passes and the schema check answers.
-  CHECK_THROWS_WITH_AS(ident::parse_model_file(deep_model(62), "d.model.json"),
+  CHECK_THROWS_WITH_AS(output::parse_model_file(deep_model(62), "d.model.json"),
                        "d.model.json: \"model.num[0]\" must be a number, found an array", InputError);
 }
 
@@ -95,7 +95,7 @@ TEST_CASE("input limits: model degree above kMaxModelDegree is refused in files,
   for (int i = 0; i < 2000; ++i) den += i ? ",1" : "1";
   den += "]";
   const std::string text = R"({"format":"periodfit-model","version":1,"model":{"num":[1],"den":)" + den + "}}";
-  CHECK_THROWS_WITH_AS(ident::parse_model_file(text, "big.model.json"),
+  CHECK_THROWS_WITH_AS(output::parse_model_file(text, "big.model.json"),
                        "big.model.json: \"model.den\" has 2000 coefficients, more than the 101 of degree 100, the "
                        "highest periodfit evaluates (ident/model.hpp)",
                        InputError);

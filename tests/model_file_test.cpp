@@ -8,12 +8,13 @@
 #include <string>
 
 #include "core/error.hpp"
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 #include "ident/rational_fit.hpp"
 #include "io/output_file.hpp"
 
 using namespace periodfit;
 using namespace periodfit::ident;
+using namespace periodfit::output;
 
 namespace {
 

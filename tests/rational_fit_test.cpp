@@ -16,7 +16,7 @@
 
 #include "core/error.hpp"
 #include "ident/rational_fit.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "support/gaussian.hpp"
 #include "support/python_ref.hpp"
 
@@ -95,7 +95,7 @@ struct PythonRef {
 
 std::string join(const std::vector<double>& v, bool reverse) {
   std::string s;
-  for (std::size_t i = 0; i < v.size(); ++i) s += io::format_shortest(v[reverse ? v.size() - 1 - i : i]) + " ";
+  for (std::size_t i = 0; i < v.size(); ++i) s += format_shortest(v[reverse ? v.size() - 1 - i : i]) + " ";
   return s;
 }
 

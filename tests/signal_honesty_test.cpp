@@ -18,7 +18,7 @@
 
 #include "core/capture.hpp"
 #include "core/error.hpp"
-#include "dsp/analysis_output.hpp"
+#include "output/analysis_output.hpp"
 #include "dsp/harmonics.hpp"
 #include "dsp/magnitude_interval.hpp"
 #include "ident/frf.hpp"
@@ -230,7 +230,7 @@ TEST_CASE("signal honesty: analyze amplitude intervals never go below 0 and nois
   // A noise-only line's magnitude is Rayleigh: it lies below the 95 % bound 2.72σ in 97.5 % of
   // cases, so nearly all 19 lines read "phase undefined"; ≥ 15 allows for chance.
   CHECK(undefined >= 15);
-  const auto j = dsp::channel_json(a);
+  const auto j = output::channel_json(a);
   const auto& h2 = j["harmonics"][1];
   const bool defined = h2["phase_defined"];
   if (!defined) CHECK(h2["phase_note"].is_string());

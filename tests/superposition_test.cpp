@@ -10,6 +10,7 @@
 #include <sstream>
 
 #include "core/error.hpp"
+#include "output/predict_output.hpp"
 #include "predict/superposition.hpp"
 #include "support/python_ref.hpp"
 
@@ -427,10 +428,10 @@ TEST_CASE("superposition: CSV and JSON carry the documented fields") {
   predict::PredictOptions o;
   o.default_samples_per_period = 4;
   const auto r = predict::predict_steady_state(wave(WaveKind::sine, 1, 250), sys, o);
-  const std::string csv = predict::format_predict_csv(r);
+  const std::string csv = output::format_predict_csv(r);
   CHECK(csv.rfind("time_s,value,value_u\n0,", 0) == 0);
   CHECK(std::count(csv.begin(), csv.end(), '\n') == 5);
-  const auto j = predict::predict_json(r);
+  const auto j = output::predict_json(r);
   std::vector<std::string> keys;
   for (const auto& [k, v] : j.items()) keys.push_back(k);
   CHECK(keys == std::vector<std::string>{"status", "method", "f0_hz", "harmonics_used", "harmonic_count_method",

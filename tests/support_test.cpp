@@ -11,10 +11,10 @@
 
 #include "core/capture.hpp"
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
-#include "report/table.hpp"
+#include "core/table.hpp"
 #include "support/cli_runner.hpp"
 
 using namespace periodfit;
@@ -71,48 +71,48 @@ TEST_CASE("capture: channels named with digits: a name wins, #N is the position,
 
 TEST_CASE("number format: shortest text reads back to the same double") {
   for (double v : {0.1, 1.0 / 3.0, 6.02214076e23, -1e-300, 5e-324}) {
-    const std::string s = io::format_shortest(v);
+    const std::string s = format_shortest(v);
     CHECK(std::strtod(s.c_str(), nullptr) == v);  // strtod: subnormals read back too
   }
-  CHECK(io::format_shortest(0.1) == "0.1");
+  CHECK(format_shortest(0.1) == "0.1");
 }
 
 TEST_CASE("number format: value and u rounded as GUM 7.2.6, the GUM 7.2.2 example") {
   // JCGM 100:2008 §7.2.2: m_s = 100.021 47 g with u_c = 0.35 mg (u in the value's unit here).
-  const io::ValueText t = io::format_value_u(100.02147, 0.00035);
+  const ValueText t = format_value_u(100.02147, 0.00035);
   CHECK(t.value == "100.02147");
   CHECK(t.u == "0.00035");
-  CHECK(io::format_with_u(100.02147, 0.00035, "g") == "100.02147 g, u = 0.00035 g");
+  CHECK(format_with_u(100.02147, 0.00035, "g") == "100.02147 g, u = 0.00035 g");
   // §7.2.6: u to two significant digits, the value to the same decimal place.
-  CHECK(io::format_with_u(0.99608182, 2.8e-05) == "0.996082, u = 2.8e-05");  // u < 1e-4: e-notation
-  CHECK(io::format_with_u(1.00000113205, 3.3e-10) == "1.00000113205, u = 3.3e-10");
-  CHECK(io::format_with_u(1000.01234, 0.0153, "Hz") == "1000.012 Hz, u = 0.015 Hz");
+  CHECK(format_with_u(0.99608182, 2.8e-05) == "0.996082, u = 2.8e-05");  // u < 1e-4: e-notation
+  CHECK(format_with_u(1.00000113205, 3.3e-10) == "1.00000113205, u = 3.3e-10");
+  CHECK(format_with_u(1000.01234, 0.0153, "Hz") == "1000.012 Hz, u = 0.015 Hz");
   // Rounding u can carry into a new digit: 0.0996 → 0.10, and the value follows to 0.01.
-  CHECK(io::format_with_u(2.34567, 0.0996) == "2.35, u = 0.10");
+  CHECK(format_with_u(2.34567, 0.0996) == "2.35, u = 0.10");
   // u above 10: the value is rounded to tens, no invented decimals.
-  CHECK(io::format_with_u(12345.6, 347) == "12350, u = 350");
+  CHECK(format_with_u(12345.6, 347) == "12350, u = 350");
   // Last digit beyond the thousands: e-notation, so no zero poses as a digit.
-  CHECK(io::format_with_u(12345678.9, 345678) == "1.235e+07, u = 3.5e+05");
+  CHECK(format_with_u(12345678.9, 345678) == "1.235e+07, u = 3.5e+05");
 }
 
 TEST_CASE("number format: value and u edge cases (u = 0, u not finite, zero, u above the value, negative)") {
-  CHECK(io::format_with_u(1.23456789, 0, "V") == "1.23457 V, u = 0 V");   // exact: 6 significant digits
-  CHECK(io::format_with_u(1.23456789, std::nan(""), "V") == "1.23457 V, u = n/a");
-  CHECK(io::format_with_u(1.5, HUGE_VAL) == "1.5, u = inf");
-  CHECK(io::format_with_u(0.0, 0.035) == "0.000, u = 0.035");
-  CHECK(io::format_with_u(0.012, 0.35) == "0.01, u = 0.35");
-  CHECK(io::format_with_u(-0.001, 0.35) == "0.00, u = 0.35");     // rounds to zero: no "-0.00"
-  CHECK(io::format_with_u(-3, 120) == "0, u = 120");
-  CHECK(io::format_with_u(-100.02147, 0.00035) == "-100.02147, u = 0.00035");
-  CHECK(io::format_with_u(std::nan(""), 0.1) == "nan, u = 0.10");
+  CHECK(format_with_u(1.23456789, 0, "V") == "1.23457 V, u = 0 V");   // exact: 6 significant digits
+  CHECK(format_with_u(1.23456789, std::nan(""), "V") == "1.23457 V, u = n/a");
+  CHECK(format_with_u(1.5, HUGE_VAL) == "1.5, u = inf");
+  CHECK(format_with_u(0.0, 0.035) == "0.000, u = 0.035");
+  CHECK(format_with_u(0.012, 0.35) == "0.01, u = 0.35");
+  CHECK(format_with_u(-0.001, 0.35) == "0.00, u = 0.35");     // rounds to zero: no "-0.00"
+  CHECK(format_with_u(-3, 120) == "0, u = 120");
+  CHECK(format_with_u(-100.02147, 0.00035) == "-100.02147, u = 0.00035");
+  CHECK(format_with_u(std::nan(""), 0.1) == "nan, u = 0.10");
   // Outside 1e-9 … 1e6 for the last digit: e-notation for both.
-  CHECK(io::format_with_u(1.23456e-9, 3.4e-12) == "1.2346e-09, u = 3.4e-12");
-  CHECK(io::format_with_u(6.02214076e23, 1.2e17) == "6.0221408e+23, u = 1.2e+17");
+  CHECK(format_with_u(1.23456e-9, 3.4e-12) == "1.2346e-09, u = 3.4e-12");
+  CHECK(format_with_u(6.02214076e23, 1.2e17) == "6.0221408e+23, u = 1.2e+17");
 }
 
 TEST_CASE("number format: an expanded interval carries its level and coverage factor") {
-  CHECK(io::format_interval(0.9959, 1.0061, 0.0022, 0.95, 2.306) == "95 %: 0.9959 \xE2\x80\xA6 1.0061, k = 2.31");
-  CHECK(io::format_interval(-3.1, -2.9, 0.05, 0.95, 1.96, "dB") == "95 %: -3.100 \xE2\x80\xA6 -2.900 dB, k = 1.96");
+  CHECK(format_interval(0.9959, 1.0061, 0.0022, 0.95, 2.306) == "95 %: 0.9959 \xE2\x80\xA6 1.0061, k = 2.31");
+  CHECK(format_interval(-3.1, -2.9, 0.05, 0.95, 1.96, "dB") == "95 %: -3.100 \xE2\x80\xA6 -2.900 dB, k = 1.96");
 }
 
 TEST_CASE("output file: written atomically, no temporary left, missing folder is an IoError") {
@@ -244,7 +244,7 @@ TEST_CASE("scratch file: parts appended from several threads read back by span, 
 }
 
 TEST_CASE("table: columns align, numbers to the right") {
-  report::Table t({{"n", report::Table::Align::right}, {"name", report::Table::Align::left}});
+  Table t({{"n", Table::Align::right}, {"name", Table::Align::left}});
   t.add_row({"1", "fundamental"});
   t.add_row({"10", "x"});
   CHECK(t.render() == " n  name\n--  -----------\n 1  fundamental\n10  x\n");

@@ -10,7 +10,7 @@
 #include "core/memory_budget.hpp"
 #include "io/input_limits.hpp"
 #include "core/flags.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 
 namespace periodfit::batch {
@@ -315,9 +315,9 @@ AnalysisMode parse_mode(std::string_view text, std::string_view field) {
 
 void AnalyzeSettings::validate() const {
   if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be >= 0 (0 = estimate)");
+    throw OptionError("f0_hz", format_shortest(f0_hz), "must be >= 0 (0 = estimate)");
   if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be >= 0 (0 = none)");
+    throw OptionError("f0_hint_hz", format_shortest(f0_hint_hz), "must be >= 0 (0 = none)");
   if (harmonics < 0)
     throw OptionError("harmonics", std::to_string(harmonics), "must be >= 0 (0 = automatic)");
   for (const auto& c : channels)

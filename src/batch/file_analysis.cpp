@@ -5,11 +5,12 @@
 #include <numbers>
 
 #include "core/error.hpp"
-#include "dsp/analysis_output.hpp"
+#include "output/analysis_output.hpp"
 #include "ident/frf.hpp"
 #include "ident/identify.hpp"
+#include "output/identify_output.hpp"
 #include "io/capture_reader.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "report/result_plots.hpp"
 
 namespace periodfit::batch {
@@ -21,7 +22,7 @@ constexpr double kNormal95 = 1.959963984540054;
 
 std::string sig(double v) {
   if (!std::isfinite(v)) return std::isnan(v) ? "n/a" : (v > 0 ? "inf" : "-inf");
-  return io::format_significant(v == 0 ? 0.0 : v, 6);
+  return format_significant(v == 0 ? 0.0 : v, 6);
 }
 
 std::string with_unit(const std::string& number, const std::string& unit) {
@@ -32,7 +33,7 @@ std::string with_unit(const std::string& number, const std::string& unit) {
 // u labelled, GUM 7.2.6 digits); the 95 % intervals are in the limit table and summary.
 std::string pm(double value, double u, const std::string& unit) {
   if (!std::isfinite(u)) return with_unit(sig(value), unit);
-  return io::format_with_u(value, u, unit);
+  return format_with_u(value, u, unit);
 }
 
 Quantity db_quantity(double mag, double lo, double hi) {
@@ -45,7 +46,7 @@ Quantity db_quantity(double mag, double lo, double hi) {
 void add_key(FileAnalysis& a, std::string name, std::string label, double value,
              const std::string& unit) {
   const bool ok = std::isfinite(value);
-  a.keys.push_back({std::move(name), std::move(label), ok ? io::format_shortest(value) : "",
+  a.keys.push_back({std::move(name), std::move(label), ok ? format_shortest(value) : "",
                     ok ? with_unit(sig(value), unit) : ""});
 }
 
@@ -121,7 +122,7 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
   std::string order_text;
   if (r.model) {
     const ident::RationalFitResult& fit = *r.model;
-    order_text = std::to_string(fit.order.num) + "/" + std::to_string(fit.order.den);
+    order_text = ident::order_text(fit.order);
     if (fit.dc_gain_defined) m.set("dc_gain", Quantity::from_u(fit.dc_gain, fit.dc_gain_u, k));
     m.set("delay_s", Quantity::from_u(fit.delay_s, fit.delay_u_s, k));
     // Over the cost a right model is expected to reach (dof with known weights, more when the
@@ -142,14 +143,11 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
               q(pole.time_constant_s, pole.time_constant_u_s));
         m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
               q(std::abs(pole.value.real()) * to_hz, pole.re_u * to_hz));
-        // The report's pole rows read like identify's pole table: frequency first, standard u.
-        a.result_rows.emplace_back("pole " + std::to_string(entry), ident::root_summary(pole));
       } else {
         m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
               q(pole.natural_frequency_rad_s * to_hz, pole.natural_frequency_u_rad_s * to_hz));
         m.set(measurement_key("damping", {}, {}, {}, entry), q(pole.damping_ratio, pole.damping_ratio_u));
         m.set(measurement_key("q_factor", {}, {}, {}, entry), q(pole.q_factor, pole.q_factor_u));
-        a.result_rows.emplace_back("pole " + std::to_string(entry), ident::root_summary(pole));
       }
     }
     for (const auto& limit : config.limits) {
@@ -186,37 +184,12 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
                r.linearity.status == "untested" ? std::nullopt : std::optional<bool>(!r.linearity.nonlinear),
                "untested");
 
-  // The report section's rows, poles first collected above; put the overview before them.
-  std::vector<std::pair<std::string, std::string>> rows;
-  rows.emplace_back("channels", r.input_channel + " \xE2\x86\x92 " + r.output_channel);
-  rows.emplace_back("capture", capture.format + ", " + sig(capture.sample_rate_hz) + " Hz, " +
-                                   std::to_string(capture.sample_count()) + " samples");
-  rows.emplace_back("fundamental",
-                    pm(f0, r.fundamental.f0_u_hz, "Hz") + " (" + r.fundamental.method + ")");
-  rows.emplace_back("FRF", std::to_string(r.frf.points.size()) + " excited harmonics, " +
-                               std::to_string(r.frf.periods) + " periods, " + r.frf.method +
-                               ", dof " + std::to_string(r.frf.dof));
-  if (r.model) {
-    const auto& fit = *r.model;
-    rows.emplace_back("model", order_text + " (" + fit.order_decided_by + "), " + fit.method);
-    if (fit.dc_gain_defined) rows.emplace_back("dc gain", pm(fit.dc_gain, fit.dc_gain_u, ""));
-    if (fit.model.delay_s != 0 || fit.delay_u_s != 0)
-      rows.emplace_back("delay", pm(fit.delay_s, fit.delay_u_s, "s"));
-    rows.emplace_back("cost", sig(fit.cost) + " for " + std::to_string(fit.dof) + " dof (expected " +
-                                  sig(fit.cost_expected) + ", 95 % band " + sig(fit.chi2_lower) +
-                                  " \xE2\x80\xA6 " + sig(fit.chi2_upper) + "): " +
-                                  (fit.adequate ? "adequate" : "not adequate"));
-  }
-  rows.insert(rows.end(), a.result_rows.begin(), a.result_rows.end());
-  std::string lin = r.linearity.status;
-  if (r.linearity.level_db) lin += ", distortion " + io::format_fixed(*r.linearity.level_db, 1) + " dB";
-  rows.emplace_back("linearity", lin);
-  a.result_rows = std::move(rows);
+  a.result_rows = output::identify_summary_rows(r, capture);
 
   a.flags = r.flags;
   for (const auto& f : r.flags) a.messages.push_back("flag: " + f);
   a.figures = report::identify_figures(capture, r);
-  a.result_json = ident::identify_json(r);
+  a.result_json = output::identify_json(r);
   return a;
 }
 
@@ -282,7 +255,7 @@ FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config)
     add_key(a, "thd", "THD", c.distortion.thd, "");
     add_key(a, "sinad_db", "SINAD", c.distortion.sinad_db, "dB");
   }
-  a.result_json = dsp::analyze_json(report);
+  a.result_json = output::analyze_json(report);
   return a;
 }
 
@@ -336,8 +309,8 @@ std::vector<std::string> analysis_key_names(const BatchConfig& config) {
 std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const BatchConfig& config) {
   std::vector<std::pair<std::string, std::string>> rows;
   const auto f0 = [&](double f0_hz, double hint, int harmonics) {
-    rows.emplace_back("fundamental", f0_hz > 0 ? io::format_shortest(f0_hz) + " Hz (forced)"
-                                     : hint > 0 ? "estimated near " + io::format_shortest(hint) + " Hz"
+    rows.emplace_back("fundamental", f0_hz > 0 ? format_shortest(f0_hz) + " Hz (forced)"
+                                     : hint > 0 ? "estimated near " + format_shortest(hint) + " Hz"
                                                 : "estimated");
     rows.emplace_back("harmonics", harmonics > 0 ? std::to_string(harmonics) : "automatic");
   };
@@ -346,7 +319,7 @@ std::vector<std::pair<std::string, std::string>> analysis_settings_rows(const Ba
     rows.emplace_back("input \xE2\x86\x92 output", o.input_channel + " \xE2\x86\x92 " + (o.output_channel.empty() ? "#1" : o.output_channel));
     rows.emplace_back("model order", o.order.empty() ? "none" : o.order);
     rows.emplace_back("delay", o.estimate_delay ? "estimated" : "none");
-    rows.emplace_back("min SNR", io::format_shortest(o.frf.min_snr_db) + " dB");
+    rows.emplace_back("min SNR", format_shortest(o.frf.min_snr_db) + " dB");
     f0(o.f0_hz, o.f0_hint_hz, o.max_harmonic);
   } else {
     const auto& o = config.analyze;

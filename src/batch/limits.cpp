@@ -7,7 +7,7 @@
 #include <variant>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::batch {
 
@@ -185,7 +185,7 @@ std::variant<Written, std::string> parse_written(const ResultInfo& info, const s
                           "; write " + accepted_units(info);
     if (field == "tolerance" && w.token == "%")
       message += " (a tolerance relative to the nominal is tolerance_pct = " +
-                 io::format_shortest(w.number) + ")";
+                 format_shortest(w.number) + ")";
     return message;
   }
   w.scale = *scale;
@@ -213,7 +213,7 @@ std::string format_limit_number(double value) {
   if (std::isnan(value)) return "nan";
   if (std::isinf(value)) return value > 0 ? "inf" : "\xE2\x88\x92inf";
   if (value == 0) value = 0;  // no "−0"
-  return with_minus(io::format_significant(value, 6));
+  return with_minus(format_significant(value, 6));
 }
 
 std::string measurement_key(std::string_view name, std::string_view channel,
@@ -223,7 +223,7 @@ std::string measurement_key(std::string_view name, std::string_view channel,
   const auto add = [&](const std::string& part) { parts += (parts.empty() ? "" : ",") + part; };
   if (!channel.empty()) add("channel=" + std::string(channel));
   if (harmonic) add("n=" + std::to_string(*harmonic));
-  if (freq_hz) add("f=" + io::format_shortest(*freq_hz));
+  if (freq_hz) add("f=" + format_shortest(*freq_hz));
   if (pole) add("pole=" + std::to_string(*pole));
   std::string key(name);
   if (!parts.empty()) key += "[" + parts + "]";
@@ -354,10 +354,10 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
                                     std::pair{"min", &limit.min}, std::pair{"max", &limit.max}}) {
     if (!*value || limit.written.count(name) || !(**value > info->bare_max)) continue;
     const double v = **value;
-    return LimitProblem{name, r + " " + name + " = " + io::format_shortest(v) + " is a ratio of " +
-                                  io::format_shortest(v) + " (" + io::format_shortest(v * 100) +
-                                  " %); write \"" + io::format_shortest(v) + " %\" or " +
-                                  io::format_shortest(v / 100)};
+    return LimitProblem{name, r + " " + name + " = " + format_shortest(v) + " is a ratio of " +
+                                  format_shortest(v) + " (" + format_shortest(v * 100) +
+                                  " %); write \"" + format_shortest(v) + " %\" or " +
+                                  format_shortest(v / 100)};
   }
   // The range.
   for (const auto& [name, value] : {std::pair{"nominal", &limit.nominal},
@@ -462,7 +462,7 @@ LimitOutcome evaluate_limit(const Limit& limit, const MeasurementSet& measured) 
   else if (!(v.lo95 == v.value && v.hi95 == v.value))
     out.measured_text += " (95 %: " + format_limit_number(limit.to_display(v.lo95)) + " \xE2\x80\xA6 " +
                          format_limit_number(limit.to_display(v.hi95)) +
-                         (std::isfinite(v.k) ? ", k = " + io::format_significant(v.k, 3) : std::string()) +
+                         (std::isfinite(v.k) ? ", k = " + format_significant(v.k, 3) : std::string()) +
                          ")";
   if (!limit.unit_base.empty()) {
     const std::string channel_unit = measured.channel_unit(limit.channel);

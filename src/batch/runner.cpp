@@ -19,11 +19,11 @@
 #include "batch/report_folder.hpp"
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
-#include "io/json_writer.hpp"
+#include "core/number_format.hpp"
+#include "output/json_writer.hpp"
 #include "io/output_file.hpp"
 #include "io/scratch_file.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "report/svg_plot.hpp"
 
 namespace periodfit::batch {
@@ -80,13 +80,13 @@ json limit_json(const Limit& l, std::size_t index) {
   j["label"] = l.label;
   j["description"] = l.describe();
   j["allowed"] = l.allowed_text();
-  j["lo"] = io::json_number(l.lo);
-  j["hi"] = io::json_number(l.hi);
+  j["lo"] = output::json_number(l.lo);
+  j["hi"] = output::json_number(l.hi);
   j["guard_band"] = l.guard_band;
   return j;
 }
 
-json number_or_null(double v) { return std::isfinite(v) ? io::json_number(v) : json(nullptr); }
+json number_or_null(double v) { return std::isfinite(v) ? output::json_number(v) : json(nullptr); }
 
 bool yes_no(const Limit& l) {
   const ResultInfo* info = find_result(l.result);
@@ -102,12 +102,12 @@ json outcome_json(const Limit& l, const LimitOutcome& o, std::size_t index) {
   if (o.evaluated && yes_no(l))
     j["value"] = o.measured.value != 0;
   else
-    j["value"] = o.evaluated ? io::json_number(o.measured.value) : json(nullptr);
+    j["value"] = o.evaluated ? output::json_number(o.measured.value) : json(nullptr);
   const bool interval = o.evaluated && !yes_no(l) && o.measured.has_interval();
   j["u"] = o.evaluated && !yes_no(l) ? number_or_null(o.measured.u) : json(nullptr);
   j["k"] = interval ? number_or_null(o.measured.k) : json(nullptr);
-  j["lo95"] = interval ? io::json_number(o.measured.lo95) : json(nullptr);
-  j["hi95"] = interval ? io::json_number(o.measured.hi95) : json(nullptr);
+  j["lo95"] = interval ? output::json_number(o.measured.lo95) : json(nullptr);
+  j["hi95"] = interval ? output::json_number(o.measured.hi95) : json(nullptr);
   j["min"] = yes_no(l) ? json(nullptr) : number_or_null(l.lo);
   j["max"] = yes_no(l) ? json(nullptr) : number_or_null(l.hi);
   j["allowed"] = l.allowed_text();
@@ -238,21 +238,21 @@ constexpr const char* kLimitColumns[] = {"u",   "k",       "lo95",    "hi95",   
                                          "max", "allowed", "passed",  "verdict", "margin",
                                          "margin_fraction"};
 
-std::string csv_number(double v) { return std::isfinite(v) ? io::format_shortest(v) : ""; }
+std::string csv_number(double v) { return std::isfinite(v) ? format_shortest(v) : ""; }
 
 std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& config) {
   std::string out = "path,status";
-  for (const auto& key : analysis_key_names(config)) out += "," + report::csv_cell(key);
+  for (const auto& key : analysis_key_names(config)) out += "," + csv_cell(key);
   for (std::size_t i = 0; i < config.limits.size(); ++i) {
     const std::string prefix = "limit" + std::to_string(i + 1) + ":";
-    out += "," + report::csv_cell(prefix + config.limits[i].key());
-    for (const char* column : kLimitColumns) out += "," + report::csv_cell(prefix + column);
+    out += "," + csv_cell(prefix + config.limits[i].key());
+    for (const char* column : kLimitColumns) out += "," + csv_cell(prefix + column);
   }
   out += ",flags,failing_flags,failing_limits,message\n";
   for (const auto& w : works) {
     const FileResult& r = w.result;
-    out += report::csv_cell(r.path) + "," + report::status_text(r.status);
-    for (const auto& [key, value] : r.key_results) out += "," + report::csv_cell(value);
+    out += csv_cell(r.path) + "," + report::status_text(r.status);
+    for (const auto& [key, value] : r.key_results) out += "," + csv_cell(value);
     for (std::size_t i = 0; i < config.limits.size(); ++i) {
       const Limit& l = config.limits[i];
       const bool have = i < r.limits.size();
@@ -269,9 +269,9 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
       out += "," + (interval ? csv_number(q.hi95) : "");
       out += "," + (yes_no(l) ? "" : csv_number(l.lo));
       out += "," + (yes_no(l) ? "" : csv_number(l.hi));
-      out += "," + report::csv_cell(l.allowed_text());
+      out += "," + csv_cell(l.allowed_text());
       out += "," + (have ? std::string(r.limits[i].passed ? "true" : "false") : "");
-      out += "," + (have ? report::csv_cell(r.limits[i].verdict) : "");
+      out += "," + (have ? csv_cell(r.limits[i].verdict) : "");
       out += "," + (have ? csv_number(r.limits[i].margin) : "");
       out += "," + (have ? csv_number(r.limits[i].margin_fraction) : "");
     }
@@ -279,8 +279,8 @@ std::string summary_csv(const std::vector<FileDone>& works, const BatchConfig& c
     for (std::size_t i = 0; i < r.limits.size(); ++i)
       if (!r.limits[i].passed)
         failing += (failing.empty() ? "" : "; ") + failing_limit_text(config.limits[i], r.limits[i]);
-    out += "," + report::csv_cell(flags_text(r.flags)) + "," + report::csv_cell(flags_text(r.failing_flags));
-    out += "," + report::csv_cell(failing) + "," + report::csv_cell(r.error) + "\n";
+    out += "," + csv_cell(flags_text(r.flags)) + "," + csv_cell(flags_text(r.failing_flags));
+    out += "," + csv_cell(failing) + "," + csv_cell(r.error) + "\n";
   }
   return out;
 }
@@ -336,7 +336,7 @@ void BatchOptions::validate() const {
   if (report_dir.empty()) throw OptionError("report", "\"\"", "a report folder is required");
   if (jobs < 0) throw OptionError("jobs", std::to_string(jobs), "must be >= 0 (0 = hardware threads)");
   if (!(progress_interval_s > 0))
-    throw OptionError("progress_interval_s", io::format_shortest(progress_interval_s), "must be > 0");
+    throw OptionError("progress_interval_s", format_shortest(progress_interval_s), "must be > 0");
   if (config.mode == AnalysisMode::identify)
     config.identify.validate();
   else
@@ -446,7 +446,7 @@ BatchResult run_batch(const BatchOptions& options) {
         {
           FileWork w = process(i, paths[i], options);
           io::write_file_atomic((staging / w.result.json_file).string(),
-                                io::json_text(w.document));
+                                output::json_text(w.document));
           FileDone& kept = works[i];
           kept.section = sections.append(report::render_report_section(w.section, i + 1));
           kept.row = report::report_row(w.section);
@@ -495,7 +495,7 @@ BatchResult run_batch(const BatchOptions& options) {
     }
   }
   io::write_file_atomic((staging / "summary.csv").string(), summary_csv(works, options.config));
-  io::write_file_atomic((staging / "summary.json").string(), io::json_text(summary_json(works, result, options)));
+  io::write_file_atomic((staging / "summary.json").string(), output::json_text(summary_json(works, result, options)));
 
   report::ReportOverview overview;
   overview.title = options.config.title;

@@ -5,7 +5,7 @@
 #include <cmath>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/quantity.hpp"
 
 namespace periodfit::cli {
@@ -33,7 +33,7 @@ CLI::Option* add_frequency_option(CLI::App& app, const std::string& name, double
             hz = *value;
           },
           help)
-      ->default_str(io::format_shortest(hz))
+      ->default_str(format_shortest(hz))
       ->type_name("HZ");
 }
 
@@ -47,7 +47,7 @@ CLI::Option* add_duration_option(CLI::App& app, const std::string& name, double&
             seconds = *value;
           },
           help)
-      ->default_str(io::format_shortest(seconds))
+      ->default_str(format_shortest(seconds))
       ->type_name("SECONDS");
 }
 

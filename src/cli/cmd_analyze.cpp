@@ -6,14 +6,14 @@
 #include <vector>
 
 #include "cli/capture_options.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "cli/commands.hpp"
 #include "core/exit_code.hpp"
-#include "dsp/analysis_output.hpp"
+#include "output/analysis_output.hpp"
 #include "dsp/harmonics.hpp"
 #include "io/capture_reader.hpp"
 #include "io/output_set.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 #include "report/result_plots.hpp"
 #include "report/svg_plot.hpp"
 
@@ -66,19 +66,19 @@ Runner add_analyze(CLI::App& app) {
                           {{"FILE", args->file}});
     const Capture capture = io::read_capture(args->file, args->read);
     const dsp::AnalyzeReport report = dsp::analyze_capture(capture, args->channels, args->options);
-    if (outputs.requested("--json")) outputs.set("--json", io::json_text(dsp::analyze_json(report)));
-    if (outputs.requested("--csv")) outputs.set("--csv", dsp::harmonics_csv(report));
+    if (outputs.requested("--json")) outputs.set("--json", output::json_text(output::analyze_json(report)));
+    if (outputs.requested("--csv")) outputs.set("--csv", output::harmonics_csv(report));
     if (outputs.requested("--plot"))
       outputs.set("--plot", report::svg_document(report::analyze_spectra_figure(report)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
-    outputs.publish(outputs.stdout_free() ? dsp::analyze_text(report) : std::string());
+    outputs.publish(outputs.stdout_free() ? output::analyze_text(report) : std::string());
     for (const auto& w : channel_selector_warnings(capture, args->channels, args->read))
-      std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
+      std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(w, false).c_str());
     for (const auto& channel : report.channels)
       for (const auto& flag : channel.flags)
         std::fprintf(stderr, "periodfit: warning: channel \"%s\": %s\n",
-                     report::terminal_text(channel.name, false).c_str(),
-                     report::terminal_text(flag.message, false).c_str());
+                     terminal_text(channel.name, false).c_str(),
+                     terminal_text(flag.message, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

@@ -14,9 +14,9 @@
 #include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
 #include "core/exit_code.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
-#include "report/table.hpp"
+#include "core/table.hpp"
 
 namespace periodfit::cli {
 
@@ -59,7 +59,7 @@ void show_progress(const batch::Progress& p) {
   const double rate = p.elapsed_s > 0 ? static_cast<double>(p.done) / p.elapsed_s : 0;
   const double eta = rate > 0 ? static_cast<double>(p.total - p.done) / rate : std::nan("");
   std::string line = "\r  " + std::to_string(p.done) + "/" + std::to_string(p.total) + " files  " +
-                     io::format_fixed(rate, 1) + " files/s  ETA " +
+                     format_fixed(rate, 1) + " files/s  ETA " +
                      (p.done == p.total ? std::string("0 s") : duration_text(eta)) + "   ";
   std::fputs(line.c_str(), stderr);
   if (p.done == p.total) std::fputs("\n", stderr);
@@ -155,11 +155,11 @@ Runner add_batch(CLI::App& app) {
     const batch::BatchResult r = batch::run_batch(b.run);
     std::string out;
     if (!b.quiet) {
-      report::Table table({{"file", report::Table::Align::left},
-                           {"status", report::Table::Align::left},
-                           {"flags", report::Table::Align::left},
+      Table table({{"file", Table::Align::left},
+                           {"status", Table::Align::left},
+                           {"flags", Table::Align::left},
                            {"why not PASS (value, 95 % interval, allowed range) / message",
-                            report::Table::Align::left}});
+                            Table::Align::left}});
       for (const auto& f : r.files) {
         std::string flags;
         for (const auto& flag : f.flags) flags += (flags.empty() ? "" : ", ") + flag;
@@ -177,10 +177,10 @@ Runner add_batch(CLI::App& app) {
       const double files = static_cast<double>(r.files.size());
       const double overhead = (r.elapsed_s - r.analysis_s / r.jobs) / files;
       const std::string line = "timing: " + std::to_string(r.files.size()) + " files in " +
-                               io::format_fixed(r.elapsed_s, 2) + " s with " + std::to_string(r.jobs) +
-                               " jobs (" + io::format_fixed(files / r.elapsed_s, 2) + " files/s); analysis " +
-                               io::format_fixed(r.analysis_s / files * 1e3, 1) + " ms/file; overhead " +
-                               io::format_fixed(overhead * 1e3, 1) + " ms/file\n";
+                               format_fixed(r.elapsed_s, 2) + " s with " + std::to_string(r.jobs) +
+                               " jobs (" + format_fixed(files / r.elapsed_s, 2) + " files/s); analysis " +
+                               format_fixed(r.analysis_s / files * 1e3, 1) + " ms/file; overhead " +
+                               format_fixed(overhead * 1e3, 1) + " ms/file\n";
       timing_line = line;
     }
     // Checked: a table that did not arrive is exit 2 with the reason, although the report

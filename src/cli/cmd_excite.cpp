@@ -7,13 +7,14 @@
 
 #include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
 #include "io/output_set.hpp"
+#include "output/excitation_output.hpp"
 #include "predict/excitation.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -97,11 +98,11 @@ Runner add_excite(CLI::App& app) {
     if (!a->spectrum_path.empty())
       opt.spectrum = predict::parse_amplitude_spectrum(io::read_file(a->spectrum_path), a->spectrum_path);
     const predict::ExciteResult r = predict::generate_excitation(opt);
-    outputs.set("OUT", predict::excitation_bytes(r, a->out_path));
-    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::excitation_json(r)));
+    outputs.set("OUT", output::excitation_bytes(r, a->out_path));
+    if (outputs.requested("--json")) outputs.set("--json", output::json_text(output::excitation_json(r)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
-    outputs.publish(outputs.stdout_free() ? predict::excitation_text(r) : std::string());
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
+    outputs.publish(outputs.stdout_free() ? output::excitation_text(r) : std::string());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(w, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

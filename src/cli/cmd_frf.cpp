@@ -7,18 +7,19 @@
 #include <vector>
 
 #include "cli/capture_options.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "cli/commands.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "ident/identify.hpp"
-#include "ident/model_file.hpp"
+#include "output/identify_output.hpp"
+#include "output/model_file.hpp"
 #include "io/capture_reader.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_set.hpp"
 #include "report/result_plots.hpp"
 #include "report/svg_plot.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -61,7 +62,7 @@ void read_pair(const IdentifyArgs& a, Capture& input, Capture& output) {
   io::apply_read_options(output, out_opts);
 }
 
-void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(message, false).c_str()); }
+void warn(const std::string& message) { std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(message, false).c_str()); }
 
 int run(const IdentifyArgs& a) {
   if (!a.model_path.empty() && a.options.order.empty())
@@ -82,37 +83,18 @@ int run(const IdentifyArgs& a) {
     for (auto& w : channel_selector_warnings(output, {a.options.output_channel})) warnings.push_back(std::move(w));
     r = ident::identify(input, output, a.options);
   }
-  if (outputs.requested("--json")) outputs.set("--json", io::json_text(ident::identify_json(r)));
+  if (outputs.requested("--json")) outputs.set("--json", output::json_text(output::identify_json(r)));
   if (outputs.requested("--plot")) outputs.set("--plot", report::svg_document(report::identify_bode_figure(r)));
   if (outputs.requested("--save-model") && r.model) {
     std::string source = r.input_source;
     if (r.output_source != r.input_source) source += ", " + r.output_source;
-    outputs.set("--save-model", ident::format_model_file(ident::model_file_from_fit(
+    outputs.set("--save-model", output::format_model_file(output::model_file_from_fit(
                                     *r.model, source, r.fundamental.f0_hz, ident::fit_points(r.frf))));
   }
   // Warnings follow a successful publication, so a failed one ends with its one error line.
-  outputs.publish(outputs.stdout_free() ? ident::format_identify_report(r) : std::string());
+  outputs.publish(outputs.stdout_free() ? output::format_identify_report(r) : std::string());
   for (const auto& w : warnings) warn(w);
-  for (const auto& flag : r.flags) {
-    if (flag == "nonlinear")
-      warn("nonlinear: output lines at harmonics the input does not excite (" +
-           io::format_fixed(r.linearity.level_db.value_or(0), 1) + " dB relative to the excited output)");
-    else if (flag == "model-inadequate" && r.model)
-      warn("model " + std::to_string(r.model->order.num) + "/" + std::to_string(r.model->order.den) +
-           " is not adequate: cost " + io::format_significant(r.model->cost, 4) + " outside the band [" +
-           io::format_significant(r.model->chi2_lower, 4) + ", " + io::format_significant(r.model->chi2_upper, 4) +
-           "] for dof " + std::to_string(r.model->dof) + " (" + r.model->band_method + ")");
-    else if (flag == "unstable-pole")
-      warn("the fitted model has a pole with Re p >= 0 (unstable)");
-    else if (flag == "few-periods")
-      warn("only " + std::to_string(r.frf.periods) +
-           " whole periods: uncertainties come from the neighbouring noise bins");
-    else if (flag == "numerical-floor")
-      warn("the record looks noise-free: some FRF variances were raised to the numerical floor, "
-           "so the uncertainties and the chi-square verdict say little");
-    else if (flag == "model-not-converged")
-      warn("the model fit did not converge: the parameters are the best found, not an optimum");
-  }
+  for (const auto& w : output::identify_warnings(r)) warn(w);
   return to_int(ExitCode::ok);
 }
 

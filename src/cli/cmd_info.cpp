@@ -11,8 +11,9 @@
 #include "dsp/capture_survey.hpp"
 #include "io/capture_reader.hpp"
 #include "io/info.hpp"
+#include "output/info_output.hpp"
 #include "io/output_set.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -39,10 +40,10 @@ Runner add_info(CLI::App& app) {
     for (const auto& path : args->files) infos.push_back(dsp::survey_capture(io::read_capture(path, args->read)));
     // Names and metadata are bytes from the file, not always UTF-8: invalid sequences are
     // written as U+FFFD so the JSON stays valid (docs/robustness.md, entry 16).
-    if (outputs.requested("--json")) outputs.set("--json", io::json_text(io::info_json(infos)));
+    if (outputs.requested("--json")) outputs.set("--json", output::json_text(output::info_json(infos)));
     std::string text;
     if (outputs.stdout_free())
-      for (std::size_t i = 0; i < infos.size(); ++i) text += (i ? "\n" : "") + io::info_text(infos[i]);
+      for (std::size_t i = 0; i < infos.size(); ++i) text += (i ? "\n" : "") + output::info_text(infos[i]);
     outputs.publish(text);
     return to_int(ExitCode::ok);
   };

@@ -7,17 +7,18 @@
 
 #include "cli/capture_options.hpp"
 #include "cli/commands.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 #include "core/error.hpp"
 #include "core/exit_code.hpp"
 #include "dsp/harmonics.hpp"
 #include "dsp/waveforms.hpp"
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 #include "ident/system_expression.hpp"
 #include "io/capture_reader.hpp"
 #include "io/output_set.hpp"
+#include "output/predict_output.hpp"
 #include "predict/superposition.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
 namespace periodfit::cli {
 
@@ -114,7 +115,7 @@ Runner add_steady_state(CLI::App& app) {
                           {{"--model", a->model_path}, {"--input-file", a->input_file}});
     predict::PredictSystem sys;
     if (!a->model_path.empty()) {
-      const ident::ModelFile file = ident::read_model_file(a->model_path);
+      const output::ModelFile file = output::read_model_file(a->model_path);
       if (!file.model.den.empty()) sys.model = file.model;
       sys.measured = file.frf;
       sys.prefer_measured = a->response_from == "measured";
@@ -155,12 +156,12 @@ Runner add_steady_state(CLI::App& app) {
       }
       r = predict::predict_steady_state(a->wave, sys, a->options);
     }
-    if (outputs.requested("--csv")) outputs.set("--csv", predict::format_predict_csv(r));
-    if (outputs.requested("--json")) outputs.set("--json", io::json_text(predict::predict_json(r)));
+    if (outputs.requested("--csv")) outputs.set("--csv", output::format_predict_csv(r));
+    if (outputs.requested("--json")) outputs.set("--json", output::json_text(output::predict_json(r)));
     // Warnings follow a successful publication, so a failed one ends with its one error line.
-    outputs.publish(outputs.stdout_free() ? predict::predict_text(r, a->list) : std::string());
-    for (const auto& w : channel_warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
-    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", report::terminal_text(w, false).c_str());
+    outputs.publish(outputs.stdout_free() ? output::predict_text(r, a->list) : std::string());
+    for (const auto& w : channel_warnings) std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(w, false).c_str());
+    for (const auto& w : r.warnings) std::fprintf(stderr, "periodfit: warning: %s\n", terminal_text(w, false).c_str());
     return to_int(ExitCode::ok);
   };
 }

@@ -13,7 +13,7 @@
 #include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
 #include "io/output_file.hpp"
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 
 namespace {
 
@@ -45,7 +45,7 @@ constexpr const char* kExitCodes =
 
 void print_error(const std::string& message) {
   // The message may quote input text (names, cells, paths): one line, controls shown as \xHH.
-  std::fprintf(stderr, "periodfit: error: %s\n", periodfit::report::terminal_text(message, false).c_str());
+  std::fprintf(stderr, "periodfit: error: %s\n", periodfit::terminal_text(message, false).c_str());
 }
 
 /// The one place standard output is flushed and closed, whatever the command printed (help,

@@ -12,7 +12,7 @@
 #include "core/error.hpp"
 #include "dsp/clipping.hpp"
 #include "dsp/magnitude_interval.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::dsp {
 namespace {
@@ -45,7 +45,7 @@ double coverage_95(int dof) {
   return boost::math::quantile(boost::math::students_t_distribution<double>(dof), 0.975);
 }
 
-std::string sig(double v, int digits = 4) { return io::format_significant(v, digits); }
+std::string sig(double v, int digits = 4) { return format_significant(v, digits); }
 
 double wrap_deg(double d) {
   d = std::fmod(d, 360.0);
@@ -66,9 +66,9 @@ void validate(const AnalyzeOptions& o) {
     throw OptionError("samples_per_period", std::to_string(o.samples_per_period),
                       "must be 0 (automatic) or >= 4");
   if (!(o.drift_sigmas > 0))
-    throw OptionError("drift_sigmas", io::format_shortest(o.drift_sigmas), "must be > 0");
+    throw OptionError("drift_sigmas", format_shortest(o.drift_sigmas), "must be > 0");
   if (!(o.significance > 0))
-    throw OptionError("significance", io::format_shortest(o.significance), "must be > 0");
+    throw OptionError("significance", format_shortest(o.significance), "must be > 0");
 }
 
 namespace {
@@ -159,7 +159,7 @@ ChannelAnalysis analyze_channel(const SampleView& channel, double fs, double t0,
   scale_results(out, exponent);
   if (!all_finite(out))
     throw AnalysisError("channel \"" + channel.name + "\": the results exceed the range of double " +
-                        "precision numbers (peak " + io::format_significant(peak, 4) +
+                        "precision numbers (peak " + format_significant(peak, 4) +
                         "); give the data in a larger unit");
   return out;
 }
@@ -388,7 +388,7 @@ ChannelAnalysis analyze_unit_scaled(const SampleView& channel, double fs, double
     const std::string unit = out.unit.empty() ? "" : " " + out.unit;
     const auto line_text = [&](const ResidualLine& l) {
       return sig(l.freq_hz, 6) + " Hz at " + sig(l.amplitude, 3) + unit +
-             (a1 > 0 ? " (" + io::format_fixed(20 * std::log10(l.amplitude / a1), 1) + " dBc)" : "");
+             (a1 > 0 ? " (" + format_fixed(20 * std::log10(l.amplitude / a1), 1) + " dBc)" : "");
     };
     if (!lines.empty() && out.explained_share < 1 - kNotPeriodicShare) {
       out.flags.push_back({"not-periodic", "the harmonics of f0 = " + sig(f0, 6) + " Hz explain only " +
@@ -423,7 +423,7 @@ ChannelAnalysis analyze_unit_scaled(const SampleView& channel, double fs, double
   if (out.baseline.significant) {
     const double a1 = amplitudes.size() > 1 ? amplitudes[1] : 0;
     const std::string dbc =
-        a1 > 0 ? ", " + io::format_fixed(20 * std::log10(out.baseline.peak_to_peak / a1), 1) + " dBc" : "";
+        a1 > 0 ? ", " + format_fixed(20 * std::log10(out.baseline.peak_to_peak / a1), 1) + " dBc" : "";
     out.flags.push_back({"baseline-drift", "the baseline drifts by " + sig(out.baseline.peak_to_peak, 3) +
                                                (out.unit.empty() ? "" : " " + out.unit) + " peak-to-peak" + dbc +
                                                " over the record (Legendre trend, degree ≤ 2); " +

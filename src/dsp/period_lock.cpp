@@ -17,7 +17,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "dsp/fft_plan.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::dsp {
 namespace {
@@ -48,7 +48,7 @@ constexpr int kKernelHalfWidth = 16;
 constexpr double kKaiserBeta = 6.0;
 constexpr int kKernelPhases = 1024;  ///< table resolution in fractional delay (linear interp)
 
-std::string str(double v) { return io::format_shortest(v); }
+std::string str(double v) { return format_shortest(v); }
 
 // ---- closed-form sums over s = k − (N−1)/2, k = 0…N−1 --------------------------------------
 // D(u) = Σ cos(2us) = sin(Nu)/sin(u) (Dirichlet kernel); Σ s·sin(2us) = −D'(u)/2;
@@ -792,9 +792,9 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
   if (a1sq == 0 || (var1 > 0 && a1sq / var1 < threshold)) {
     const double z = var1 > 0 ? std::sqrt(a1sq / var1) : 0;
     throw AnalysisError("no periodic component stands out of the noise: the strongest candidate, " +
-                        io::format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
-                        io::format_significant(z, 3) + " standard uncertainties (needs " +
-                        io::format_significant(std::sqrt(threshold), 3) + ")");
+                        format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
+                        format_significant(z, 3) + " standard uncertainties (needs " +
+                        format_significant(std::sqrt(threshold), 3) + ")");
   }
   return fit;
 }
@@ -893,7 +893,7 @@ PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& 
   const double cycles = static_cast<double>(n) * f0 / fs;
   const int periods = static_cast<int>(std::floor(cycles + 1e-3));
   if (periods < 1)
-    throw AnalysisError("the record spans " + io::format_significant(cycles, 4) +
+    throw AnalysisError("the record spans " + format_significant(cycles, 4) +
                         " periods of f0 = " + str(f0) + " Hz: less than one whole period to lock onto");
   // Bounded before allocation (issue 11, class 5): the grid (P·M doubles), one period's model
   // and the per-period transforms of period_spectra (M complex values), counted as four doubles

@@ -9,7 +9,7 @@
 #include <set>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::dsp {
 
@@ -28,7 +28,7 @@ constexpr KindName kKindNames[] = {
     {WaveKind::pulse, "pulse"},         {WaveKind::harmonics, "harmonics"},
 };
 
-std::string num(double v) { return io::format_shortest(v); }
+std::string num(double v) { return format_shortest(v); }
 
 /// Harmonic n of a rectangular pulse of height h on u ∈ [0, d): (2h/(nπ))·sin(nπd)·e^{−jnπd}
 /// (pulse centred at u = d/2, even about it; handbook table "rectangular pulse train").

@@ -10,7 +10,7 @@
 #include <utility>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -83,7 +83,7 @@ double sorted_quantile(const std::vector<double>& v, double q) {
 
 CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confidence) {
   if (!(confidence > 0 && confidence < 1))
-    throw OptionError("confidence", io::format_shortest(confidence), "must be in (0, 1)");
+    throw OptionError("confidence", format_shortest(confidence), "must be in (0, 1)");
   if (dof <= 0) throw OptionError("dof", std::to_string(dof), "must be > 0");
   const double lo_q = (1 - confidence) / 2, hi_q = (1 + confidence) / 2;
   std::vector<TermLaw> laws;

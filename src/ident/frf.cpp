@@ -11,7 +11,7 @@
 #include <numbers>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -43,7 +43,7 @@ void check_same_grid(const dsp::PeriodSpectra& u, const dsp::PeriodSpectra& y) {
       u.samples_per_period != y.samples_per_period ||
       std::abs(u.f0_hz - y.f0_hz) > kSameF0Relative * std::abs(u.f0_hz))
     throw AnalysisError("FRF: input and output are not on the same period grid (f0 " +
-                        io::format_shortest(u.f0_hz) + " vs " + io::format_shortest(y.f0_hz) +
+                        format_shortest(u.f0_hz) + " vs " + format_shortest(y.f0_hz) +
                         " Hz, " + std::to_string(u.periods) + " vs " +
                         std::to_string(y.periods) + " periods, " +
                         std::to_string(u.max_harmonic) + " vs " +
@@ -89,15 +89,15 @@ PeriodMoments period_moments(const dsp::PeriodSpectra& u, const std::vector<std:
 
 void FrfOptions::validate() const {
   if (!std::isfinite(min_snr_db) || min_snr_db < 0)
-    throw OptionError("min_snr_db", io::format_shortest(min_snr_db), "must be finite and >= 0");
+    throw OptionError("min_snr_db", format_shortest(min_snr_db), "must be finite and >= 0");
   if (!(confidence > 0 && confidence < 1))
-    throw OptionError("confidence", io::format_shortest(confidence), "must be in (0, 1)");
+    throw OptionError("confidence", format_shortest(confidence), "must be in (0, 1)");
   // Two periods give a rank-1 2×2 sample covariance, which no weighted fit can invert.
   if (min_periods_for_sample_variance < 3)
     throw OptionError("min_periods_for_sample_variance",
                       std::to_string(min_periods_for_sample_variance), "must be >= 3");
   if (!std::isfinite(skew_s))
-    throw OptionError("skew_s", io::format_shortest(skew_s), "must be finite");
+    throw OptionError("skew_s", format_shortest(skew_s), "must be finite");
 }
 
 std::vector<FrfPoint> fit_points(const FrfResult& frf) {
@@ -137,10 +137,10 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
   // by n·ω0·2^-53·|skew| rad), which no uncertainty accounts for (issue 11, class 7).
   const double record_s = double(input.periods) / input.f0_hz;
   if (!(std::abs(options.skew_s) <= record_s))
-    throw OptionError("skew_s", io::format_shortest(options.skew_s),
-                      "must not exceed the record's length of " + io::format_significant(record_s, 6) +
+    throw OptionError("skew_s", format_shortest(options.skew_s),
+                      "must not exceed the record's length of " + format_significant(record_s, 6) +
                           " s (" + std::to_string(input.periods) + " periods of " +
-                          io::format_significant(input.f0_hz, 9) + " Hz)");
+                          format_significant(input.f0_hz, 9) + " Hz)");
 
   FrfResult r;
   r.method = per_period ? "per-period-covariance" : "noise-bins";
@@ -271,7 +271,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
   if (r.points.empty())
     throw AnalysisError("FRF: no excited harmonic: no input harmonic 1…" +
                         std::to_string(input.max_harmonic) + " exceeds the input noise floor by " +
-                        io::format_shortest(options.min_snr_db) + " dB");
+                        format_shortest(options.min_snr_db) + " dB");
   // An output with nothing at the excited lines (a constant, zero or noise-only channel) gives
   // |H| of rounding or noise; a ratio of those is not a response, and a model fitted to it
   // would be invented (issue 11, class 8). The output must stand out of its own noise (or
@@ -285,7 +285,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     for (const auto& pt : r.points) ns += (ns.empty() ? "" : ", ") + std::to_string(pt.n);
     throw AnalysisError("the output carries no response at the excited harmonics (n = " + ns +
                         "): at none of them does it rise above its own noise or rounding level by " +
-                        io::format_shortest(kOutputResponseSigmas) +
+                        format_shortest(kOutputResponseSigmas) +
                         " standard deviations (the output is constant, zero or noise); check that "
                         "the output channel is the DUT's output");
   }

@@ -7,9 +7,7 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
-#include "report/table.hpp"
-#include "io/json_writer.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -21,24 +19,10 @@ constexpr double kNyquistFraction = 0.45;
 /// (rates parsed from text may differ in the last digit).
 constexpr double kSameRateRelative = 1e-9;
 
-using json = nlohmann::ordered_json;
-
-std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
-
 std::string list_harmonics(const std::vector<int>& n) {
   std::string s;
   for (std::size_t i = 0; i < n.size(); ++i) s += (i ? ", " : "") + std::to_string(n[i]);
   return s;
-}
-
-std::string sig(double v, int digits = 6) { return std::isfinite(v) ? io::format_significant(v, digits) : "-"; }
-
-/// How the cost band was found, for the text report (ident/cost_band.hpp).
-std::string band_text(const std::string& method) {
-  if (method == "chi2") return "chi-square";
-  if (method == "scaled-chi2") return "chi-square scaled for estimated weights";
-  if (method == "monte-carlo") return "Monte Carlo, estimated weights";
-  return method;
 }
 
 struct Selected {
@@ -149,8 +133,8 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
                         "\" has no periodic component");
   const int nyquist_harmonics = int(std::floor(kNyquistFraction * fs / f0));
   if (nyquist_harmonics < 1)
-    throw AnalysisError(ci.source + ": fundamental " + io::format_shortest(f0) +
-                        " Hz is above 0.45 of the sample rate " + io::format_shortest(fs) + " Hz");
+    throw AnalysisError(ci.source + ": fundamental " + format_shortest(f0) +
+                        " Hz is above 0.45 of the sample rate " + format_shortest(fs) + " Hz");
   const int harmonics = std::min(fit_u.harmonics(), nyquist_harmonics);
   const int m = options.samples_per_period > 0 ? options.samples_per_period
                                                : dsp::default_samples_per_period(fs, f0, harmonics);
@@ -235,107 +219,14 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   return r;
 }
 
-json root_json(const Root& p) {
-  json j;
-  j["re"] = io::json_number(p.value.real());
-  j["im"] = io::json_number(p.value.imag());
-  j["re_u"] = io::json_number(p.re_u);
-  j["im_u"] = io::json_number(p.im_u);
-  j["uncertainty_defined"] = p.uncertainty_defined;
-  if (p.is_real) {
-    j["time_constant_s"] = io::json_number(p.time_constant_s);
-    j["time_constant_u_s"] = io::json_number(p.time_constant_u_s);
-  } else {
-    j["natural_frequency_rad_s"] = io::json_number(p.natural_frequency_rad_s);
-    j["natural_frequency_u_rad_s"] = io::json_number(p.natural_frequency_u_rad_s);
-    j["damping_ratio"] = io::json_number(p.damping_ratio);
-    j["damping_ratio_u"] = io::json_number(p.damping_ratio_u);
-    j["q_factor"] = io::json_number(p.q_factor);
-    j["q_factor_u"] = io::json_number(p.q_factor_u);
-  }
-  return j;
-}
-
-json line_json(const DistortionLine& l) {
-  return json{{"n", l.n},
-              {"freq_hz", io::json_number(l.freq_hz)},
-              {"amplitude", io::json_number(l.amplitude)},
-              {"level_dbc", io::json_number(l.level_dbc)},
-              {"above_floor_db", io::json_number(l.above_floor_db)}};
-}
-
-json optional_number(const std::optional<double>& v) { return v ? io::json_number(*v) : json(nullptr); }
-
-std::string h_unit(const IdentifyResult& r) {
-  if (r.input_unit.empty() && r.output_unit.empty()) return "";
-  return (r.output_unit.empty() ? "1" : r.output_unit) + "/" + (r.input_unit.empty() ? "1" : r.input_unit);
-}
-
-/// Value of free parameter i in covariance order [b_0…b_M, a_0…a_{N−1}, T].
-double parameter_value(const RationalFitResult& f, std::size_t i) {
-  const std::size_t nb = f.model.num.size(), na = f.model.den.size() - 1;
-  if (i < nb) return f.model.num[i];
-  if (i < nb + na) return f.model.den[i - nb];
-  return f.delay_s;
-}
-
-/// A value with its standard uncertainty, labelled u, digits as GUM 7.2.6 (io::format_with_u).
-std::string with_u(double v, double u, std::string_view unit = "") { return io::format_with_u(v, u, unit); }
-
-/// The value and u cells of a table row (GUM 7.2.6 digits); "-" for both when not finite.
-void add_value_u(std::vector<std::string>& row, double v, double u) {
-  if (!std::isfinite(v)) {
-    row.insert(row.end(), {"-", "-"});
-    return;
-  }
-  const io::ValueText t = io::format_value_u(v, u);
-  row.insert(row.end(), {t.value, t.u});
-}
-
-/// "[lo, hi]" rounded to the decimal place of u (the column header states level and k).
-std::string interval_cell(double lo, double hi, double u) {
-  return "[" + io::format_value_u(lo, u).value + ", " + io::format_value_u(hi, u).value + "]";
-}
-
-/// A value with its standard uncertainty, stated as everywhere else (io::format_with_u: GUM
-/// digits, "value unit, u = u unit"); "u undefined" where first-order theory gives none.
-std::string with_u(double v, double u, bool defined, const char* unit = "") {
-  if (defined && std::isfinite(u)) return io::format_with_u(v, u, unit);
-  return sig(v) + (*unit ? std::string(" ") + unit : std::string()) + ", u undefined";
-}
-
-constexpr double kRadToHz = 1 / (2 * std::numbers::pi);
-
-struct RootCells {
-  std::string kind, freq, damping, q, tau;
-};
-
-RootCells root_cells(const Root& p, const char* hz, const char* s) {
-  const bool d = p.uncertainty_defined;
-  RootCells c;
-  if (p.is_real) {
-    c.kind = p.value.real() == 0 ? "real, at s = 0" : "real";
-    c.freq = with_u(std::abs(p.value.real()) * kRadToHz, p.re_u * kRadToHz, d, hz);
-    c.tau = p.time_constant_s != 0 ? with_u(p.time_constant_s, p.time_constant_u_s, d, s) : "-";
-    c.damping = c.q = "-";
-  } else {
-    c.kind = "complex pair";
-    c.freq = with_u(p.natural_frequency_rad_s * kRadToHz, p.natural_frequency_u_rad_s * kRadToHz, d, hz);
-    c.damping = with_u(p.damping_ratio, p.damping_ratio_u, d);
-    c.q = p.damping_ratio != 0 ? with_u(p.q_factor, p.q_factor_u, d) : std::string("infinite (ζ = 0)");
-    c.tau = "-";
-  }
-  return c;
-}
-
 }  // namespace
 
 void IdentifyOptions::validate() const {
   if (input_channel.empty()) throw OptionError("input_channel", "\"\"", "must name a channel");
   if (!(f0_hz >= 0) || !std::isfinite(f0_hz))
-    throw OptionError("f0_hz", io::format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
+    throw OptionError("f0_hz", format_shortest(f0_hz), "must be finite and >= 0 (0 = estimate)");
   if (!(f0_hint_hz >= 0) || !std::isfinite(f0_hint_hz))
-    throw OptionError("f0_hint_hz", io::format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
+    throw OptionError("f0_hint_hz", format_shortest(f0_hint_hz), "must be finite and >= 0 (0 = none)");
   if (max_harmonic < 0)
     throw OptionError("max_harmonic", std::to_string(max_harmonic), "must be >= 0 (0 = automatic)");
   if (samples_per_period != 0 && samples_per_period < 2 * std::max(max_harmonic, 1) + 2)
@@ -362,8 +253,8 @@ IdentifyResult identify(const Capture& input_capture, const Capture& output_capt
   options.validate();
   const double a = input_capture.sample_rate_hz, b = output_capture.sample_rate_hz;
   if (std::abs(a - b) > kSameRateRelative * std::max(std::abs(a), std::abs(b)))
-    throw AnalysisError("input and output captures differ in sample rate: " + io::format_shortest(a) +
-                        " Hz (" + input_capture.source + ") vs " + io::format_shortest(b) + " Hz (" +
+    throw AnalysisError("input and output captures differ in sample rate: " + format_shortest(a) +
+                        " Hz (" + input_capture.source + ") vs " + format_shortest(b) + " Hz (" +
                         output_capture.source + ")");
   if (input_capture.sample_count() != output_capture.sample_count())
     throw AnalysisError("input and output captures differ in length: " +
@@ -376,247 +267,6 @@ IdentifyResult identify(const Capture& input_capture, const Capture& output_capt
                         " data channels: choose the DUT output with --output (a name, or #N for position N)");
   const Channel& y = output_capture.channel(options.output_channel.empty() ? "#0" : options.output_channel);
   return run({&input_capture, &u}, {&output_capture, &y}, options);
-}
-
-nlohmann::ordered_json identify_json(const IdentifyResult& r) {
-  json j;
-  j["f0_hz"] = io::json_number(r.fundamental.f0_hz);
-  j["f0_u_hz"] = io::json_number(r.fundamental.f0_u_hz);
-  j["f0_method"] = r.fundamental.method;
-  j["status"] = r.status;
-  j["input"] = json{{"source", r.input_source}, {"channel", r.input_channel}, {"unit", r.input_unit}};
-  j["output"] = json{{"source", r.output_source}, {"channel", r.output_channel}, {"unit", r.output_unit}};
-  j["h_unit"] = h_unit(r);
-  j["sample_rate_hz"] = io::json_number(r.sample_rate_hz);
-  j["periods"] = r.frf.periods;
-  j["samples_per_period"] = r.samples_per_period;
-  j["max_harmonic"] = r.frf.max_harmonic;
-  j["skew_s"] = io::json_number(r.skew_s);
-  j["frf_method"] = r.frf.method;
-  j["frf_dof"] = r.frf.dof;
-  j["confidence"] = io::json_number(r.frf.confidence);
-  j["coverage_factor"] = io::json_number(r.frf.coverage_factor);
-  j["quantile"] = r.frf.quantile;
-  json frf = json::array();
-  for (const auto& p : r.frf.points) {
-    frf.push_back(json{{"n", p.n},
-                       {"freq_hz", io::json_number(p.freq_hz)},
-                       {"re", io::json_number(p.re)},
-                       {"im", io::json_number(p.im)},
-                       {"mag", io::json_number(p.mag)},
-                       {"mag_db", io::json_number(p.mag_db)},
-                       {"phase_deg", io::json_number(p.phase_deg)},
-                       {"mag_u", io::json_number(p.mag_u)},
-                       {"phase_u_deg", io::json_number(p.phase_u_deg)},
-                       {"mag_db_u", io::json_number(p.mag_db_u)},
-                       {"mag_lo", io::json_number(p.mag_lo)},
-                       {"mag_hi", io::json_number(p.mag_hi)},
-                       {"phase_lo_deg", io::json_number(p.phase_lo_deg)},
-                       {"phase_hi_deg", io::json_number(p.phase_hi_deg)},
-                       {"phase_defined", p.phase_defined},
-                       {"phase_note", p.phase_defined ? json(nullptr) : json("undefined: |H| consistent with 0")},
-                       {"var_re", io::json_number(p.var_re)},
-                       {"var_im", io::json_number(p.var_im)},
-                       {"cov_re_im", io::json_number(p.cov_re_im)},
-                       {"input_snr_db", io::json_number(p.input_snr_db)}});
-  }
-  j["frf"] = frf;
-  json lin;
-  lin["status"] = r.linearity.status;
-  lin["reason"] = r.linearity.reason;
-  lin["nonlinear"] = r.linearity.nonlinear;
-  lin["method"] = r.linearity.method;
-  lin["tested"] = r.linearity.tested;
-  lin["dof"] = r.linearity.dof;
-  lin["threshold_db"] = io::json_number(r.linearity.threshold_db);
-  lin["level_db"] = optional_number(r.linearity.level_db);
-  lin["odd_level_db"] = optional_number(r.linearity.odd_level_db);
-  lin["even_level_db"] = optional_number(r.linearity.even_level_db);
-  lin["odd"] = json::array();
-  for (const auto& l : r.linearity.odd) lin["odd"].push_back(line_json(l));
-  lin["even"] = json::array();
-  for (const auto& l : r.linearity.even) lin["even"].push_back(line_json(l));
-  j["linearity"] = lin;
-  if (r.model) {
-    const RationalFitResult& f = *r.model;
-    json m;
-    m["order"] = order_text(f.order);
-    m["order_decided_by"] = f.order_decided_by;
-    m["num"] = json::array();
-    for (double v : f.model.num) m["num"].push_back(io::json_number(v));
-    m["den"] = json::array();
-    for (double v : f.model.den) m["den"].push_back(io::json_number(v));
-    m["delay_s"] = io::json_number(f.delay_s);
-    m["delay_u_s"] = io::json_number(f.delay_u_s);
-    m["delay_estimated"] = f.model.delay_estimated;
-    m["poles"] = json::array();
-    for (const auto& p : f.poles) m["poles"].push_back(root_json(p));
-    m["zeros"] = json::array();
-    for (const auto& z : f.zeros) m["zeros"].push_back(root_json(z));
-    m["dc_gain"] = f.dc_gain_defined ? io::json_number(f.dc_gain) : json(nullptr);
-    m["dc_gain_u"] = f.dc_gain_defined ? io::json_number(f.dc_gain_u) : json(nullptr);
-    m["cost"] = io::json_number(f.cost);
-    m["dof"] = f.dof;
-    m["chi2_lower"] = io::json_number(f.chi2_lower);
-    m["chi2_upper"] = io::json_number(f.chi2_upper);
-    m["cost_expected"] = io::json_number(f.cost_expected);
-    m["band_method"] = f.band_method;
-    m["adequate"] = f.adequate;
-    m["unstable"] = f.unstable;
-    // The parameter covariance carries the estimated-weights inflation, so the normal quantile
-    // gives the interval (ident/cost_band.hpp, covariance_inflation).
-    const double k_model = coverage_factor(r.model_confidence, 0);
-    m["parameters"] = json::array();
-    for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
-      const double value = parameter_value(f, i);
-      const double u = i < f.parameter_u.size() ? f.parameter_u[i] : std::nan("");
-      m["parameters"].push_back(json{{"name", f.parameter_names[i]},
-                                     {"value", io::json_number(value)},
-                                     {"u", io::json_number(u)},
-                                     {"lo", io::json_number(value - k_model * u)},
-                                     {"hi", io::json_number(value + k_model * u)}});
-    }
-    m["covariance"] = json::array();
-    for (const auto& row : f.model.covariance) {
-      json jr = json::array();
-      for (double v : row) jr.push_back(io::json_number(v));
-      m["covariance"].push_back(jr);
-    }
-    m["coverage_factor"] = io::json_number(k_model);
-    m["covariance_inflation"] = io::json_number(f.covariance_inflation);
-    m["condition_number"] = io::json_number(f.condition_number);
-    m["method"] = f.method;
-    m["fit_status"] = to_string(f.status);
-    if (!f.order_trials.empty()) {
-      m["order_trials"] = json::array();
-      for (const auto& t : f.order_trials)
-        m["order_trials"].push_back(json{{"order", order_text(t.order)},
-                                         {"parameters", t.parameters},
-                                         {"cost", t.failed ? json(nullptr) : io::json_number(t.cost)},
-                                         {"dof", t.dof},
-                                         {"chi2_upper", io::json_number(t.chi2_upper)},
-                                         {"passed", t.passed},
-                                         {"failed", t.failed},
-                                         {"note", t.note}});
-    }
-    j["model"] = m;
-  } else {
-    j["model"] = nullptr;
-  }
-  j["flags"] = r.flags;
-  return j;
-}
-
-std::string format_identify_report(const IdentifyResult& r) {
-  using report::Table;
-  std::string out;
-  const std::string unit = h_unit(r);
-  std::vector<std::pair<std::string, std::string>> head{
-      {"input", r.input_source + " \"" + r.input_channel + "\"" + (r.input_unit.empty() ? "" : " [" + r.input_unit + "]")},
-      {"output", r.output_source + " \"" + r.output_channel + "\"" + (r.output_unit.empty() ? "" : " [" + r.output_unit + "]")},
-      {"f0", (r.fundamental.f0_u_hz > 0 ? with_u(r.fundamental.f0_hz, r.fundamental.f0_u_hz, "Hz")
-                                         : sig(r.fundamental.f0_hz, 9) + " Hz") +
-                 " (" + r.fundamental.method + ")"},
-      {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
-                   " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic)},
-      {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
-                  io::format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
-                  io::format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
-  if (r.skew_s != 0) head.push_back({"skew", io::format_shortest(r.skew_s) + " s (output lag removed)"});
-  out += report::render_key_values(head);
-  out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
-  // u(…) columns are standard uncertainties; the interval columns are the expanded intervals
-  // at the level and k of the "frf" line, their level in the header.
-  const std::string pct = io::format_fixed(100 * r.frf.confidence, 0) + " %";
-  Table t({{"n"}, {"freq_Hz"}, {"|H|"}, {"u(|H|)"}, {"|H|_dB"}, {"phase_deg"}, {"u(phase)"},
-           {"|H| " + pct + " interval", Table::Align::left}, {"phase " + pct + " interval", Table::Align::left},
-           {"SNR_in_dB"}});
-  for (const auto& p : r.frf.points) {
-    std::vector<std::string> row{std::to_string(p.n), sig(p.freq_hz, 7)};
-    add_value_u(row, p.mag, p.mag_u);
-    row.push_back(io::format_fixed(p.mag_db, 3));
-    add_value_u(row, p.phase_deg, p.phase_u_deg);
-    row.push_back(interval_cell(p.mag_lo, p.mag_hi, p.mag_u));
-    row.push_back(p.phase_defined ? interval_cell(p.phase_lo_deg, p.phase_hi_deg, p.phase_u_deg)
-                                  : std::string("phase undefined (|H| consistent with 0)"));
-    row.push_back(io::format_fixed(p.input_snr_db, 1));
-    t.add_row(std::move(row));
-  }
-  out += t.render(2);
-
-  out += "\nlinearity: " + r.linearity.status;
-  if (r.linearity.status != "untested")
-    out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
-           io::format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
-  else if (!r.linearity.reason.empty())
-    out += ": " + r.linearity.reason;
-  out += "\n";
-  const auto lines = [&](const char* parity, const std::vector<DistortionLine>& ls,
-                         const std::optional<double>& level) {
-    if (ls.empty()) return;
-    std::vector<int> ns;
-    for (const auto& l : ls) ns.push_back(l.n);
-    out += std::string("  ") + parity + " harmonics " + list_harmonics(ns) + ": " +
-           io::format_fixed(level.value_or(0), 1) + " dB relative to the excited output power\n";
-  };
-  lines("even", r.linearity.even, r.linearity.even_level_db);
-  lines("odd", r.linearity.odd, r.linearity.odd_level_db);
-
-  if (r.model) {
-    const RationalFitResult& f = *r.model;
-    out += "\nmodel " + order_text(f.order) + " (" + f.order_decided_by + "), " + f.method + "\n";
-    Table pt({{"parameter", Table::Align::left}, {"value"}, {"u"}});
-    for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
-      const double value = parameter_value(f, i);
-      std::vector<std::string> row{f.parameter_names[i]};
-      if (i < f.parameter_u.size())
-        add_value_u(row, value, f.parameter_u[i]);
-      else
-        row.insert(row.end(), {sig(value, 8), "-"});
-      pt.add_row(std::move(row));
-    }
-    out += pt.render(2);
-    out += "  a" + std::to_string(f.model.den.size() - 1) + " = 1 (monic); s in rad/s\n";
-    out += "  dc gain   " + (f.dc_gain_defined ? with_u(f.dc_gain, f.dc_gain_u, unit) : std::string("infinite (pole at 0)")) + "\n";
-    out += "  delay     " + (f.model.delay_estimated ? with_u(f.delay_s, f.delay_u_s, "s") : sig(f.delay_s) + " s (not estimated)") + "\n";
-    const auto roots = [&](const char* title, const std::vector<Root>& rs) {
-      if (rs.empty()) return;
-      out += std::string("\n") + title + "\n" + format_roots_table(rs);
-    };
-    roots("poles", f.poles);
-    roots("zeros", f.zeros);
-    out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " +
-           io::format_fixed(100 * r.model_confidence, 0) + " % band [" + sig(f.chi2_lower) + ", " +
-           sig(f.chi2_upper) + "] (" + band_text(f.band_method) + ", expected " + sig(f.cost_expected) +
-           "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
-  }
-  std::string flags;
-  for (std::size_t i = 0; i < r.flags.size(); ++i) flags += (i ? ", " : "") + r.flags[i];
-  out += "\nflags: " + (flags.empty() ? std::string("none") : flags);
-  out += "\n";
-  return out;
-}
-
-std::string format_roots_table(const std::vector<Root>& roots) {
-  using report::Table;
-  Table t({{"root", Table::Align::left},
-           {"freq_Hz", Table::Align::left},
-           {"damping_ratio", Table::Align::left},
-           {"Q", Table::Align::left},
-           {"time_constant_s", Table::Align::left}});
-  for (const Root& p : roots) {
-    if (!p.is_real && p.value.imag() < 0) continue;  // a conjugate pair is one row
-    const RootCells c = root_cells(p, "", "");
-    t.add_row({c.kind, c.freq, c.damping, c.q, c.tau});
-  }
-  return t.render(2);
-}
-
-std::string root_summary(const Root& root) {
-  const RootCells c = root_cells(root, "Hz", "s");
-  if (root.is_real)
-    return c.kind + ": corner frequency " + c.freq + (c.tau == "-" ? std::string() : ", time constant " + c.tau);
-  return c.kind + ": natural frequency " + c.freq + ", damping ratio " + c.damping + ", Q " + c.q;
 }
 
 }  // namespace periodfit::ident

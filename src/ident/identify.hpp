@@ -25,8 +25,7 @@
 /// Usage:
 ///   IdentifyOptions o; o.input_channel = "v_in"; o.output_channel = "v_out"; o.order = "0/2";
 ///   const IdentifyResult r = identify(io::read_capture("bench.csv"), o);
-///   io::write_file_atomic("-", io::json_text(identify_json(r)));
-#include <nlohmann/json.hpp>
+///   io::write_file_atomic("-", output::json_text(output::identify_json(r)));  // output/identify_output.hpp
 #include <optional>
 #include <string>
 #include <vector>
@@ -92,23 +91,5 @@ IdentifyResult identify(const Capture& capture, const IdentifyOptions& options =
 /// AnalysisError when their sample rates or lengths differ.
 IdentifyResult identify(const Capture& input_capture, const Capture& output_capture,
                         const IdentifyOptions& options = {});
-
-/// The identify JSON document (docs/frf-json.md), keys in the documented order.
-nlohmann::ordered_json identify_json(const IdentifyResult& result);
-
-/// The report for people: a header, the FRF table, the model summary and the flags.
-std::string format_identify_report(const IdentifyResult& result);
-
-/// Poles or zeros for people, frequency first in Hz, one row per real root or complex pair
-/// (listed once), each value followed by its standard uncertainty `u=…` (GUM JCGM 100:2008
-/// §7.2.2 "u = …" form; `u=undefined` at a repeated root):
-///   complex pair: natural frequency f_n = |p|/2π, damping ratio ζ, Q;
-///   real root:    corner frequency f_c = |p|/2π, time constant τ = −1/p (negative: right half-plane).
-/// rad/s values are in the JSON (docs/frf-json.md), not here.
-std::string format_roots_table(const std::vector<Root>& roots);
-
-/// One root (or pair) as one phrase in the same layout, e.g. `complex pair: natural frequency
-/// 1200 Hz u=3.1 Hz, damping ratio 0.35 u=0.0021, Q 1.4286 u=0.0086`.
-std::string root_summary(const Root& root);
 
 }  // namespace periodfit::ident

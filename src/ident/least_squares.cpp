@@ -8,7 +8,7 @@
 #include <limits>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -22,7 +22,7 @@ using RowMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::R
 constexpr double kEps = std::numeric_limits<double>::epsilon();
 
 void require(bool ok, const char* field, double value, const char* constraint) {
-  if (!ok) throw OptionError(field, io::format_shortest(value), constraint);
+  if (!ok) throw OptionError(field, format_shortest(value), constraint);
 }
 
 /// Residual and Jacobian evaluation, analytic or by central differences, with finiteness checks.
@@ -330,11 +330,11 @@ LeastSquaresResult solve_least_squares(const LeastSquaresProblem& problem, std::
       }
       if (std::abs(actred) <= ftol && prered <= ftol && 0.5 * ratio <= 1) {
         status = LeastSquaresStatus::converged_cost;
-        message = "relative cost change below " + io::format_shortest(ftol);
+        message = "relative cost change below " + format_shortest(ftol);
         done = true;
       } else if (delta <= xtol * xnorm) {
         status = LeastSquaresStatus::converged_step;
-        message = "relative step below " + io::format_shortest(xtol);
+        message = "relative step below " + format_shortest(xtol);
         done = true;
       }
       if (done || accepted) break;
@@ -347,7 +347,7 @@ LeastSquaresResult solve_least_squares(const LeastSquaresProblem& problem, std::
   if (out.rank < static_cast<int>(n) && status != LeastSquaresStatus::max_iterations) {
     status = LeastSquaresStatus::singular;
     message = "the Jacobian at the optimum has rank " + std::to_string(out.rank) + " < " + std::to_string(n) +
-              " parameters (condition number " + io::format_significant(out.condition_number, 3) + ")";
+              " parameters (condition number " + format_significant(out.condition_number, 3) + ")";
   }
   return finish(status, std::move(message));
 }

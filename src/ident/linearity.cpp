@@ -5,15 +5,15 @@
 #include <cmath>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
 void LinearityOptions::validate() const {
   if (!(false_alarm > 0 && false_alarm < 1))
-    throw OptionError("false_alarm", io::format_shortest(false_alarm), "must be in (0, 1)");
+    throw OptionError("false_alarm", format_shortest(false_alarm), "must be in (0, 1)");
   if (!std::isfinite(min_level_dbc) || min_level_dbc > 0)
-    throw OptionError("min_level_dbc", io::format_shortest(min_level_dbc),
+    throw OptionError("min_level_dbc", format_shortest(min_level_dbc),
                       "must be finite and <= 0");
 }
 

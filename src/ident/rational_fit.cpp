@@ -10,7 +10,7 @@
 
 #include "core/error.hpp"
 #include "ident/cost_band.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -20,8 +20,6 @@ using Eigen::Index;
 using Eigen::MatrixXd;
 using Eigen::VectorXd;
 using cplx = std::complex<double>;
-
-std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
 
 int parameter_count(ModelOrder o, bool delay) { return o.num + 1 + o.den + (delay ? 1 : 0); }
 
@@ -41,7 +39,7 @@ ScaledData scale(const std::vector<FrfPoint>& points) {
   double w_min = std::numeric_limits<double>::infinity(), w_max = 0;
   for (std::size_t k = 0; k < points.size(); ++k) {
     const FrfPoint& p = points[k];
-    const std::string where = "FRF point " + std::to_string(k + 1) + " (omega = " + io::format_shortest(p.omega_rad_s) +
+    const std::string where = "FRF point " + std::to_string(k + 1) + " (omega = " + format_shortest(p.omega_rad_s) +
                               " rad/s)";
     if (!(std::isfinite(p.omega_rad_s) && p.omega_rad_s > 0))
       throw AnalysisError(where + ": the frequency must be finite and > 0");
@@ -50,8 +48,8 @@ ScaledData scale(const std::vector<FrfPoint>& points) {
     const double det = p.var_re * p.var_im - p.cov_re_im * p.cov_re_im;
     if (!(std::isfinite(det) && p.var_re > 0 && p.var_im > 0 && det > 0))
       throw AnalysisError(where + ": the covariance of (Re, Im) is not positive definite (var_re = " +
-                          io::format_shortest(p.var_re) + ", var_im = " + io::format_shortest(p.var_im) +
-                          ", cov = " + io::format_shortest(p.cov_re_im) + ")");
+                          format_shortest(p.var_re) + ", var_im = " + format_shortest(p.var_im) +
+                          ", cov = " + format_shortest(p.cov_re_im) + ")");
     w_min = std::min(w_min, p.omega_rad_s);
     w_max = std::max(w_max, p.omega_rad_s);
   }
@@ -430,6 +428,8 @@ void require(bool ok, const char* field, const std::string& value, const char* c
 
 }  // namespace
 
+std::string order_text(ModelOrder o) { return std::to_string(o.num) + "/" + std::to_string(o.den); }
+
 ModelOrder parse_model_order(std::string_view text, std::string_view field) {
   ModelOrder o;
   const auto slash = text.find('/');
@@ -458,10 +458,10 @@ void RationalFitOptions::validate() const {
   }
   require(auto_max_den_order >= 1 && auto_max_den_order <= 12, "auto_max_den_order",
           std::to_string(auto_max_den_order), "must be in 1…12");
-  require(std::isfinite(delay_s) && delay_s >= 0, "delay_s", io::format_shortest(delay_s), "must be finite and >= 0");
-  require(confidence > 0 && confidence < 1, "confidence", io::format_shortest(confidence), "must be in (0, 1)");
+  require(std::isfinite(delay_s) && delay_s >= 0, "delay_s", format_shortest(delay_s), "must be finite and >= 0");
+  require(confidence > 0 && confidence < 1, "confidence", format_shortest(confidence), "must be in (0, 1)");
   require(max_sk_iterations >= 0, "max_sk_iterations", std::to_string(max_sk_iterations), "must be >= 0");
-  require(sk_tolerance > 0 && std::isfinite(sk_tolerance), "sk_tolerance", io::format_shortest(sk_tolerance),
+  require(sk_tolerance > 0 && std::isfinite(sk_tolerance), "sk_tolerance", format_shortest(sk_tolerance),
           "must be finite and > 0");
   require(delay_grid_points >= 0 && delay_grid_points <= 100000, "delay_grid_points",
           std::to_string(delay_grid_points), "must be in 0…100000");

@@ -82,6 +82,9 @@ struct ModelOrder {
 /// callers check for it first.
 ModelOrder parse_model_order(std::string_view text, std::string_view field = "order");
 
+/// "M/N", the one spelling of an order in messages, reports and outputs (parse_model_order's input).
+std::string order_text(ModelOrder order);
+
 enum class InformationCriterion {
   aic,  ///< Akaike: V + 2·n_θ
   mdl,  ///< Rissanen's minimum description length: V + n_θ·ln(2K)

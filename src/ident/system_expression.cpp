@@ -8,7 +8,7 @@
 #include <numbers>
 #include <optional>
 
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 namespace periodfit::ident {
 
@@ -258,11 +258,11 @@ class Parser {
     if (base.is_constant()) {
       const double v = std::pow(base.value(), n);
       if (!std::isfinite(v))
-        fail(op, "the power " + io::format_shortest(base.value()) + "^" + io::format_shortest(n) +
+        fail(op, "the power " + format_shortest(base.value()) + "^" + format_shortest(n) +
                      " is not a finite real number");
       return constant(v);
     }
-    if (n != std::round(n)) fail(exponent_start, "a power of a function of s needs an integer exponent, found " + io::format_shortest(n));
+    if (n != std::round(n)) fail(exponent_start, "a power of a function of s needs an integer exponent, found " + format_shortest(n));
     const std::size_t count = static_cast<std::size_t>(std::min(std::abs(n), 1e9));
     const std::size_t d = std::max(degree(base.num), degree(base.den));
     if (count > o_.max_degree || d * count > o_.max_degree)

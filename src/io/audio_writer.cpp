@@ -9,7 +9,7 @@
 #include <memory>
 
 #include "core/error.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 
 namespace periodfit::io {

@@ -12,7 +12,7 @@
 #include "core/memory_budget.hpp"
 #include "io/audio_reader.hpp"
 #include "io/csv_reader.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 
 namespace periodfit::io {

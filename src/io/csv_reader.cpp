@@ -24,7 +24,7 @@
 
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
 #include "io/quantity.hpp"
 

@@ -16,8 +16,6 @@
 #include <utility>
 #include <vector>
 
-#include <nlohmann/json.hpp>
-
 #include "core/capture.hpp"
 
 namespace periodfit::io {
@@ -66,14 +64,5 @@ ChannelStats channel_stats(const Channel& channel);
 
 /// The layout and statistics of a capture.
 CaptureInfo describe(const Capture& capture);
-
-/// One file's entry of the info JSON (docs/info-json.md).
-nlohmann::ordered_json info_json(const CaptureInfo& info);
-
-/// The whole info document: {"periodfit_info": 1, "files": [...]}.
-nlohmann::ordered_json info_json(const std::vector<CaptureInfo>& files);
-
-/// The aligned text block for one file, every line ending in '\n'.
-std::string info_text(const CaptureInfo& info);
 
 }  // namespace periodfit::io

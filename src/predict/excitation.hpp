@@ -39,14 +39,12 @@
 /// Usage:
 ///   ExciteOptions o; o.harmonics = "1-200"; o.f0_hz = 10; o.rate_hz = 48000;
 ///   ExciteResult r = generate_excitation(o);   // r.samples (one period), r.crest_factor
-///   write_excitation("ms.wav", r);
+///   output::write_excitation("ms.wav", r);  // output/excitation_output.hpp
 #include <cstdint>
 #include <string>
 #include <string_view>
 #include <utility>
 #include <vector>
-
-#include <nlohmann/json.hpp>
 
 #include "dsp/waveforms.hpp"
 
@@ -137,23 +135,9 @@ struct ExciteResult {
 /// Builds the excitation (one period; the file repeats it `periods` times).
 ExciteResult generate_excitation(const ExciteOptions& options);
 
-/// The bytes write_excitation writes (`path` names the destination in messages), for a caller
-/// that publishes several outputs together (io/output_set.hpp).
-std::string excitation_bytes(const ExciteResult& result, const std::string& path);
-
-/// Writes the WAV (libsndfile) or CSV `time_s,value` (`time_s,value_1,…` for several channels)
-/// file; path "-" = stdout. Atomic.
-void write_excitation(const std::string& path, const ExciteResult& result);
-
 /// Parses an amplitude spectrum file: one `n,amplitude` pair per line (comma, semicolon, tab or
 /// spaces between), `#` comments and blank lines ignored, an optional non-numeric header on the
 /// first line. `name` is used in messages. Throws InputError (name:line:column: what).
 std::vector<std::pair<int, double>> parse_amplitude_spectrum(std::string_view text, std::string_view name);
-
-/// The text summary for people, every line ending in '\n'.
-std::string excitation_text(const ExciteResult& result);
-
-/// The JSON summary of docs/excite.md.
-nlohmann::ordered_json excitation_json(const ExciteResult& result);
 
 }  // namespace periodfit::predict

@@ -45,8 +45,6 @@
 #include <string_view>
 #include <vector>
 
-#include <nlohmann/json.hpp>
-
 #include "dsp/waveforms.hpp"
 #include "ident/model.hpp"
 #include "ident/rational_fit.hpp"
@@ -65,6 +63,9 @@ ident::RationalModel model_from_coefficients(std::vector<double> num, std::vecto
 
 /// Poles of a model (roots of den, rad/s), from the companion matrix eigenvalues.
 std::vector<std::complex<double>> model_poles(const ident::RationalModel& model);
+
+/// ∠z in degrees, in (−180, 180]: the convention of every phase in a PredictResult.
+double phase_deg(std::complex<double> z);
 
 /// The system to predict through.
 struct PredictSystem {
@@ -145,13 +146,6 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
 PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSystem& system,
                                    const PredictOptions& options = {});
 
-/// `time_s,value[,value_u]` lines (docs/steady-state-json.md), doubles shortest round-trip.
-std::string format_predict_csv(const PredictResult& result);
-
-/// The text report for people: a key/value summary and the harmonic table (first
-/// `list_harmonics` harmonics, 0 = all), every line ending in '\n'.
-std::string predict_text(const PredictResult& result, std::size_t list_harmonics = 0);
-
 /// Parses one `n:amp:phase_deg` term (the --harmonic option). Throws OptionError.
 dsp::HarmonicTerm parse_harmonic_term(std::string_view text);
 
@@ -159,8 +153,5 @@ dsp::HarmonicTerm parse_harmonic_term(std::string_view text);
 /// A_n·e^{jφ_n} for n = 1…H; method "measured", left-out fraction unknown (NaN).
 dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
                                               const std::vector<std::complex<double>>& phasors);
-
-/// The JSON document of docs/steady-state-json.md (keys in that order).
-nlohmann::ordered_json predict_json(const PredictResult& result);
 
 }  // namespace periodfit::predict

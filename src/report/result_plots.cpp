@@ -34,8 +34,7 @@ Figure identify_bode_figure(const ident::IdentifyResult& r, const std::string& t
   if (r.model) {
     const ident::RationalModel model = r.model->model;
     b.model = [model](double f_hz) { return model.response(2 * std::numbers::pi * f_hz); };
-    b.model_label = "fitted model " + std::to_string(r.model->order.num) + "/" +
-                    std::to_string(r.model->order.den) + (model.delay_s != 0 ? " with delay" : "");
+    b.model_label = "fitted model " + ident::order_text(r.model->order) + (model.delay_s != 0 ? " with delay" : "");
   }
   return bode_figure(b);
 }

@@ -15,7 +15,7 @@
 #include <vector>
 
 #include "core/capture.hpp"
-#include "dsp/analysis_output.hpp"
+#include "dsp/capture_analysis.hpp"
 #include "dsp/harmonics.hpp"
 #include "ident/identify.hpp"
 #include "report/svg_plot.hpp"

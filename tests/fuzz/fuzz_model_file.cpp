@@ -1,4 +1,4 @@
-// libFuzzer target: the model-file reader (ident::parse_model_file: nesting pre-scan, JSON
+// libFuzzer target: the model-file reader (output::parse_model_file: nesting pre-scan, JSON
 // parse, then the schema, version and consistency checks) on arbitrary text, and, in the
 // nesting mode of fuzz_check.hpp, on documents nested to a depth libFuzzer chooses.
 #include <cmath>
@@ -8,7 +8,7 @@
 
 #include "core/error.hpp"
 #include "fuzz_check.hpp"
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 #include "io/input_limits.hpp"
 
 namespace {
@@ -30,7 +30,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   const auto nested = periodfit::fuzz::nested_mode(data, size);
   const std::string text = nested.active ? nested_document(nested) : std::string(periodfit::fuzz::as_text(data, size));
   try {
-    const auto file = periodfit::ident::parse_model_file(text, "fuzz.model.json");
+    const auto file = periodfit::output::parse_model_file(text, "fuzz.model.json");
     // Deeper than the limit must have been refused before the JSON reader saw it.
     if (nested.active && nested.depth + 2 > static_cast<std::size_t>(periodfit::io::kMaxNestingDepth))
       __builtin_trap();

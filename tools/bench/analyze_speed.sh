@@ -19,7 +19,8 @@ x = 0.5 * np.cos(w + 0.3) + 0.005 * np.cos(2 * w) + 0.0015 * np.cos(3 * w + 1)
 x += 5e-4 * np.random.default_rng(1).standard_normal(n)
 scipy.io.wavfile.write(sys.argv[1], fs, x.astype(np.float32))
 PY
-g++ -std=c++20 -O2 -I"$root/src" "$root/tools/bench/analyze_core_bench.cpp" "$build/libperiodfit_core.a" \
+g++ -std=c++20 -O2 -I"$root/src" "$root/tools/bench/analyze_core_bench.cpp" \
+  "$build/libperiodfit_dsp.a" "$build/libperiodfit_io.a" "$build/libperiodfit_core.a" -lsndfile \
   -lfftw3 -lfftw3_threads -lpthread -o "$work/core_bench"
 echo "== periodfit analyze, end to end (wall and CPU time)"
 /usr/bin/time -f "periodfit: wall %e s  user %U s  sys %S s  max RSS %M KB" \

@@ -18,12 +18,12 @@
 /// not a formula, and stays as it is.
 ///
 /// Usage:
-///   std::fprintf(stderr, "periodfit: error: %s\n", report::terminal_text(e.what(), false).c_str());
-///   csv += report::csv_cell(channel.name) + ",";
+///   std::fprintf(stderr, "periodfit: error: %s\n", terminal_text(e.what(), false).c_str());
+///   csv += csv_cell(channel.name) + ",";
 #include <string>
 #include <string_view>
 
-namespace periodfit::report {
+namespace periodfit {
 
 /// `text` with control characters shown as `\xHH` (see the header); `multi_line` keeps `\n`
 /// and `\t` as they are (documents, tables), otherwise they are shown as `\n` and `\t`.
@@ -33,4 +33,4 @@ std::string terminal_text(std::string_view text, bool multi_line = true);
 /// it holds a comma, quote, CR or LF. Numbers are left as they are.
 std::string csv_cell(std::string_view text);
 
-}  // namespace periodfit::report
+}  // namespace periodfit

@@ -15,13 +15,13 @@
 #include "ident/model.hpp"
 #include "ident/rational_fit.hpp"
 
-namespace periodfit::ident {
+namespace periodfit::output {
 
 inline constexpr std::string_view kModelFileFormat = "periodfit-model";
 inline constexpr int kModelFileVersion = 1;
 
 struct ModelFile {
-  RationalModel model;                       ///< num, den (monic), delay, covariance, delay_estimated
+  ident::RationalModel model;                       ///< num, den (monic), delay, covariance, delay_estimated
   std::vector<std::string> parameter_names;  ///< covariance order ("b0"…, "a0"…, "T")
   std::vector<std::complex<double>> poles;   ///< rad/s (informative: recomputable from den)
   std::vector<std::complex<double>> zeros;   ///< rad/s
@@ -33,13 +33,13 @@ struct ModelFile {
   int dof = 0;
   bool adequate = false;
   std::string method;
-  std::vector<FrfPoint> frf; ///< the measured FRF points, optional (empty = not stored)
+  std::vector<ident::FrfPoint> frf; ///< the measured FRF points, optional (empty = not stored)
 };
 
 /// The file content for a fit result (model, covariance, names, roots, fit summary). `source`
 /// names the input; `frf` (optional) stores the measured points too.
-ModelFile model_file_from_fit(const RationalFitResult& fit, std::string source, double f0_hz = 0,
-                              std::vector<FrfPoint> frf = {});
+ModelFile model_file_from_fit(const ident::RationalFitResult& fit, std::string source, double f0_hz = 0,
+                              std::vector<ident::FrfPoint> frf = {});
 
 /// JSON text (keys in the documented order, doubles shortest round-trip), ending in a newline.
 std::string format_model_file(const ModelFile& file);
@@ -55,4 +55,4 @@ ModelFile parse_model_file(std::string_view text, std::string_view name);
 /// read_file + parse_model_file (IoError for OS failures).
 ModelFile read_model_file(const std::string& path);
 
-}  // namespace periodfit::ident
+}  // namespace periodfit::output

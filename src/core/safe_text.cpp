@@ -1,9 +1,9 @@
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 
 #include <cmath>
 #include <cstdlib>
 
-namespace periodfit::report {
+namespace periodfit {
 
 namespace {
 
@@ -61,4 +61,4 @@ std::string csv_cell(std::string_view text) {
   return out + "\"";
 }
 
-}  // namespace periodfit::report
+}  // namespace periodfit

@@ -1,4 +1,4 @@
-#include "ident/model_file.hpp"
+#include "output/model_file.hpp"
 
 #include <nlohmann/json.hpp>
 
@@ -10,11 +10,13 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "io/input_limits.hpp"
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 #include "io/output_file.hpp"
-#include "io/json_writer.hpp"
+#include "output/json_writer.hpp"
 
-namespace periodfit::ident {
+// The model and fit types are the ident stage's; their names are used as ident spells them.
+namespace periodfit::output {
+using namespace ident;
 
 namespace {
 
@@ -148,7 +150,7 @@ std::string format_model_file(const ModelFile& file) {
                          {"cov_re_im", p.cov_re_im}});
     doc["frf"] = std::move(pts);
   }
-  return io::json_text(doc);
+  return json_text(doc);
 }
 
 void write_model_file(const std::string& path, const ModelFile& file) {
@@ -226,7 +228,7 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
   if (doc.contains("source")) f.source = rd.text(doc["source"], "source");
   if (doc.contains("f0_hz")) {
     f.f0_hz = rd.number(doc["f0_hz"], "f0_hz");
-    if (f.f0_hz < 0) rd.fail("\"f0_hz\" must be >= 0, found " + io::format_shortest(f.f0_hz));
+    if (f.f0_hz < 0) rd.fail("\"f0_hz\" must be >= 0, found " + format_shortest(f.f0_hz));
   }
   const json& model = rd.object(rd.member(doc, "model", "model"), "model");
   RationalModel& m = f.model;
@@ -239,10 +241,10 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
               std::to_string(kMaxModelDegree) + ", the highest periodfit evaluates (ident/model.hpp)");
   if (m.den.size() < 2) rd.fail("\"model.den\" must have at least 2 coefficients (a0, a1), found 1");
   if (m.den.back() != 1)
-    rd.fail("\"model.den\" must be monic (last coefficient 1), found " + io::format_shortest(m.den.back()));
+    rd.fail("\"model.den\" must be monic (last coefficient 1), found " + format_shortest(m.den.back()));
   if (model.contains("delay_s")) {
     m.delay_s = rd.number(model["delay_s"], "model.delay_s");
-    if (m.delay_s < 0) rd.fail("\"model.delay_s\" must be >= 0, found " + io::format_shortest(m.delay_s));
+    if (m.delay_s < 0) rd.fail("\"model.delay_s\" must be >= 0, found " + format_shortest(m.delay_s));
   }
   if (model.contains("delay_estimated")) m.delay_estimated = rd.boolean(model["delay_estimated"], "model.delay_estimated");
   const std::size_t n = m.parameter_count();
@@ -298,7 +300,7 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
       auto get = [&](const char* key) { return rd.number(rd.member(o, key, p + "." + key), p + "." + key); };
       FrfPoint pt;
       const double f_hz = get("freq_hz");
-      if (f_hz <= 0) rd.fail("\"" + p + ".freq_hz\" must be > 0, found " + io::format_shortest(f_hz));
+      if (f_hz <= 0) rd.fail("\"" + p + ".freq_hz\" must be > 0, found " + format_shortest(f_hz));
       pt.omega_rad_s = 2 * std::numbers::pi * f_hz;
       pt.h = {get("re"), get("im")};
       pt.var_re = get("var_re");
@@ -316,4 +318,4 @@ ModelFile read_model_file(const std::string& path) {
                           [&] { return parse_model_file(io::read_file(path, io::kMaxTextFileBytes), path); });
 }
 
-}  // namespace periodfit::ident
+}  // namespace periodfit::output

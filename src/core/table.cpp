@@ -1,11 +1,11 @@
-#include "report/table.hpp"
+#include "core/table.hpp"
 
 #include <algorithm>
 #include <cassert>
 
-#include "report/safe_text.hpp"
+#include "core/safe_text.hpp"
 
-namespace periodfit::report {
+namespace periodfit {
 
 namespace {
 // Display width in code points, so UTF-8 units such as "°" or "Ω" do not break alignment.
@@ -63,4 +63,4 @@ std::string render_key_values(const std::vector<std::pair<std::string, std::stri
   return out;
 }
 
-}  // namespace periodfit::report
+}  // namespace periodfit

@@ -7,7 +7,7 @@
 #include <nlohmann/json.hpp>
 #include <string>
 
-namespace periodfit::io {
+namespace periodfit::output {
 
 /// A finite double as a JSON number, NaN or an infinity as null: JSON has no non-finite
 /// numbers, and a reader must see "undefined", never a made-up value.
@@ -19,4 +19,4 @@ inline std::string json_text(const nlohmann::ordered_json& document) {
   return document.dump(2, ' ', false, nlohmann::ordered_json::error_handler_t::replace) + "\n";
 }
 
-}  // namespace periodfit::io
+}  // namespace periodfit::output

@@ -13,7 +13,7 @@
 #include <string>
 #include <string_view>
 
-namespace periodfit::io {
+namespace periodfit {
 
 /// Shortest round-trip decimal form ("0.1", "1e-09", "123456.789"). NaN and infinities are
 /// written "nan", "inf", "-inf"; callers that must never emit them check first.
@@ -51,4 +51,4 @@ std::string format_with_u(double value, double u, std::string_view unit = "");
 std::string format_interval(double lo, double hi, double u, double level, double k,
                             std::string_view unit = "");
 
-}  // namespace periodfit::io
+}  // namespace periodfit

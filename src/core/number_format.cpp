@@ -1,11 +1,11 @@
-#include "io/number_format.hpp"
+#include "core/number_format.hpp"
 
 #include <algorithm>
 #include <charconv>
 #include <cmath>
 #include <cstdio>
 
-namespace periodfit::io {
+namespace periodfit {
 
 std::string format_shortest(double value) {
   if (std::isnan(value)) return "nan";
@@ -105,4 +105,4 @@ std::string format_interval(double lo, double hi, double u, double level, double
          (unit.empty() ? "" : " " + std::string(unit)) + ", k = " + format_significant(k, 3);
 }
 
-}  // namespace periodfit::io
+}  // namespace periodfit

@@ -4,7 +4,7 @@
 #include <string>
 #include <vector>
 
-namespace periodfit::report {
+namespace periodfit {
 
 class Table {
  public:
@@ -29,4 +29,4 @@ class Table {
 std::string render_key_values(const std::vector<std::pair<std::string, std::string>>& rows,
                               int indent = 0);
 
-}  // namespace periodfit::report
+}  // namespace periodfit
