@@ -25,15 +25,17 @@
 
 #include "core/capture.hpp"
 #include "core/error.hpp"
-#include "dsp/analysis_output.hpp"
+#include "core/number_format.hpp"
 #include "dsp/harmonics.hpp"
-#include "ident/identify.hpp"
-#include "io/capture_reader.hpp"
-#include "io/json_writer.hpp"
-#include "io/number_format.hpp"
 #include "ident/frf.hpp"
-#include "ident/model_file.hpp"
+#include "ident/identify.hpp"
 #include "ident/system_expression.hpp"
+#include "io/capture_reader.hpp"
+#include "output/analysis_output.hpp"
+#include "output/excitation_output.hpp"
+#include "output/identify_output.hpp"
+#include "output/model_file.hpp"
+#include "output/predict_output.hpp"
 #include "predict/excitation.hpp"
 #include "predict/superposition.hpp"
 
@@ -176,7 +178,7 @@ capture["v_out"] or capture["#1"] selects a channel as the CLI's --channel does.
       .def("unit", [](const Capture& c, const std::string& selector) { return c.channel(selector).unit; })
       .def("__repr__", [](const Capture& c) {
         return "<periodfit.Capture " + c.source + ": " + std::to_string(c.channels.size()) + " channels x " +
-               std::to_string(c.sample_count()) + " samples at " + io::format_significant(c.sample_rate_hz, 10) + " Hz>";
+               std::to_string(c.sample_count()) + " samples at " + format_significant(c.sample_rate_hz, 10) + " Hz>";
       });
 
   m.def("read_capture",
@@ -256,10 +258,10 @@ to_dict() is the channel object of the analyze JSON (docs/analyze-json.md).)doc"
         for (const auto& f : a.result.flags) codes.push_back(f.code);
         return codes;
       })
-      .def("to_dict", [](const Analysis& a) { return parse_json(dsp::channel_json(a.result).dump()); },
+      .def("to_dict", [](const Analysis& a) { return parse_json(output::channel_json(a.result).dump()); },
            "the channel object of the analyze JSON contract (docs/analyze-json.md)")
       .def("__repr__", [](const Analysis& a) {
-        return "<periodfit.Analysis " + a.result.name + ": f0 " + io::format_significant(a.result.fundamental.f0_hz, 10) +
+        return "<periodfit.Analysis " + a.result.name + ": f0 " + format_significant(a.result.fundamental.f0_hz, 10) +
                " Hz, " + std::to_string(a.result.harmonics.size()) + " harmonics>";
       });
 
@@ -328,10 +330,10 @@ to_dict() is the excite JSON summary (docs/excite.md); write(path) writes the WA
         return column<double>(e.result.harmonics, [](const predict::ExcitedHarmonic& h) { return h.phase_deg; });
       })
       .def_property_readonly("warnings", [](const Excitation& e) { return e.result.warnings; })
-      .def("to_dict", [](const Excitation& e) { return parse_json(predict::excitation_json(e.result).dump()); })
+      .def("to_dict", [](const Excitation& e) { return parse_json(output::excitation_json(e.result).dump()); })
       .def("write", [](const Excitation& e, const std::string& path) {
         py::gil_scoped_release release;
-        predict::write_excitation(path, e.result);
+        output::write_excitation(path, e.result);
       }, py::arg("path"), "writes the WAV (.wav) or CSV file atomically, as `periodfit excite OUT` does");
 
   m.def("excite",
@@ -420,13 +422,13 @@ adequate (bool or None); flags (codes). to_dict() is the frf JSON document (docs
         return r.result.model ? std::optional<bool>(r.result.model->adequate) : std::nullopt;
       })
       .def_property_readonly("model", [](const Response& r) -> py::object {
-        const py::dict d = parse_json(ident::identify_json(r.result).dump());
+        const py::dict d = parse_json(output::identify_json(r.result).dump());
         return d.contains("model") ? py::object(d["model"]) : py::object(py::none());
       })
       .def_property_readonly("flags", [](const Response& r) { return r.result.flags; })
-      .def("to_dict", [](const Response& r) { return parse_json(ident::identify_json(r.result).dump()); },
+      .def("to_dict", [](const Response& r) { return parse_json(output::identify_json(r.result).dump()); },
            "the frf JSON document (docs/frf-json.md)")
-      .def("text", [](const Response& r) { return ident::format_identify_report(r.result); },
+      .def("text", [](const Response& r) { return output::format_identify_report(r.result); },
            "the report `periodfit frf` prints");
 
   m.def("frf",
@@ -500,7 +502,7 @@ predict::PredictSystem system_from(const std::optional<std::string>& expression,
     const ident::SystemExpressionResult parsed = ident::parse_system_expression(*expression, so);
     sys.model = predict::model_from_coefficients(parsed.model.num, parsed.model.den, delay);
   } else if (model_path) {
-    const ident::ModelFile file = ident::read_model_file(*model_path);
+    const output::ModelFile file = output::read_model_file(*model_path);
     if (!file.model.den.empty()) sys.model = file.model;
     sys.measured = file.frf;
     if (sys.prefer_measured && file.frf.empty())
@@ -556,7 +558,7 @@ rms_u, ripple_pp, ripple_pp_u, thd (ratio or None); time, value, value_u: sample
       .def_property_readonly("value_u", [](const std::shared_ptr<SteadyState>& s) { return view(s->result.value_u, s); })
       .def_property_readonly("flags", [](const SteadyState& s) { return s.result.flags; })
       .def_property_readonly("warnings", [](const SteadyState& s) { return s.result.warnings; })
-      .def("to_dict", [](const SteadyState& s) { return parse_json(predict::predict_json(s.result).dump()); },
+      .def("to_dict", [](const SteadyState& s) { return parse_json(output::predict_json(s.result).dump()); },
            "the steady-state JSON document (docs/steady-state-json.md)");
 
   m.def("steady_state",
