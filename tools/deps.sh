@@ -5,16 +5,17 @@ PERIODFIT_BUILD_PACKAGES=(
   build-essential cmake ninja-build pkg-config
   libfftw3-dev libeigen3-dev libsndfile1-dev libcli11-dev doctest-dev
   nlohmann-json3-dev libtomlplusplus-dev libboost-dev libtbb-dev
-  libsqlite3-dev libpq-dev
+  libsqlite3-dev libpq-dev python3-dev pybind11-dev
 )
 # Only the test suite needs these: reference libraries for the outside-source checks, an XML
 # checker for the SVG plots, a headless browser for the HTML report, clang for fuzzing and the
 # sanitizer build, ccache so a later run on the same machine recompiles only what changed, a
-# PostgreSQL server for the results-database tests (tools/pg-cluster.sh), and GNU parallel,
-# Slurm and munge for the scale-out recipes' tests (tools/scale-out-test.sh).
+# PostgreSQL server for the results-database tests (tools/pg-cluster.sh), GNU parallel, Slurm
+# and munge for the scale-out recipes' tests (tools/scale-out-test.sh), and pytest for the
+# Python module's tests.
 PERIODFIT_TEST_PACKAGES=(
   python3 python3-numpy python3-scipy python3-pandas libxml2-utils chromium
-  clang libclang-rt-14-dev ccache postgresql
+  clang libclang-rt-14-dev ccache postgresql python3-pytest
   parallel slurm-wlm munge
 )
 

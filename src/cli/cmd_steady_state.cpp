@@ -140,17 +140,8 @@ Runner add_steady_state(CLI::App& app) {
       ao.lock.max_harmonic = a->options.truncation.harmonics;
       const dsp::ChannelAnalysis an =
           dsp::analyze_channel(capture.channel(a->channel), capture.sample_rate_hz, capture.t0_s, ao);
-      std::vector<std::complex<double>> phasors;
-      // The analysis' own uncertainties travel with its harmonics (JCGM 100 §5.1.2).
-      predict::InputUncertainty input_u;
-      input_u.dc_var = an.dc_u * an.dc_u;
-      input_u.phasor_cov.push_back({0.0, 0.0, 0.0});
-      for (const auto& h : an.harmonics) {
-        phasors.push_back(h.phasor);
-        input_u.phasor_cov.push_back({h.cov_re_re, h.cov_im_im, h.cov_re_im});
-      }
-      r = predict::predict_steady_state(
-          predict::series_from_measurement(an.fundamental.f0_hz, an.dc, phasors), sys, a->options, input_u);
+      const predict::MeasuredInput measured = predict::measured_input(an);
+      r = predict::predict_steady_state(measured.series, sys, a->options, measured.u);
     } else {
       if (!a->harmonic_terms.empty()) {
         a->wave.kind = dsp::WaveKind::harmonics;

@@ -152,7 +152,7 @@ void validate(const AnalyzeOptions& o) {
 namespace {
 
 /// `exponent`: the samples are the channel's × 2^-exponent (the full scale follows them).
-ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0,
+ChannelAnalysis analyze_unit_scaled(const SampleView& channel, double fs, double t0,
                                     const AnalyzeOptions& options, int exponent);
 
 /// Multiplies every result in the channel's unit by 2^exponent (exact; ldexp, since 2^exponent
@@ -215,6 +215,11 @@ bool all_finite(const ChannelAnalysis& a) {
 // scaled back the same exact way. Ratios (THD, SNR, dBc), f0 and phases are unchanged by it.
 ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
                                 const AnalyzeOptions& options) {
+  return analyze_channel(SampleView{channel.name, channel.unit, channel.samples}, fs, t0, options);
+}
+
+ChannelAnalysis analyze_channel(const SampleView& channel, double fs, double t0,
+                                const AnalyzeOptions& options) {
   validate(options);
   double peak = 0;
   bool constant = true;
@@ -226,9 +231,10 @@ ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
   if (!(peak > 0) || !std::isfinite(peak) || constant) return analyze_unit_scaled(channel, fs, t0, options, 0);
   const int exponent = std::ilogb(peak) + 1;  // peak·2^-exponent in [0.5, 1)
   if (exponent == 0) return analyze_unit_scaled(channel, fs, t0, options, 0);
-  Channel scaled{channel.name, channel.unit, {}};
-  scaled.samples.reserve(channel.samples.size());
-  for (double v : channel.samples) scaled.samples.push_back(std::ldexp(v, -exponent));
+  std::vector<double> scaled_samples;
+  scaled_samples.reserve(channel.samples.size());
+  for (double v : channel.samples) scaled_samples.push_back(std::ldexp(v, -exponent));
+  const SampleView scaled{channel.name, channel.unit, scaled_samples};
   // The full-scale range is in the channel's unit, so it is scaled with the samples (ENOB is a
   // ratio of it to the noise and distortion).
   AnalyzeOptions scaled_options = options;
@@ -244,12 +250,12 @@ ChannelAnalysis analyze_channel(const Channel& channel, double fs, double t0,
 
 namespace {
 
-ChannelAnalysis analyze_unit_scaled(const Channel& channel, double fs, double t0,
+ChannelAnalysis analyze_unit_scaled(const SampleView& channel, double fs, double t0,
                                     const AnalyzeOptions& options, int exponent) {
   ChannelAnalysis out;
   out.name = channel.name;
   out.unit = channel.unit;
-  const std::span<const double> x(channel.samples);
+  const std::span<const double> x = channel.samples;
   const std::size_t n = x.size();
   LockedChannel locked;
   try {

@@ -31,6 +31,7 @@
 ///                                            capture.t0_s, {});
 ///   a.harmonics[0].amplitude;   // fundamental, peak, channel unit
 #include <complex>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -128,10 +129,21 @@ struct ChannelAnalysis {
   bool has_flag(const std::string& code) const;
 };
 
+/// A channel's samples seen in place (a numpy array, a memory-mapped file), with the name and
+/// unit its results and messages carry.
+struct SampleView {
+  std::string name;
+  std::string unit;
+  std::span<const double> samples;
+};
+
 /// Analyses one channel sampled at fs_hz whose first sample is at t0_s. Throws AnalysisError
 /// (message starting with the channel's name) when it has no periodic component or is too
 /// short, OptionError for invalid options.
 ChannelAnalysis analyze_channel(const Channel& channel, double fs_hz, double t0_s,
+                                const AnalyzeOptions& options = {});
+/// The same for samples not held in a Channel; reads them in place.
+ChannelAnalysis analyze_channel(const SampleView& channel, double fs_hz, double t0_s,
                                 const AnalyzeOptions& options = {});
 
 }  // namespace periodfit::dsp

@@ -45,4 +45,17 @@ dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
   return s;
 }
 
+MeasuredInput measured_input(const dsp::ChannelAnalysis& an) {
+  MeasuredInput m;
+  std::vector<std::complex<double>> phasors;
+  m.u.dc_var = an.dc_u * an.dc_u;
+  m.u.phasor_cov.push_back({0.0, 0.0, 0.0});
+  for (const auto& h : an.harmonics) {
+    phasors.push_back(h.phasor);
+    m.u.phasor_cov.push_back({h.cov_re_re, h.cov_im_im, h.cov_re_im});
+  }
+  m.series = series_from_measurement(an.fundamental.f0_hz, an.dc, phasors);
+  return m;
+}
+
 }  // namespace periodfit::predict
