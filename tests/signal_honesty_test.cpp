@@ -343,6 +343,24 @@ TEST_CASE("signal honesty: 997 Hz with 50 Hz hum at 10 mV locks on 997 Hz and re
   CHECK(std::abs(20 * std::log10(hum.amplitude / a.harmonics[0].amplitude) + 40) < 0.2);
 }
 
+TEST_CASE("signal honesty: the interference warning quotes the hum's level in the channel's unit, at any signal level") {
+  // A 3 V tone with 0.3 V of hum: the analysis runs on samples scaled by 2^-2 (harmonics.cpp,
+  // analyze_channel), and the warning once quoted the hum at 0.075 instead of 0.3. −20 dBc =
+  // 20·log10(0.3/3).
+  const Channel c = make_channel(
+      [](double t) { return 3 * std::cos(2 * pi * kTone * t + 0.3) + 0.3 * std::cos(2 * pi * 50 * t); }, 1e-4, 32);
+  const auto a = dsp::analyze_channel(c, kFs, 0);
+  INFO(flag_list(a));
+  REQUIRE(a.has_flag("interference"));
+  std::string message;
+  for (const auto& f : a.flags)
+    if (f.code == "interference") message = f.message;
+  CHECK_MESSAGE(message.find("Hz at 0.30") != std::string::npos, message);  // 0.3 V within the 3 digits quoted
+  CHECK_MESSAGE(message.find("(-20.0 dBc)") != std::string::npos, message);
+  REQUIRE_FALSE(a.residual_lines.lines.empty());
+  CHECK(a.residual_lines.lines.front().amplitude == doctest::Approx(0.3).epsilon(0.03));
+}
+
 TEST_CASE("signal honesty: two incommensurate tones and an amplitude-modulated tone lock the strongest tone and name the other lines") {
   const Channel two = make_channel(
       [](double t) { return std::cos(2 * pi * 100 * t) + std::cos(2 * pi * 141.42 * t + 1); }, 1e-4, 41);

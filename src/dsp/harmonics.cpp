@@ -580,7 +580,9 @@ ChannelAnalysis analyze_unit_scaled(const SampleView& channel, double fs, double
                         occupied * 4 < static_cast<int>(strongest);
     const std::string unit = out.unit.empty() ? "" : " " + out.unit;
     const auto line_text = [&](const ResidualLine& l) {
-      return sig(l.freq_hz, 6) + " Hz at " + sig(l.amplitude, 3) + unit +
+      // Messages quote levels in the channel's unit: the analysis runs on the unit-scaled
+      // samples (× 2^-exponent, see analyze_channel), so each level is scaled back here.
+      return sig(l.freq_hz, 6) + " Hz at " + sig(std::ldexp(l.amplitude, exponent), 3) + unit +
              (a1 > 0 ? " (" + format_fixed(20 * std::log10(l.amplitude / a1), 1) + " dBc)" : "");
     };
     if (!lines.empty() && out.explained_share < 1 - kNotPeriodicShare) {
@@ -618,16 +620,18 @@ ChannelAnalysis analyze_unit_scaled(const SampleView& channel, double fs, double
   if (clip.clipped)
     out.flags.push_back({"clipped", std::to_string(clip.count) + " samples (" + sig(100 * clip.share, 3) +
                                         " % of the record; a sine puts " + sig(100 * clip.expected_share, 2) +
-                                        " % there) sit on a flat plateau within " + sig(clip.band, 3) +
-                                        " of the " + (clip.at_max ? "maximum " : "minimum ") +
-                                        sig(clip.level, 6) +
+                                        " % there) sit on a flat plateau within " +
+                                        sig(std::ldexp(clip.band, exponent), 3) + " of the " +
+                                        (clip.at_max ? "maximum " : "minimum ") +
+                                        sig(std::ldexp(clip.level, exponent), 6) +
                                         ": the signal looks clipped, and the harmonics describe the "
                                         "flattened waveform"});
   if (out.baseline.significant) {
     const double a1 = amplitudes.size() > 1 ? amplitudes[1] : 0;
     const std::string dbc =
         a1 > 0 ? ", " + format_fixed(20 * std::log10(out.baseline.peak_to_peak / a1), 1) + " dBc" : "";
-    out.flags.push_back({"baseline-drift", "the baseline drifts by " + sig(out.baseline.peak_to_peak, 3) +
+    out.flags.push_back({"baseline-drift", "the baseline drifts by " +
+                                               sig(std::ldexp(out.baseline.peak_to_peak, exponent), 3) +
                                                (out.unit.empty() ? "" : " " + out.unit) + " peak-to-peak" + dbc +
                                                " over the record (Legendre trend, degree ≤ 2); " +
                                                (out.baseline_modelled
