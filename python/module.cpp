@@ -29,7 +29,6 @@
 #include "dsp/harmonics.hpp"
 #include "ident/frf.hpp"
 #include "ident/identify.hpp"
-#include "ident/system_expression.hpp"
 #include "io/capture_reader.hpp"
 #include "output/analysis_output.hpp"
 #include "output/excitation_output.hpp"
@@ -495,25 +494,21 @@ predict::PredictSystem system_from(const std::optional<std::string>& expression,
   if (given != 1) throw OptionError("system", std::to_string(given) + " given", "give exactly one of system=, model=, response=");
   if (response_from != "model" && response_from != "measured")
     throw UnknownNameError("response_from value", response_from, {"model", "measured"});
-  predict::PredictSystem sys;
-  sys.prefer_measured = response_from == "measured";
+  const bool prefer_measured = response_from == "measured";
   if (expression) {
-    ident::SystemExpressionOptions so;
-    so.source = "system";
-    const ident::SystemExpressionResult parsed = ident::parse_system_expression(*expression, so);
-    sys.model = predict::model_from_coefficients(parsed.model.num, parsed.model.den, delay);
-  } else if (model_path) {
-    const output::ModelFile file = output::read_model_file(*model_path);
-    if (!file.model.den.empty()) sys.model = file.model;
-    sys.measured = file.frf;
-    if (sys.prefer_measured && file.frf.empty())
-      throw InputError(*model_path, 0, 0, "response_from='measured': the model file holds no measured FRF points");
-  } else {
-    if (response->result.model) sys.model = response->result.model->model;
-    sys.measured = ident::fit_points(response->result.frf);
-    if (!sys.model && !sys.prefer_measured)
-      throw OptionError("response", "(no model)", "fit a model (frf(..., order=...)) or pass response_from='measured'");
+    predict::PredictSystem sys = predict::system_from_expression(*expression, delay, "system");
+    sys.prefer_measured = prefer_measured;
+    return sys;
   }
+  if (model_path)
+    return output::prediction_system(output::read_model_file(*model_path), prefer_measured, *model_path,
+                                     "response_from='measured'");
+  predict::PredictSystem sys;
+  sys.prefer_measured = prefer_measured;
+  if (response->result.model) sys.model = response->result.model->model;
+  sys.measured = ident::fit_points(response->result.frf);
+  if (!sys.model && !sys.prefer_measured)
+    throw OptionError("response", "(no model)", "fit a model (frf(..., order=...)) or pass response_from='measured'");
   return sys;
 }
 

@@ -35,15 +35,6 @@ using periodfit::test::slurp;
 
 namespace {
 
-// Every file under `dir`, relative path → content.
-std::vector<std::pair<std::string, std::string>> tree(const fs::path& dir) {
-  std::vector<std::pair<std::string, std::string>> out;
-  for (const auto& e : fs::recursive_directory_iterator(dir))
-    if (e.is_regular_file()) out.emplace_back(fs::relative(e.path(), dir).string(), slurp(e.path()));
-  std::sort(out.begin(), out.end());
-  return out;
-}
-
 struct Boards {
   periodfit::test::TempDir dir{"batch_boards"};
   Boards() {
@@ -143,7 +134,7 @@ TEST_CASE("batch: pass, fail and error rows; errors never stop the batch") {
   for (const auto& f : r.files) CHECK(fs::exists(out.path / "report" / f.json_file));
   CHECK(r.files[0].json_file == "files/0001-board_a.csv.json");
   // No temporary file is left behind.
-  for (const auto& [path, content] : tree(out.path / "report")) CHECK(path.find(".tmp-") == std::string::npos);
+  for (const auto& [path, content] : periodfit::test::folder_files(out.path / "report")) CHECK(path.find(".tmp-") == std::string::npos);
 }
 
 TEST_CASE("batch: outputs are byte-identical for --jobs 1 and --jobs 2") {
@@ -151,7 +142,7 @@ TEST_CASE("batch: outputs are byte-identical for --jobs 1 and --jobs 2") {
   periodfit::test::TempDir one("batch_jobs1"), two("batch_jobs2");
   run_batch(options_for(boards, one.path.string(), 1));
   run_batch(options_for(boards, two.path.string(), 2));
-  const auto a = tree(one.path / "report"), b = tree(two.path / "report");
+  const auto a = periodfit::test::folder_files(one.path / "report"), b = periodfit::test::folder_files(two.path / "report");
   REQUIRE(a.size() == b.size());
   for (std::size_t i = 0; i < a.size(); ++i) {
     CAPTURE(a[i].first);
@@ -556,11 +547,11 @@ TEST_CASE("batch: a re-run replaces the report folder whole, with no stale per-f
   Boards boards;
   periodfit::test::TempDir out("batch_rerun");
   run_batch(options_for(boards, out.path.string(), 1));
-  CHECK(tree(out.path / "report").size() == 3 + 5);
+  CHECK(periodfit::test::folder_files(out.path / "report").size() == 3 + 5);
   BatchOptions fewer = options_for(boards, out.path.string(), 1);
   fewer.inputs = {boards.dir.file("board_a.csv")};
   run_batch(fewer);
-  const auto files = tree(out.path / "report");
+  const auto files = periodfit::test::folder_files(out.path / "report");
   REQUIRE(files.size() == 3 + 1);
   CHECK(files[0].first == "files/0001-board_a.csv.json");
   CHECK(siblings(out.path) == std::vector<std::string>{".report.lock", "report"});
@@ -589,7 +580,7 @@ TEST_CASE("batch: a report folder holding files a run does not write is refused 
   fs::create_directories(out.path / "report");
   test::write_text((out.path / "report" / "thesis.tex").string(), "keep me\n");
   CHECK_THROWS_AS(run_batch(options_for(boards, out.path.string(), 1)), OptionError);
-  CHECK(tree(out.path / "report").size() == 1);
+  CHECK(periodfit::test::folder_files(out.path / "report").size() == 1);
   CHECK(slurp(out.path / "report" / "thesis.tex") == "keep me\n");
 }
 

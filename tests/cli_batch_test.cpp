@@ -23,14 +23,6 @@ namespace {
 
 std::string q(const std::string& s) { return "'" + s + "'"; }
 
-std::vector<std::pair<std::string, std::string>> tree(const fs::path& dir) {
-  std::vector<std::pair<std::string, std::string>> out;
-  for (const auto& e : fs::recursive_directory_iterator(dir))
-    if (e.is_regular_file()) out.emplace_back(fs::relative(e.path(), dir).string(), slurp(e.path()));
-  std::sort(out.begin(), out.end());
-  return out;
-}
-
 }  // namespace
 
 TEST_CASE("cli batch: exit code 0 when every file passes, 1 when a limit fails, 2 on an error row") {
@@ -117,7 +109,7 @@ TEST_CASE("cli batch: the report folder is the same for --jobs 1 and --jobs 2") 
   const auto r2 = run_cli(common + " --jobs 2 --report " + q(dir.file("j2")));
   CHECK(r1.exit_code == 2);
   CHECK(r1.out == r2.out);
-  const auto a = tree(dir.path / "j1"), b = tree(dir.path / "j2");
+  const auto a = periodfit::test::folder_files(dir.path / "j1"), b = periodfit::test::folder_files(dir.path / "j2");
   REQUIRE(a.size() == b.size());
   CHECK(a.size() == 3 + 5);  // summaries, report, one JSON per file
   for (std::size_t i = 0; i < a.size(); ++i) {

@@ -13,7 +13,6 @@
 #include "dsp/harmonics.hpp"
 #include "dsp/waveforms.hpp"
 #include "output/model_file.hpp"
-#include "ident/system_expression.hpp"
 #include "io/capture_reader.hpp"
 #include "io/output_set.hpp"
 #include "output/predict_output.hpp"
@@ -116,17 +115,10 @@ Runner add_steady_state(CLI::App& app) {
                           {{"--model", a->model_path}, {"--input-file", a->input_file}});
     predict::PredictSystem sys;
     if (!a->model_path.empty()) {
-      const output::ModelFile file = output::read_model_file(a->model_path);
-      if (!file.model.den.empty()) sys.model = file.model;
-      sys.measured = file.frf;
-      sys.prefer_measured = a->response_from == "measured";
-      if (sys.prefer_measured && file.frf.empty())
-        throw InputError(a->model_path, 0, 0, "--response-from measured: the model file holds no measured FRF points");
+      sys = output::prediction_system(output::read_model_file(a->model_path), a->response_from == "measured",
+                                      a->model_path, "--response-from measured");
     } else if (system->count() > 0) {  // an empty --system "" is the parser's error, not "none given"
-      ident::SystemExpressionOptions so;
-      so.source = "--system";
-      const ident::SystemExpressionResult parsed = ident::parse_system_expression(a->system, so);
-      sys.model = predict::model_from_coefficients(parsed.model.num, parsed.model.den, a->delay_s);
+      sys = predict::system_from_expression(a->system, a->delay_s, "--system");
     } else {
       throw OptionError("system", "(none)", "give --model FILE or --system EXPR");
     }

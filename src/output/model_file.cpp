@@ -318,4 +318,15 @@ ModelFile read_model_file(const std::string& path) {
                           [&] { return parse_model_file(io::read_file(path, io::kMaxTextFileBytes), path); });
 }
 
+predict::PredictSystem prediction_system(const ModelFile& file, bool prefer_measured, const std::string& path,
+                                         std::string_view measured_option) {
+  predict::PredictSystem sys;
+  if (!file.model.den.empty()) sys.model = file.model;
+  sys.measured = file.frf;
+  sys.prefer_measured = prefer_measured;
+  if (prefer_measured && file.frf.empty())
+    throw InputError(path, 0, 0, std::string(measured_option) + ": the model file holds no measured FRF points");
+  return sys;
+}
+
 }  // namespace periodfit::output

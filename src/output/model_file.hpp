@@ -14,6 +14,7 @@
 
 #include "ident/model.hpp"
 #include "ident/rational_fit.hpp"
+#include "predict/superposition.hpp"
 
 namespace periodfit::output {
 
@@ -51,6 +52,14 @@ void write_model_file(const std::string& path, const ModelFile& file);
 /// the key that is missing, of the wrong type, or inconsistent (den not monic, covariance of the
 /// wrong size or not symmetric, unknown format or a newer version).
 ModelFile parse_model_file(std::string_view text, std::string_view name);
+
+/// The system a model file describes for a steady-state prediction: its model (when it holds
+/// one) and its measured points; `prefer_measured` takes the measured points where they exist.
+/// Throws InputError naming `path` when prefer_measured is asked of a file without measured
+/// points, the asking option written as `measured_option` (the CLI's --response-from, the
+/// Python module's response_from).
+predict::PredictSystem prediction_system(const ModelFile& file, bool prefer_measured, const std::string& path,
+                                         std::string_view measured_option);
 
 /// read_file + parse_model_file (IoError for OS failures).
 ModelFile read_model_file(const std::string& path);

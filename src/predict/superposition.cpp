@@ -9,6 +9,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/number_format.hpp"
+#include "ident/system_expression.hpp"
 
 namespace periodfit::predict {
 
@@ -137,6 +138,15 @@ Sensitivity sample_sensitivity(const std::vector<Term>& terms, double theta) {
 double phase_deg(std::complex<double> z) {
   const double d = std::arg(z) * 180 / kPi;
   return d <= -180 ? d + 360 : d;
+}
+
+PredictSystem system_from_expression(std::string_view text, double delay_s, std::string source) {
+  ident::SystemExpressionOptions so;
+  so.source = std::move(source);
+  const ident::SystemExpressionResult parsed = ident::parse_system_expression(text, so);
+  PredictSystem sys;
+  sys.model = model_from_coefficients(parsed.model.num, parsed.model.den, delay_s);
+  return sys;
 }
 
 ident::RationalModel model_from_coefficients(std::vector<double> num_c, std::vector<double> den_c,

@@ -82,6 +82,11 @@ struct PredictSystem {
   bool prefer_measured = false;
 };
 
+/// The system of a rational expression in s (ident/system_expression.hpp) with dead time
+/// delay_s; `source` names the expression in parse errors (an option, an argument).
+PredictSystem system_from_expression(std::string_view text, double delay_s, std::string source);
+
+
 struct PredictOptions {
   dsp::TruncationOptions truncation;  ///< harmonic count N (0 = automatic energy bound)
   int periods = 1;                    ///< samples cover this many whole periods, >= 1
