@@ -106,3 +106,24 @@ TEST_CASE("layering: the check rejects a back-edge and accepts earlier stages") 
   CHECK(layering_violations("output", "#include \"batch/runner.hpp\"\n").size() == 1);
   CHECK(layering_violations("core", "#include \"misc/helper.hpp\"\n").size() == 1);
 }
+
+TEST_CASE("layering: installed headers hold no test hook and include no internal header") {
+  // cmake/InstallHeaders.cmake installs src/<stage>/*.hpp and *.inc, not their sub-folders: test
+  // hooks live in src/<stage>/internal/ (issue 15: "test hooks leave the public headers"), and an
+  // installed header that included one would not compile for a consumer.
+  const std::filesystem::path src = std::filesystem::path(PERIODFIT_SOURCE_DIR) / "src";
+  int headers = 0;
+  for (const auto stage : kStages) {
+    if (!std::filesystem::is_directory(src / stage)) continue;
+    for (const auto& entry : std::filesystem::directory_iterator(src / stage)) {
+      const auto ext = entry.path().extension();
+      if (!entry.is_regular_file() || (ext != ".hpp" && ext != ".inc")) continue;
+      ++headers;
+      const std::string text = read_text(entry.path());
+      const std::string name = std::string(stage) + "/" + entry.path().filename().string();
+      CHECK_MESSAGE(text.find("for_testing") == std::string::npos, "src/", name, " declares a test hook");
+      CHECK_MESSAGE(text.find("/internal/") == std::string::npos, "src/", name, " includes an internal header");
+    }
+  }
+  CHECK(headers > 50);  // the stages hold well over fifty headers; fewer means the walk found nothing
+}

@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "core/error.hpp"
+#include "dsp/internal/kernel_override.hpp"
 #include "dsp/period_lock.hpp"
 
 using namespace periodfit;
@@ -304,7 +305,7 @@ TEST_CASE("lock: every instruction-set kernel gives the same fit") {
   opt.max_harmonic = 8;
   int tried = 0;
   for (const char* isa : {"base", "avx2", "avx512"}) {
-    if (!dsp::force_kernel_for_testing(isa)) {
+    if (!dsp::internal::force_kernel_for_testing(isa)) {
       MESSAGE("kernel " << isa << " not supported by this CPU: skipped");
       continue;
     }
@@ -319,6 +320,6 @@ TEST_CASE("lock: every instruction-set kernel gives the same fit") {
     for (double v : r) worst = std::max(worst, std::abs(v));
     CHECK(worst < 1e-12);
   }
-  dsp::force_kernel_for_testing("");
+  dsp::internal::force_kernel_for_testing("");
   CHECK(tried >= 1);
 }

@@ -17,6 +17,7 @@
 
 #include "core/error.hpp"
 #include "dsp/fft_plan.hpp"
+#include "dsp/internal/kernel_override.hpp"
 #include "core/number_format.hpp"
 
 namespace periodfit::dsp {
@@ -632,9 +633,7 @@ HarmonicFit make_fit(const Evaluation& e, std::span<const double> x, double fs, 
 
 }  // namespace
 
-// ---- public --------------------------------------------------------------------------------
-
-bool force_kernel_for_testing(const std::string& name) {
+bool internal::force_kernel_for_testing(const std::string& name) {
   __builtin_cpu_init();
   if (name.empty()) {
     forced_isa = -1;
@@ -655,6 +654,8 @@ bool force_kernel_for_testing(const std::string& name) {
   }
   return false;
 }
+
+// ---- public --------------------------------------------------------------------------------
 
 void validate(const LockOptions& o) {
   if (!std::isfinite(o.f0_hint_hz) || o.f0_hint_hz < 0)

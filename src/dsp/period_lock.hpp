@@ -288,8 +288,4 @@ LockedChannel lock_channel(std::span<const double> x, double fs_hz, double t0_s,
 /// Drops the harmonics above max_harmonic from `spectra` (no-op when it holds fewer).
 void truncate_spectra(PeriodSpectra& spectra, int max_harmonic);
 
-/// Test hook: run the streamed sums with one instruction set ("avx512", "avx2", "base"; ""
-/// = by CPU features again). Returns false when this CPU lacks it. Not for production use.
-bool force_kernel_for_testing(const std::string& name);
-
 }  // namespace periodfit::dsp
