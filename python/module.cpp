@@ -255,7 +255,7 @@ to_dict() is the channel object of the analyze JSON (docs/analyze-json.md).)doc"
       })
       .def_property_readonly("flags", [](const Analysis& a) {
         std::vector<std::string> codes;
-        for (const auto& f : a.result.flags) codes.push_back(f.code);
+        for (const auto& f : a.result.flags) codes.emplace_back(code(f.flag));
         return codes;
       })
       .def("to_dict", [](const Analysis& a) { return parse_json(output::channel_json(a.result).dump()); },

@@ -18,11 +18,11 @@ using namespace periodfit;
 namespace fs = std::filesystem;
 
 TEST_CASE("flags: every flag code the sources raise is in the table, with a sentence") {
-  // The sources raise flags as `flags.push_back("code")` or `flags.push_back({"code", …})`
-  // (analyze's channel flags), or as `flags.push_back(Flag::name)` (frf, steady-state), whose
+  // The sources raise flags as `flags.push_back({Flag::name, …})` (analyze's channel flags, with
+  // their message), or as `flags.push_back(Flag::name)` (frf, steady-state), whose
   // code is the name with '-' for '_'; a new flag without a table row would reach a batch
   // verdict with no severity.
-  const std::regex raise(R"(flags\.push_back\(\s*(?:\{?\s*"([a-z0-9-]+)\"|Flag::([a-z0-9_]+)))");
+  const std::regex raise(R"(flags\.push_back\(\s*\{?\s*(?:"([a-z0-9-]+)\"|Flag::([a-z0-9_]+)))");
   std::set<std::string> raised;
   for (const auto& e : fs::recursive_directory_iterator(fs::path(PERIODFIT_SOURCE_DIR) / "src")) {
     if (e.path().extension() != ".cpp") continue;

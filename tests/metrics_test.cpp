@@ -64,7 +64,7 @@ TEST_CASE("metrics: ideal N-bit quantizer has SINAD 6.02N + 1.76 dB and ENOB N (
     INFO("bits " << bits);
     CHECK(std::abs(a.distortion.sinad_db - expected) < kSinadTolDb);
     CHECK(std::abs(a.distortion.enob_bits - bits) < kSinadTolDb / 6.02);
-    CHECK_FALSE(a.has_flag("clipped"));
+    CHECK_FALSE(a.has_flag(Flag::clipped));
   }
 }
 

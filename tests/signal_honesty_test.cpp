@@ -55,7 +55,7 @@ std::string shell_quote(const std::string& p) { return "'" + p + "'"; }
 
 std::string flag_list(const dsp::ChannelAnalysis& a) {
   std::string s;
-  for (const auto& f : a.flags) s += f.code + ": " + f.message + "\n";
+  for (const auto& f : a.flags) s += std::string(code(f.flag)) + ": " + f.message + "\n";
   return s;
 }
 
@@ -74,7 +74,7 @@ TEST_CASE("signal honesty: a 50 mV ramp under a 1 V sine is fitted, flagged base
       [&](double t) { return std::cos(2 * pi * kTone * t + 0.3) + 0.05 * (t / duration - 0.5); }, 1e-3, 11);
   const auto a = dsp::analyze_channel(c, kFs, 0);
   INFO(flag_list(a));
-  CHECK(a.has_flag("baseline-drift"));
+  CHECK(a.has_flag(Flag::baseline_drift));
   CHECK(a.baseline_modelled);
   // The ramp spans 50 mV peak-to-peak (by construction); its Legendre-1 coefficient has
   // u = σ·√(3/N) ≈ 8 µV, so 0.5 mV is a generous bound.
@@ -89,10 +89,10 @@ TEST_CASE("signal honesty: a clean sine has no baseline-drift, interference, not
     const Channel c = make_channel([](double t) { return std::cos(2 * pi * kTone * t + 0.3); }, 1e-3, seed);
     const auto a = dsp::analyze_channel(c, kFs, 0);
     INFO("seed " << seed << "\n" << flag_list(a));
-    CHECK_FALSE(a.has_flag("baseline-drift"));
-    CHECK_FALSE(a.has_flag("interference"));
-    CHECK_FALSE(a.has_flag("not-periodic"));
-    CHECK_FALSE(a.has_flag("clipped"));
+    CHECK_FALSE(a.has_flag(Flag::baseline_drift));
+    CHECK_FALSE(a.has_flag(Flag::interference));
+    CHECK_FALSE(a.has_flag(Flag::not_periodic));
+    CHECK_FALSE(a.has_flag(Flag::clipped));
   }
 }
 
@@ -106,7 +106,7 @@ TEST_CASE("signal honesty: a sine clipped at ±0.9 V with 0.3 mV noise on the ra
     if (std::abs(v) >= 0.9) v += g(rng);  // the amplifier's noise rides on its rails
   const auto a = dsp::analyze_channel(c, kFs, 0);
   INFO(flag_list(a));
-  CHECK(a.has_flag("clipped"));
+  CHECK(a.has_flag(Flag::clipped));
 }
 
 TEST_CASE("signal honesty: a 16-bit WAV clipped at digital full scale is flagged clipped") {
@@ -119,20 +119,20 @@ TEST_CASE("signal honesty: a 16-bit WAV clipped at digital full scale is flagged
   const Capture cap = io::read_capture(dir.file("clip.wav"));
   const auto a = dsp::analyze_channel(cap.channels[0], cap.sample_rate_hz, cap.t0_s);
   INFO(flag_list(a));
-  CHECK(a.has_flag("clipped"));
+  CHECK(a.has_flag(Flag::clipped));
 }
 
 TEST_CASE("signal honesty: a half-wave rectified sine at 0 V and square waves are not clipped") {
   const Channel half = make_channel([](double t) { return std::max(0.0, std::cos(2 * pi * kTone * t)); }, 3e-4, 7);
   const auto a = dsp::analyze_channel(half, kFs, 0);
   INFO(flag_list(a));
-  CHECK_FALSE(a.has_flag("clipped"));
+  CHECK_FALSE(a.has_flag(Flag::clipped));
   // A 1 kHz square wave, 48 samples per period (ideal levels ±1 V, 0.3 mV noise on both).
   const Channel square = make_channel(
       [](double t) { return std::fmod(t * 1000 + 1e-9, 1.0) < 0.5 ? 1.0 : -1.0; }, 3e-4, 8);
   const auto s = dsp::analyze_channel(square, kFs, 0);
   INFO(flag_list(s));
-  CHECK_FALSE(s.has_flag("clipped"));
+  CHECK_FALSE(s.has_flag(Flag::clipped));
   // Band-limited square: Fourier series 4/(nπ)·sin(nωt), odd n ≤ 21 (handbook table).
   const Channel bl = make_channel(
       [](double t) {
@@ -143,7 +143,7 @@ TEST_CASE("signal honesty: a half-wave rectified sine at 0 V and square waves ar
       3e-4, 9);
   const auto b = dsp::analyze_channel(bl, kFs, 0);
   INFO(flag_list(b));
-  CHECK_FALSE(b.has_flag("clipped"));
+  CHECK_FALSE(b.has_flag(Flag::clipped));
 }
 
 TEST_CASE("signal honesty: a square wave settling through an RC low-pass is not clipped; heavy and slow clipping is") {
@@ -162,26 +162,26 @@ TEST_CASE("signal honesty: a square wave settling through an RC low-pass is not 
   }
   const auto r = dsp::analyze_channel(rc, kFs, 0);
   INFO(flag_list(r));
-  CHECK_FALSE(r.has_flag("clipped"));
+  CHECK_FALSE(r.has_flag(Flag::clipped));
   // The demo capture: a 997 Hz square into R = 1 kΩ, C = 47 nF at 100 kHz
   // (testdata/make_testdata.py); v_out rests on its levels for ~70 % of each half period.
   const Capture demo = io::read_capture(std::string(testdata_dir()) + "/demo/bench_capture.csv");
   const auto d = dsp::analyze_channel(demo.channel("v_out"), demo.sample_rate_hz, demo.t0_s);
   INFO(flag_list(d));
-  CHECK_FALSE(d.has_flag("clipped"));
+  CHECK_FALSE(d.has_flag(Flag::clipped));
   // A 1 kHz sine overdriven 3.3× (clipped at ±0.3 V, noise everywhere): flat for 40 % of each
   // half period, still cut (its slope enters the rail with curvature pointing past it).
   const Channel heavy = make_channel(
       [](double t) { return std::clamp(std::cos(2 * pi * 1000 * t + 0.3), -0.3, 0.3); }, 3e-4, 13);
   const auto h = dsp::analyze_channel(heavy, kFs, 0);
   INFO(flag_list(h));
-  CHECK(h.has_flag("clipped"));
+  CHECK(h.has_flag(Flag::clipped));
   // A 49.85 Hz sine (963 samples per period) clipped at ±0.9 V with 1 mV noise on every sample.
   const Channel slow = make_channel(
       [](double t) { return std::clamp(std::cos(2 * pi * 49.85 * t + 0.3), -0.9, 0.9); }, 1e-3, 14);
   const auto w = dsp::analyze_channel(slow, kFs, 0);
   INFO(flag_list(w));
-  CHECK(w.has_flag("clipped"));
+  CHECK(w.has_flag(Flag::clipped));
 }
 
 // ---- item 6: intervals inside the physical domain -------------------------------------------
@@ -332,8 +332,8 @@ TEST_CASE("signal honesty: 997 Hz with 50 Hz hum at 10 mV locks on 997 Hz and re
   INFO(flag_list(a));
   // f0's u is ~1e-7 Hz at this SNR; 1e-4 Hz separates the tone from any sub-multiple lock.
   CHECK(std::abs(a.fundamental.f0_hz - kTone) < 1e-4);
-  CHECK(a.has_flag("interference"));
-  CHECK_FALSE(a.has_flag("not-periodic"));
+  CHECK(a.has_flag(Flag::interference));
+  CHECK_FALSE(a.has_flag(Flag::not_periodic));
   REQUIRE_FALSE(a.residual_lines.lines.empty());
   const auto& hum = a.residual_lines.lines.front();
   // 50 Hz within the Hann-interpolation error (≪ 0.5 bin = 0.5 Hz); −40 dBc = 20·log10(0.01/1)
@@ -351,10 +351,10 @@ TEST_CASE("signal honesty: the interference warning quotes the hum's level in th
       [](double t) { return 3 * std::cos(2 * pi * kTone * t + 0.3) + 0.3 * std::cos(2 * pi * 50 * t); }, 1e-4, 32);
   const auto a = dsp::analyze_channel(c, kFs, 0);
   INFO(flag_list(a));
-  REQUIRE(a.has_flag("interference"));
+  REQUIRE(a.has_flag(Flag::interference));
   std::string message;
   for (const auto& f : a.flags)
-    if (f.code == "interference") message = f.message;
+    if (f.flag == Flag::interference) message = f.message;
   CHECK_MESSAGE(message.find("Hz at 0.30") != std::string::npos, message);  // 0.3 V within the 3 digits quoted
   CHECK_MESSAGE(message.find("(-20.0 dBc)") != std::string::npos, message);
   REQUIRE_FALSE(a.residual_lines.lines.empty());
@@ -376,8 +376,8 @@ TEST_CASE("signal honesty: two incommensurate tones and an amplitude-modulated t
     INFO("f0 " << a.fundamental.f0_hz << "\n" << flag_list(a));
     const double f0 = a.fundamental.f0_hz;
     CHECK((std::abs(f0 - 100) < kToneTolHz || std::abs(f0 - 141.42) < kToneTolHz));
-    CHECK((a.has_flag("not-periodic") || a.has_flag("interference")));
+    CHECK((a.has_flag(Flag::not_periodic) || a.has_flag(Flag::interference)));
     REQUIRE_FALSE(a.residual_lines.lines.empty());
   }
-  CHECK(dsp::analyze_channel(two, kFs, 0).has_flag("not-periodic"));
+  CHECK(dsp::analyze_channel(two, kFs, 0).has_flag(Flag::not_periodic));
 }

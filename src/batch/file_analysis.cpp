@@ -240,7 +240,7 @@ FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config)
                                  pm(c.harmonics[0].amplitude, c.harmonics[0].amplitude_u, c.unit) + " at " +
                                      pm(c.harmonics[0].phase_deg, c.harmonics[0].phase_u_deg, "\xC2\xB0"));
     for (const auto& f : c.flags) {
-      a.flags.push_back(c.name + ": " + f.code);
+      a.flags.push_back(c.name + ": " + std::string(code(f.flag)));
       a.messages.push_back(c.name + ": " + f.message);
     }
     a.figures.push_back(report::analyze_spectrum_figure(c));

@@ -10,10 +10,11 @@
 ///   uncertainties that rest on an approximation).
 /// - `info`: a fact about the signal or the method that does not qualify the numbers.
 ///
-/// The frf and steady-state results carry flags as `Flag` values, and their statuses as `Status`
-/// values; both are written as their codes ("model-inadequate") through this table, which is
-/// the only place a code is spelled. analyze's channel flags carry the code (dsp/harmonics.hpp);
-/// analyze-mode batch rows prefix the channel ("v_out: clipped"), which flag_code() strips.
+/// The analyze, frf and steady-state results carry flags as `Flag` values (analyze's with the
+/// channel's message beside it, dsp/harmonics.hpp), and their statuses as `Status` values; both
+/// are written as their codes ("model-inadequate") through this table, which is the only place a
+/// code is spelled. analyze-mode batch rows prefix the channel ("v_out: clipped"), which
+/// flag_code() strips.
 ///
 /// Usage:
 ///   if (const FlagInfo* f = find_flag(flag_code(text)); f && f->severity == FlagSeverity::invalidates) …

@@ -36,6 +36,7 @@
 #include <vector>
 
 #include "core/capture.hpp"
+#include "core/flags.hpp"
 #include "dsp/baseline.hpp"
 #include "dsp/metrics.hpp"
 #include "dsp/period_lock.hpp"
@@ -79,10 +80,11 @@ struct HarmonicLine {
 };
 
 struct AnalysisFlag {
-  std::string code;     ///< "clipped", "aliasing-risk", "few-periods", "drift", "dc-only",
-                        ///< "not-converged", "baseline-drift", "interference", "not-periodic",
-                        ///< "identical-periods", "forced-f0-off" (core/flags.hpp)
-  std::string message;  ///< plain-language warning
+  /// clipped, aliasing_risk, few_periods, drift, dc_only, not_converged, baseline_drift,
+  /// interference, not_periodic, identical_periods, forced_f0_off, harmonics_truncated; written
+  /// as its code ("clipped") through the flag table, core/flags.hpp
+  Flag flag = Flag::clipped;
+  std::string message;  ///< plain-language warning, levels in the channel's unit
 };
 
 struct ChannelAnalysis {
@@ -126,7 +128,7 @@ struct ChannelAnalysis {
   double explained_share = 1;   ///< harmonic power / (harmonic + residual-line power)
   std::vector<AnalysisFlag> flags;
 
-  bool has_flag(const std::string& code) const;
+  bool has_flag(Flag flag) const;
 };
 
 /// A channel's samples seen in place (a numpy array, a memory-mapped file), with the name and

@@ -148,7 +148,7 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   nlohmann::ordered_json flags = nlohmann::ordered_json::array();
   nlohmann::ordered_json warnings = nlohmann::ordered_json::array();
   for (const auto& f : c.flags) {
-    flags.push_back(f.code);
+    flags.push_back(std::string(code(f.flag)));
     warnings.push_back(f.message);
   }
   j["flags"] = flags;
@@ -236,7 +236,7 @@ std::string analyze_text(const AnalyzeReport& r) {
                                        format_fixed(c.noise_floor_dbc, 1) + " dBc)");
     kv.emplace_back("uncertainty", c.noise_method + ", " + std::to_string(c.noise_dof) + " dof");
     std::string flags;
-    for (const auto& f : c.flags) flags += (flags.empty() ? "" : ", ") + f.code;
+    for (const auto& f : c.flags) flags += (flags.empty() ? "" : ", ") + std::string(code(f.flag));
     kv.emplace_back("flags", flags.empty() ? "none" : flags);
     out += render_key_values(kv, 2);
     // Each u column is the standard uncertainty of the column to its left, in its unit; the

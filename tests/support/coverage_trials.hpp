@@ -100,8 +100,9 @@ inline CoverageStats run_coverage(const CoverageCondition& c, int trials, std::u
       continue;
     }
     ++s.trials;
-    for (const auto& f : a.flags) ++s.flags[f.code];
-    if (!c.excusing_flag.empty() && a.has_flag(c.excusing_flag)) ++s.excused;
+    for (const auto& f : a.flags) ++s.flags[std::string(code(f.flag))];
+    const FlagInfo* excusing = find_flag(c.excusing_flag);
+    if (excusing && a.has_flag(excusing->flag)) ++s.excused;
     const double k = coverage_factor_95(a.noise_dof);
     const auto& h1 = a.harmonics.front();
     const double da = h1.amplitude - a1;
