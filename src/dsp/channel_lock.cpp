@@ -125,6 +125,59 @@ double f0_noise_factor(const LockedChannel& c) {
   return std::isfinite(factor) ? factor : 1;
 }
 
+/// With a given H (or an automatic one capped), the significant lines above it and their total
+/// power relative to the fundamental (harmonics-truncated).
+void count_truncated(HarmonicSelection& sel, const PeriodSpectra& spectra, int kept) {
+  for (int k : sel.significant_harmonics)
+    if (k > kept) {
+      ++sel.truncated_lines;
+      sel.truncated_dbc += std::norm(spectra.mean[static_cast<std::size_t>(k)]);
+    }
+  const double a1 = std::norm(spectra.mean[1]);
+  sel.truncated_dbc = sel.truncated_lines > 0 && a1 > 0 ? 10 * std::log10(sel.truncated_dbc / a1) : 0;
+}
+
+/// The fit again with the h harmonics the rule chose, from the f0 found. Returns whether the grid
+/// must be made again (f0 moved by more than 0.1 u, or H grew); keeps the first fit, and sets h
+/// back to its count, when the refit finds no clear fundamental.
+bool refit_harmonics(LockedChannel& out, std::span<const double> x, double fs, double t0, const LockOptions& options,
+                     int& h) {
+  const double f0 = out.fit.fundamental.f0_hz;
+  const int h_fit = out.fit.harmonics();
+  LockOptions again = options;
+  again.max_harmonic = h;
+  if (options.f0_hz <= 0) {
+    again.f0_hint_hz = 0;
+    again.f0_start_hz = f0;
+  }
+  try {
+    HarmonicFit refit = fit_harmonics(x, fs, t0, again);
+    const double moved = std::abs(refit.fundamental.f0_hz - f0);
+    const bool relock = h > h_fit || moved > 0.1 * refit.fundamental.f0_u_hz;
+    out.fit = std::move(refit);
+    return relock;
+  } catch (const AnalysisError&) {
+    // With fewer harmonics the strongest line no longer stands out (cannot happen for a line
+    // the rule found significant, kept for safety): the first fit stands.
+    h = h_fit;
+    out.selection.count = h;
+    return false;
+  }
+}
+
+/// Scales the fit's u(f0) and its f0 covariance terms by the local-noise factor.
+void apply_noise_factor(LockedChannel& out) {
+  out.f0_u_noise_factor = f0_noise_factor(out);
+  if (out.f0_u_noise_factor == 1) return;
+  const double q = out.f0_u_noise_factor;
+  out.fit.fundamental.f0_u_hz *= q;
+  for (auto& c : out.fit.unit_cov) {
+    c[2] *= q * q;
+    c[4] *= q;
+    c[5] *= q;
+  }
+}
+
 }  // namespace
 
 LockedChannel lock_channel(std::span<const double> x, double fs, double t0, const LockOptions& options,
@@ -162,52 +215,16 @@ LockedChannel lock_channel(std::span<const double> x, double fs, double t0, cons
   } else {
     sel.rule = "given";
   }
-  {
-    for (int k : sel.significant_harmonics)
-      if (k > (automatic ? h : h_fit)) {
-        ++sel.truncated_lines;
-        sel.truncated_dbc += std::norm(out.spectra.mean[static_cast<std::size_t>(k)]);
-      }
-    const double a1 = std::norm(out.spectra.mean[1]);
-    sel.truncated_dbc = sel.truncated_lines > 0 && a1 > 0 ? 10 * std::log10(sel.truncated_dbc / a1) : 0;
-  }
+  count_truncated(sel, out.spectra, automatic ? h : h_fit);
   sel.count = h;
-  bool relock = false;
-  if (h != h_fit) {
-    LockOptions again = options;
-    again.max_harmonic = h;
-    if (options.f0_hz <= 0) {
-      again.f0_hint_hz = 0;
-      again.f0_start_hz = f0;
-    }
-    try {
-      HarmonicFit refit = fit_harmonics(x, fs, t0, again);
-      const double moved = std::abs(refit.fundamental.f0_hz - f0);
-      relock = h > h_fit || moved > 0.1 * refit.fundamental.f0_u_hz;
-      out.fit = std::move(refit);
-    } catch (const AnalysisError&) {
-      // With fewer harmonics the strongest line no longer stands out (cannot happen for a line
-      // the rule found significant, kept for safety): the first fit stands.
-      h = h_fit;
-      sel.count = h;
-    }
-  }
+  const bool relock = h != h_fit && refit_harmonics(out, x, fs, t0, options, h);
   if (relock) {
     out.grid = resample_fitted(out.fit.residual, out.fit, grid_size(h));
     out.spectra = period_spectra(out.grid, h, out.grid.periods < 4);
   } else {
     truncate_to(out.spectra, h);
   }
-  out.f0_u_noise_factor = f0_noise_factor(out);
-  if (out.f0_u_noise_factor != 1) {
-    const double q = out.f0_u_noise_factor;
-    out.fit.fundamental.f0_u_hz *= q;
-    for (auto& c : out.fit.unit_cov) {
-      c[2] *= q * q;
-      c[4] *= q;
-      c[5] *= q;
-    }
-  }
+  apply_noise_factor(out);
   return out;
 }
 

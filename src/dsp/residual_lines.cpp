@@ -21,6 +21,55 @@ double hann_gain(double d) {
   return std::abs(std::sin(kPi * d) / (kPi * d * (1 - d * d)));
 }
 
+/// Bins that cannot hold interference: the lowest kLowBins, Nyquist, and the harmonics' guards.
+std::vector<char> excluded_bins(std::size_t bins, double bin_hz, double fs, double f0, bool folded,
+                                int fitted_harmonics) {
+  std::vector<char> excluded(bins, 0);
+  for (std::size_t k = 0; k < bins && k < static_cast<std::size_t>(kLowBins); ++k) excluded[k] = 1;
+  excluded[bins - 1] = 1;
+  // Harmonics above fs/2 fold back to |n·f0 − j·fs| (aliasing, and the harmonics of a
+  // quantiser's error): they are the signal's, not interference. Orders up to the point where the
+  // guards would cover kFoldedShare of the spectrum are excluded (folded orders land nearly
+  // uniformly, so that is also the chance that a given interferer is hidden by one).
+  const double guard_share = (2.0 * kHarmonicGuardBins + 1) / static_cast<double>(bins);
+  const double in_band = std::floor(0.5 * fs / f0);
+  const int max_order = static_cast<int>(folded ? std::clamp(kFoldedShare / guard_share, in_band, 20000.0) : in_band);
+  for (int order = 1; order <= max_order; ++order) {
+    double f = std::fmod(order * f0, fs);
+    if (f > 0.5 * fs) f = fs - f;
+    const double c = f / bin_hz;
+    // A fitted harmonic is gone from the residual: only its nearest bin ±kFittedGuardBins is
+    // guarded, so 3 Hz AM sidebands of a fitted tone in a 1 s record stay visible (issue 12).
+    // Not when folded harmonics are expected: orders beyond max_order land anywhere, and the
+    // wider guards hide some of them as before.
+    const bool fitted = !folded && order <= fitted_harmonics && order * f0 < 0.5 * fs;
+    const long lo = fitted ? std::lround(c) - kFittedGuardBins : static_cast<long>(std::floor(c - kHarmonicGuardBins));
+    const long hi = fitted ? std::lround(c) + kFittedGuardBins : static_cast<long>(std::ceil(c + kHarmonicGuardBins));
+    for (long k = std::max(0L, lo); k <= hi && k < static_cast<long>(bins); ++k) excluded[static_cast<std::size_t>(k)] = 1;
+  }
+  return excluded;
+}
+
+/// Local floor of each block of kFloorBlock bins: the median of its non-excluded bins / ln 2
+/// (0 where too few remain).
+std::vector<double> block_floors(const std::vector<double>& p, const std::vector<char>& excluded) {
+  const std::size_t blocks = (p.size() + kFloorBlock - 1) / kFloorBlock;
+  std::vector<double> floor_of(blocks, 0.0);
+  std::vector<double> tmp;
+  for (std::size_t b = 0; b < blocks; ++b) {
+    tmp.clear();
+    // Blocks are widened to three so the floor at a block's edge is not a handful of bins.
+    const std::size_t lo = b > 0 ? (b - 1) * kFloorBlock : 0;
+    const std::size_t hi = std::min(p.size(), (b + 2) * kFloorBlock);
+    for (std::size_t k = lo; k < hi; ++k)
+      if (!excluded[k]) tmp.push_back(p[k]);
+    if (tmp.size() < kFloorBlock / 2) continue;
+    std::nth_element(tmp.begin(), tmp.begin() + static_cast<long>(tmp.size() / 2), tmp.end());
+    floor_of[b] = tmp[tmp.size() / 2] / std::numbers::ln2;
+  }
+  return floor_of;
+}
+
 }  // namespace
 
 ResidualLines find_residual_lines(std::span<const double> residual, double fs, double f0, bool folded,
@@ -46,44 +95,8 @@ ResidualLines find_residual_lines(std::span<const double> residual, double fs, d
   std::vector<double> p(spec.size());
   for (std::size_t k = 0; k < p.size(); ++k) p[k] = std::norm(spec[k]);
   const double bin_hz = fs / static_cast<double>(n);
-  std::vector<char> excluded(p.size(), 0);
-  for (std::size_t k = 0; k < p.size() && k < static_cast<std::size_t>(kLowBins); ++k) excluded[k] = 1;
-  excluded[p.size() - 1] = 1;
-  // Harmonics above fs/2 fold back to |n·f0 − j·fs| (aliasing, and the harmonics of a
-  // quantiser's error): they are the signal's, not interference. Orders up to the point where the
-  // guards would cover kFoldedShare of the spectrum are excluded (folded orders land nearly
-  // uniformly, so that is also the chance that a given interferer is hidden by one).
-  const double guard_share = (2.0 * kHarmonicGuardBins + 1) / static_cast<double>(p.size());
-  const double in_band = std::floor(0.5 * fs / f0);
-  const int max_order = static_cast<int>(folded ? std::clamp(kFoldedShare / guard_share, in_band, 20000.0) : in_band);
-  for (int order = 1; order <= max_order; ++order) {
-    double f = std::fmod(order * f0, fs);
-    if (f > 0.5 * fs) f = fs - f;
-    const double c = f / bin_hz;
-    // A fitted harmonic is gone from the residual: only its nearest bin ±kFittedGuardBins is
-    // guarded, so 3 Hz AM sidebands of a fitted tone in a 1 s record stay visible (issue 12).
-    // Not when folded harmonics are expected: orders beyond max_order land anywhere, and the
-    // wider guards hide some of them as before.
-    const bool fitted = !folded && order <= fitted_harmonics && order * f0 < 0.5 * fs;
-    const long lo = fitted ? std::lround(c) - kFittedGuardBins : static_cast<long>(std::floor(c - kHarmonicGuardBins));
-    const long hi = fitted ? std::lround(c) + kFittedGuardBins : static_cast<long>(std::ceil(c + kHarmonicGuardBins));
-    for (long k = std::max(0L, lo); k <= hi && k < static_cast<long>(p.size()); ++k) excluded[static_cast<std::size_t>(k)] = 1;
-  }
-  // Local floor: median of each block's non-excluded bins / ln 2.
-  const std::size_t blocks = (p.size() + kFloorBlock - 1) / kFloorBlock;
-  std::vector<double> floor_of(blocks, 0.0);
-  std::vector<double> tmp;
-  for (std::size_t b = 0; b < blocks; ++b) {
-    tmp.clear();
-    // Blocks are widened to three so the floor at a block's edge is not a handful of bins.
-    const std::size_t lo = b > 0 ? (b - 1) * kFloorBlock : 0;
-    const std::size_t hi = std::min(p.size(), (b + 2) * kFloorBlock);
-    for (std::size_t k = lo; k < hi; ++k)
-      if (!excluded[k]) tmp.push_back(p[k]);
-    if (tmp.size() < kFloorBlock / 2) continue;
-    std::nth_element(tmp.begin(), tmp.begin() + static_cast<long>(tmp.size() / 2), tmp.end());
-    floor_of[b] = tmp[tmp.size() / 2] / std::numbers::ln2;
-  }
+  const std::vector<char> excluded = excluded_bins(p.size(), bin_hz, fs, f0, folded, fitted_harmonics);
+  const std::vector<double> floor_of = block_floors(p, excluded);
   int examined = 0;
   for (std::size_t k = 1; k + 1 < p.size(); ++k)
     if (!excluded[k] && floor_of[k / kFloorBlock] > 0) ++examined;

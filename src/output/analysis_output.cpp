@@ -61,6 +61,95 @@ std::string harmonic_selection_text(const dsp::HarmonicSelection& s) {
   return out;
 }
 
+namespace {
+
+/// "fit": the f0 fit behind the harmonics.
+nlohmann::ordered_json fit_json(const ChannelAnalysis& c) {
+  nlohmann::ordered_json fit;
+  fit["harmonics"] = c.fundamental.harmonics_fitted;
+  fit["dof"] = c.fundamental.dof;
+  fit["residual_rms"] = json_number(c.fundamental.residual_rms);
+  fit["iterations"] = c.fundamental.iterations;
+  fit["converged"] = c.fundamental.converged;
+  fit["condition"] = json_number(c.fundamental.condition);
+  fit["f0_u_noise_factor"] = json_number(c.f0_u_noise_factor);
+  return fit;
+}
+
+/// "drift": the halves' f0 (null when the record is under 4 periods).
+nlohmann::ordered_json drift_json(const ChannelAnalysis& c) {
+  nlohmann::ordered_json drift;
+  const bool checked = c.f0_first_half_hz > 0;
+  drift["checked"] = checked;
+  drift["f0_first_half_hz"] = checked ? json_number(c.f0_first_half_hz) : nullptr;
+  drift["f0_second_half_hz"] = checked ? json_number(c.f0_second_half_hz) : nullptr;
+  drift["sigmas"] = checked ? json_number(c.drift_sigmas) : nullptr;
+  return drift;
+}
+
+/// "baseline": the Legendre trend under the signal.
+nlohmann::ordered_json baseline_json(const ChannelAnalysis& c, double a1) {
+  nlohmann::ordered_json baseline;
+  baseline["method"] = "legendre-2";
+  baseline["significant"] = c.baseline.significant;
+  baseline["modelled"] = c.baseline_modelled;
+  baseline["peak_to_peak"] = json_number(c.baseline.peak_to_peak);
+  baseline["peak_to_peak_dbc"] = a1 > 0 && c.baseline.peak_to_peak > 0
+                                     ? json_number(20 * std::log10(c.baseline.peak_to_peak / a1))
+                                     : nlohmann::ordered_json(nullptr);
+  baseline["c1"] = json_number(c.baseline.c1);
+  baseline["c2"] = json_number(c.baseline.c2);
+  baseline["z1"] = json_number(c.baseline.z1);
+  baseline["z2"] = json_number(c.baseline.z2);
+  return baseline;
+}
+
+/// "residual_lines": lines beside the harmonics.
+nlohmann::ordered_json residual_lines_json(const ChannelAnalysis& c, double a1) {
+  nlohmann::ordered_json lines;
+  lines["threshold_db"] = json_number(c.residual_lines.threshold_db);
+  lines["bins_examined"] = c.residual_lines.bins_examined;
+  lines["explained_share"] = json_number(c.explained_share);
+  nlohmann::ordered_json list = nlohmann::ordered_json::array();
+  for (const auto& l : c.residual_lines.lines) {
+    nlohmann::ordered_json row;
+    row["freq_hz"] = json_number(l.freq_hz);
+    row["amplitude"] = json_number(l.amplitude);
+    row["level_dbc"] = a1 > 0 ? json_number(20 * std::log10(l.amplitude / a1)) : nlohmann::ordered_json(nullptr);
+    row["over_floor_db"] = json_number(l.over_floor_db);
+    list.push_back(row);
+  }
+  lines["lines"] = list;
+  return lines;
+}
+
+/// "harmonics": n = 1…H with uncertainties and covariance.
+nlohmann::ordered_json harmonics_json(const ChannelAnalysis& c) {
+  nlohmann::ordered_json harmonics = nlohmann::ordered_json::array();
+  for (const auto& h : c.harmonics) {
+    nlohmann::ordered_json row;
+    row["n"] = h.n;
+    row["freq_hz"] = json_number(h.freq_hz);
+    row["amplitude"] = json_number(h.amplitude);
+    row["amplitude_u"] = json_number(h.amplitude_u);
+    row["phase_deg"] = json_number(h.phase_deg);
+    row["phase_u_deg"] = json_number(h.phase_u_deg);
+    row["significant"] = h.significant;
+    row["amplitude_lo"] = json_number(h.amplitude_lo);
+    row["amplitude_hi"] = json_number(h.amplitude_hi);
+    row["phase_defined"] = h.phase_defined;
+    row["phase_note"] = h.phase_defined ? nlohmann::ordered_json(nullptr)
+                                        : nlohmann::ordered_json("undefined: amplitude consistent with 0 at 95 %");
+    row["cov_re_re"] = json_number(h.cov_re_re);
+    row["cov_im_im"] = json_number(h.cov_im_im);
+    row["cov_re_im"] = json_number(h.cov_re_im);
+    harmonics.push_back(row);
+  }
+  return harmonics;
+}
+
+}  // namespace
+
 nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   nlohmann::ordered_json j;
   j["name"] = c.name;
@@ -99,52 +188,13 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   j["quantisation_step"] = c.quantisation_step > 0 ? json_number(c.quantisation_step) : nlohmann::ordered_json(nullptr);
   j["f0_free_hz"] = c.f0_free_hz > 0 ? json_number(c.f0_free_hz) : nlohmann::ordered_json(nullptr);
   j["f0_free_u_hz"] = c.f0_free_hz > 0 ? json_number(c.f0_free_u_hz) : nlohmann::ordered_json(nullptr);
-  nlohmann::ordered_json fit;
-  fit["harmonics"] = c.fundamental.harmonics_fitted;
-  fit["dof"] = c.fundamental.dof;
-  fit["residual_rms"] = json_number(c.fundamental.residual_rms);
-  fit["iterations"] = c.fundamental.iterations;
-  fit["converged"] = c.fundamental.converged;
-  fit["condition"] = json_number(c.fundamental.condition);
-  fit["f0_u_noise_factor"] = json_number(c.f0_u_noise_factor);
-  j["fit"] = fit;
+  j["fit"] = fit_json(c);
   j["harmonic_selection"] = harmonic_selection_json(c.selection);
-  nlohmann::ordered_json drift;
-  const bool checked = c.f0_first_half_hz > 0;
-  drift["checked"] = checked;
-  drift["f0_first_half_hz"] = checked ? json_number(c.f0_first_half_hz) : nullptr;
-  drift["f0_second_half_hz"] = checked ? json_number(c.f0_second_half_hz) : nullptr;
-  drift["sigmas"] = checked ? json_number(c.drift_sigmas) : nullptr;
-  j["drift"] = drift;
-  nlohmann::ordered_json baseline;
-  baseline["method"] = "legendre-2";
-  baseline["significant"] = c.baseline.significant;
-  baseline["modelled"] = c.baseline_modelled;
-  baseline["peak_to_peak"] = json_number(c.baseline.peak_to_peak);
+  j["drift"] = drift_json(c);
+  // Levels relative to the fundamental (dBc) are null without one.
   const double a1 = c.harmonics.empty() ? 0 : c.harmonics.front().amplitude;
-  baseline["peak_to_peak_dbc"] = a1 > 0 && c.baseline.peak_to_peak > 0
-                                     ? json_number(20 * std::log10(c.baseline.peak_to_peak / a1))
-                                     : nlohmann::ordered_json(nullptr);
-  baseline["c1"] = json_number(c.baseline.c1);
-  baseline["c2"] = json_number(c.baseline.c2);
-  baseline["z1"] = json_number(c.baseline.z1);
-  baseline["z2"] = json_number(c.baseline.z2);
-  j["baseline"] = baseline;
-  nlohmann::ordered_json lines;
-  lines["threshold_db"] = json_number(c.residual_lines.threshold_db);
-  lines["bins_examined"] = c.residual_lines.bins_examined;
-  lines["explained_share"] = json_number(c.explained_share);
-  nlohmann::ordered_json list = nlohmann::ordered_json::array();
-  for (const auto& l : c.residual_lines.lines) {
-    nlohmann::ordered_json row;
-    row["freq_hz"] = json_number(l.freq_hz);
-    row["amplitude"] = json_number(l.amplitude);
-    row["level_dbc"] = a1 > 0 ? json_number(20 * std::log10(l.amplitude / a1)) : nlohmann::ordered_json(nullptr);
-    row["over_floor_db"] = json_number(l.over_floor_db);
-    list.push_back(row);
-  }
-  lines["lines"] = list;
-  j["residual_lines"] = lines;
+  j["baseline"] = baseline_json(c, a1);
+  j["residual_lines"] = residual_lines_json(c, a1);
   nlohmann::ordered_json flags = nlohmann::ordered_json::array();
   nlohmann::ordered_json warnings = nlohmann::ordered_json::array();
   for (const auto& f : c.flags) {
@@ -153,27 +203,7 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   }
   j["flags"] = flags;
   j["warnings"] = warnings;
-  nlohmann::ordered_json harmonics = nlohmann::ordered_json::array();
-  for (const auto& h : c.harmonics) {
-    nlohmann::ordered_json row;
-    row["n"] = h.n;
-    row["freq_hz"] = json_number(h.freq_hz);
-    row["amplitude"] = json_number(h.amplitude);
-    row["amplitude_u"] = json_number(h.amplitude_u);
-    row["phase_deg"] = json_number(h.phase_deg);
-    row["phase_u_deg"] = json_number(h.phase_u_deg);
-    row["significant"] = h.significant;
-    row["amplitude_lo"] = json_number(h.amplitude_lo);
-    row["amplitude_hi"] = json_number(h.amplitude_hi);
-    row["phase_defined"] = h.phase_defined;
-    row["phase_note"] = h.phase_defined ? nlohmann::ordered_json(nullptr)
-                                        : nlohmann::ordered_json("undefined: amplitude consistent with 0 at 95 %");
-    row["cov_re_re"] = json_number(h.cov_re_re);
-    row["cov_im_im"] = json_number(h.cov_im_im);
-    row["cov_re_im"] = json_number(h.cov_re_im);
-    harmonics.push_back(row);
-  }
-  j["harmonics"] = harmonics;
+  j["harmonics"] = harmonics_json(c);
   return j;
 }
 
