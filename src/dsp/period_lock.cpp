@@ -341,10 +341,14 @@ double log_parabola_offset(double a, double b, double c) {
   return std::clamp(0.5 * (la - lc) / den, -0.5, 0.5);
 }
 
-/// `off_comb` (when given) is set when a significant spectral line is not a harmonic of the
-/// returned frequency: evidence of a longer period than the comb could reach.
-double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bool* off_comb = nullptr) {
-  if (off_comb) *off_comb = false;
+/// The Hann-windowed power spectrum of a record, zero-padded for the coarse search.
+struct PaddedSpectrum {
+  std::vector<double> p;   ///< |X_k|², k = 0…nfft/2
+  double bin_hz = 0;       ///< fs / nfft
+  double record_bin = 0;   ///< padded bins per record bin
+};
+
+PaddedSpectrum hann_power_spectrum(std::span<const double> x, double fs) {
   const std::size_t n = x.size();
   const int pad = n <= 65536 ? 8 : (n <= (std::size_t{1} << 20) ? 2 : 1);
   const int nfft = fft_friendly_size(static_cast<int>(n) * pad);
@@ -361,47 +365,35 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
   for (std::size_t k = 0; k < n; ++k) buf[k] = w[k] * (x[k] - mean);
   std::vector<std::complex<double>> spec(static_cast<std::size_t>(nfft / 2 + 1));
   real_dft(buf, spec);
-  std::vector<double> p(spec.size());
-  for (std::size_t k = 0; k < spec.size(); ++k) p[k] = std::norm(spec[k]);
-  const double bin_hz = fs / nfft;
-  const double record_bin = static_cast<double>(nfft) / static_cast<double>(n);  // padded bins per record bin
-  std::size_t kmin = static_cast<std::size_t>(std::ceil(0.7 * record_bin));  // ≥ 0.7 periods
-  std::size_t kmax = p.size() - 2;
-  if (hint_hz > 0) {
-    kmin = std::max<std::size_t>(kmin, static_cast<std::size_t>(std::floor(hint_hz / 1.2 / bin_hz)));
-    kmax = std::min<std::size_t>(kmax, static_cast<std::size_t>(std::ceil(hint_hz * 1.2 / bin_hz)));
-  }
-  kmin = std::max<std::size_t>(kmin, 1);
-  if (kmin > kmax)
-    throw AnalysisError("cannot search for f0: the record (" + std::to_string(n) +
-                        " samples) is too short for the frequency range asked for");
-  auto peak_in = [&](std::size_t lo, std::size_t hi) {
-    std::size_t best = lo;
-    for (std::size_t k = lo; k <= hi; ++k)
-      if (p[k] > p[best]) best = k;
-    return best;
-  };
-  auto refine = [&](std::size_t k) {
-    return (static_cast<double>(k) + log_parabola_offset(p[k - 1], p[k], p[k + 1])) * bin_hz;
-  };
-  const std::size_t kp = peak_in(kmin, kmax);
-  double f = refine(kp);
-  if (hint_hz > 0) return f;
-  // Harmonic comb: the fundamental is the largest f_peak/m of which every significant
-  // spectral peak is a harmonic. This finds a fundamental weaker than its 2nd harmonic
-  // (full-wave rectifier with unequal halves) and that of a multisine whose strongest line
-  // is any harmonic. Significant: a local maximum within −50 dB of the strongest, 25× above
-  // the median level (noise), and 20 dB above the Hann sidelobe envelope
-  // |W(d)|/|W(0)| ≈ 1/(π·d·(d²−1)) of every stronger peak d record bins away (Harris 1978),
-  // so a short record's sidelobes do not pass for lines.
+  PaddedSpectrum s;
+  s.p.resize(spec.size());
+  for (std::size_t k = 0; k < spec.size(); ++k) s.p[k] = std::norm(spec[k]);
+  s.bin_hz = fs / nfft;
+  s.record_bin = static_cast<double>(nfft) / static_cast<double>(n);
+  return s;
+}
+
+/// Frequency of the peak at bin k, interpolated (log_parabola_offset).
+double refined_hz(const PaddedSpectrum& s, std::size_t k) {
+  return (static_cast<double>(k) + log_parabola_offset(s.p[k - 1], s.p[k], s.p[k + 1])) * s.bin_hz;
+}
+
+struct Peak {
+  double f;
+  double power;
+};
+
+/// The significant spectral lines between bins kmin and kmax, strongest first: a local maximum
+/// within −50 dB of the strongest (bin kp), 25× above the median level (noise), and 20 dB above
+/// the Hann sidelobe envelope |W(d)|/|W(0)| ≈ 1/(π·d·(d²−1)) of every stronger peak d record
+/// bins away (Harris 1978), so a short record's sidelobes do not pass for lines.
+std::vector<Peak> spectral_lines(const PaddedSpectrum& s, std::size_t kmin, std::size_t kmax, std::size_t kp,
+                                 std::size_t n, double fs) {
+  const std::vector<double>& p = s.p;
   std::vector<double> sorted(p.begin() + static_cast<long>(kmin), p.begin() + static_cast<long>(kmax) + 1);
   std::nth_element(sorted.begin(), sorted.begin() + static_cast<long>(sorted.size() / 2), sorted.end());
   const double median = sorted[sorted.size() / 2];
   const double level = std::max(1e-5 * p[kp], 25 * median);
-  struct Peak {
-    double f;
-    double power;
-  };
   std::vector<Peak> candidates;
   // Local noise floor (issue 12: under 1/f or low-pass noise the noise hump's maxima passed the
   // record-wide median test and formed a comb at f0/4 … f0/20): a line must also stand
@@ -411,8 +403,8 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
   // maximum passing anywhere in a noise-only record is about 0.01 (Bonferroni).
   const double t_local = std::max(25.0, std::log(0.5 * static_cast<double>(n) / 0.01) / std::log(2.0));
   const auto local_floor = [&](std::size_t k) {
-    const auto half = static_cast<std::size_t>(std::ceil(kLocalFloorBins * record_bin));
-    const auto guard = static_cast<std::size_t>(std::ceil(kLocalGuardBins * record_bin));
+    const auto half = static_cast<std::size_t>(std::ceil(kLocalFloorBins * s.record_bin));
+    const auto guard = static_cast<std::size_t>(std::ceil(kLocalGuardBins * s.record_bin));
     std::vector<double> near;
     const std::size_t lo = k > half ? k - half : 1, hi = std::min(p.size() - 1, k + half);
     for (std::size_t j = lo; j <= hi; ++j)
@@ -423,12 +415,9 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
   };
   for (std::size_t k = std::max<std::size_t>(kmin, 1); k <= kmax; ++k)
     if (p[k] > level && p[k] > p[k - 1] && p[k] >= p[k + 1] && p[k] > t_local * local_floor(k))
-      candidates.push_back({refine(k), p[k]});
+      candidates.push_back({refined_hz(s, k), p[k]});
   std::sort(candidates.begin(), candidates.end(), [](const Peak& l, const Peak& r) { return l.power > r.power; });
   if (candidates.size() > 400) candidates.resize(400);
-  // The strongest bin may be the top of a coloured-noise hump: the strongest line that stands
-  // out of its local floor is the one to start from.
-  if (!candidates.empty()) f = candidates.front().f;
   const double record_bin_hz = fs / static_cast<double>(n);
   std::vector<Peak> lines;
   for (const auto& c : candidates) {
@@ -443,6 +432,14 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
     }
     if (!sidelobe) lines.push_back(c);
   }
+  return lines;
+}
+
+/// Harmonic comb: the fundamental is the largest f/m of which every line is a harmonic. This finds
+/// a fundamental weaker than its 2nd harmonic (full-wave rectifier with unequal halves) and that
+/// of a multisine whose strongest line is any harmonic. `off_comb` as coarse_frequency's.
+double comb_fundamental(const std::vector<Peak>& lines, double f, std::size_t n, double fs, bool* off_comb) {
+  const double record_bin_hz = fs / static_cast<double>(n);
   const auto on_comb = [&](double fc, double fc_err) {
     for (const auto& l : lines) {
       const double j = std::round(l.f / fc);
@@ -485,6 +482,34 @@ double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bo
     }
   }
   return f;
+}
+
+/// `off_comb` (when given) is set when a significant spectral line is not a harmonic of the
+/// returned frequency: evidence of a longer period than the comb could reach.
+double coarse_frequency(std::span<const double> x, double fs, double hint_hz, bool* off_comb = nullptr) {
+  if (off_comb) *off_comb = false;
+  const std::size_t n = x.size();
+  const PaddedSpectrum s = hann_power_spectrum(x, fs);
+  std::size_t kmin = static_cast<std::size_t>(std::ceil(0.7 * s.record_bin));  // ≥ 0.7 periods
+  std::size_t kmax = s.p.size() - 2;
+  if (hint_hz > 0) {
+    kmin = std::max<std::size_t>(kmin, static_cast<std::size_t>(std::floor(hint_hz / 1.2 / s.bin_hz)));
+    kmax = std::min<std::size_t>(kmax, static_cast<std::size_t>(std::ceil(hint_hz * 1.2 / s.bin_hz)));
+  }
+  kmin = std::max<std::size_t>(kmin, 1);
+  if (kmin > kmax)
+    throw AnalysisError("cannot search for f0: the record (" + std::to_string(n) +
+                        " samples) is too short for the frequency range asked for");
+  std::size_t kp = kmin;
+  for (std::size_t k = kmin; k <= kmax; ++k)
+    if (s.p[k] > s.p[kp]) kp = k;
+  double f = refined_hz(s, kp);
+  if (hint_hz > 0) return f;
+  const std::vector<Peak> lines = spectral_lines(s, kmin, kmax, kp, n, fs);
+  // The strongest bin may be the top of a coloured-noise hump: the strongest line that stands
+  // out of its local floor is the one to start from.
+  if (!lines.empty()) f = lines.front().f;
+  return comb_fundamental(lines, f, n, fs, off_comb);
 }
 
 void check_samples(std::span<const double> x) {
@@ -631,6 +656,157 @@ HarmonicFit make_fit(const Evaluation& e, std::span<const double> x, double fs, 
   return fit;
 }
 
+/// With a forced f0: the linear least squares at that f0, no search.
+HarmonicFit forced_fit(const SineFitter& fitter, std::span<const double> x, double fs, double t0,
+                       const LockOptions& opt) {
+  const std::size_t n = x.size();
+  if (opt.f0_hz >= 0.5 * fs)
+    throw AnalysisError("f0 = " + str(opt.f0_hz) + " Hz is not below fs/2 = " + str(0.5 * fs) + " Hz");
+  const int h = choose_harmonics(opt, fs, opt.f0_hz, n);
+  const double nu = kTwoPi * opt.f0_hz / fs;
+  Evaluation e = fitter.evaluate(nu, h, false, true);
+  if (!e.ok) throw AnalysisError("the harmonic fit at f0 = " + str(opt.f0_hz) + " Hz is singular");
+  HarmonicFit fit = make_fit(e, x, fs, t0, h, true);
+  fit.fundamental.f0_hz = opt.f0_hz;
+  fit.fundamental.method = "forced";
+  fit.fundamental.converged = true;
+  fit.fundamental.harmonics_fitted = h;
+  fit.fundamental.condition = e.condition;
+  fit.fundamental.dof = static_cast<int>(n) - (2 * h + 1);
+  fit.residual.resize(n);
+  fit.residual_ss = residual_pass(x.data(), n, nu, h, fit.a.data(), fit.b.data(), fit.residual.data());
+  fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
+  fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
+  return fit;
+}
+
+/// Where the search starts, in Hz: the given start, else the coarse spectral estimate. A long
+/// record is first located on a prefix (cheap) with a 3-harmonic fit, whose f0 is then well
+/// inside the full record's capture range; the whole record is searched when the prefix holds too
+/// few periods. `off_comb` as coarse_frequency's.
+double start_frequency(std::span<const double> x, double fs, const LockOptions& opt, bool given_start,
+                       bool& off_comb) {
+  if (given_start) return opt.f0_start_hz;
+  if (x.size() <= 2 * kPrefixSamples) return coarse_frequency(x, fs, opt.f0_hint_hz, &off_comb);
+  double f = 0;
+  const auto prefix = x.first(kPrefixSamples);
+  try {
+    const double fp = coarse_frequency(prefix, fs, opt.f0_hint_hz, &off_comb);
+    if (fp * static_cast<double>(kPrefixSamples) / fs >= kShortRecordPeriods) {
+      const SineFitter pf(prefix);
+      const int hp = std::max(1, std::min(3, harmonic_limit(fs, fp, 0.49)));
+      const GaussNewton gp = gauss_newton(pf, kTwoPi * fp / fs, hp, opt,
+                                          0.25 * kTwoPi / static_cast<double>(kPrefixSamples), false);
+      if (gp.last.ok) f = gp.last.nu * fs / kTwoPi;
+    }
+  } catch (const AnalysisError&) {
+    f = 0;
+  }
+  if (f <= 0) f = coarse_frequency(x, fs, opt.f0_hint_hz, &off_comb);
+  return f;
+}
+
+/// Short records: grid search of the h_search-harmonic criterion, ±0.6 record bins around nu.
+double grid_search(const SineFitter& fitter, double nu, int h_search, double record_bin_nu) {
+  double best_nu = nu, best = -1;
+  for (int i = -30; i <= 30; ++i) {
+    const double cand = nu + i * 0.02 * record_bin_nu;
+    if (cand < 0.7 * record_bin_nu) continue;
+    if (h_search * cand >= kPi) continue;
+    const Evaluation e = fitter.evaluate(cand, h_search, false, false);
+    if (e.ok && e.projection > best) {
+      best = e.projection;
+      best_nu = cand;
+    }
+  }
+  return best_nu;
+}
+
+/// The Gauss–Newton stages of fit_harmonics: where they are (nu), the last one's result, the
+/// final H and the iterations spent.
+struct Stages {
+  double nu = 0;
+  GaussNewton g;
+  int h_final = 0;
+  int iterations = 0;
+  bool given_start = false;
+  bool long_record = false;  ///< skips the middle stages
+};
+
+/// Stages of increasing H: each stage's f0 lies within the next one's capture range (about
+/// ±0.5/H record bins). `all_stages` false runs the final stage only.
+void refine_stages(Stages& s, const SineFitter& fitter, const LockOptions& opt, double fs, bool all_stages) {
+  const std::size_t n = fitter.size();
+  const double record_bin_nu = kTwoPi / static_cast<double>(n);  // one DFT bin in rad/sample
+  for (int stage : {3, 10, 30, 0}) {
+    const double f_now = s.nu * fs / kTwoPi;
+    s.h_final = choose_harmonics(opt, fs, f_now, n);
+    const int h = stage == 0 ? s.h_final : std::min(stage, s.h_final);
+    if (stage != 0 && (h == s.h_final || !all_stages)) continue;  // this stage is the final one: skip
+    if (s.long_record && (stage == 10 || stage == 30)) continue;
+    // A given start is already within the final stage's capture range (±0.5/H bins): it is
+    // the converged f0 of a fit of the same record (lock_channel, the baseline refit).
+    if (s.given_start && stage != 0) continue;
+    const double max_step = 0.25 * record_bin_nu;
+    s.g = gauss_newton(fitter, s.nu, h, opt, max_step, stage == 0);
+    s.iterations += s.g.iterations;
+    if (!s.g.last.ok) throw AnalysisError("the harmonic fit near f0 = " + str(f_now) + " Hz is singular");
+    s.nu = s.g.last.nu;
+  }
+}
+
+/// The fit at the converged ν: linear parameters, residual, σ² and u(f0).
+HarmonicFit estimated_fit(const Stages& s, std::span<const double> x, double fs, double t0) {
+  const std::size_t n = x.size();
+  const Evaluation& e = s.g.last;
+  HarmonicFit fit = make_fit(e, x, fs, t0, static_cast<int>(e.a.size()) - 1, false);
+  const int hf = fit.harmonics();
+  fit.fundamental.f0_hz = e.nu * fs / kTwoPi;
+  fit.fundamental.method = "sine-fit";
+  fit.fundamental.iterations = s.iterations;
+  fit.fundamental.converged = s.g.converged;
+  fit.fundamental.harmonics_fitted = hf;
+  fit.fundamental.condition = e.condition;
+  fit.fundamental.dof = static_cast<int>(n) - (2 * hf + 2);
+  fit.residual.resize(n);
+  fit.residual_ss = residual_pass(x.data(), n, e.nu, hf, fit.a.data(), fit.b.data(), fit.residual.data());
+  fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
+  fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
+  fit.fundamental.f0_u_hz = e.schur > 0 ? std::sqrt(fit.sigma2 / e.schur) * fs / kTwoPi : 0;
+  return fit;
+}
+
+/// Does the fundamental stand out of the noise? Under noise alone A1²/(σ²·(u_aa+u_bb)/2) is
+/// χ²(2)-distributed; the threshold allows for the search over ~N candidate frequencies
+/// (false-alarm probability ≈ e^{-10}).
+/// The strongest harmonic decides (a multisine need not contain its fundamental); the
+/// threshold also allows for taking the best of H. Throws AnalysisError when it does not.
+void require_periodic_component(const HarmonicFit& fit) {
+  const int hf = fit.harmonics();
+  std::size_t best = 1;
+  double best_z2 = -1;
+  for (std::size_t m = 1; m <= static_cast<std::size_t>(hf); ++m) {
+    const double amp2 = fit.a[m] * fit.a[m] + fit.b[m] * fit.b[m];
+    const double var = fit.sigma2 * 0.5 * (fit.unit_cov[m][0] + fit.unit_cov[m][1]);
+    const double z2 = var > 0 ? amp2 / var : (amp2 > 0 ? std::numeric_limits<double>::infinity() : 0);
+    if (z2 > best_z2) {
+      best_z2 = z2;
+      best = m;
+    }
+  }
+  const double a1sq = fit.a[best] * fit.a[best] + fit.b[best] * fit.b[best];
+  const double var1 = fit.sigma2 * 0.5 * (fit.unit_cov[best][0] + fit.unit_cov[best][1]);
+  const double threshold =
+      2 * std::log(static_cast<double>(fit.samples)) + 2 * std::log(static_cast<double>(hf)) + 20;
+  if (a1sq == 0 || (var1 > 0 && a1sq / var1 < threshold)) {
+    const double z = var1 > 0 ? std::sqrt(a1sq / var1) : 0;
+    throw AnalysisError("no periodic component stands out of the noise: the strongest candidate, " +
+                        format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
+                        format_significant(z, 3) + " standard uncertainties (needs " +
+                        format_significant(std::sqrt(threshold), 3) + ")");
+  }
+}
+
 }  // namespace
 
 bool internal::force_kernel_for_testing(const std::string& name) {
@@ -703,153 +879,32 @@ HarmonicFit fit_harmonics(std::span<const double> x, double fs, double t0, const
                         " samples; at least 8 are needed to find a fundamental");
   check_samples(x);
   const SineFitter fitter(x);
+  if (opt.f0_hz > 0) return forced_fit(fitter, x, fs, t0, opt);
   const auto [mn, mx] = std::minmax_element(x.begin(), x.end());
-  const bool constant = *mn == *mx;
-
-  if (opt.f0_hz > 0) {
-    if (opt.f0_hz >= 0.5 * fs)
-      throw AnalysisError("f0 = " + str(opt.f0_hz) + " Hz is not below fs/2 = " + str(0.5 * fs) + " Hz");
-    const int h = choose_harmonics(opt, fs, opt.f0_hz, n);
-    const double nu = kTwoPi * opt.f0_hz / fs;
-    Evaluation e = fitter.evaluate(nu, h, false, true);
-    if (!e.ok) throw AnalysisError("the harmonic fit at f0 = " + str(opt.f0_hz) + " Hz is singular");
-    HarmonicFit fit = make_fit(e, x, fs, t0, h, true);
-    fit.fundamental.f0_hz = opt.f0_hz;
-    fit.fundamental.method = "forced";
-    fit.fundamental.converged = true;
-    fit.fundamental.harmonics_fitted = h;
-    fit.fundamental.condition = e.condition;
-    fit.fundamental.dof = static_cast<int>(n) - (2 * h + 1);
-    fit.residual.resize(n);
-    fit.residual_ss = residual_pass(x.data(), n, nu, h, fit.a.data(), fit.b.data(), fit.residual.data());
-    fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
-    fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
-    return fit;
-  }
-
-  if (constant) throw AnalysisError("no periodic component: every sample equals " + str(*mn) + " (dc only)");
-  const bool given_start = opt.f0_start_hz > 0 && opt.f0_start_hz < 0.5 * fs;
-  double f = 0;
+  if (*mn == *mx) throw AnalysisError("no periodic component: every sample equals " + str(*mn) + " (dc only)");
+  Stages s;
+  s.given_start = opt.f0_start_hz > 0 && opt.f0_start_hz < 0.5 * fs;
   bool off_comb = false;
-  if (given_start) {
-    f = opt.f0_start_hz;
-  } else if (n > 2 * kPrefixSamples) {
-    // Long record: the coarse search and a 3-harmonic fit run on a prefix (cheap), whose f0
-    // is then well inside the full record's capture range. Falls back to the whole record
-    // when the prefix holds too few periods.
-    const auto prefix = x.first(kPrefixSamples);
-    try {
-      const double fp = coarse_frequency(prefix, fs, opt.f0_hint_hz, &off_comb);
-      if (fp * static_cast<double>(kPrefixSamples) / fs >= kShortRecordPeriods) {
-        const SineFitter pf(prefix);
-        const int hp = std::max(1, std::min(3, harmonic_limit(fs, fp, 0.49)));
-        const GaussNewton gp = gauss_newton(pf, kTwoPi * fp / fs, hp, opt,
-                                            0.25 * kTwoPi / static_cast<double>(kPrefixSamples), false);
-        if (gp.last.ok) f = gp.last.nu * fs / kTwoPi;
-      }
-    } catch (const AnalysisError&) {
-      f = 0;
-    }
-    if (f <= 0) f = coarse_frequency(x, fs, opt.f0_hint_hz, &off_comb);
-  } else {
-    f = coarse_frequency(x, fs, opt.f0_hint_hz, &off_comb);
-  }
-  const double record_bin_nu = kTwoPi / static_cast<double>(n);  // one DFT bin in rad/sample
-  double nu = kTwoPi * f / fs;
+  const double f = start_frequency(x, fs, opt, s.given_start, off_comb);
+  s.nu = kTwoPi * f / fs;
   const int h_search = std::max(1, std::min(3, harmonic_limit(fs, f, 0.49)));
-  if (!given_start && f * static_cast<double>(n) / fs < kShortRecordPeriods) {
-    // Grid search of the h_search-harmonic criterion, ±0.6 record bins around the peak.
-    double best_nu = nu, best = -1;
-    for (int i = -30; i <= 30; ++i) {
-      const double cand = nu + i * 0.02 * record_bin_nu;
-      if (cand < 0.7 * record_bin_nu) continue;
-      if (h_search * cand >= kPi) continue;
-      const Evaluation e = fitter.evaluate(cand, h_search, false, false);
-      if (e.ok && e.projection > best) {
-        best = e.projection;
-        best_nu = cand;
-      }
-    }
-    nu = best_nu;
-  }
-  // Stages of increasing H: each stage's f0 lies within the next one's capture range
-  // (about ±0.5/H record bins).
-  int iterations = 0;
-  GaussNewton g;
-  int h_final = 0;
+  if (!s.given_start && f * static_cast<double>(n) / fs < kShortRecordPeriods)
+    s.nu = grid_search(fitter, s.nu, h_search, kTwoPi / static_cast<double>(n));
   // Long records skip the middle stages: unmodelled harmonics then bias the 3-harmonic f0 by
   // far less than the final stage's capture range.
-  const bool long_record = f * static_cast<double>(n) / fs >= kLongRecordPeriods;
-  const auto refine_stages = [&](bool all_stages) {
-    for (int stage : {3, 10, 30, 0}) {
-      const double f_now = nu * fs / kTwoPi;
-      h_final = choose_harmonics(opt, fs, f_now, n);
-      const int h = stage == 0 ? h_final : std::min(stage, h_final);
-      if (stage != 0 && (h == h_final || !all_stages)) continue;  // this stage is the final one: skip
-      if (long_record && (stage == 10 || stage == 30)) continue;
-      // A given start is already within the final stage's capture range (±0.5/H bins): it is
-      // the converged f0 of a fit of the same record (lock_channel, the baseline refit).
-      if (given_start && stage != 0) continue;
-      const double max_step = 0.25 * record_bin_nu;
-      g = gauss_newton(fitter, nu, h, opt, max_step, stage == 0);
-      iterations += g.iterations;
-      if (!g.last.ok) throw AnalysisError("the harmonic fit near f0 = " + str(f_now) + " Hz is singular");
-      nu = g.last.nu;
-    }
-  };
-  refine_stages(true);
-  if (!given_start && opt.f0_hint_hz <= 0) {
+  s.long_record = f * static_cast<double>(n) / fs >= kLongRecordPeriods;
+  refine_stages(s, fitter, opt, fs, true);
+  if (!s.given_start && opt.f0_hint_hz <= 0) {
     // The sub-multiple found here is exact to the fit's precision, so one final stage from it
     // suffices.
-    const double nu_sub = sub_multiple_fundamental(fitter, g.last, h_final, opt, fs, off_comb);
-    if (nu_sub != g.last.nu) {
-      nu = nu_sub;
-      refine_stages(false);
+    const double nu_sub = sub_multiple_fundamental(fitter, s.g.last, s.h_final, opt, fs, off_comb);
+    if (nu_sub != s.g.last.nu) {
+      s.nu = nu_sub;
+      refine_stages(s, fitter, opt, fs, false);
     }
   }
-  const Evaluation& e = g.last;
-  HarmonicFit fit = make_fit(e, x, fs, t0, static_cast<int>(e.a.size()) - 1, false);
-  const int hf = fit.harmonics();
-  fit.fundamental.f0_hz = e.nu * fs / kTwoPi;
-  fit.fundamental.method = "sine-fit";
-  fit.fundamental.iterations = iterations;
-  fit.fundamental.converged = g.converged;
-  fit.fundamental.harmonics_fitted = hf;
-  fit.fundamental.condition = e.condition;
-  fit.fundamental.dof = static_cast<int>(n) - (2 * hf + 2);
-  fit.residual.resize(n);
-  fit.residual_ss = residual_pass(x.data(), n, e.nu, hf, fit.a.data(), fit.b.data(), fit.residual.data());
-  fit.sigma2 = fit.residual_ss / fit.fundamental.dof;
-  fit.fundamental.residual_rms = std::sqrt(fit.residual_ss / static_cast<double>(n));
-  fit.fundamental.f0_u_hz = e.schur > 0 ? std::sqrt(fit.sigma2 / e.schur) * fs / kTwoPi : 0;
-
-  // Does the fundamental stand out of the noise? Under noise alone A1²/(σ²·(u_aa+u_bb)/2) is
-  // χ²(2)-distributed; the threshold allows for the search over ~N candidate frequencies
-  // (false-alarm probability ≈ e^{-10}).
-  // The strongest harmonic decides (a multisine need not contain its fundamental); the
-  // threshold also allows for taking the best of H.
-  std::size_t best = 1;
-  double best_z2 = -1;
-  for (std::size_t m = 1; m <= static_cast<std::size_t>(hf); ++m) {
-    const double amp2 = fit.a[m] * fit.a[m] + fit.b[m] * fit.b[m];
-    const double var = fit.sigma2 * 0.5 * (fit.unit_cov[m][0] + fit.unit_cov[m][1]);
-    const double z2 = var > 0 ? amp2 / var : (amp2 > 0 ? std::numeric_limits<double>::infinity() : 0);
-    if (z2 > best_z2) {
-      best_z2 = z2;
-      best = m;
-    }
-  }
-  const double a1sq = fit.a[best] * fit.a[best] + fit.b[best] * fit.b[best];
-  const double var1 = fit.sigma2 * 0.5 * (fit.unit_cov[best][0] + fit.unit_cov[best][1]);
-  const double threshold =
-      2 * std::log(static_cast<double>(n)) + 2 * std::log(static_cast<double>(hf)) + 20;
-  if (a1sq == 0 || (var1 > 0 && a1sq / var1 < threshold)) {
-    const double z = var1 > 0 ? std::sqrt(a1sq / var1) : 0;
-    throw AnalysisError("no periodic component stands out of the noise: the strongest candidate, " +
-                        format_significant(fit.fundamental.f0_hz, 6) + " Hz, has an amplitude of only " +
-                        format_significant(z, 3) + " standard uncertainties (needs " +
-                        format_significant(std::sqrt(threshold), 3) + ")");
-  }
+  HarmonicFit fit = estimated_fit(s, x, fs, t0);
+  require_periodic_component(fit);
   return fit;
 }
 
