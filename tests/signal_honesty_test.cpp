@@ -6,6 +6,7 @@
 // drift, interference or not-periodic flag).
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <numbers>
@@ -359,6 +360,65 @@ TEST_CASE("signal honesty: the interference warning quotes the hum's level in th
   CHECK_MESSAGE(message.find("(-20.0 dBc)") != std::string::npos, message);
   REQUIRE_FALSE(a.residual_lines.lines.empty());
   CHECK(a.residual_lines.lines.front().amplitude == doctest::Approx(0.3).epsilon(0.03));
+}
+
+namespace {
+
+/// The message of `flag` in `a` ("" when not raised).
+std::string flag_message(const dsp::ChannelAnalysis& a, Flag flag) {
+  for (const auto& f : a.flags)
+    if (f.flag == flag) return f.message;
+  return "";
+}
+
+/// The number quoted right after `marker` in `message` (NaN when the marker is missing).
+double quoted_after(const std::string& message, const std::string& marker) {
+  const auto at = message.find(marker);
+  if (at == std::string::npos) return std::nan("");
+  return std::stod(message.substr(at + marker.size()));
+}
+
+}  // namespace
+
+TEST_CASE("signal honesty: the clipping, baseline-drift and identical-periods warnings quote levels in the channel's unit") {
+  // 3 V signals: the analysis runs on the samples × 2^-2 (harmonics.cpp, analyze_channel) and
+  // the flags are worded after the results are scaled back, so each level is the channel's.
+  // Each quoted level is rounded to 3 or 6 significant digits; kQuoteRel covers that and the
+  // noise riding on the rails (0.3 mV of 2.7 V).
+  constexpr double kQuoteRel = 2e-3;
+  SUBCASE("clipped at ±2.7 V: the plateau's level") {
+    std::mt19937_64 rng(5);
+    std::normal_distribution<double> g(0.0, 3e-4);
+    Channel c = make_channel([](double t) { return std::clamp(3 * std::cos(2 * pi * kTone * t + 0.3), -2.7, 2.7); }, 0, 0);
+    for (double& v : c.samples)
+      if (std::abs(v) >= 2.7) v += g(rng);
+    const auto a = dsp::analyze_channel(c, kFs, 0);
+    const std::string m = flag_message(a, Flag::clipped);
+    REQUIRE_MESSAGE(!m.empty(), flag_list(a));
+    const double level = m.find("of the maximum ") != std::string::npos ? quoted_after(m, "of the maximum ")
+                                                                          : -quoted_after(m, "of the minimum ");
+    CHECK_MESSAGE(std::abs(level / 2.7 - 1) < kQuoteRel, m);  // by construction: the rail at 2.7 V
+  }
+  SUBCASE("a 150 mV ramp under a 3 V sine: the trend's peak-to-peak") {
+    const double duration = static_cast<double>(kN - 1) / kFs;
+    const Channel c = make_channel(
+        [&](double t) { return 3 * std::cos(2 * pi * kTone * t + 0.3) + 0.15 * (t / duration - 0.5); }, 1e-3, 11);
+    const auto a = dsp::analyze_channel(c, kFs, 0);
+    const std::string m = flag_message(a, Flag::baseline_drift);
+    REQUIRE_MESSAGE(!m.empty(), flag_list(a));
+    // 0.15 V by construction; the fitted trend's u is ≈ 8 µV (the 1 V test above), within the 3 digits.
+    CHECK_MESSAGE(std::abs(quoted_after(m, "drifts by ") / 0.15 - 1) < 5 * kQuoteRel, m);
+    CHECK_MESSAGE(m.find(" V peak-to-peak, -26.0 dBc") != std::string::npos, m);  // 20·log10(0.15/3)
+  }
+  SUBCASE("a coherent 3 V tone quantised in 30 mV steps: the step Δ") {
+    // 1 kHz at 48 kHz: 48 samples a period, every period the same codes.
+    const Channel c = make_channel(
+        [](double t) { return 0.03 * std::round(100 * std::cos(2 * pi * 1000 * t + 0.3)); }, 0, 0);
+    const auto a = dsp::analyze_channel(c, kFs, 0);
+    const std::string m = flag_message(a, Flag::identical_periods);
+    REQUIRE_MESSAGE(!m.empty(), flag_list(a));
+    CHECK_MESSAGE(std::abs(quoted_after(m, "the quantisation step Δ = ") / 0.03 - 1) < kQuoteRel, m);
+  }
 }
 
 TEST_CASE("signal honesty: two incommensurate tones and an amplitude-modulated tone lock the strongest tone and name the other lines") {
