@@ -117,6 +117,20 @@ std::vector<std::string> leftovers(const fs::path& report, std::size_t captures)
   return problems;
 }
 
+/// `count` one-channel captures unit_0000.csv … in `folder`: 4000 samples at 2 kHz of a
+/// two-harmonic wave near 50 Hz (about 100 periods), f0 and noise seed differing per file.
+void write_tone_captures(const fs::path& folder, std::size_t count) {
+  for (std::size_t i = 0; i < count; ++i) {
+    Signal s;
+    s.f0_hz = 50 + 0.01 * static_cast<double>(i);
+    s.amplitudes = {1.0, 0.1};
+    s.seed = static_cast<unsigned>(i + 1);
+    char name[32];
+    std::snprintf(name, sizeof name, "unit_%04zu.csv", i);
+    write_text((folder / name).string(), capture_csv(2000, {synthesize(s, 2000, 4000)}, {"v"}));
+  }
+}
+
 }  // namespace
 
 TEST_CASE("batch: SIGINT while the report folder is being written leaves no partial or temporary file") {
@@ -175,16 +189,8 @@ TEST_CASE("batch: an interrupted re-run leaves the earlier report folder exactly
   fs::create_directories(small);
   fs::create_directories(large);
   constexpr std::size_t kCaptures = 120;  // enough that the run is still writing when signalled
-  for (std::size_t i = 0; i < kCaptures; ++i) {
-    Signal s;
-    s.f0_hz = 50 + 0.01 * static_cast<double>(i);
-    s.amplitudes = {1.0, 0.1};
-    s.seed = static_cast<unsigned>(i + 1);
-    char name[32];
-    std::snprintf(name, sizeof name, "unit_%04zu.csv", i);
-    write_text((large / name).string(), capture_csv(2000, {synthesize(s, 2000, 4000)}, {"v"}));
-    if (i < 2) write_text((small / name).string(), capture_csv(2000, {synthesize(s, 2000, 4000)}, {"v"}));
-  }
+  write_tone_captures(large, kCaptures);
+  write_tone_captures(small, 2);  // the same first two captures
   const CliRun first = run_cli("batch " + small.string() + " --report " + report.string() + " --quiet");
   REQUIRE(first.exit_code == 0);
   const auto snapshot = [&] {
@@ -203,4 +209,30 @@ TEST_CASE("batch: an interrupted re-run leaves the earlier report folder exactly
     for (const auto& p : leftovers(report, 2)) FAIL_CHECK(p);
     CHECK(snapshot() == before);
   }
+}
+
+TEST_CASE("batch: a SIGHUP the run was started ignoring (nohup) stays ignored and the run finishes whole") {
+  // The interrupt handler main installs leaves an ignored signal ignored (src/cli/main.cpp), so
+  // `nohup periodfit batch …` survives the terminal closing. Dispositions set to SIG_IGN are
+  // inherited across posix_spawn (POSIX), so the test ignores SIGHUP while it starts the run.
+  if (!command_has_option("batch", "--report")) {
+    MESSAGE("SKIPPED (batch not built yet)");
+    return;
+  }
+  TempDir dir("batch_nohup");
+  const fs::path captures = dir.path / "captures", report = dir.path / "report";
+  fs::create_directories(captures);
+  constexpr std::size_t kCaptures = 40;  // enough that the run is still writing when signalled
+  write_tone_captures(captures, kCaptures);
+  struct sigaction ignore {}, previous {};
+  ignore.sa_handler = SIG_IGN;
+  sigemptyset(&ignore.sa_mask);
+  ::sigaction(SIGHUP, &ignore, &previous);
+  const Interrupted r = run_and_interrupt(captures.string(), report.string(), SIGHUP);
+  ::sigaction(SIGHUP, &previous, nullptr);
+  CHECK(r.signalled_while_writing);
+  REQUIRE_MESSAGE(WIFEXITED(r.status), "status " << r.status);
+  CHECK(WEXITSTATUS(r.status) == 0);
+  for (const auto& p : leftovers(report, kCaptures)) FAIL_CHECK(p);
+  CHECK(fs::exists(report / "summary.csv"));
 }

@@ -100,6 +100,51 @@ ModelPoint model_point(const ident::RationalModel& model, double f_hz) {
   return p;
 }
 
+// The poles of the fitted model, numbered in the fit's order (a complex pair counts once): a
+// real pole's time constant and corner frequency, a pair's natural frequency, damping and Q.
+void measure_poles(const ident::RationalFitResult& fit, double k, MeasurementSet& m) {
+  int entry = 0;
+  for (const auto& pole : fit.poles) {
+    if (!pole.is_real && pole.value.imag() < 0) continue;  // a pair counts once
+    ++entry;
+    const auto q = [&](double v, double u) {
+      return pole.uncertainty_defined ? Quantity::from_u(v, u, k) : Quantity{v};
+    };
+    const double to_hz = 1 / (2 * std::numbers::pi);
+    if (pole.is_real) {
+      m.set(measurement_key("time_constant_s", {}, {}, {}, entry),
+            q(pole.time_constant_s, pole.time_constant_u_s));
+      m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
+            q(std::abs(pole.value.real()) * to_hz, pole.re_u * to_hz));
+    } else {
+      m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
+            q(pole.natural_frequency_rad_s * to_hz, pole.natural_frequency_u_rad_s * to_hz));
+      m.set(measurement_key("damping", {}, {}, {}, entry), q(pole.damping_ratio, pole.damping_ratio_u));
+      m.set(measurement_key("q_factor", {}, {}, {}, entry), q(pole.q_factor, pole.q_factor_u));
+    }
+  }
+}
+
+// The fitted model at every frequency a limit names (freq_hz), with first-order uncertainties.
+void measure_model_at_limits(const ident::RationalFitResult& fit, const BatchConfig& config, double k,
+                             MeasurementSet& m) {
+  for (const auto& limit : config.limits) {
+    if (!limit.freq_hz) continue;
+    const ModelPoint p = model_point(fit.model, *limit.freq_hz);
+    const double mag = std::abs(p.h);
+    const double mu = k * p.mag_u;
+    m.set(measurement_key("mag", {}, {}, limit.freq_hz), Quantity::from_u(mag, p.mag_u, k));
+    Quantity db = std::isfinite(mu) ? db_quantity(mag, mag - mu, mag + mu) : Quantity{db_quantity(mag, 0, 0).value};
+    if (std::isfinite(mu) && mag > 0) {
+      db.u = 20 / std::numbers::ln10 * p.mag_u / mag;  // first-order dB of the linear u
+      db.k = k;
+    }
+    m.set(measurement_key("mag_db", {}, {}, limit.freq_hz), db);
+    m.set(measurement_key("phase_deg", {}, {}, limit.freq_hz),
+          Quantity::from_u(std::arg(p.h) * 180 / std::numbers::pi, p.phase_u_rad * 180 / std::numbers::pi, k));
+  }
+}
+
 FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config) {
   const ident::IdentifyResult r = ident::identify(capture, config.identify);
   FileAnalysis a;
@@ -131,41 +176,8 @@ FileAnalysis analyse_identify(const Capture& capture, const BatchConfig& config)
     if (fit.dof > 0 && fit.cost_expected > 0)
       m.set("model_cost_ratio", Quantity::exact(fit.cost / fit.cost_expected));
     m.set("model_adequate", Quantity::exact(fit.adequate ? 1 : 0));
-    int entry = 0;
-    for (const auto& pole : fit.poles) {
-      if (!pole.is_real && pole.value.imag() < 0) continue;  // a pair counts once
-      ++entry;
-      const auto q = [&](double v, double u) {
-        return pole.uncertainty_defined ? Quantity::from_u(v, u, k) : Quantity{v};
-      };
-      const double to_hz = 1 / (2 * std::numbers::pi);
-      if (pole.is_real) {
-        m.set(measurement_key("time_constant_s", {}, {}, {}, entry),
-              q(pole.time_constant_s, pole.time_constant_u_s));
-        m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
-              q(std::abs(pole.value.real()) * to_hz, pole.re_u * to_hz));
-      } else {
-        m.set(measurement_key("natural_frequency_hz", {}, {}, {}, entry),
-              q(pole.natural_frequency_rad_s * to_hz, pole.natural_frequency_u_rad_s * to_hz));
-        m.set(measurement_key("damping", {}, {}, {}, entry), q(pole.damping_ratio, pole.damping_ratio_u));
-        m.set(measurement_key("q_factor", {}, {}, {}, entry), q(pole.q_factor, pole.q_factor_u));
-      }
-    }
-    for (const auto& limit : config.limits) {
-      if (!limit.freq_hz) continue;
-      const ModelPoint p = model_point(fit.model, *limit.freq_hz);
-      const double mag = std::abs(p.h);
-      const double mu = k * p.mag_u;
-      m.set(measurement_key("mag", {}, {}, limit.freq_hz), Quantity::from_u(mag, p.mag_u, k));
-      Quantity db = std::isfinite(mu) ? db_quantity(mag, mag - mu, mag + mu) : Quantity{db_quantity(mag, 0, 0).value};
-      if (std::isfinite(mu) && mag > 0) {
-        db.u = 20 / std::numbers::ln10 * p.mag_u / mag;  // first-order dB of the linear u
-        db.k = k;
-      }
-      m.set(measurement_key("mag_db", {}, {}, limit.freq_hz), db);
-      m.set(measurement_key("phase_deg", {}, {}, limit.freq_hz),
-            Quantity::from_u(std::arg(p.h) * 180 / std::numbers::pi, p.phase_u_rad * 180 / std::numbers::pi, k));
-    }
+    measure_poles(fit, k, m);
+    measure_model_at_limits(fit, config, k, m);
   }
 
   add_key(a, "f0_hz", "f0", f0, "Hz");

@@ -276,37 +276,32 @@ double Limit::to_display(double si) const {
   return si / display_factor;
 }
 
-std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
-  const ResultInfo* info = find_result(limit.result);
-  if (!info)
-    return LimitProblem{"result", UnknownNameError("result", limit.result, catalogue_names()).what()};
-  const bool available = mode == AnalysisMode::analyze ? info->in_analyze : info->in_identify;
-  if (!available)
-    return LimitProblem{"result", "result \"" + limit.result + "\" is not available in " +
-                                      mode_name(mode) + " mode (it is " +
-                                      (info->in_analyze ? "an analyze" : "an frf") + " result)"};
+namespace {
+
+// The selectors a result takes (channel, harmonic, freq_hz, pole): present where needed,
+// absent where not, in range.
+std::optional<LimitProblem> check_selectors(const Limit& limit, const ResultInfo& info, AnalysisMode mode) {
   if (!limit.channel.empty() && mode == AnalysisMode::identify)
     return LimitProblem{"channel", "channel applies in analyze mode only (frf uses the "
                                    "input and output channels of [analysis])"};
-  // Selectors.
   const std::string& r = limit.result;
   const bool wants_harmonic =
-      info->selector == Selector::harmonic || info->selector == Selector::harmonic_or_frequency;
+      info.selector == Selector::harmonic || info.selector == Selector::harmonic_or_frequency;
   const bool wants_frequency =
-      info->selector == Selector::harmonic_or_frequency && mode == AnalysisMode::identify;
+      info.selector == Selector::harmonic_or_frequency && mode == AnalysisMode::identify;
   if (limit.harmonic && !wants_harmonic) return LimitProblem{"harmonic", r + " takes no harmonic"};
   if (limit.freq_hz && !wants_frequency)
     return LimitProblem{"freq_hz", mode == AnalysisMode::analyze && wants_harmonic
                                        ? r + " takes a harmonic in analyze mode; freq_hz needs "
                                              "the fitted model of frf mode"
                                        : r + " takes no freq_hz"};
-  if (limit.pole && info->selector != Selector::pole) return LimitProblem{"pole", r + " takes no pole"};
+  if (limit.pole && info.selector != Selector::pole) return LimitProblem{"pole", r + " takes no pole"};
   if (wants_frequency && limit.harmonic && limit.freq_hz)
     return LimitProblem{"freq_hz", r + " takes harmonic or freq_hz, not both"};
   if (wants_harmonic && !limit.harmonic && !limit.freq_hz)
     return LimitProblem{"", r + (wants_frequency ? " needs harmonic = N or freq_hz = F"
                                                  : " needs harmonic = N")};
-  if (info->selector == Selector::pole && !limit.pole)
+  if (info.selector == Selector::pole && !limit.pole)
     return LimitProblem{"", r + " needs pole = K (1 = the pole entry with the smallest |p|)"};
   if (limit.harmonic && *limit.harmonic < 1)
     return LimitProblem{"harmonic", "harmonic = " + std::to_string(*limit.harmonic) + " (must be >= 1)"};
@@ -315,17 +310,22 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
   if (limit.freq_hz && !(std::isfinite(*limit.freq_hz) && *limit.freq_hz > 0))
     return LimitProblem{"freq_hz", "freq_hz = " + format_limit_number(*limit.freq_hz) +
                                        " (must be a finite frequency > 0)"};
-  // Bounds written with a unit: converted to SI here (again on revalidation, from the text).
+  return std::nullopt;
+}
+
+// Bounds written with a unit: converted to SI here (again on revalidation, from the text).
+// `tolerance_db` is set for a tolerance in dB, which is applied to the nominal as a factor.
+std::optional<LimitProblem> convert_written_bounds(Limit& limit, const ResultInfo& info, bool& tolerance_db) {
+  const std::string& r = limit.result;
   limit.display_unit.clear();
   limit.display_factor = 1;
   limit.display_db = false;
   limit.unit_base.clear();
-  bool tolerance_db = false;
   for (const std::string field : {"min", "max", "nominal", "tolerance"}) {
     const auto it = limit.written.find(field);
     if (it == limit.written.end()) continue;
-    if (info->yes_no) return LimitProblem{field, r + " is a yes/no result: use expect, not " + field};
-    const auto parsed = parse_written(*info, field, it->second);
+    if (info.yes_no) return LimitProblem{field, r + " is a yes/no result: use expect, not " + field};
+    const auto parsed = parse_written(info, field, it->second);
     if (const auto* message = std::get_if<std::string>(&parsed)) return LimitProblem{field, *message};
     const Written& w = std::get<Written>(parsed);
     if (!w.scale.base.empty()) {
@@ -352,20 +352,25 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
   for (const auto& [name, value] : {std::pair{"nominal", &limit.nominal},
                                     std::pair{"tolerance", &limit.tolerance},
                                     std::pair{"min", &limit.min}, std::pair{"max", &limit.max}}) {
-    if (!*value || limit.written.count(name) || !(**value > info->bare_max)) continue;
+    if (!*value || limit.written.count(name) || !(**value > info.bare_max)) continue;
     const double v = **value;
     return LimitProblem{name, r + " " + name + " = " + format_shortest(v) + " is a ratio of " +
                                   format_shortest(v) + " (" + format_shortest(v * 100) +
                                   " %); write \"" + format_shortest(v) + " %\" or " +
                                   format_shortest(v / 100)};
   }
-  // The range.
+  return std::nullopt;
+}
+
+// The range [lo, hi] from expect, nominal ± tolerance or min/max, with the forms checked.
+std::optional<LimitProblem> settle_range(Limit& limit, const ResultInfo& info, bool tolerance_db) {
+  const std::string& r = limit.result;
   for (const auto& [name, value] : {std::pair{"nominal", &limit.nominal},
                                     std::pair{"tolerance", &limit.tolerance},
                                     std::pair{"tolerance_pct", &limit.tolerance_pct},
                                     std::pair{"min", &limit.min}, std::pair{"max", &limit.max}})
     if (!finite(*value)) return LimitProblem{name, std::string(name) + " must be a finite number"};
-  if (info->yes_no) {
+  if (info.yes_no) {
     for (const auto& [name, value] : {std::pair{"nominal", &limit.nominal},
                                       std::pair{"tolerance", &limit.tolerance},
                                       std::pair{"tolerance_pct", &limit.tolerance_pct},
@@ -420,6 +425,64 @@ std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
   return std::nullopt;
 }
 
+// An angle on the turn nearest the centre of the limit's range (or its one finite edge).
+Quantity nearest_turn(Quantity v, const Limit& limit) {
+  double centre = NAN;
+  if (std::isfinite(limit.lo) && std::isfinite(limit.hi)) centre = (limit.lo + limit.hi) / 2;
+  else if (std::isfinite(limit.lo)) centre = limit.lo + 180;
+  else if (std::isfinite(limit.hi)) centre = limit.hi - 180;
+  if (std::isfinite(centre)) {
+    const double shift = 360.0 * std::round((centre - v.value) / 360.0);
+    v.value += shift;
+    v.lo95 += shift;
+    v.hi95 += shift;
+  }
+  return v;
+}
+
+// Shown in the unit the limit was written in; the interval with its coverage factor when the
+// analysis gives one (JCGM 100 §6.2: an expanded interval states its level and k).
+std::string measured_text(const Limit& limit, const ResultInfo* info, const Quantity& v) {
+  const std::string unit = limit.display_unit.empty() ? unit_suffix(info) : " " + limit.display_unit;
+  std::string text = format_limit_number(limit.to_display(v.value)) + unit;
+  if (!v.has_interval())
+    text += " (no uncertainty known)";
+  else if (!(v.lo95 == v.value && v.hi95 == v.value))
+    text += " (95 %: " + format_limit_number(limit.to_display(v.lo95)) + " \xE2\x80\xA6 " +
+            format_limit_number(limit.to_display(v.hi95)) +
+            (std::isfinite(v.k) ? ", k = " + format_significant(v.k, 3) : std::string()) + ")";
+  return text;
+}
+
+// Margin: distance to the nearest finite bound; its fraction of the tolerance width.
+void set_margin(LimitOutcome& out, const Limit& limit, double value) {
+  const double to_lo = std::isfinite(limit.lo) ? value - limit.lo : std::numeric_limits<double>::infinity();
+  const double to_hi = std::isfinite(limit.hi) ? limit.hi - value : std::numeric_limits<double>::infinity();
+  out.margin = std::min(to_lo, to_hi);
+  const double width = std::isfinite(limit.lo) && std::isfinite(limit.hi) ? limit.hi - limit.lo
+                       : std::isfinite(limit.lo)                          ? std::abs(limit.lo)
+                                                                          : std::abs(limit.hi);
+  if (std::isfinite(out.margin) && width > 0) out.margin_fraction = out.margin / width;
+  if (!std::isfinite(out.margin)) out.margin = std::nan("");
+}
+
+}  // namespace
+
+std::optional<LimitProblem> finish_limit(Limit& limit, AnalysisMode mode) {
+  const ResultInfo* info = find_result(limit.result);
+  if (!info)
+    return LimitProblem{"result", UnknownNameError("result", limit.result, catalogue_names()).what()};
+  const bool available = mode == AnalysisMode::analyze ? info->in_analyze : info->in_identify;
+  if (!available)
+    return LimitProblem{"result", "result \"" + limit.result + "\" is not available in " +
+                                      mode_name(mode) + " mode (it is " +
+                                      (info->in_analyze ? "an analyze" : "an frf") + " result)"};
+  if (auto problem = check_selectors(limit, *info, mode)) return problem;
+  bool tolerance_db = false;
+  if (auto problem = convert_written_bounds(limit, *info, tolerance_db)) return problem;
+  return settle_range(limit, *info, tolerance_db);
+}
+
 LimitOutcome evaluate_limit(const Limit& limit, const MeasurementSet& measured) {
   LimitOutcome out;
   const ResultInfo* info = find_result(limit.result);
@@ -438,32 +501,9 @@ LimitOutcome evaluate_limit(const Limit& limit, const MeasurementSet& measured) 
     out.verdict = out.passed ? "pass" : "fail";
     return out;
   }
-  Quantity v = *q;
-  if (info && info->angle) {
-    // The turn nearest the centre of the range (or its one finite edge).
-    double centre = NAN;
-    if (std::isfinite(limit.lo) && std::isfinite(limit.hi)) centre = (limit.lo + limit.hi) / 2;
-    else if (std::isfinite(limit.lo)) centre = limit.lo + 180;
-    else if (std::isfinite(limit.hi)) centre = limit.hi - 180;
-    if (std::isfinite(centre)) {
-      const double shift = 360.0 * std::round((centre - v.value) / 360.0);
-      v.value += shift;
-      v.lo95 += shift;
-      v.hi95 += shift;
-    }
-  }
+  const Quantity v = info && info->angle ? nearest_turn(*q, limit) : *q;
   out.measured = v;
-  // Shown in the unit the limit was written in; the interval with its coverage factor when the
-  // analysis gives one (JCGM 100 §6.2: an expanded interval states its level and k).
-  const std::string unit = limit.display_unit.empty() ? unit_suffix(info) : " " + limit.display_unit;
-  out.measured_text = format_limit_number(limit.to_display(v.value)) + unit;
-  if (!v.has_interval())
-    out.measured_text += " (no uncertainty known)";
-  else if (!(v.lo95 == v.value && v.hi95 == v.value))
-    out.measured_text += " (95 %: " + format_limit_number(limit.to_display(v.lo95)) + " \xE2\x80\xA6 " +
-                         format_limit_number(limit.to_display(v.hi95)) +
-                         (std::isfinite(v.k) ? ", k = " + format_significant(v.k, 3) : std::string()) +
-                         ")";
+  out.measured_text = measured_text(limit, info, v);
   if (!limit.unit_base.empty()) {
     const std::string channel_unit = measured.channel_unit(limit.channel);
     if (channel_unit != limit.unit_base) {
@@ -474,15 +514,7 @@ LimitOutcome evaluate_limit(const Limit& limit, const MeasurementSet& measured) 
       return out;
     }
   }
-  // Margin: distance to the nearest finite bound; its fraction of the tolerance width.
-  const double to_lo = std::isfinite(limit.lo) ? v.value - limit.lo : std::numeric_limits<double>::infinity();
-  const double to_hi = std::isfinite(limit.hi) ? limit.hi - v.value : std::numeric_limits<double>::infinity();
-  out.margin = std::min(to_lo, to_hi);
-  const double width = std::isfinite(limit.lo) && std::isfinite(limit.hi) ? limit.hi - limit.lo
-                       : std::isfinite(limit.lo)                          ? std::abs(limit.lo)
-                                                                          : std::abs(limit.hi);
-  if (std::isfinite(out.margin) && width > 0) out.margin_fraction = out.margin / width;
-  if (!std::isfinite(out.margin)) out.margin = std::nan("");
+  set_margin(out, limit, v.value);
   const bool value_inside = v.value >= limit.lo && v.value <= limit.hi;
   if (!value_inside) {
     out.verdict = "fail: outside the range";

@@ -1,171 +1,22 @@
 #include "batch/report_folder.hpp"
 
 #include <fcntl.h>
-#include <pthread.h>
 #include <sys/file.h>
 #include <sys/stat.h>
-#include <sys/syscall.h>
 #include <unistd.h>
 
-#include <array>
-#include <atomic>
 #include <cerrno>
-#include <csignal>
 #include <cstdio>
-#include <cstring>
 #include <filesystem>
-#include <mutex>
 
 #include "core/error.hpp"
+#include "io/interrupt_cleanup.hpp"
 
 namespace periodfit::batch {
 
 namespace fs = std::filesystem;
 
 namespace {
-
-constexpr int kCleanupSignals[] = {SIGINT, SIGTERM, SIGHUP};
-
-// Folders to remove on an interrupt, visible to the signal handler (the io::AtomicFile
-// registry's pattern: slots claimed lock-free, the handler reads only slots marked ready).
-constexpr std::size_t kSlots = 8;
-constexpr std::size_t kPathMax = 4096;
-enum SlotState : int { slot_free = 0, slot_filling = 1, slot_ready = 2 };
-struct FolderSlot {
-  std::atomic<int> state{slot_free};
-  char path[kPathMax];
-};
-std::array<FolderSlot, kSlots> g_folders;
-struct sigaction g_previous[3];
-
-std::size_t track_folder(const std::string& path) {
-  if (path.size() >= kPathMax) return kSlots;
-  for (std::size_t i = 0; i < kSlots; ++i) {
-    int expected = slot_free;
-    if (g_folders[i].state.compare_exchange_strong(expected, slot_filling)) {
-      std::memcpy(g_folders[i].path, path.c_str(), path.size() + 1);
-      g_folders[i].state.store(slot_ready);
-      return i;
-    }
-  }
-  return kSlots;
-}
-
-void retrack_folder(std::size_t slot, const std::string& path) {
-  if (slot >= kSlots || path.size() >= kPathMax) return;
-  g_folders[slot].state.store(slot_filling);
-  std::memcpy(g_folders[slot].path, path.c_str(), path.size() + 1);
-  g_folders[slot].state.store(slot_ready);
-}
-
-void untrack_folder(std::size_t slot) {
-  if (slot < kSlots) g_folders[slot].state.store(slot_free);
-}
-
-// Async-signal-safe removal of a folder two levels deep (the report layout: files/ inside),
-// with open/getdents64/unlinkat only (readdir and std::filesystem are not safe in a handler).
-struct LinuxDirent64 {
-  unsigned long long d_ino;
-  long long d_off;
-  unsigned short d_reclen;
-  unsigned char d_type;
-  char d_name[1];
-};
-
-void empty_folder(int fd, int depth) {
-  alignas(8) char buffer[4096];
-  // Bounded: a listing that shows only "." and ".." ends it, and an entry that cannot be
-  // removed (permissions) must not keep a dying process spinning.
-  for (int pass = 0; pass < 1000; ++pass) {
-    const long n = ::syscall(SYS_getdents64, fd, buffer, sizeof buffer);
-    if (n <= 0) return;
-    bool any = false;
-    for (long offset = 0; offset < n;) {
-      const auto* entry = reinterpret_cast<const LinuxDirent64*>(buffer + offset);
-      offset += entry->d_reclen;
-      const char* name = entry->d_name;
-      if (name[0] == '.' && (name[1] == 0 || (name[1] == '.' && name[2] == 0))) continue;
-      any = true;
-      if (::unlinkat(fd, name, 0) == 0 || errno != EISDIR || depth == 0) continue;
-      const int sub = ::openat(fd, name, O_RDONLY | O_DIRECTORY | O_NOFOLLOW | O_CLOEXEC);
-      if (sub < 0) continue;
-      empty_folder(sub, depth - 1);
-      ::close(sub);
-      ::unlinkat(fd, name, AT_REMOVEDIR);
-    }
-    if (!any) return;
-    ::lseek(fd, 0, SEEK_SET);  // entries were removed under the listing: list again
-  }
-}
-
-void remove_folder_in_handler(const char* path) {
-  // Workers may still add a file between the listing and the rmdir; once the rmdir succeeds
-  // nothing can be created inside any more, so a few passes always finish.
-  for (int pass = 0; pass < 100; ++pass) {
-    const int fd = ::open(path, O_RDONLY | O_DIRECTORY | O_NOFOLLOW | O_CLOEXEC);
-    if (fd < 0) return;
-    empty_folder(fd, 2);
-    ::close(fd);
-    if (::rmdir(path) == 0 || errno == ENOENT) return;
-  }
-}
-
-extern "C" void remove_folders_and_pass_on(int signal_number, siginfo_t* info, void* context) {
-  const int saved_errno = errno;
-  for (auto& slot : g_folders)
-    if (slot.state.load() == slot_ready) remove_folder_in_handler(slot.path);
-  std::size_t k = 0;
-  while (k < 3 && kCleanupSignals[k] != signal_number) ++k;
-  const struct sigaction& previous = g_previous[k < 3 ? k : 0];
-  errno = saved_errno;
-  if (previous.sa_flags & SA_SIGINFO) {
-    if (previous.sa_sigaction) previous.sa_sigaction(signal_number, info, context);
-  } else if (previous.sa_handler == SIG_IGN) {
-    return;
-  } else if (previous.sa_handler != SIG_DFL && previous.sa_handler != nullptr) {
-    previous.sa_handler(signal_number);
-  } else {
-    std::signal(signal_number, SIG_DFL);
-    std::raise(signal_number);  // blocked until this handler returns, then ends the process
-  }
-}
-
-// Installed once, chained in front of whatever handles the signals at that moment (the CLI
-// installs io::install_interrupt_cleanup first). A signal the process ignores stays ignored.
-void install_folder_cleanup() {
-  static std::once_flag once;
-  std::call_once(once, [] {
-    for (std::size_t k = 0; k < 3; ++k) {
-      struct sigaction current {};
-      ::sigaction(kCleanupSignals[k], nullptr, &current);
-      g_previous[k] = current;
-      if (!(current.sa_flags & SA_SIGINFO) && current.sa_handler == SIG_IGN) continue;
-      struct sigaction action {};
-      action.sa_sigaction = remove_folders_and_pass_on;
-      sigemptyset(&action.sa_mask);
-      for (int s : kCleanupSignals) sigaddset(&action.sa_mask, s);
-      action.sa_flags = SA_SIGINFO;
-      ::sigaction(kCleanupSignals[k], &action, nullptr);
-    }
-  });
-}
-
-/// Blocks the cleanup signals on this thread for its lifetime.
-class SignalsBlocked {
- public:
-  SignalsBlocked() {
-    sigset_t set;
-    sigemptyset(&set);
-    for (int s : kCleanupSignals) sigaddset(&set, s);
-    pthread_sigmask(SIG_BLOCK, &set, &previous_);
-  }
-  ~SignalsBlocked() { pthread_sigmask(SIG_SETMASK, &previous_, nullptr); }
-  SignalsBlocked(const SignalsBlocked&) = delete;
-  SignalsBlocked& operator=(const SignalsBlocked&) = delete;
-
- private:
-  sigset_t previous_;
-};
 
 bool is_temporary_name(const std::string& name) {
   return name.size() > 1 && name[0] == '.' && name.find(".tmp-") != std::string::npos;
@@ -209,7 +60,7 @@ bool is_report_entry(const std::string& name, bool is_folder, bool in_files) {
          name == "results.sqlite-wal" || name == "results.sqlite-shm";
 }
 
-ReportFolder::ReportFolder(const std::string& destination) : destination_(destination), slot_(kSlots) {
+ReportFolder::ReportFolder(const std::string& destination) : destination_(destination) {
   fs::path target = fs::absolute(fs::path(destination)).lexically_normal();
   if (!target.has_filename()) target = target.parent_path();  // "out/" → "out"
   name_ = target.filename().string();
@@ -255,12 +106,11 @@ ReportFolder::ReportFolder(const std::string& destination) : destination_(destin
                               ", which a batch run does not write; a report folder is replaced "
                               "whole, so give a new folder, an empty one or an earlier report folder");
     }
-    install_folder_cleanup();
     std::string staging = (fs::path(parent_) / ("." + name_ + ".run-XXXXXX")).string();
     {
-      const SignalsBlocked blocked;  // no signal between mkdtemp and the registration
+      const io::InterruptSignalsBlocked blocked;  // no signal between mkdtemp and the registration
       if (!::mkdtemp(staging.data())) throw IoError(parent_, "cannot create a folder in", errno);
-      slot_ = track_folder(staging);
+      cleanup_ = io::InterruptCleanup(staging, io::CleanupKind::folder);
     }
     staging_ = staging;
     // mkdtemp makes 0700; the report is an ordinary folder, as open as the umask allows.
@@ -271,7 +121,7 @@ ReportFolder::ReportFolder(const std::string& destination) : destination_(destin
     if (ec) throw IoError(staging_ + "/files", "cannot create", ec.value());
   } catch (...) {
     if (!staging_.empty()) fs::remove_all(staging_, ec);
-    untrack_folder(slot_);
+    cleanup_.release();
     ::close(lock_fd_);
     throw;
   }
@@ -282,7 +132,7 @@ ReportFolder::~ReportFolder() {
     std::error_code ec;
     fs::remove_all(staging_, ec);
   }
-  untrack_folder(slot_);
+  cleanup_.release();
   if (lock_fd_ >= 0) ::close(lock_fd_);
 }
 
@@ -290,7 +140,7 @@ void ReportFolder::publish() {
   const std::string target = (fs::path(parent_) / name_).string();
   std::string earlier;  // where the earlier run's folder is after the swap, if there was one
   {
-    const SignalsBlocked blocked;  // the registered path always names what is to be removed
+    const io::InterruptSignalsBlocked blocked;  // the registered path always names what is to be removed
     std::error_code ec;
     const bool exists = fs::exists(fs::symlink_status(target, ec));
     if (!exists) {
@@ -314,17 +164,16 @@ void ReportFolder::publish() {
     }
     published_ = true;
     if (earlier.empty())
-      untrack_folder(slot_);
+      cleanup_.release();
     else
-      retrack_folder(slot_, earlier);
+      cleanup_.retarget(earlier);
   }
   sync_folder(parent_);
   if (!earlier.empty()) {
     std::error_code ec;
     fs::remove_all(earlier, ec);
   }
-  untrack_folder(slot_);
-  slot_ = kSlots;
+  cleanup_.release();
 }
 
 }  // namespace periodfit::batch

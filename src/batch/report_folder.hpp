@@ -17,17 +17,18 @@
 /// fails at once with the holder's pid. The lock file stays (removing it would let a waiting
 /// run lock an unlinked inode while a third creates a new one).
 ///
-/// Interrupts: SIGINT/SIGTERM/SIGHUP remove the staging folder (and, after the swap, the
-/// earlier run's folder being deleted), then pass the signal on to the handler installed
-/// before (io::install_interrupt_cleanup, or the default action). Everything the staging
-/// folder holds goes with it, temporaries of io::AtomicFile included, whichever thread was
-/// writing them.
+/// Interrupts: the staging folder (and, after the swap, the earlier run's folder being deleted)
+/// is registered with io::InterruptCleanup, so the handler main installs removes it on
+/// SIGINT/SIGTERM/SIGHUP. Everything the staging folder holds goes with it, temporaries of
+/// io::AtomicFile included, whichever thread was writing them.
 ///
 /// Usage:
 ///   ReportFolder folder("out");               // locks, checks out/, makes .out.run-XXXXXX/files
 ///   io::write_file_atomic(folder.staging() + "/summary.csv", text);
 ///   folder.publish();                         // out/ is now this run; the old one is gone
 #include <string>
+
+#include "io/interrupt_cleanup.hpp"
 
 namespace periodfit::batch {
 
@@ -54,7 +55,7 @@ class ReportFolder {
   std::string name_;
   std::string staging_;
   int lock_fd_ = -1;
-  std::size_t slot_;
+  io::InterruptCleanup cleanup_;  ///< the staging folder, then the earlier run's, until removed
   bool published_ = false;
 };
 

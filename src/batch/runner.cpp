@@ -10,6 +10,7 @@
 #include <condition_variable>
 #include <exception>
 #include <filesystem>
+#include <functional>
 #include <limits>
 #include <mutex>
 #include <nlohmann/json.hpp>
@@ -166,28 +167,94 @@ report::BoardResponse board_response(const MeasurementSet& m, AnalysisMode mode)
   return r;
 }
 
+// Runs the analysis of one file; a failure becomes the file's error (with the reason a
+// dangling symbolic link gives), never the run's. Sets the analysis time.
+FileAnalysis analyse_timed(const std::string& path, const BatchConfig& config, FileResult& result) {
+  FileAnalysis analysis;
+  const auto started = std::chrono::steady_clock::now();
+  try {
+    analysis = analyse_file(path, config);
+  } catch (const Error& e) {
+    result.error = e.what();
+    std::error_code ec;
+    if (fs::is_symlink(fs::symlink_status(path, ec)) && !fs::exists(path, ec))
+      result.error += " (a symbolic link to " + fs::read_symlink(path, ec).string() + ", which does not exist)";
+  } catch (const std::bad_alloc&) {
+    result.error = OutOfMemoryError("analysing " + path).what();
+  } catch (const std::exception& e) {
+    result.error = std::string("internal error: ") + e.what();
+  }
+  result.analysis_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
+  return analysis;
+}
+
+std::vector<std::string> render_plots(const std::vector<report::Figure>& figures, const std::string& path) {
+  std::vector<std::string> plots;
+  for (std::size_t k = 0; k < figures.size(); ++k) {
+    report::Figure fig = figures[k];
+    // Named by the path, not the position: a section's body is the same bytes whichever
+    // run (a single one or a shard, batch/shard.hpp) renders it and wherever it is placed.
+    fig.id = "f" + hex64(fnv1a_64(path)) + "-" + std::to_string(k + 1);
+    plots.push_back(report::render_svg(fig));
+  }
+  return plots;
+}
+
+// Who and what the capture belongs to (store/identity.hpp); a malformed sidecar makes the
+// file an ERROR row like any other unreadable input.
+store::Identity resolve_file_identity(const BatchConfig& config, const std::string& path,
+                                      const FileAnalysis& analysis, FileWork& w) {
+  store::Identity identity;
+  if (config.identity.empty()) return identity;
+  try {
+    identity = store::resolve_identity(config.identity, path, analysis.metadata);
+  } catch (const Error& e) {
+    if (w.result.error.empty()) {
+      w.result.error = e.what();
+      w.result.status = w.section.status = report::FileStatus::error;
+      w.section.messages.push_back(w.result.error);
+    }
+  }
+  const auto rows = identity.rows();
+  w.section.metadata.insert(w.section.metadata.begin(), rows.begin(), rows.end());
+  return identity;
+}
+
+// The per-file JSON after its status lines: limit outcomes, measurements, the analysis' own
+// result, identity, the capture's digest and metadata (docs/batch-output.md).
+void add_results_json(json& d, const FileResult& result, const BatchConfig& config, const std::string& path,
+                      const FileAnalysis& analysis, const store::Identity& identity) {
+  json limits = json::array();
+  for (std::size_t i = 0; i < result.limits.size(); ++i)
+    limits.push_back(outcome_json(config.limits[i], result.limits[i], i));
+  d["limits"] = std::move(limits);
+  d["measurements"] = measurements_json(analysis.measurements);
+  d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
+  json who = json::object();
+  for (const auto& [field, value] : identity.rows()) who[field] = value;
+  d["identity"] = std::move(who);
+  // The capture's size and content hash: its identity in the results database, written here so
+  // an import of this folder later identifies it exactly as a live recording would.
+  json capture = nullptr;
+  try {
+    const store::FileDigest digest = store::sha256_file(path);
+    capture = {{"size_bytes", digest.size}, {"sha256", digest.sha256}};
+  } catch (const Error&) {
+    // an unreadable capture is an ERROR row already; the database identifies it by its JSON
+  }
+  d["capture"] = std::move(capture);
+  json metadata = json::array();
+  for (const auto& [name, value] : analysis.metadata) metadata.push_back({{"name", name}, {"value", value}});
+  d["metadata"] = std::move(metadata);
+}
+
 FileWork process(std::size_t index, const std::string& path, const BatchOptions& options) {
   const BatchConfig& config = options.config;
   FileWork w;
   w.result.path = path;
   w.result.json_file = per_file_json_name(index, path);
   w.section.path = path;
-  FileAnalysis analysis;
-  const auto started = std::chrono::steady_clock::now();
-  try {
-    analysis = analyse_file(path, config);
-  } catch (const Error& e) {
-    w.result.error = e.what();
-    std::error_code ec;
-    if (fs::is_symlink(fs::symlink_status(path, ec)) && !fs::exists(path, ec))
-      w.result.error += " (a symbolic link to " + fs::read_symlink(path, ec).string() + ", which does not exist)";
-  } catch (const std::bad_alloc&) {
-    w.result.error = OutOfMemoryError("analysing " + path).what();
-  } catch (const std::exception& e) {
-    w.result.error = std::string("internal error: ") + e.what();
-  }
-
-  w.result.analysis_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
+  const FileAnalysis analysis = analyse_timed(path, config, w.result);
 
   if (!w.result.error.empty()) {
     w.result.status = report::FileStatus::error;
@@ -236,33 +303,10 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
     for (const auto& m : analysis.messages) w.section.messages.push_back(m);
     const bool plots = config.plots == PlotSelection::all ||
                        (config.plots == PlotSelection::failed && !all_passed);
-    if (plots) {
-      for (std::size_t k = 0; k < analysis.figures.size(); ++k) {
-        report::Figure fig = analysis.figures[k];
-        // Named by the path, not the position: a section's body is the same bytes whichever
-        // run (a single one or a shard, batch/shard.hpp) renders it and wherever it is placed.
-        fig.id = "f" + hex64(fnv1a_64(path)) + "-" + std::to_string(k + 1);
-        w.section.plots.push_back(report::render_svg(fig));
-      }
-    }
+    if (plots) w.section.plots = render_plots(analysis.figures, path);
   }
 
-  // Who and what the capture belongs to (store/identity.hpp); a malformed sidecar makes the
-  // file an ERROR row like any other unreadable input.
-  store::Identity identity;
-  if (!config.identity.empty()) {
-    try {
-      identity = store::resolve_identity(config.identity, path, analysis.metadata);
-    } catch (const Error& e) {
-      if (w.result.error.empty()) {
-        w.result.error = e.what();
-        w.result.status = w.section.status = report::FileStatus::error;
-        w.section.messages.push_back(w.result.error);
-      }
-    }
-    const auto rows = identity.rows();
-    w.section.metadata.insert(w.section.metadata.begin(), rows.begin(), rows.end());
-  }
+  const store::Identity identity = resolve_file_identity(config, path, analysis, w);
 
   json& d = w.document;
   d["path"] = path;
@@ -271,28 +315,7 @@ FileWork process(std::size_t index, const std::string& path, const BatchOptions&
   d["mode"] = mode_name(config.mode);
   d["flags"] = w.result.flags;
   d["failing_flags"] = w.result.failing_flags;
-  json limits = json::array();
-  for (std::size_t i = 0; i < w.result.limits.size(); ++i)
-    limits.push_back(outcome_json(config.limits[i], w.result.limits[i], i));
-  d["limits"] = std::move(limits);
-  d["measurements"] = measurements_json(analysis.measurements);
-  d["result"] = analysis.result_json.is_null() ? json(nullptr) : analysis.result_json;
-  json who = json::object();
-  for (const auto& [field, value] : identity.rows()) who[field] = value;
-  d["identity"] = std::move(who);
-  // The capture's size and content hash: its identity in the results database, written here so
-  // an import of this folder later identifies it exactly as a live recording would.
-  json capture = nullptr;
-  try {
-    const store::FileDigest digest = store::sha256_file(path);
-    capture = {{"size_bytes", digest.size}, {"sha256", digest.sha256}};
-  } catch (const Error&) {
-    // an unreadable capture is an ERROR row already; the database identifies it by its JSON
-  }
-  d["capture"] = std::move(capture);
-  json metadata = json::array();
-  for (const auto& [name, value] : analysis.metadata) metadata.push_back({{"name", name}, {"value", value}});
-  d["metadata"] = std::move(metadata);
+  add_results_json(d, w.result, config, path, analysis, identity);
   return w;
 }
 
@@ -446,6 +469,109 @@ report::CrossBoardView cross_board_view(const std::vector<FileResult>& files, co
   return v;
 }
 
+// A shard's share of the captures (batch/shard.hpp); `listing` gets the whole list with each
+// capture's shard, so the gather can name the captures of a shard that never ran.
+std::vector<std::string> shard_share(const std::vector<std::string>& paths, const BatchOptions& options,
+                                     std::vector<std::pair<std::string, int>>& listing) {
+  std::vector<std::string> held;
+  listing.reserve(paths.size());
+  for (const auto& p : paths) {
+    const int k = shard_of(partition_key(p, options.inputs), options.shard.count);
+    listing.emplace_back(p, k);
+    if (k == options.shard.index) held.push_back(p);
+  }
+  return held;
+}
+
+// The results database of the run, or none: one transaction per capture as each file is done,
+// so a run killed at any moment leaves whole captures; a database that fails stops recording,
+// never the run (store/recorder.hpp).
+std::unique_ptr<store::RunRecording> open_recording(const BatchOptions& options, const fs::path& staging,
+                                                    std::size_t files, BatchResult& result) {
+  std::string database = options.database.empty() ? options.config.database : options.database;
+  const bool in_report = database == kReportDatabase;
+  if (in_report) database = (staging / "results.sqlite").string();
+  if (database.empty()) return nullptr;
+  store::RunInfo info;
+  info.mode = mode_name(options.config.mode);
+  info.config_source = options.config.source;
+  info.config_text = options.config.text;
+  // The command line's value first, then the config's (store/identity.hpp).
+  const auto& identity = options.config.identity;
+  const auto value_of = [&identity](const std::string& field) -> std::string {
+    if (identity.command_values.count(field)) return identity.command_values.at(field);
+    return identity.config_values.count(field) ? identity.config_values.at(field) : "";
+  };
+  info.station = value_of("station");
+  info.operator_name = value_of("operator");
+  info.report_dir = fs::absolute(options.report_dir).lexically_normal().string();
+  info.files_total = static_cast<std::int64_t>(files);
+  if (options.shard.active()) {
+    info.batch_run_id = shard_run_id(options);
+    info.shard_index = options.shard.index;
+    info.shard_count = options.shard.count;
+  }
+  auto recording = std::make_unique<store::RunRecording>(database, std::move(info));
+  result.database = in_report ? (fs::path(options.report_dir) / "results.sqlite").string()
+                              : store::redact_target(database);
+  return recording;
+}
+
+// Runs step(0 … count−1) on `jobs` threads, each taking the next index, and reports progress
+// every options.progress_interval_s. The first exception a step throws (an output that could
+// not be written) stops the run: no new file starts, and it is rethrown once the threads end.
+void run_pool(std::size_t count, std::size_t jobs, const BatchOptions& options,
+              const std::function<double()>& elapsed, const std::function<void(std::size_t)>& step) {
+  std::atomic<std::size_t> next{0};
+  std::size_t done = 0;
+  std::mutex mutex;
+  std::condition_variable changed;
+  std::exception_ptr fatal;  // an output that could not be written stops the run
+  const auto worker = [&] {
+    for (;;) {
+      const std::size_t i = next.fetch_add(1);
+      if (i >= count) return;
+      {
+        std::lock_guard<std::mutex> lock(mutex);
+        if (fatal) return;
+      }
+      try {
+        step(i);
+        // The file's transient buffers (capture, grids, spectra) were freed between the small
+        // results this run keeps; hand those pages back so the peak RSS stays that of one file
+        // per worker whatever the number of files (glibc keeps them otherwise).
+        ::malloc_trim(0);
+      } catch (...) {
+        std::lock_guard<std::mutex> lock(mutex);
+        if (!fatal) fatal = std::current_exception();
+      }
+      {
+        std::lock_guard<std::mutex> lock(mutex);
+        ++done;
+      }
+      changed.notify_all();
+    }
+  };
+  std::vector<std::thread> threads;
+  threads.reserve(jobs);
+  for (std::size_t t = 0; t < jobs; ++t) threads.emplace_back(worker);
+  {
+    std::unique_lock<std::mutex> lock(mutex);
+    const auto interval = std::chrono::duration<double>(options.progress_interval_s);
+    while (done < count && !fatal) {
+      changed.wait_for(lock, interval);
+      if (options.progress) {
+        const Progress p{done, count, elapsed()};
+        lock.unlock();
+        options.progress(p);
+        lock.lock();
+      }
+    }
+  }
+  for (auto& t : threads) t.join();
+  if (fatal) std::rethrow_exception(fatal);
+}
+
 }  // namespace
 
 void BatchOptions::validate() const {
@@ -529,16 +655,7 @@ BatchResult run_batch(const BatchOptions& options) {
   // A shard takes its share of the whole list (batch/shard.hpp) and records the whole list, so
   // the gather can name the captures of a shard that never ran.
   std::vector<std::pair<std::string, int>> listing;
-  if (options.shard.active()) {
-    std::vector<std::string> held;
-    listing.reserve(paths.size());
-    for (auto& p : paths) {
-      const int k = shard_of(partition_key(p, options.inputs), options.shard.count);
-      listing.emplace_back(p, k);
-      if (k == options.shard.index) held.push_back(p);
-    }
-    paths = std::move(held);
-  }
+  if (options.shard.active()) paths = shard_share(paths, options, listing);
 
   // Everything is written into a staging folder that replaces the report folder whole at the
   // end (batch/report_folder.hpp); an error or an interrupt before then leaves it untouched.
@@ -559,96 +676,16 @@ BatchResult run_batch(const BatchOptions& options) {
   io::ScratchFile sections(folder.staging());
   std::vector<FileDone> works(paths.size());
 
-  // The results database: one transaction per capture as each file is done, so a run killed
-  // at any moment leaves whole captures; a database that fails stops recording, never the run
-  // (store/recorder.hpp).
-  std::string database = options.database.empty() ? options.config.database : options.database;
-  const bool in_report = database == kReportDatabase;
-  if (in_report) database = (staging / "results.sqlite").string();
-  std::unique_ptr<store::RunRecording> recording;
-  if (!database.empty()) {
-    store::RunInfo info;
-    info.mode = mode_name(options.config.mode);
-    info.config_source = options.config.source;
-    info.config_text = options.config.text;
-    info.station = options.config.identity.command_values.count("station")
-                       ? options.config.identity.command_values.at("station")
-                       : (options.config.identity.config_values.count("station")
-                              ? options.config.identity.config_values.at("station") : "");
-    info.operator_name = options.config.identity.command_values.count("operator")
-                             ? options.config.identity.command_values.at("operator")
-                             : (options.config.identity.config_values.count("operator")
-                                    ? options.config.identity.config_values.at("operator") : "");
-    info.report_dir = fs::absolute(options.report_dir).lexically_normal().string();
-    info.files_total = static_cast<std::int64_t>(paths.size());
-    if (options.shard.active()) {
-      info.batch_run_id = shard_run_id(options);
-      info.shard_index = options.shard.index;
-      info.shard_count = options.shard.count;
-    }
-    recording = std::make_unique<store::RunRecording>(database, std::move(info));
-    result.database = in_report ? (fs::path(options.report_dir) / "results.sqlite").string()
-                                : store::redact_target(database);
-  }
-  std::atomic<std::size_t> next{0};
-  std::size_t done = 0;
-  std::mutex mutex;
-  std::condition_variable changed;
-  std::exception_ptr fatal;  // an output that could not be written stops the run
-  const auto worker = [&] {
-    for (;;) {
-      const std::size_t i = next.fetch_add(1);
-      if (i >= paths.size()) return;
-      {
-        std::lock_guard<std::mutex> lock(mutex);
-        if (fatal) return;
-      }
-      try {
-        {
-          FileWork w = process(i, paths[i], options);
-          io::write_file_atomic((staging / w.result.json_file).string(),
-                                output::json_text(w.document));
-          if (recording) {
-            recording->record({paths[i], std::nullopt, std::move(w.document), store::utc_now_text()});
-          }
-          FileDone& kept = works[i];
-          kept.section = sections.append(report::render_section_body(w.section));
-          kept.row = report::report_row(w.section);
-          kept.result = std::move(w.result);
-        }  // the JSON document and the section with its plots are freed here
-        // The file's transient buffers (capture, grids, spectra) were freed between the small
-        // results this run keeps; hand those pages back so the peak RSS stays that of one file
-        // per worker whatever the number of files (glibc keeps them otherwise).
-        ::malloc_trim(0);
-      } catch (...) {
-        std::lock_guard<std::mutex> lock(mutex);
-        if (!fatal) fatal = std::current_exception();
-      }
-      {
-        std::lock_guard<std::mutex> lock(mutex);
-        ++done;
-      }
-      changed.notify_all();
-    }
-  };
-  std::vector<std::thread> threads;
-  threads.reserve(jobs);
-  for (std::size_t t = 0; t < jobs; ++t) threads.emplace_back(worker);
-  {
-    std::unique_lock<std::mutex> lock(mutex);
-    const auto interval = std::chrono::duration<double>(options.progress_interval_s);
-    while (done < paths.size() && !fatal) {
-      changed.wait_for(lock, interval);
-      if (options.progress) {
-        const Progress p{done, paths.size(), elapsed()};
-        lock.unlock();
-        options.progress(p);
-        lock.lock();
-      }
-    }
-  }
-  for (auto& t : threads) t.join();
-  if (fatal) std::rethrow_exception(fatal);
+  std::unique_ptr<store::RunRecording> recording = open_recording(options, staging, paths.size(), result);
+  run_pool(paths.size(), jobs, options, elapsed, [&](std::size_t i) {
+    FileWork w = process(i, paths[i], options);
+    io::write_file_atomic((staging / w.result.json_file).string(), output::json_text(w.document));
+    if (recording) recording->record({paths[i], std::nullopt, std::move(w.document), store::utc_now_text()});
+    FileDone& kept = works[i];
+    kept.section = sections.append(report::render_section_body(w.section));
+    kept.row = report::report_row(w.section);
+    kept.result = std::move(w.result);
+  });
   if (options.progress) options.progress(Progress{paths.size(), paths.size(), elapsed()});
 
   std::vector<FileResult> files;

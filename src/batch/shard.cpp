@@ -410,17 +410,14 @@ void GatherOptions::validate() const {
   if (!rebuild_config) throw OptionError("rebuild_config", "(empty)", "required");
 }
 
-GatherResult gather_shards(const GatherOptions& options) {
-  options.validate();
-  GatherResult out;
-  std::error_code ec;
-  for (const auto& s : options.shards)
-    if (fs::exists(s, ec) && fs::exists(options.report_dir, ec) && fs::equivalent(s, options.report_dir, ec))
-      throw OptionError("report", options.report_dir, "is one of the shard folders; give a new folder");
+namespace {
 
+// The manifests of the folders given, each folder once; an unfinished folder is a problem.
+// `listing` gets the run's capture list: the union of what the shards saw, each with its shard.
+std::vector<Manifest> read_manifests(const GatherOptions& options, std::map<std::string, int>& listing,
+                                     GatherResult& out) {
+  std::error_code ec;
   std::vector<Manifest> manifests;
-  // The run's capture list: the union of what the shards saw, each capture with its shard.
-  std::map<std::string, int> listing;
   std::set<std::string> seen_folders;
   for (const auto& folder : options.shards) {
     const std::string canonical = fs::weakly_canonical(folder, ec).string();
@@ -434,19 +431,24 @@ GatherResult gather_shards(const GatherOptions& options) {
     }
     manifests.push_back(read_manifest(folder, listing));
   }
-  for (std::size_t i = 1; i < manifests.size(); ++i) check_same_run(manifests[0], manifests[i]);
-  if (manifests.empty()) return out;  // every folder unfinished: nothing tells N
-  const int count = manifests[0].shard.count;
-  out.partition.count = count;
-  out.run_id = manifests[0].run_id;
+  return manifests;
+}
 
-  // One manifest per shard number: a second copy with the same records is the same result
-  // (read once, with a warning); different records cannot both be right.
-  std::vector<int> by_shard(static_cast<std::size_t>(count) + 1, -1);
-  std::vector<bool> conflict(static_cast<std::size_t>(count) + 1, false);
+/// Which manifest stands for each shard number 1…N (-1: none), and which numbers have two
+/// manifests that disagree.
+struct ShardChoice {
+  std::vector<int> by_shard;
+  std::vector<bool> conflict;
+};
+
+// One manifest per shard number: a second copy with the same records is the same result
+// (read once, with a warning); different records cannot both be right.
+ShardChoice choose_manifests(const std::vector<Manifest>& manifests, int count, GatherResult& out) {
+  ShardChoice choice{std::vector<int>(static_cast<std::size_t>(count) + 1, -1),
+                     std::vector<bool>(static_cast<std::size_t>(count) + 1, false)};
   for (std::size_t i = 0; i < manifests.size(); ++i) {
     const int k = manifests[i].shard.index;
-    int& first = by_shard[static_cast<std::size_t>(k)];
+    int& first = choice.by_shard[static_cast<std::size_t>(k)];
     if (first < 0) {
       first = static_cast<int>(i);
       continue;
@@ -456,29 +458,33 @@ GatherResult gather_shards(const GatherOptions& options) {
     if (a.held_hash == manifests[i].held_hash && a.listing_hash == manifests[i].listing_hash) {
       out.warnings.push_back("shard " + text + " was run twice (" + a.folder + ", " + manifests[i].folder +
                              ") with identical results; " + manifests[i].folder + " is not counted");
-    } else if (!conflict[static_cast<std::size_t>(k)]) {
-      conflict[static_cast<std::size_t>(k)] = true;
+    } else if (!choice.conflict[static_cast<std::size_t>(k)]) {
+      choice.conflict[static_cast<std::size_t>(k)] = true;
       out.problems.push_back("shard " + text + " was run twice with different results (" + a.folder + ": " +
                              count_text(a.held.size()) + ", " + manifests[i].folder + ": " +
                              count_text(manifests[i].held.size()) + "); remove the one that is out of date");
     }
   }
+  return choice;
+}
 
+// A problem for every shard that is missing, and for every shard that ran before some of its
+// share existed (captures added to the archive after it ran).
+void check_shares(const std::vector<Manifest>& manifests, const std::map<std::string, int>& listing,
+                  const ShardChoice& choice, int count, GatherResult& out) {
   std::vector<std::vector<std::string>> owned(static_cast<std::size_t>(count) + 1);
   for (const auto& [path, k] : listing)
     if (k >= 1 && k <= count) owned[static_cast<std::size_t>(k)].push_back(path);
-
   for (int k = 1; k <= count; ++k) {
     const auto ks = static_cast<std::size_t>(k);
     const std::string text = shard_text(k, count);
-    if (by_shard[ks] < 0) {
+    if (choice.by_shard[ks] < 0) {
       out.problems.push_back("shard " + text + " is missing; it holds " + count_text(owned[ks].size()) +
                              (owned[ks].empty() ? "" : ": " + capture_list(owned[ks])));
       continue;
     }
-    if (conflict[ks]) continue;
-    // Captures the shard did not see (added to the archive after it ran).
-    const Manifest& m = manifests[static_cast<std::size_t>(by_shard[ks])];
+    if (choice.conflict[ks]) continue;
+    const Manifest& m = manifests[static_cast<std::size_t>(choice.by_shard[ks])];
     std::set<std::string> held;
     for (const auto& c : m.held) held.insert(c.result.path);
     std::vector<std::string> absent;
@@ -488,9 +494,11 @@ GatherResult gather_shards(const GatherOptions& options) {
       out.problems.push_back("shard " + text + " (" + m.folder + ") ran before " + count_text(absent.size()) +
                              " of its share existed: " + capture_list(absent) + "; run shard " + text + " again");
   }
-  if (!out.problems.empty()) return out;
+}
 
-  // Complete: every capture once, in path order, as a single run lists them.
+// Complete: every capture once, in path order, as a single run lists them. A capture in the
+// wrong shard or in two shards is an input error.
+std::vector<HeldCapture> merge_captures(std::vector<Manifest>& manifests, const std::vector<int>& by_shard, int count) {
   std::vector<HeldCapture> all;
   for (int k = 1; k <= count; ++k) {
     Manifest& m = manifests[static_cast<std::size_t>(by_shard[static_cast<std::size_t>(k)])];
@@ -509,10 +517,14 @@ GatherResult gather_shards(const GatherOptions& options) {
       throw InputError(all[i].result.path, 0, 0,
                        "held by two shards (" + manifests[all[i - 1].shard].folder + ", " + manifests[all[i].shard].folder +
                            "); a capture is counted once");
+  return all;
+}
 
-  const BatchConfig config = options.rebuild_config(manifests[0].settings);
-  ReportFolder folder(options.report_dir);
-  const fs::path staging(folder.staging());
+// The gathered run's outputs in `staging`: the per-file JSON renumbered in path order, the
+// summaries and report.html (sections copied from the shards' section files), gather.json.
+std::vector<FileResult> write_gathered(const fs::path& staging, const BatchConfig& config,
+                                       const std::vector<Manifest>& manifests, const std::vector<int>& by_shard,
+                                       std::vector<HeldCapture>& all, const std::string& run_id) {
   std::vector<FileResult> files;
   std::vector<report::ReportRow> rows;
   files.reserve(all.size());
@@ -532,16 +544,17 @@ GatherResult gather_shards(const GatherOptions& options) {
     sections[i].open(section_paths[i], std::ios::binary);
     if (!sections[i]) throw IoError(section_paths[i], "cannot open", errno ? errno : ENOENT);
   }
-  write_report_outputs(folder.staging(), config, files, rows, [&](std::size_t i, const report::HtmlSink& sink) {
+  write_report_outputs(staging.string(), config, files, rows, [&](std::size_t i, const report::HtmlSink& sink) {
     const HeldCapture& c = all[i];
     sink(read_span(sections[c.shard], section_paths[c.shard], c.offset, c.size));
   });
 
+  const int count = manifests[0].shard.count;
   json record;
   record["format"] = "periodfit-batch-gather";
   record["version"] = 1;
   record["periodfit"] = PERIODFIT_VERSION;
-  record["run_id"] = out.run_id;
+  record["run_id"] = run_id;
   record["settings_hash"] = manifests[0].settings_hash;
   record["shards"] = count;
   json used = json::array();
@@ -551,6 +564,35 @@ GatherResult gather_shards(const GatherOptions& options) {
   }
   record["from"] = std::move(used);
   io::write_file_atomic((staging / "gather.json").string(), output::json_text(record));
+  return files;
+}
+
+}  // namespace
+
+GatherResult gather_shards(const GatherOptions& options) {
+  options.validate();
+  GatherResult out;
+  std::error_code ec;
+  for (const auto& s : options.shards)
+    if (fs::exists(s, ec) && fs::exists(options.report_dir, ec) && fs::equivalent(s, options.report_dir, ec))
+      throw OptionError("report", options.report_dir, "is one of the shard folders; give a new folder");
+
+  std::map<std::string, int> listing;
+  std::vector<Manifest> manifests = read_manifests(options, listing, out);
+  for (std::size_t i = 1; i < manifests.size(); ++i) check_same_run(manifests[0], manifests[i]);
+  if (manifests.empty()) return out;  // every folder unfinished: nothing tells N
+  const int count = manifests[0].shard.count;
+  out.partition.count = count;
+  out.run_id = manifests[0].run_id;
+  const ShardChoice choice = choose_manifests(manifests, count, out);
+  check_shares(manifests, listing, choice, count, out);
+  if (!out.problems.empty()) return out;
+  std::vector<HeldCapture> all = merge_captures(manifests, choice.by_shard, count);
+
+  const BatchConfig config = options.rebuild_config(manifests[0].settings);
+  ReportFolder folder(options.report_dir);
+  std::vector<FileResult> files =
+      write_gathered(fs::path(folder.staging()), config, manifests, choice.by_shard, all, out.run_id);
   folder.publish();
 
   out.complete = true;

@@ -1,6 +1,9 @@
 // periodfit: the command-line driver. Parses the command line, dispatches to one command, and
 // turns every library error into one `periodfit: error: …` line and exit code 2.
+#include <signal.h>
+
 #include <cerrno>
+#include <csignal>
 #include <cstdio>
 #include <exception>
 #include <map>
@@ -12,6 +15,7 @@
 #include "core/error.hpp"
 #include "core/memory_budget.hpp"
 #include "core/exit_code.hpp"
+#include "io/interrupt_cleanup.hpp"
 #include "io/mapped_file.hpp"
 #include "io/output_file.hpp"
 #include "core/safe_text.hpp"
@@ -74,13 +78,37 @@ int close_stdout(int exit_code) {
   return periodfit::to_int(periodfit::ExitCode::error);
 }
 
+// The one interrupt handler (DEVELOPERS.md, "Process-wide state"): removes what the library
+// registered with io::InterruptCleanup (AtomicFile temporaries, report staging folders), then
+// lets the signal end the process as it would have, so the exit status still says which signal.
+extern "C" void remove_partial_outputs_and_reraise(int signal_number) {
+  periodfit::io::remove_interrupted_paths();
+  std::signal(signal_number, SIG_DFL);
+  std::raise(signal_number);  // blocked until this handler returns, then ends the process
+}
+
+// A signal the process was started with ignored (nohup's SIGHUP) stays ignored.
+void install_interrupt_handler() {
+  for (int s : periodfit::io::kInterruptSignals) {
+    struct sigaction current {};
+    ::sigaction(s, nullptr, &current);
+    if (!(current.sa_flags & SA_SIGINFO) && current.sa_handler == SIG_IGN) continue;
+    struct sigaction action {};
+    action.sa_handler = remove_partial_outputs_and_reraise;
+    sigemptyset(&action.sa_mask);
+    for (int blocked : periodfit::io::kInterruptSignals) sigaddset(&action.sa_mask, blocked);
+    action.sa_flags = static_cast<int>(SA_RESETHAND);
+    ::sigaction(s, &action, nullptr);
+  }
+}
+
 }  // namespace
 
 static int run_main(int argc, char** argv) {
   using periodfit::ExitCode;
   using periodfit::to_int;
   // The process-wide signal handlers, installed here and nowhere in the library.
-  periodfit::io::install_interrupt_cleanup();
+  install_interrupt_handler();
   periodfit::io::install_mapped_file_guard();
   CLI::App app{"periodfit: measurement post-processor for sampled periodic waveforms", "periodfit"};
   app.footer(kExitCodes);

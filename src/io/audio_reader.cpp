@@ -95,44 +95,65 @@ std::optional<std::string> aiff_rate_problem(double rate) {
          " (must be a finite rate of at least 1 Hz): the header is corrupt";
 }
 
-std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& read) {
-  unsigned char head[16] = {};
-  if (size < 16 || !read(0, head, 16)) {
-    if (size >= 4 && read(0, head, 4)) {
-      const std::string_view tag(reinterpret_cast<const char*>(head), 4);
-      if (tag == "RIFF" || tag == "RIFX" || tag == "RF64" || tag == "BW64" || tag == "FORM" ||
-          tag == "riff")
-        return cut_in_header(size);
-    }
-    return std::nullopt;
-  }
-  const std::string_view tag(reinterpret_cast<const char*>(head), 4);
+// Sony Wave64: GUID-tagged chunks with 64-bit sizes, 8-byte aligned, after a 40-byte header.
+std::optional<std::string> w64_problem(std::uint64_t size, const ReadAt& read) {
   unsigned char ch[24];
-  if (std::memcmp(head, kW64Riff, 16) == 0) {
-    std::uint64_t pos = 40;
-    for (;;) {
-      if (pos + 24 > size || !read(pos, ch, 24)) return cut_in_header(size);
-      const std::uint64_t chunk = le(ch + 16, 8);
-      if (std::memcmp(ch, kW64Data, 16) == 0) {
-        const std::uint64_t declared = chunk >= 24 ? chunk - 24 : 0;
-        const std::uint64_t held = size - (pos + 24);
-        if (declared > held) return cut_in_data(declared, held);
-        return std::nullopt;
-      }
-      if (chunk < 24) return std::nullopt;  // corrupt: let libsndfile say so
-      // A chunk reaching past the end of the file; this also keeps the rounding below from
-      // wrapping around for sizes near 2^64, which made pos stand still (a fuzz-found hang,
-      // tests/regressions/audio/w64-chunk-size-wraps.w64).
-      if (chunk > size - pos) return cut_in_header(size);
-      pos += (chunk + 7) / 8 * 8;
+  std::uint64_t pos = 40;
+  for (;;) {
+    if (pos + 24 > size || !read(pos, ch, 24)) return cut_in_header(size);
+    const std::uint64_t chunk = le(ch + 16, 8);
+    if (std::memcmp(ch, kW64Data, 16) == 0) {
+      const std::uint64_t declared = chunk >= 24 ? chunk - 24 : 0;
+      const std::uint64_t held = size - (pos + 24);
+      if (declared > held) return cut_in_data(declared, held);
+      return std::nullopt;
     }
+    if (chunk < 24) return std::nullopt;  // corrupt: let libsndfile say so
+    // A chunk reaching past the end of the file; this also keeps the rounding below from
+    // wrapping around for sizes near 2^64, which made pos stand still (a fuzz-found hang,
+    // tests/regressions/audio/w64-chunk-size-wraps.w64).
+    if (chunk > size - pos) return cut_in_header(size);
+    pos += (chunk + 7) / 8 * 8;
   }
+}
+
+// RIFF and AIFF pad an odd chunk to an even size; some writers leave the pad byte out. At the
+// end of the file that costs nothing; before another chunk it shifts every later chunk by one
+// byte, which must be said as such, not as a cut file. `chunk` (odd) is the size of the chunk
+// `id` whose header is at `pos`; `big`: sizes are big-endian.
+std::optional<std::string> missing_pad_problem(std::uint64_t size, const ReadAt& read, std::uint64_t pos,
+                                               std::string_view id, std::uint64_t chunk, bool big, bool aiff) {
+  const std::uint64_t next = pos + 8 + chunk + 1;
+  const std::uint64_t unpadded = pos + 8 + chunk;
+  // A plausible chunk header: a printable four-character code and a size within the file.
+  unsigned char at_head[8];
+  const auto fourcc = [&](std::uint64_t at) {
+    if (at + 8 > size || !read(at, at_head, 8)) return false;
+    const std::uint64_t declared = big ? be(at_head + 4, 4) : le(at_head + 4, 4);
+    return std::all_of(at_head, at_head + 4, [](unsigned char c) { return c >= 0x20 && c <= 0x7E; }) &&
+           (declared <= size - (at + 8) || declared == 0xFFFFFFFFu);
+  };
+  const std::string what = "odd-sized chunk without its pad byte: the \"" + std::string(id) +
+                           "\" chunk at byte " + std::to_string(pos) + " holds " +
+                           std::to_string(chunk) + " bytes";
+  if (unpadded == size)
+    return what + " and ends the file, and no " + (aiff ? "SSND" : "data") +
+           " chunk came before it: the file holds no samples";
+  if (!fourcc(next) && fourcc(unpadded))
+    return what + " (RIFF and AIFF require the pad), so every chunk after it is one byte off; "
+                  "rewrite the file with the pad byte";
+  return std::nullopt;
+}
+
+// RIFF/RIFX/RF64/BW64 and AIFF: 8-byte chunk headers (RF64's data size in its ds64 chunk),
+// walked to the data (SSND) chunk; an AIFF's COMM chunk is checked on the way.
+std::optional<std::string> riff_aiff_problem(std::string_view tag, std::uint64_t size, const ReadAt& read) {
   const bool riff = tag == "RIFF" || tag == "RIFX" || tag == "RF64" || tag == "BW64";
   const bool aiff = tag == "FORM";
-  if (!riff && !aiff) return std::nullopt;
   const bool big = tag == "RIFX" || aiff;
   const bool wide = tag == "RF64" || tag == "BW64";
   const auto u32 = [big](const unsigned char* p) { return big ? be(p, 4) : le(p, 4); };
+  unsigned char ch[8];
   std::uint64_t data64 = 0;
   std::uint64_t pos = 12;
   for (;;) {
@@ -162,32 +183,29 @@ std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& r
       if (chunk > held) return cut_in_data(chunk >= 8 ? chunk - 8 : 0, held >= 8 ? held - 8 : 0);
       return std::nullopt;
     }
-    std::uint64_t next = pos + 8 + chunk + (chunk & 1);
-    if ((chunk & 1) && pos + 8 + chunk <= size) {
-      // RIFF and AIFF pad an odd chunk to an even size; some writers leave the pad byte out.
-      // At the end of the file that costs nothing; before another chunk it shifts every later
-      // chunk by one byte, which must be said as such, not as a cut file.
-      const std::uint64_t unpadded = pos + 8 + chunk;
-      // A plausible chunk header: a printable four-character code and a size within the file.
-      unsigned char at_head[8];
-      const auto fourcc = [&](std::uint64_t at) {
-        if (at + 8 > size || !read(at, at_head, 8)) return false;
-        return std::all_of(at_head, at_head + 4, [](unsigned char c) { return c >= 0x20 && c <= 0x7E; }) &&
-               (u32(at_head + 4) <= size - (at + 8) || u32(at_head + 4) == 0xFFFFFFFFu);
-      };
-      const std::string what = "odd-sized chunk without its pad byte: the \"" + std::string(id) +
-                               "\" chunk at byte " + std::to_string(pos) + " holds " +
-                               std::to_string(chunk) + " bytes";
-      if (unpadded == size)
-        return what + " and ends the file, and no " + (aiff ? "SSND" : "data") +
-               " chunk came before it: the file holds no samples";
-      if (!fourcc(next) && fourcc(unpadded))
-        return what + " (RIFF and AIFF require the pad), so every chunk after it is one byte off; "
-                      "rewrite the file with the pad byte";
-    }
+    const std::uint64_t next = pos + 8 + chunk + (chunk & 1);
+    if ((chunk & 1) && pos + 8 + chunk <= size)
+      if (auto problem = missing_pad_problem(size, read, pos, id, chunk, big, aiff)) return problem;
     if (next > size) return cut_in_header(size);
     pos = next;
   }
+}
+
+std::optional<std::string> container_problem(std::uint64_t size, const ReadAt& read) {
+  unsigned char head[16] = {};
+  if (size < 16 || !read(0, head, 16)) {
+    if (size >= 4 && read(0, head, 4)) {
+      const std::string_view tag(reinterpret_cast<const char*>(head), 4);
+      if (tag == "RIFF" || tag == "RIFX" || tag == "RF64" || tag == "BW64" || tag == "FORM" ||
+          tag == "riff")
+        return cut_in_header(size);
+    }
+    return std::nullopt;
+  }
+  if (std::memcmp(head, kW64Riff, 16) == 0) return w64_problem(size, read);
+  const std::string_view tag(reinterpret_cast<const char*>(head), 4);
+  if (tag != "RIFF" && tag != "RIFX" && tag != "RF64" && tag != "BW64" && tag != "FORM") return std::nullopt;
+  return riff_aiff_problem(tag, size, read);
 }
 
 // ---- decoding ----------------------------------------------------------------------------

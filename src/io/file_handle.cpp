@@ -5,6 +5,8 @@
 #include <unistd.h>
 
 #include <cerrno>
+#include <cstdio>
+#include <cstdlib>
 #include <utility>
 
 #include "core/error.hpp"
@@ -23,11 +25,54 @@ FileHandle FileHandle::open_readable(const std::string& path) {
   return file;
 }
 
+FileHandle FileHandle::open_writable(const std::string& path) {
+  int fd = -1;
+  do fd = ::open(path.c_str(), O_WRONLY | O_CLOEXEC | O_NOCTTY);
+  while (fd < 0 && errno == EINTR);  // a FIFO's open waits for a reader, and may be interrupted
+  if (fd < 0) throw IoError(path, "cannot open", errno);
+  return FileHandle(path, fd);
+}
+
+FileHandle FileHandle::create_temporary(std::string& pattern, const std::string& name) {
+  const int fd = ::mkostemp(pattern.data(), O_CLOEXEC);
+  if (fd < 0) throw IoError(name, "cannot create", errno);
+  FileHandle file(name, fd);
+  file.regular_ = true;
+  return file;
+}
+
 FileHandle::FileHandle(FileHandle&& other) noexcept
     : path_(std::move(other.path_)), fd_(std::exchange(other.fd_, -1)), regular_(other.regular_),
       size_(other.size_) {}
 
 FileHandle::~FileHandle() { close(); }
+
+void FileHandle::write_all(std::string_view bytes) {
+  while (!bytes.empty()) {
+    const ssize_t n = ::write(fd_, bytes.data(), bytes.size());
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      throw IoError(path_, "cannot write", errno);
+    }
+    bytes.remove_prefix(static_cast<std::size_t>(n));
+  }
+}
+
+void FileHandle::set_mode(unsigned mode) { ::fchmod(fd_, static_cast<mode_t>(mode)); }
+
+void FileHandle::close_after_sync(bool sync) {
+  // fsync before a rename: otherwise a crash soon after can leave the new name on an empty
+  // file (ext4/xfs delayed allocation). close() reports a write error the kernel deferred.
+  const bool synced = !sync || ::fsync(fd_) == 0;
+  const int sync_errno = errno;
+  const bool closed = ::close(std::exchange(fd_, -1)) == 0;
+  const int close_errno = errno;
+  if (!synced || !closed) throw IoError(path_, "cannot write", synced ? close_errno : sync_errno);
+}
+
+void rename_path(const std::string& from, const std::string& to) {
+  if (::rename(from.c_str(), to.c_str()) != 0) throw IoError(to, "cannot replace with " + from, errno);
+}
 
 void FileHandle::close() {
   // A reader's close cannot lose data, so its result carries nothing to report.

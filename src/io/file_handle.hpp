@@ -1,14 +1,22 @@
 #pragma once
-/// One open file descriptor that closes itself, for every reader that opens a file by path:
-/// open, fstat and the folder check are done once, here, and each failure throws IoError naming
-/// the path and the OS reason (core/error.hpp) — "cannot open" for open, "cannot read" for a
-/// failed fstat or a folder (EISDIR).
+/// One open file descriptor that closes itself, for every reader and writer that opens a file
+/// by path: open, fstat, the folder check, mkostemp, write, fsync and rename are done here, and
+/// each failure throws IoError naming the path and the OS reason (core/error.hpp) — "cannot
+/// open" for open, "cannot read" for a failed fstat or a folder (EISDIR), "cannot create" for a
+/// temporary, "cannot write" for write, fsync and a writer's close.
 ///
 /// Usage:
 ///   const io::FileHandle file = io::FileHandle::open_readable(path);
 ///   if (file.regular()) … ::pread(file.fd(), …) …   // closed when `file` goes out of scope
+///
+///   std::string tmp = "out/.x.csv.tmp-XXXXXX";
+///   io::FileHandle out = io::FileHandle::create_temporary(tmp, "out/x.csv");
+///   out.write_all(text);
+///   out.close_after_sync(true);
+///   io::rename_path(tmp, "out/x.csv");
 #include <cstdint>
 #include <string>
+#include <string_view>
 #include <utility>
 
 namespace periodfit::io {
@@ -17,6 +25,13 @@ class FileHandle {
  public:
   /// Opens `path` read-only (O_CLOEXEC) and stats it; refuses a folder.
   static FileHandle open_readable(const std::string& path);
+  /// Opens the existing node `path` write-only, without O_CREAT or O_TRUNC (a character device
+  /// or a FIFO written in place; O_NOCTTY, so a terminal never becomes the controlling one).
+  static FileHandle open_writable(const std::string& path);
+  /// Creates a new file from `pattern` (ending in XXXXXX, replaced in place by mkostemp; mode
+  /// 0600, O_CLOEXEC). Errors, this one ("cannot create") and the writes' after it, name
+  /// `name`: the file the temporary stands for.
+  static FileHandle create_temporary(std::string& pattern, const std::string& name);
 
   FileHandle(FileHandle&& other) noexcept;
   FileHandle& operator=(FileHandle&&) = delete;
@@ -34,6 +49,14 @@ class FileHandle {
   /// Gives the descriptor to a caller that closes it itself (libsndfile's sf_open_fd).
   int release() { return std::exchange(fd_, -1); }
 
+  /// Writes all of `bytes` (retrying short writes and EINTR); IoError(path, "cannot write").
+  void write_all(std::string_view bytes);
+  /// Sets the permission bits, best effort (a result file is readable as the umask allows).
+  void set_mode(unsigned mode);
+  /// A writer's close: fsync first when `sync` (a device or FIFO has nothing to sync), then
+  /// close; closed either way, and IoError(path, "cannot write", the first failure's reason).
+  void close_after_sync(bool sync);
+
  private:
   FileHandle(std::string path, int fd) : path_(std::move(path)), fd_(fd) {}
   std::string path_;
@@ -41,5 +64,9 @@ class FileHandle {
   bool regular_ = false;
   std::uint64_t size_ = 0;
 };
+
+/// Renames `from` over `to` (atomic on POSIX file systems); IoError naming both paths:
+/// "<to>: cannot replace with <from>: <reason>".
+void rename_path(const std::string& from, const std::string& to);
 
 }  // namespace periodfit::io

@@ -18,10 +18,13 @@
 #include <cstddef>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
 
+#include "io/file_handle.hpp"
 #include "io/input_limits.hpp"
+#include "io/interrupt_cleanup.hpp"
 
 namespace periodfit::io {
 
@@ -49,8 +52,8 @@ void write_stdout(std::string_view bytes);
 /// temporary `.<name>.tmp-XXXXXX` beside `path`, write() appends (through a 64 KiB buffer, so
 /// memory stays bounded whatever the file's size), commit() flushes, fsyncs and renames it over
 /// `path`. Destroyed without commit() (an exception, an early return) it removes the temporary
-/// and leaves `path` as it was. While it exists the temporary is listed for
-/// install_interrupt_cleanup, so SIGINT/SIGTERM/SIGHUP remove it too. `path == "-"` writes to
+/// and leaves `path` as it was. While it exists the temporary is registered with
+/// io::InterruptCleanup, so SIGINT/SIGTERM/SIGHUP remove it too (with the handler main installs). `path == "-"` writes to
 /// standard output instead, and a character device or FIFO is written in place (neither can be
 /// atomic; commit() flushes and checks). A FIFO's open waits for a reader, as FIFOs do. Not
 /// thread-safe: one writer.
@@ -82,13 +85,14 @@ class AtomicFile {
 
  private:
   void flush_buffer();
+  void write_through(std::string_view bytes);  ///< unbuffered; marks the file failed on an error
 
   std::string path_;
   OutputKind kind_ = OutputKind::replace;
   std::string target_;       ///< path_ with symbolic links resolved: what the rename replaces
   std::string temp_;         ///< the temporary's path; empty unless kind_ == replace
-  int fd_ = -1;              ///< open while writing; closed by finish or the destructor
-  std::size_t slot_;         ///< its entry in the interrupt-cleanup registry
+  std::optional<FileHandle> file_;  ///< open while writing; closed by finish or the destructor
+  InterruptCleanup cleanup_;  ///< the temporary, registered until published or removed
   std::unique_ptr<char[]> buffer_;
   std::size_t buffered_ = 0;
   bool failed_ = false;      ///< a write failed: commit() refuses
@@ -99,12 +103,6 @@ class AtomicFile {
 /// Writes `content` to `path` atomically (one AtomicFile). `path == "-"` writes to standard
 /// output instead.
 void write_file_atomic(const std::string& path, std::string_view content);
-
-/// Installs SIGINT/SIGTERM/SIGHUP handlers that remove every temporary file still being written
-/// by an AtomicFile (write_file_atomic included), then let the signal end the process as it
-/// would have. Call once at program start (the CLI does), so an interrupted run leaves no
-/// partial output behind.
-void install_interrupt_cleanup();
 
 /// Called after each chunk read by read_file with the bytes so far and how many there were
 /// before the chunk; it may throw to stop the read (the file is closed either way).
