@@ -84,7 +84,30 @@ struct Sensitivity {
   std::vector<double> re, im;
 };
 
-/// `dc_input_var`: u²(Y_0) from the input's dc, H(0)²·u²(X_0).
+/// var + u² from the model parameters, gradᵀ·C·grad (grad = ∂Q/∂θ), added term by term.
+double add_model_variance(double var, const std::vector<double>& grad, const std::vector<std::vector<double>>& cov) {
+  for (std::size_t k = 0; k < grad.size(); ++k)
+    for (std::size_t l = 0; l < grad.size(); ++l) var += grad[k] * cov[k][l] * grad[l];
+  return var;
+}
+
+/// u² from a measured point's (Re H, Im H) covariance, given ∂Q/∂Re Y and ∂Q/∂Im Y.
+double measured_variance(const Term& t, double q_re, double q_im) {
+  // δY = X·δH: ∂Q/∂Re H, ∂Q/∂Im H from ∂Q/∂Re Y, ∂Q/∂Im Y.
+  const double dr = q_re * t.x.real() + q_im * t.x.imag();
+  const double di = -q_re * t.x.imag() + q_im * t.x.real();
+  return dr * dr * t.var_re + di * di * t.var_im + 2 * dr * di * t.cov;
+}
+
+/// u² from the input phasor's (Re X, Im X) covariance, given ∂Q/∂Re Y and ∂Q/∂Im Y.
+double input_variance(const Term& t, double q_re, double q_im) {
+  // δY = H·δX: ∂Q/∂Re X, ∂Q/∂Im X (JCGM 100 §5.1.2, input and system independent).
+  const double dr = q_re * t.h.real() + q_im * t.h.imag();
+  const double di = -q_re * t.h.imag() + q_im * t.h.real();
+  return dr * dr * t.x_rr + di * di * t.x_ii + 2 * dr * di * t.x_ri;
+}
+
+/// `dc_input_var`: u²(Y_0) from the input's dc, H(0)²·u²(X_0). O(terms·p + p²).
 double propagate(const Sensitivity& s, const std::vector<Term>& terms,
                  const std::vector<std::complex<double>>& dc_g,
                  const std::vector<std::vector<double>>& cov, double dc_input_var) {
@@ -98,24 +121,29 @@ double propagate(const Sensitivity& s, const std::vector<Term>& terms,
       for (std::size_t k = 0; k < p; ++k)
         grad[k] += s.re[i] * terms[i].g[k].real() + s.im[i] * terms[i].g[k].imag();
     }
-    for (std::size_t k = 0; k < p; ++k)
-      for (std::size_t l = 0; l < p; ++l) var += grad[k] * cov[k][l] * grad[l];
+    var = add_model_variance(var, grad, cov);
   }
-  for (std::size_t i = 0; i < terms.size(); ++i) {
-    const Term& t = terms[i];
-    if (!t.measured) continue;
-    // δY = X·δH: ∂Q/∂Re H, ∂Q/∂Im H from ∂Q/∂Re Y, ∂Q/∂Im Y.
-    const double dr = s.re[i] * t.x.real() + s.im[i] * t.x.imag();
-    const double di = -s.re[i] * t.x.imag() + s.im[i] * t.x.real();
-    var += dr * dr * t.var_re + di * di * t.var_im + 2 * dr * di * t.cov;
+  for (std::size_t i = 0; i < terms.size(); ++i)
+    if (terms[i].measured) var += measured_variance(terms[i], s.re[i], s.im[i]);
+  for (std::size_t i = 0; i < terms.size(); ++i) var += input_variance(terms[i], s.re[i], s.im[i]);
+  return std::max(0.0, var);
+}
+
+/// propagate() for a quantity that depends on one output phasor Y_n only (its amplitude or
+/// phase), with ∂Q/∂Re Y_n = q_re, ∂Q/∂Im Y_n = q_im: O(p²), not O(terms·p). Called once per
+/// harmonic, the dense form made the harmonic table O(N²) (a square wave's automatic count,
+/// ~4e5 harmonics, ran for many minutes). The skipped terms of the dense sum are exact zeros,
+/// so the value is the same to the last bit.
+double propagate_one(const Term& t, double q_re, double q_im, const std::vector<std::vector<double>>& cov) {
+  double var = 0;
+  if (!cov.empty()) {
+    std::vector<double> grad(cov.size(), 0.0);
+    if (!t.measured)
+      for (std::size_t k = 0; k < grad.size(); ++k) grad[k] = q_re * t.g[k].real() + q_im * t.g[k].imag();
+    var = add_model_variance(var, grad, cov);
   }
-  for (std::size_t i = 0; i < terms.size(); ++i) {
-    const Term& t = terms[i];
-    // δY = H·δX: ∂Q/∂Re X, ∂Q/∂Im X (JCGM 100 §5.1.2, input and system independent).
-    const double dr = s.re[i] * t.h.real() + s.im[i] * t.h.imag();
-    const double di = -s.re[i] * t.h.imag() + s.im[i] * t.h.real();
-    var += dr * dr * t.x_rr + di * di * t.x_ii + 2 * dr * di * t.x_ri;
-  }
+  if (t.measured) var += measured_variance(t, q_re, q_im);
+  var += input_variance(t, q_re, q_im);
   return std::max(0.0, var);
 }
 
@@ -365,17 +393,10 @@ PredictResult predict_steady_state(const dsp::SeriesTruncation& input, const Pre
     h.phase_deg = phase_deg(t.y);
     h.source = t.measured ? "measured" : "model";
     if (r.has_uncertainty && h.amplitude > 0) {
-      Sensitivity sa, sp;
-      sa.re.assign(terms.size(), 0.0);
-      sa.im.assign(terms.size(), 0.0);
-      sp = sa;
       // |Y|: ∂/∂(Re, Im) = (Re Y, Im Y)/|Y|;  ∠Y: (−Im Y, Re Y)/|Y|².
-      sa.re[i] = t.y.real() / h.amplitude;
-      sa.im[i] = t.y.imag() / h.amplitude;
-      sp.re[i] = -t.y.imag() / std::norm(t.y);
-      sp.im[i] = t.y.real() / std::norm(t.y);
-      h.amplitude_u = std::sqrt(propagate(sa, terms, dc_g, cov, dc_input_var));
-      h.phase_u_deg = std::sqrt(propagate(sp, terms, dc_g, cov, dc_input_var)) * 180 / kPi;
+      h.amplitude_u = std::sqrt(propagate_one(t, t.y.real() / h.amplitude, t.y.imag() / h.amplitude, cov));
+      h.phase_u_deg =
+          std::sqrt(propagate_one(t, -t.y.imag() / std::norm(t.y), t.y.real() / std::norm(t.y), cov)) * 180 / kPi;
     }
     r.harmonics_out.push_back(std::move(h));
   }
