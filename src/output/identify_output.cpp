@@ -102,7 +102,9 @@ std::string interval_cell(double lo, double hi, double u) {
 
 /// A value with its standard uncertainty, stated as everywhere else (format_with_u: GUM
 /// digits, "value unit, u = u unit"); "u undefined" where first-order theory gives none.
-std::string with_u(double v, double u, bool defined, const char* unit = "") {
+/// Not an overload of with_u: a string literal converts to bool before string_view, so
+/// with_u(v, u, "Hz") picked this one and dropped the unit (the frf text's f0 and delay lines).
+std::string with_u_if(double v, double u, bool defined, const char* unit = "") {
   if (defined && std::isfinite(u)) return format_with_u(v, u, unit);
   return sig(v) + (*unit ? std::string(" ") + unit : std::string()) + ", u undefined";
 }
@@ -118,14 +120,14 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
   RootCells c;
   if (p.is_real) {
     c.kind = p.value.real() == 0 ? "real, at s = 0" : "real";
-    c.freq = with_u(std::abs(p.value.real()) * kRadToHz, p.re_u * kRadToHz, d, hz);
-    c.tau = p.time_constant_s != 0 ? with_u(p.time_constant_s, p.time_constant_u_s, d, s) : "-";
+    c.freq = with_u_if(std::abs(p.value.real()) * kRadToHz, p.re_u * kRadToHz, d, hz);
+    c.tau = p.time_constant_s != 0 ? with_u_if(p.time_constant_s, p.time_constant_u_s, d, s) : "-";
     c.damping = c.q = "-";
   } else {
     c.kind = "complex pair";
-    c.freq = with_u(p.natural_frequency_rad_s * kRadToHz, p.natural_frequency_u_rad_s * kRadToHz, d, hz);
-    c.damping = with_u(p.damping_ratio, p.damping_ratio_u, d);
-    c.q = p.damping_ratio != 0 ? with_u(p.q_factor, p.q_factor_u, d) : std::string("infinite (ζ = 0)");
+    c.freq = with_u_if(p.natural_frequency_rad_s * kRadToHz, p.natural_frequency_u_rad_s * kRadToHz, d, hz);
+    c.damping = with_u_if(p.damping_ratio, p.damping_ratio_u, d);
+    c.q = p.damping_ratio != 0 ? with_u_if(p.q_factor, p.q_factor_u, d) : std::string("infinite (ζ = 0)");
     c.tau = "-";
   }
   return c;
