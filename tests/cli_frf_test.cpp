@@ -99,6 +99,10 @@ TEST_CASE("cli frf: report with header, FRF table, linearity and flags") {
   CHECK(l[0] == "input   " + dir.file("rc.csv") + " \"v_in\" [V]");
   CHECK(l[1] == "output  " + dir.file("rc.csv") + " \"v_out\" [V]");
   CHECK(l[2].substr(0, 8) == "f0      ");
+  // f0 carries its unit on the value and on u, as every "value unit, u = u unit" line does
+  // (format_with_u); an overload picked by the string literal dropped both (fixed in session 4).
+  CHECK(l[2].find(" Hz, u = ") != std::string::npos);
+  CHECK(l[2].find(" Hz (") != std::string::npos);
   // The square wave's odd harmonics stand out of the noise well above the 31 asked for
   // (4/(nπ) through the RC, σ = 1e-3): the selection says so, and harmonics-truncated is raised.
   CHECK(l[3].rfind("grid    12 periods × 400 samples, harmonics 1…31 (given; Holm F test at α = 0.01 (per-period "
@@ -120,6 +124,22 @@ TEST_CASE("cli frf: report with header, FRF table, linearity and flags") {
   // (scipy.stats.f.isf(0.001/15, 2, 22) = 15.366, 10·log10 = 11.87).
   CHECK(l[26] == "linearity: linear (15 unexcited harmonics tested, threshold 11.9 dB above the output noise floor)");
   CHECK(l.back() == "flags: harmonics-truncated");
+}
+
+TEST_CASE("cli frf: an estimated delay is stated with its unit on the value and on u") {
+  // The text's delay line, like f0's, lost "s" to the same overload (fixed in session 4).
+  const TempDir dir("cli_identify_delay_unit");
+  auto s = rc_square(12, 1e-3, 1);
+  write_text(dir.file("rc.csv"), csv({&s.u, &s.y}, {"v_in", "v_out"}));
+  const auto r = run_cli("frf " + q(dir.file("rc.csv")) +
+                         " --input v_in --output v_out --f0-hint 50 --harmonics 31 --order 0/1 --delay");
+  REQUIRE(r.exit_code == 0);
+  const auto at = r.out.find("\n  delay     ");
+  REQUIRE(at != std::string::npos);
+  const std::string line = r.out.substr(at + 1, r.out.find('\n', at + 1) - at - 1);
+  CAPTURE(line);
+  CHECK(line.find(" s, u = ") != std::string::npos);
+  CHECK(line.substr(line.size() - 2) == " s");
 }
 
 TEST_CASE("cli frf: --json - holds the documented keys; RC pole within 3 sigma and 1 %") {

@@ -301,6 +301,36 @@ TEST_CASE("superposition: propagated uncertainty matches finite differences") {
                        .epsilon(1e-12));
 }
 
+TEST_CASE("superposition: per-harmonic uncertainties of a 400 000-harmonic square take linear time") {
+  // A square wave's automatic count (energy bound 1e-6, 1/n² tail) is ~4.05e5 harmonics. Each
+  // harmonic's u(|Y_n|) and u(∠Y_n) depends on Y_n alone; propagating it through the whole
+  // sensitivity vector made the table O(N²): this very problem ran for more than 10 minutes at
+  // 100 % CPU, beyond the 300 s ctest timeout of this file, and now takes well under a second.
+  // The guard is that bound, not a clock. The values are checked against the closed form of
+  // the RC gain H = b0/(a0 + jω): |Y_n| = b0·|X_n|/sqrt(a0² + ω²), so
+  // ∂|Y_n|/∂b0 = |Y_n|/b0 and ∂|Y_n|/∂a0 = −|Y_n|·a0/(a0² + ω²) (GUM JCGM 100 §5.1.2).
+  constexpr double kClosedFormRel = 1e-12;  // a few roundings in H, ∂H/∂θ and the quadratic form
+  const auto w = wave(WaveKind::square, 1, 500);
+  predict::PredictOptions o;
+  o.default_samples_per_period = 16;  // the samples are not what is timed here
+  const dsp::SeriesTruncation input = dsp::truncate_series(w, o.truncation);
+  REQUIRE(input.harmonics > 400000);  // the automatic count of the report (405285)
+  predict::PredictSystem sys;
+  sys.model = uncertain_rc();
+  const auto r = predict::predict_steady_state(input, sys, o, {});
+  REQUIRE(r.has_uncertainty);
+  REQUIRE(r.harmonics_out.size() == static_cast<std::size_t>((input.harmonics + 1) / 2));  // odd n only
+  const auto& c = sys.model->covariance;
+  for (const std::size_t i : {std::size_t{0}, std::size_t{7}, r.harmonics_out.size() - 1}) {
+    const auto& h = r.harmonics_out[i];
+    INFO("harmonic " << h.n);
+    const double omega = 2 * kPi * h.freq_hz, a0 = 1000, b0 = 1000;
+    const double g_b0 = h.amplitude / b0, g_a0 = -h.amplitude * a0 / (a0 * a0 + omega * omega);
+    const double want = std::sqrt(g_b0 * g_b0 * c[0][0] + 2 * g_b0 * g_a0 * c[0][1] + g_a0 * g_a0 * c[1][1]);
+    CHECK(h.amplitude_u == doctest::Approx(want).epsilon(kClosedFormRel));
+  }
+}
+
 TEST_CASE("superposition: propagated uncertainty matches a Monte Carlo over the model covariance") {
   // Draws θ ~ N(θ̂, C) (Cholesky of C), predicts each, and compares the sample standard
   // deviations with the reported u. 2000 draws: the sd of a sample sd is 1/sqrt(2·2000) = 1.6 %;

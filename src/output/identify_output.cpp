@@ -102,7 +102,9 @@ std::string interval_cell(double lo, double hi, double u) {
 
 /// A value with its standard uncertainty, stated as everywhere else (format_with_u: GUM
 /// digits, "value unit, u = u unit"); "u undefined" where first-order theory gives none.
-std::string with_u(double v, double u, bool defined, const char* unit = "") {
+/// Not an overload of with_u: a string literal converts to bool before string_view, so
+/// with_u(v, u, "Hz") picked this one and dropped the unit (the frf text's f0 and delay lines).
+std::string with_u_if(double v, double u, bool defined, const char* unit = "") {
   if (defined && std::isfinite(u)) return format_with_u(v, u, unit);
   return sig(v) + (*unit ? std::string(" ") + unit : std::string()) + ", u undefined";
 }
@@ -118,14 +120,14 @@ RootCells root_cells(const Root& p, const char* hz, const char* s) {
   RootCells c;
   if (p.is_real) {
     c.kind = p.value.real() == 0 ? "real, at s = 0" : "real";
-    c.freq = with_u(std::abs(p.value.real()) * kRadToHz, p.re_u * kRadToHz, d, hz);
-    c.tau = p.time_constant_s != 0 ? with_u(p.time_constant_s, p.time_constant_u_s, d, s) : "-";
+    c.freq = with_u_if(std::abs(p.value.real()) * kRadToHz, p.re_u * kRadToHz, d, hz);
+    c.tau = p.time_constant_s != 0 ? with_u_if(p.time_constant_s, p.time_constant_u_s, d, s) : "-";
     c.damping = c.q = "-";
   } else {
     c.kind = "complex pair";
-    c.freq = with_u(p.natural_frequency_rad_s * kRadToHz, p.natural_frequency_u_rad_s * kRadToHz, d, hz);
-    c.damping = with_u(p.damping_ratio, p.damping_ratio_u, d);
-    c.q = p.damping_ratio != 0 ? with_u(p.q_factor, p.q_factor_u, d) : std::string("infinite (ζ = 0)");
+    c.freq = with_u_if(p.natural_frequency_rad_s * kRadToHz, p.natural_frequency_u_rad_s * kRadToHz, d, hz);
+    c.damping = with_u_if(p.damping_ratio, p.damping_ratio_u, d);
+    c.q = p.damping_ratio != 0 ? with_u_if(p.q_factor, p.q_factor_u, d) : std::string("infinite (ζ = 0)");
     c.tau = "-";
   }
   return c;
@@ -142,6 +144,122 @@ std::string row_number(double v) {
 std::string row_with_u(double value, double u, const std::string& unit) {
   if (!std::isfinite(u)) return unit.empty() ? row_number(value) : row_number(value) + " " + unit;
   return format_with_u(value, u, unit);
+}
+
+}  // namespace
+
+namespace {
+
+json frf_point_json(const FrfHarmonic& p) {
+  return json{{"n", p.n},
+              {"freq_hz", output::json_number(p.freq_hz)},
+              {"re", output::json_number(p.re)},
+              {"im", output::json_number(p.im)},
+              {"mag", output::json_number(p.mag)},
+              {"mag_db", output::json_number(p.mag_db)},
+              {"phase_deg", output::json_number(p.phase_deg)},
+              {"mag_u", output::json_number(p.mag_u)},
+              {"phase_u_deg", output::json_number(p.phase_u_deg)},
+              {"mag_db_u", output::json_number(p.mag_db_u)},
+              {"mag_lo", output::json_number(p.mag_lo)},
+              {"mag_hi", output::json_number(p.mag_hi)},
+              {"phase_lo_deg", output::json_number(p.phase_lo_deg)},
+              {"phase_hi_deg", output::json_number(p.phase_hi_deg)},
+              {"phase_defined", p.phase_defined},
+              {"phase_note", p.phase_defined ? json(nullptr) : json("undefined: |H| consistent with 0")},
+              {"var_re", output::json_number(p.var_re)},
+              {"var_im", output::json_number(p.var_im)},
+              {"cov_re_im", output::json_number(p.cov_re_im)},
+              {"input_snr_db", output::json_number(p.input_snr_db)}};
+}
+
+json linearity_json(const LinearityResult& l) {
+  json lin;
+  lin["status"] = code(l.status);
+  lin["reason"] = l.reason;
+  lin["nonlinear"] = l.nonlinear;
+  lin["method"] = l.method;
+  lin["tested"] = l.tested;
+  lin["dof"] = l.dof;
+  lin["threshold_db"] = output::json_number(l.threshold_db);
+  lin["level_db"] = optional_number(l.level_db);
+  lin["odd_level_db"] = optional_number(l.odd_level_db);
+  lin["even_level_db"] = optional_number(l.even_level_db);
+  lin["odd"] = json::array();
+  for (const auto& line : l.odd) lin["odd"].push_back(line_json(line));
+  lin["even"] = json::array();
+  for (const auto& line : l.even) lin["even"].push_back(line_json(line));
+  return lin;
+}
+
+/// The fitted parameters with u and the interval at coverage factor k_model, the covariance,
+/// and the order trials when the order was chosen automatically.
+void add_parameters_json(const RationalFitResult& f, double k_model, json& m) {
+  m["parameters"] = json::array();
+  for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
+    const double value = parameter_value(f, i);
+    const double u = i < f.parameter_u.size() ? f.parameter_u[i] : std::nan("");
+    m["parameters"].push_back(json{{"name", f.parameter_names[i]},
+                                   {"value", output::json_number(value)},
+                                   {"u", output::json_number(u)},
+                                   {"lo", output::json_number(value - k_model * u)},
+                                   {"hi", output::json_number(value + k_model * u)}});
+  }
+  m["covariance"] = json::array();
+  for (const auto& row : f.model.covariance) {
+    json jr = json::array();
+    for (double v : row) jr.push_back(output::json_number(v));
+    m["covariance"].push_back(jr);
+  }
+}
+
+json model_json(const RationalFitResult& f, double model_confidence) {
+  json m;
+  m["order"] = order_text(f.order);
+  m["order_decided_by"] = f.order_decided_by;
+  m["num"] = json::array();
+  for (double v : f.model.num) m["num"].push_back(output::json_number(v));
+  m["den"] = json::array();
+  for (double v : f.model.den) m["den"].push_back(output::json_number(v));
+  m["delay_s"] = output::json_number(f.delay_s);
+  m["delay_u_s"] = output::json_number(f.delay_u_s);
+  m["delay_estimated"] = f.model.delay_estimated;
+  m["poles"] = json::array();
+  for (const auto& p : f.poles) m["poles"].push_back(root_json(p));
+  m["zeros"] = json::array();
+  for (const auto& z : f.zeros) m["zeros"].push_back(root_json(z));
+  m["dc_gain"] = f.dc_gain_defined ? output::json_number(f.dc_gain) : json(nullptr);
+  m["dc_gain_u"] = f.dc_gain_defined ? output::json_number(f.dc_gain_u) : json(nullptr);
+  m["cost"] = output::json_number(f.cost);
+  m["dof"] = f.dof;
+  m["chi2_lower"] = output::json_number(f.chi2_lower);
+  m["chi2_upper"] = output::json_number(f.chi2_upper);
+  m["cost_expected"] = output::json_number(f.cost_expected);
+  m["band_method"] = f.band_method;
+  m["adequate"] = f.adequate;
+  m["unstable"] = f.unstable;
+  // The parameter covariance carries the estimated-weights inflation, so the normal quantile
+  // gives the interval (ident/cost_band.hpp, covariance_inflation).
+  const double k_model = coverage_factor(model_confidence, 0);
+  add_parameters_json(f, k_model, m);
+  m["coverage_factor"] = output::json_number(k_model);
+  m["covariance_inflation"] = output::json_number(f.covariance_inflation);
+  m["condition_number"] = output::json_number(f.condition_number);
+  m["method"] = f.method;
+  m["fit_status"] = to_string(f.status);
+  if (!f.order_trials.empty()) {
+    m["order_trials"] = json::array();
+    for (const auto& t : f.order_trials)
+      m["order_trials"].push_back(json{{"order", order_text(t.order)},
+                                       {"parameters", t.parameters},
+                                       {"cost", t.failed ? json(nullptr) : output::json_number(t.cost)},
+                                       {"dof", t.dof},
+                                       {"chi2_upper", output::json_number(t.chi2_upper)},
+                                       {"passed", t.passed},
+                                       {"failed", t.failed},
+                                       {"note", t.note}});
+  }
+  return m;
 }
 
 }  // namespace
@@ -167,118 +285,18 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["coverage_factor"] = output::json_number(r.frf.coverage_factor);
   j["quantile"] = r.frf.quantile;
   json frf = json::array();
-  for (const auto& p : r.frf.points) {
-    frf.push_back(json{{"n", p.n},
-                       {"freq_hz", output::json_number(p.freq_hz)},
-                       {"re", output::json_number(p.re)},
-                       {"im", output::json_number(p.im)},
-                       {"mag", output::json_number(p.mag)},
-                       {"mag_db", output::json_number(p.mag_db)},
-                       {"phase_deg", output::json_number(p.phase_deg)},
-                       {"mag_u", output::json_number(p.mag_u)},
-                       {"phase_u_deg", output::json_number(p.phase_u_deg)},
-                       {"mag_db_u", output::json_number(p.mag_db_u)},
-                       {"mag_lo", output::json_number(p.mag_lo)},
-                       {"mag_hi", output::json_number(p.mag_hi)},
-                       {"phase_lo_deg", output::json_number(p.phase_lo_deg)},
-                       {"phase_hi_deg", output::json_number(p.phase_hi_deg)},
-                       {"phase_defined", p.phase_defined},
-                       {"phase_note", p.phase_defined ? json(nullptr) : json("undefined: |H| consistent with 0")},
-                       {"var_re", output::json_number(p.var_re)},
-                       {"var_im", output::json_number(p.var_im)},
-                       {"cov_re_im", output::json_number(p.cov_re_im)},
-                       {"input_snr_db", output::json_number(p.input_snr_db)}});
-  }
+  for (const auto& p : r.frf.points) frf.push_back(frf_point_json(p));
   j["frf"] = frf;
-  json lin;
-  lin["status"] = code(r.linearity.status);
-  lin["reason"] = r.linearity.reason;
-  lin["nonlinear"] = r.linearity.nonlinear;
-  lin["method"] = r.linearity.method;
-  lin["tested"] = r.linearity.tested;
-  lin["dof"] = r.linearity.dof;
-  lin["threshold_db"] = output::json_number(r.linearity.threshold_db);
-  lin["level_db"] = optional_number(r.linearity.level_db);
-  lin["odd_level_db"] = optional_number(r.linearity.odd_level_db);
-  lin["even_level_db"] = optional_number(r.linearity.even_level_db);
-  lin["odd"] = json::array();
-  for (const auto& l : r.linearity.odd) lin["odd"].push_back(line_json(l));
-  lin["even"] = json::array();
-  for (const auto& l : r.linearity.even) lin["even"].push_back(line_json(l));
-  j["linearity"] = lin;
-  if (r.model) {
-    const RationalFitResult& f = *r.model;
-    json m;
-    m["order"] = order_text(f.order);
-    m["order_decided_by"] = f.order_decided_by;
-    m["num"] = json::array();
-    for (double v : f.model.num) m["num"].push_back(output::json_number(v));
-    m["den"] = json::array();
-    for (double v : f.model.den) m["den"].push_back(output::json_number(v));
-    m["delay_s"] = output::json_number(f.delay_s);
-    m["delay_u_s"] = output::json_number(f.delay_u_s);
-    m["delay_estimated"] = f.model.delay_estimated;
-    m["poles"] = json::array();
-    for (const auto& p : f.poles) m["poles"].push_back(root_json(p));
-    m["zeros"] = json::array();
-    for (const auto& z : f.zeros) m["zeros"].push_back(root_json(z));
-    m["dc_gain"] = f.dc_gain_defined ? output::json_number(f.dc_gain) : json(nullptr);
-    m["dc_gain_u"] = f.dc_gain_defined ? output::json_number(f.dc_gain_u) : json(nullptr);
-    m["cost"] = output::json_number(f.cost);
-    m["dof"] = f.dof;
-    m["chi2_lower"] = output::json_number(f.chi2_lower);
-    m["chi2_upper"] = output::json_number(f.chi2_upper);
-    m["cost_expected"] = output::json_number(f.cost_expected);
-    m["band_method"] = f.band_method;
-    m["adequate"] = f.adequate;
-    m["unstable"] = f.unstable;
-    // The parameter covariance carries the estimated-weights inflation, so the normal quantile
-    // gives the interval (ident/cost_band.hpp, covariance_inflation).
-    const double k_model = coverage_factor(r.model_confidence, 0);
-    m["parameters"] = json::array();
-    for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
-      const double value = parameter_value(f, i);
-      const double u = i < f.parameter_u.size() ? f.parameter_u[i] : std::nan("");
-      m["parameters"].push_back(json{{"name", f.parameter_names[i]},
-                                     {"value", output::json_number(value)},
-                                     {"u", output::json_number(u)},
-                                     {"lo", output::json_number(value - k_model * u)},
-                                     {"hi", output::json_number(value + k_model * u)}});
-    }
-    m["covariance"] = json::array();
-    for (const auto& row : f.model.covariance) {
-      json jr = json::array();
-      for (double v : row) jr.push_back(output::json_number(v));
-      m["covariance"].push_back(jr);
-    }
-    m["coverage_factor"] = output::json_number(k_model);
-    m["covariance_inflation"] = output::json_number(f.covariance_inflation);
-    m["condition_number"] = output::json_number(f.condition_number);
-    m["method"] = f.method;
-    m["fit_status"] = to_string(f.status);
-    if (!f.order_trials.empty()) {
-      m["order_trials"] = json::array();
-      for (const auto& t : f.order_trials)
-        m["order_trials"].push_back(json{{"order", order_text(t.order)},
-                                         {"parameters", t.parameters},
-                                         {"cost", t.failed ? json(nullptr) : output::json_number(t.cost)},
-                                         {"dof", t.dof},
-                                         {"chi2_upper", output::json_number(t.chi2_upper)},
-                                         {"passed", t.passed},
-                                         {"failed", t.failed},
-                                         {"note", t.note}});
-    }
-    j["model"] = m;
-  } else {
-    j["model"] = nullptr;
-  }
+  j["linearity"] = linearity_json(r.linearity);
+  j["model"] = r.model ? model_json(*r.model, r.model_confidence) : json(nullptr);
   j["flags"] = codes(r.flags);
   return j;
 }
 
-std::string format_identify_report(const IdentifyResult& r) {
-  std::string out;
-  const std::string unit = h_unit(r);
+namespace {
+
+/// The key-value head: input, output, f0, grid, frf method, skew.
+std::string report_head(const IdentifyResult& r) {
   std::vector<std::pair<std::string, std::string>> head{
       {"input", r.input_source + " \"" + r.input_channel + "\"" + (r.input_unit.empty() ? "" : " [" + r.input_unit + "]")},
       {"output", r.output_source + " \"" + r.output_channel + "\"" + (r.output_unit.empty() ? "" : " [" + r.output_unit + "]")},
@@ -292,8 +310,11 @@ std::string format_identify_report(const IdentifyResult& r) {
                   format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
   if (r.skew_s != 0) head.push_back({"skew", format_shortest(r.skew_s) + " s (output lag removed)"});
-  out += render_key_values(head);
-  out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
+  return render_key_values(head);
+}
+
+/// The frequency-response table.
+std::string frf_table(const IdentifyResult& r) {
   // u(…) columns are standard uncertainties; the interval columns are the expanded intervals
   // at the level and k of the "frf" line, their level in the header.
   const std::string pct = format_fixed(100 * r.frf.confidence, 0) + " %";
@@ -311,54 +332,69 @@ std::string format_identify_report(const IdentifyResult& r) {
     row.push_back(format_fixed(p.input_snr_db, 1));
     t.add_row(std::move(row));
   }
-  out += t.render(2);
+  return t.render(2);
+}
 
-  out += "\nlinearity: " + std::string(code(r.linearity.status));
-  if (r.linearity.status != LinearityStatus::untested)
-    out += " (" + std::to_string(r.linearity.tested) + " unexcited harmonics tested, threshold " +
-           format_fixed(r.linearity.threshold_db, 1) + " dB above the output noise floor)";
-  else if (!r.linearity.reason.empty())
-    out += ": " + r.linearity.reason;
+/// The linearity verdict and the even/odd distortion lines found.
+std::string linearity_text(const LinearityResult& l) {
+  std::string out = "\nlinearity: " + std::string(code(l.status));
+  if (l.status != LinearityStatus::untested)
+    out += " (" + std::to_string(l.tested) + " unexcited harmonics tested, threshold " +
+           format_fixed(l.threshold_db, 1) + " dB above the output noise floor)";
+  else if (!l.reason.empty())
+    out += ": " + l.reason;
   out += "\n";
   const auto lines = [&](const char* parity, const std::vector<DistortionLine>& ls,
                          const std::optional<double>& level) {
     if (ls.empty()) return;
     std::vector<int> ns;
-    for (const auto& l : ls) ns.push_back(l.n);
+    for (const auto& line : ls) ns.push_back(line.n);
     out += std::string("  ") + parity + " harmonics " + list_harmonics(ns) + ": " +
            format_fixed(level.value_or(0), 1) + " dB relative to the excited output power\n";
   };
-  lines("even", r.linearity.even, r.linearity.even_level_db);
-  lines("odd", r.linearity.odd, r.linearity.odd_level_db);
+  lines("even", l.even, l.even_level_db);
+  lines("odd", l.odd, l.odd_level_db);
+  return out;
+}
 
-  if (r.model) {
-    const RationalFitResult& f = *r.model;
-    out += "\nmodel " + order_text(f.order) + " (" + f.order_decided_by + "), " + f.method + "\n";
-    Table pt({{"parameter", Table::Align::left}, {"value"}, {"u"}});
-    for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
-      const double value = parameter_value(f, i);
-      std::vector<std::string> row{f.parameter_names[i]};
-      if (i < f.parameter_u.size())
-        add_value_u(row, value, f.parameter_u[i]);
-      else
-        row.insert(row.end(), {sig(value, 8), "-"});
-      pt.add_row(std::move(row));
-    }
-    out += pt.render(2);
-    out += "  a" + std::to_string(f.model.den.size() - 1) + " = 1 (monic); s in rad/s\n";
-    out += "  dc gain   " + (f.dc_gain_defined ? with_u(f.dc_gain, f.dc_gain_u, unit) : std::string("infinite (pole at 0)")) + "\n";
-    out += "  delay     " + (f.model.delay_estimated ? with_u(f.delay_s, f.delay_u_s, "s") : sig(f.delay_s) + " s (not estimated)") + "\n";
-    const auto roots = [&](const char* title, const std::vector<Root>& rs) {
-      if (rs.empty()) return;
-      out += std::string("\n") + title + "\n" + format_roots_table(rs);
-    };
-    roots("poles", f.poles);
-    roots("zeros", f.zeros);
-    out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " +
-           format_fixed(100 * r.model_confidence, 0) + " % band [" + sig(f.chi2_lower) + ", " +
-           sig(f.chi2_upper) + "] (" + band_text(f.band_method) + ", expected " + sig(f.cost_expected) +
-           "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
+/// The fitted model: parameters, dc gain, delay, poles, zeros and the cost test.
+std::string model_text(const RationalFitResult& f, double model_confidence, const std::string& unit) {
+  std::string out = "\nmodel " + order_text(f.order) + " (" + f.order_decided_by + "), " + f.method + "\n";
+  Table pt({{"parameter", Table::Align::left}, {"value"}, {"u"}});
+  for (std::size_t i = 0; i < f.parameter_names.size(); ++i) {
+    const double value = parameter_value(f, i);
+    std::vector<std::string> row{f.parameter_names[i]};
+    if (i < f.parameter_u.size())
+      add_value_u(row, value, f.parameter_u[i]);
+    else
+      row.insert(row.end(), {sig(value, 8), "-"});
+    pt.add_row(std::move(row));
   }
+  out += pt.render(2);
+  out += "  a" + std::to_string(f.model.den.size() - 1) + " = 1 (monic); s in rad/s\n";
+  out += "  dc gain   " + (f.dc_gain_defined ? with_u(f.dc_gain, f.dc_gain_u, unit) : std::string("infinite (pole at 0)")) + "\n";
+  out += "  delay     " + (f.model.delay_estimated ? with_u(f.delay_s, f.delay_u_s, "s") : sig(f.delay_s) + " s (not estimated)") + "\n";
+  const auto roots = [&](const char* title, const std::vector<Root>& rs) {
+    if (rs.empty()) return;
+    out += std::string("\n") + title + "\n" + format_roots_table(rs);
+  };
+  roots("poles", f.poles);
+  roots("zeros", f.zeros);
+  out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " + format_fixed(100 * model_confidence, 0) +
+         " % band [" + sig(f.chi2_lower) + ", " + sig(f.chi2_upper) + "] (" + band_text(f.band_method) +
+         ", expected " + sig(f.cost_expected) + "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
+  return out;
+}
+
+}  // namespace
+
+std::string format_identify_report(const IdentifyResult& r) {
+  const std::string unit = h_unit(r);
+  std::string out = report_head(r);
+  out += "\nfrequency response" + (unit.empty() ? std::string() : " [" + unit + "]") + "\n";
+  out += frf_table(r);
+  out += linearity_text(r.linearity);
+  if (r.model) out += model_text(*r.model, r.model_confidence, unit);
   std::string flags;
   for (std::size_t i = 0; i < r.flags.size(); ++i) flags += (i ? ", " : "") + std::string(code(r.flags[i]));
   out += "\nflags: " + (flags.empty() ? std::string("none") : flags);

@@ -157,38 +157,41 @@ void write_model_file(const std::string& path, const ModelFile& file) {
   io::write_file_atomic(path, format_model_file(file));
 }
 
-ModelFile parse_model_file(std::string_view text, std::string_view name) {
-  const Reader rd{std::string(name)};
-  json doc;
-  // Line and column of a byte offset, for errors that carry only the offset.
-  const auto position_of = [&](std::size_t byte) {
-    std::size_t line = 1, column = 1;
-    for (std::size_t i = 0; i < byte && i < text.size(); ++i) {
-      if (text[i] == '\n') {
-        ++line;
-        column = 1;
-      } else {
-        ++column;
-      }
+namespace {
+
+/// Line and column of a byte offset, for errors that carry only the offset.
+std::pair<std::size_t, std::size_t> position_of(std::string_view text, std::size_t byte) {
+  std::size_t line = 1, column = 1;
+  for (std::size_t i = 0; i < byte && i < text.size(); ++i) {
+    if (text[i] == '\n') {
+      ++line;
+      column = 1;
+    } else {
+      ++column;
     }
-    return std::pair{line, column};
-  };
-  const auto after_prefix = [](std::string why) {
-    // nlohmann's text reads "[json.exception.<kind>.<id>] <what>"; keep <what>.
-    const auto bracket = why.find("] ");
-    if (bracket != std::string::npos) why = why.substr(bracket + 2);
-    return why;
-  };
+  }
+  return std::pair{line, column};
+}
+
+/// nlohmann's text reads "[json.exception.<kind>.<id>] <what>"; keeps <what>.
+std::string after_prefix(std::string why) {
+  const auto bracket = why.find("] ");
+  if (bracket != std::string::npos) why = why.substr(bracket + 2);
+  return why;
+}
+
+/// The JSON document, bounded in size and depth; reader errors become located InputErrors.
+json parse_document(std::string_view text, std::string_view name, const Reader& rd) {
   // Bounded before the recursive reader sees the text: nlohmann::json copies and destroys nested
   // values recursively, so depth is a stack-size question (input_limits.hpp).
   if (text.size() > io::kMaxTextFileBytes)
     rd.fail("larger than the " + format_bytes(static_cast<double>(io::kMaxTextFileBytes)) + " limit for a model file");
   io::check_json_nesting(text, name);
   try {
-    doc = json::parse(text);
+    return json::parse(text);
   } catch (const json::parse_error& e) {
     // e.byte is one past the offending byte (1-based); its message is "parse error at line …: why".
-    const auto [line, column] = position_of(e.byte == 0 ? 0 : e.byte - 1);
+    const auto [line, column] = position_of(text, e.byte == 0 ? 0 : e.byte - 1);
     std::string why = e.what();
     const auto colon = why.find(": ");
     if (colon != std::string::npos) why = why.substr(colon + 2);
@@ -203,14 +206,17 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
       const auto found = text.find(std::string_view(why).substr(open + 1, close - open - 1));
       if (found != std::string_view::npos) at = found;
     }
-    const auto [line, column] = position_of(at);
-    throw InputError(std::string(name), line, column,
-                     "not valid JSON: " + why + " (a number must fit a double)");
+    const auto [line, column] = position_of(text, at);
+    throw InputError(std::string(name), line, column, "not valid JSON: " + why + " (a number must fit a double)");
   } catch (const json::exception& e) {
     // Any other reader failure (nlohmann documents type_error and other_error too) is still a
     // bad file, never a crash.
     throw InputError(std::string(name), 1, 1, "not valid JSON: " + after_prefix(e.what()));
   }
+}
+
+/// "format" and "version": this program's format, a version it reads.
+void check_format(const json& doc, const Reader& rd) {
   if (!doc.is_object()) rd.fail("expected a JSON object at the top level, found " + Reader::type_of(doc));
   const std::string format = rd.text(rd.member(doc, "format", "format"), "format");
   if (format != kModelFileFormat)
@@ -222,15 +228,36 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
   if (v > kModelFileVersion)
     rd.fail("version " + std::to_string(v) + " is newer than this program reads (up to " +
             std::to_string(kModelFileVersion) + ")");
+}
 
-  ModelFile f;
-  if (doc.contains("created_by")) f.created_by = rd.text(doc["created_by"], "created_by");
-  if (doc.contains("source")) f.source = rd.text(doc["source"], "source");
-  if (doc.contains("f0_hz")) {
-    f.f0_hz = rd.number(doc["f0_hz"], "f0_hz");
-    if (f.f0_hz < 0) rd.fail("\"f0_hz\" must be >= 0, found " + format_shortest(f.f0_hz));
+/// "model.covariance": n × n, non-negative variances, symmetric to 1e-12 of the scale.
+std::vector<std::vector<double>> read_covariance(const json& cov_json, std::size_t n, const Reader& rd) {
+  const json& cov = rd.array(cov_json, "model.covariance");
+  if (cov.size() != n)
+    rd.fail("\"model.covariance\" has " + std::to_string(cov.size()) + " rows, expected " + std::to_string(n) +
+            " (one per free parameter)");
+  std::vector<std::vector<double>> c;
+  for (std::size_t i = 0; i < n; ++i) {
+    const std::string p = "model.covariance[" + std::to_string(i) + "]";
+    std::vector<double> row = rd.numbers(cov[i], p);
+    if (row.size() != n)
+      rd.fail("\"" + p + "\" has " + std::to_string(row.size()) + " entries, expected " + std::to_string(n));
+    c.push_back(std::move(row));
   }
-  const json& model = rd.object(rd.member(doc, "model", "model"), "model");
+  for (std::size_t i = 0; i < n; ++i) {
+    if (c[i][i] < 0)
+      rd.fail("\"model.covariance\" has a negative variance at [" + std::to_string(i) + "][" + std::to_string(i) + "]");
+    for (std::size_t j = 0; j < i; ++j) {
+      const double tol = 1e-12 * std::sqrt(c[i][i] * c[j][j]);
+      if (std::abs(c[i][j] - c[j][i]) > tol)
+        rd.fail("\"model.covariance\" is not symmetric at [" + std::to_string(i) + "][" + std::to_string(j) + "]");
+    }
+  }
+  return c;
+}
+
+/// The "model" object: coefficients, delay, parameter names, covariance, poles and zeros.
+void read_model(const json& model, ModelFile& f, const Reader& rd) {
   RationalModel& m = f.model;
   m.num = rd.numbers(rd.member(model, "num", "model.num"), "model.num");
   m.den = rd.numbers(rd.member(model, "den", "model.den"), "model.den");
@@ -256,32 +283,48 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
       rd.fail("\"model.parameters\" has " + std::to_string(f.parameter_names.size()) + " names, expected " +
               std::to_string(n) + " (num, then den without its monic 1" + (m.delay_estimated ? ", then T)" : ")"));
   }
-  if (model.contains("covariance") && !model["covariance"].empty()) {
-    const json& cov = rd.array(model["covariance"], "model.covariance");
-    if (cov.size() != n)
-      rd.fail("\"model.covariance\" has " + std::to_string(cov.size()) + " rows, expected " + std::to_string(n) +
-              " (one per free parameter)");
-    for (std::size_t i = 0; i < n; ++i) {
-      const std::string p = "model.covariance[" + std::to_string(i) + "]";
-      std::vector<double> row = rd.numbers(cov[i], p);
-      if (row.size() != n)
-        rd.fail("\"" + p + "\" has " + std::to_string(row.size()) + " entries, expected " + std::to_string(n));
-      m.covariance.push_back(std::move(row));
-    }
-    for (std::size_t i = 0; i < n; ++i) {
-      if (m.covariance[i][i] < 0)
-        rd.fail("\"model.covariance\" has a negative variance at [" + std::to_string(i) + "][" + std::to_string(i) +
-                "]");
-      for (std::size_t j = 0; j < i; ++j) {
-        const double tol = 1e-12 * std::sqrt(m.covariance[i][i] * m.covariance[j][j]);
-        if (std::abs(m.covariance[i][j] - m.covariance[j][i]) > tol)
-          rd.fail("\"model.covariance\" is not symmetric at [" + std::to_string(i) + "][" + std::to_string(j) + "]");
-      }
-    }
-  }
+  if (model.contains("covariance") && !model["covariance"].empty())
+    m.covariance = read_covariance(model["covariance"], n, rd);
   if (model.contains("poles")) f.poles = rd.roots(model["poles"], "model.poles");
   if (model.contains("zeros")) f.zeros = rd.roots(model["zeros"], "model.zeros");
+}
 
+/// The "frf" array of measured points with their covariance.
+std::vector<FrfPoint> read_frf(const json& frf, const Reader& rd) {
+  std::vector<FrfPoint> out;
+  const json& pts = rd.array(frf, "frf");
+  for (std::size_t i = 0; i < pts.size(); ++i) {
+    const std::string p = "frf[" + std::to_string(i) + "]";
+    const json& o = rd.object(pts[i], p);
+    auto get = [&](const char* key) { return rd.number(rd.member(o, key, p + "." + key), p + "." + key); };
+    FrfPoint pt;
+    const double f_hz = get("freq_hz");
+    if (f_hz <= 0) rd.fail("\"" + p + ".freq_hz\" must be > 0, found " + format_shortest(f_hz));
+    pt.omega_rad_s = 2 * std::numbers::pi * f_hz;
+    pt.h = {get("re"), get("im")};
+    pt.var_re = get("var_re");
+    pt.var_im = get("var_im");
+    pt.cov_re_im = get("cov_re_im");
+    if (pt.var_re < 0 || pt.var_im < 0) rd.fail("\"" + p + "\" has a negative variance");
+    out.push_back(pt);
+  }
+  return out;
+}
+
+}  // namespace
+
+ModelFile parse_model_file(std::string_view text, std::string_view name) {
+  const Reader rd{std::string(name)};
+  const json doc = parse_document(text, name, rd);
+  check_format(doc, rd);
+  ModelFile f;
+  if (doc.contains("created_by")) f.created_by = rd.text(doc["created_by"], "created_by");
+  if (doc.contains("source")) f.source = rd.text(doc["source"], "source");
+  if (doc.contains("f0_hz")) {
+    f.f0_hz = rd.number(doc["f0_hz"], "f0_hz");
+    if (f.f0_hz < 0) rd.fail("\"f0_hz\" must be >= 0, found " + format_shortest(f.f0_hz));
+  }
+  read_model(rd.object(rd.member(doc, "model", "model"), "model"), f, rd);
   if (doc.contains("fit")) {
     const json& fit = rd.object(doc["fit"], "fit");
     f.has_fit = true;
@@ -292,24 +335,7 @@ ModelFile parse_model_file(std::string_view text, std::string_view name) {
     f.adequate = rd.boolean(rd.member(fit, "adequate", "fit.adequate"), "fit.adequate");
     if (fit.contains("method")) f.method = rd.text(fit["method"], "fit.method");
   }
-  if (doc.contains("frf")) {
-    const json& pts = rd.array(doc["frf"], "frf");
-    for (std::size_t i = 0; i < pts.size(); ++i) {
-      const std::string p = "frf[" + std::to_string(i) + "]";
-      const json& o = rd.object(pts[i], p);
-      auto get = [&](const char* key) { return rd.number(rd.member(o, key, p + "." + key), p + "." + key); };
-      FrfPoint pt;
-      const double f_hz = get("freq_hz");
-      if (f_hz <= 0) rd.fail("\"" + p + ".freq_hz\" must be > 0, found " + format_shortest(f_hz));
-      pt.omega_rad_s = 2 * std::numbers::pi * f_hz;
-      pt.h = {get("re"), get("im")};
-      pt.var_re = get("var_re");
-      pt.var_im = get("var_im");
-      pt.cov_re_im = get("cov_re_im");
-      if (pt.var_re < 0 || pt.var_im < 0) rd.fail("\"" + p + "\" has a negative variance");
-      f.frf.push_back(pt);
-    }
-  }
+  if (doc.contains("frf")) f.frf = read_frf(doc["frf"], rd);
   return f;
 }
 

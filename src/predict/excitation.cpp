@@ -155,17 +155,11 @@ void ExciteOptions::validate() const {
   }
 }
 
-ExciteResult generate_excitation(const ExciteOptions& o) {
-  o.validate();
-  ExciteResult r;
-  r.signal = o.signal;
-  r.f0_requested_hz = o.f0_hz;
-  r.rate_requested_hz = o.rate_hz;
-  r.format = o.format;
-  r.channels = o.channels;
-  r.amplitude_requested = o.amplitude;
+namespace {
 
-  // Whole samples per period.
+/// Whole samples per period M: f0 or the rate gives way when rate/f0 is not whole; the period
+/// count from the duration. Sets r's timing fields and returns M.
+int settle_period_grid(const ExciteOptions& o, ExciteResult& r) {
   const double ratio = o.rate_hz / o.f0_hz;
   const double m_real = std::round(ratio);
   if (m_real < 2)
@@ -206,77 +200,92 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
     throw OptionError(o.duration_s > 0 ? "duration_s" : "periods",
                       o.duration_s > 0 ? num(o.duration_s) : std::to_string(o.periods),
                       "the file would hold more than 1e9 samples");
+  return m;
+}
 
-  // Unit-scale period.
-  std::vector<double> x;
-  std::vector<int> excited;
-  if (o.signal == "multisine") {
-    const std::vector<int> selected = select_harmonics(parse_harmonic_list(o.harmonics), o.odd_only, o.skip_every);
-    if (selected.empty())
-      throw OptionError("harmonics", o.harmonics, "no harmonic is left after the odd/skip-every selection");
-    if (2 * static_cast<long>(selected.back()) >= m)
-      throw OptionError("harmonics", o.harmonics,
-                        "harmonic " + std::to_string(selected.back()) + " (" + hz(selected.back() * r.f0_hz) +
-                            " Hz) must lie below half the sample rate (" + hz(r.rate_hz / 2) + " Hz)");
-    std::vector<double> amp(selected.size(), 1.0);
-    if (!o.spectrum.empty()) {
-      std::map<int, double> given(o.spectrum.begin(), o.spectrum.end());
-      for (std::size_t i = 0; i < selected.size(); ++i) {
-        const auto it = given.find(selected[i]);
-        if (it == given.end())
-          throw OptionError("spectrum", "(harmonic " + std::to_string(selected[i]) + " missing)",
-                            "the amplitude spectrum must give every selected harmonic");
-        amp[i] = it->second;
-      }
+/// The phases of a multisine with amplitudes `amp` by the rule asked for; sets r.method,
+/// r.phases (and r.seed for random phases).
+std::vector<double> multisine_phases(const ExciteOptions& o, const std::vector<double>& amp, ExciteResult& r) {
+  std::vector<double> phase(amp.size(), 0.0);
+  if (o.phases == PhaseRule::schroeder) {
+    double total = 0;
+    for (double a : amp) total += a * a;
+    // φ_k − φ_{k−1} = −2π·Σ_{l<k} p_l, the recursion form of Schroeder's sum.
+    // Wrapped at every step so a long list keeps its accuracy.
+    double cumulative = 0;
+    for (std::size_t k = 1; k < amp.size(); ++k) {
+      cumulative += amp[k - 1] * amp[k - 1] / total;
+      phase[k] = wrap_phase(phase[k - 1] - 2 * kPi * cumulative);
     }
-    std::vector<double> phase(selected.size(), 0.0);
-    if (o.phases == PhaseRule::schroeder) {
-      double total = 0;
-      for (double a : amp) total += a * a;
-      // φ_k − φ_{k−1} = −2π·Σ_{l<k} p_l, the recursion form of Schroeder's sum.
-      // Wrapped at every step so a long list keeps its accuracy.
-      double cumulative = 0;
-      for (std::size_t k = 1; k < selected.size(); ++k) {
-        cumulative += amp[k - 1] * amp[k - 1] / total;
-        phase[k] = wrap_phase(phase[k - 1] - 2 * kPi * cumulative);
-      }
-      r.method = "multisine, schroeder phases";
-      r.phases = PhaseRule::schroeder;
-    } else if (o.phases == PhaseRule::random) {
-      std::mt19937_64 engine(o.seed);
-      for (double& p : phase) p = wrap_phase(2 * kPi * static_cast<double>(engine() >> 11) * 0x1p-53);
-      r.seed = o.seed;
-      r.method = "multisine, random phases";
-      r.phases = PhaseRule::random;
-    } else {
-      r.method = "multisine, zero phases";
-      r.phases = PhaseRule::zero;
-    }
-    dsp::FourierSeries s{r.f0_hz, std::vector<std::complex<double>>(static_cast<std::size_t>(selected.back()) + 1, 0.0)};
-    for (std::size_t i = 0; i < selected.size(); ++i)
-      s.phasors[static_cast<std::size_t>(selected[i])] = std::polar(amp[i], phase[i]);
-    x = dsp::sample_period(s, m);
-    excited = selected;
+    r.method = "multisine, schroeder phases";
+    r.phases = PhaseRule::schroeder;
+  } else if (o.phases == PhaseRule::random) {
+    std::mt19937_64 engine(o.seed);
+    for (double& p : phase) p = wrap_phase(2 * kPi * static_cast<double>(engine() >> 11) * 0x1p-53);
+    r.seed = o.seed;
+    r.method = "multisine, random phases";
+    r.phases = PhaseRule::random;
   } else {
-    dsp::WaveSpec w;
-    w.kind = dsp::parse_wave_kind(o.signal);
-    w.amplitude_v = 1;
-    w.f0_hz = r.f0_hz;
-    w.duty = o.duty;
-    if (o.band_limited) {
-      dsp::TruncationOptions t;
-      t.harmonics = std::max(1, (m - 1) / 2);
-      x = dsp::sample_period(dsp::truncate_series(w, t).series, m);
-      r.method = o.signal + " wave, band-limited to " + std::to_string(t.harmonics) + " harmonics";
-    } else {
-      x.resize(static_cast<std::size_t>(m));
-      for (int k = 0; k < m; ++k) x[static_cast<std::size_t>(k)] = dsp::wave_value_at_phase(w, static_cast<double>(k) / m);
-      r.method = o.signal + " wave, exact samples";
-    }
-    for (int n = 1; n <= std::min(kWaveHarmonicsListed, m / 2); ++n) excited.push_back(n);
+    r.method = "multisine, zero phases";
+    r.phases = PhaseRule::zero;
   }
+  return phase;
+}
 
-  // Scale by the true sampled peak, then quantise without exceeding the amplitude.
+/// One unit-scale period of M samples of the multisine; `excited` receives its harmonics.
+std::vector<double> multisine_period(const ExciteOptions& o, ExciteResult& r, int m, std::vector<int>& excited) {
+  const std::vector<int> selected = select_harmonics(parse_harmonic_list(o.harmonics), o.odd_only, o.skip_every);
+  if (selected.empty())
+    throw OptionError("harmonics", o.harmonics, "no harmonic is left after the odd/skip-every selection");
+  if (2 * static_cast<long>(selected.back()) >= m)
+    throw OptionError("harmonics", o.harmonics,
+                      "harmonic " + std::to_string(selected.back()) + " (" + hz(selected.back() * r.f0_hz) +
+                          " Hz) must lie below half the sample rate (" + hz(r.rate_hz / 2) + " Hz)");
+  std::vector<double> amp(selected.size(), 1.0);
+  if (!o.spectrum.empty()) {
+    std::map<int, double> given(o.spectrum.begin(), o.spectrum.end());
+    for (std::size_t i = 0; i < selected.size(); ++i) {
+      const auto it = given.find(selected[i]);
+      if (it == given.end())
+        throw OptionError("spectrum", "(harmonic " + std::to_string(selected[i]) + " missing)",
+                          "the amplitude spectrum must give every selected harmonic");
+      amp[i] = it->second;
+    }
+  }
+  const std::vector<double> phase = multisine_phases(o, amp, r);
+  dsp::FourierSeries s{r.f0_hz, std::vector<std::complex<double>>(static_cast<std::size_t>(selected.back()) + 1, 0.0)};
+  for (std::size_t i = 0; i < selected.size(); ++i)
+    s.phasors[static_cast<std::size_t>(selected[i])] = std::polar(amp[i], phase[i]);
+  excited = selected;
+  return dsp::sample_period(s, m);
+}
+
+/// One unit-scale period of M samples of a waveform, exact or band-limited; `excited` receives
+/// the harmonics listed.
+std::vector<double> wave_period(const ExciteOptions& o, ExciteResult& r, int m, std::vector<int>& excited) {
+  dsp::WaveSpec w;
+  w.kind = dsp::parse_wave_kind(o.signal);
+  w.amplitude_v = 1;
+  w.f0_hz = r.f0_hz;
+  w.duty = o.duty;
+  std::vector<double> x;
+  if (o.band_limited) {
+    dsp::TruncationOptions t;
+    t.harmonics = std::max(1, (m - 1) / 2);
+    x = dsp::sample_period(dsp::truncate_series(w, t).series, m);
+    r.method = o.signal + " wave, band-limited to " + std::to_string(t.harmonics) + " harmonics";
+  } else {
+    x.resize(static_cast<std::size_t>(m));
+    for (int k = 0; k < m; ++k) x[static_cast<std::size_t>(k)] = dsp::wave_value_at_phase(w, static_cast<double>(k) / m);
+    r.method = o.signal + " wave, exact samples";
+  }
+  for (int n = 1; n <= std::min(kWaveHarmonicsListed, m / 2); ++n) excited.push_back(n);
+  return x;
+}
+
+/// Scales the period by its true sampled peak to the amplitude, quantises it without exceeding
+/// the amplitude, and records peak, RMS, crest factor and codes of what is written.
+void scale_and_quantise(const ExciteOptions& o, ExciteResult& r, std::vector<double>& x) {
   double peak = 0;
   for (double v : x) peak = std::max(peak, std::abs(v));
   if (!(peak > 0)) throw AnalysisError("the " + o.signal + " signal is zero at every sample of the period");
@@ -292,9 +301,26 @@ ExciteResult generate_excitation(const ExciteOptions& o) {
   r.peak = 0;
   double sum2 = 0;
   for (double v : x) r.peak = std::max(r.peak, std::abs(v)), sum2 += v * v;
-  r.rms = std::sqrt(sum2 / m);
+  r.rms = std::sqrt(sum2 / static_cast<double>(x.size()));
   r.crest_factor = r.peak / r.rms;
   if (r.full_scale_code > 0) r.max_code = std::lround(r.peak * static_cast<double>(r.full_scale_code));
+}
+
+}  // namespace
+
+ExciteResult generate_excitation(const ExciteOptions& o) {
+  o.validate();
+  ExciteResult r;
+  r.signal = o.signal;
+  r.f0_requested_hz = o.f0_hz;
+  r.rate_requested_hz = o.rate_hz;
+  r.format = o.format;
+  r.channels = o.channels;
+  r.amplitude_requested = o.amplitude;
+  const int m = settle_period_grid(o, r);
+  std::vector<int> excited;
+  std::vector<double> x = o.signal == "multisine" ? multisine_period(o, r, m, excited) : wave_period(o, r, m, excited);
+  scale_and_quantise(o, r, x);
 
   // The file's own harmonics (DFT of the written period).
   std::vector<std::complex<double>> spectrum(static_cast<std::size_t>(m / 2 + 1));

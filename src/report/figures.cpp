@@ -63,93 +63,120 @@ void unwrap_degrees(std::vector<double>& phase) {
 
 }  // namespace
 
-Figure bode_figure(const BodePlotData& data) {
+namespace {
+
+/// The measured points of a Bode plot, ordered by frequency: magnitude in dB with its 95 %
+/// bounds, phase unwrapped and shifted into (−180°, 180°] at the first point, with its bounds.
+struct MeasuredBode {
   std::vector<double> f, mag_db, lo_db, hi_db, ph, ph_lo, ph_hi;
+  bool mag_bars = false, phase_bars = false;
+};
+
+MeasuredBode measured_bode(const BodePlotData& data) {
+  MeasuredBode m;
   for (std::size_t i : order_by(data.freq_hz)) {
     if (i >= data.mag.size() || i >= data.phase_deg.size()) continue;
     if (!(data.freq_hz[i] > 0) || !std::isfinite(data.freq_hz[i])) continue;
-    f.push_back(data.freq_hz[i]);
-    mag_db.push_back(db(data.mag[i]));
-    ph.push_back(data.phase_deg[i]);
+    m.f.push_back(data.freq_hz[i]);
+    m.mag_db.push_back(db(data.mag[i]));
+    m.ph.push_back(data.phase_deg[i]);
     if (i < data.mag_u95.size()) {
-      lo_db.push_back(db(data.mag[i] - data.mag_u95[i]));
-      hi_db.push_back(db(data.mag[i] + data.mag_u95[i]));
+      m.lo_db.push_back(db(data.mag[i] - data.mag_u95[i]));
+      m.hi_db.push_back(db(data.mag[i] + data.mag_u95[i]));
     }
   }
-  const bool mag_bars = lo_db.size() == f.size() && !f.empty();
-  unwrap_degrees(ph);
+  m.mag_bars = m.lo_db.size() == m.f.size() && !m.f.empty();
+  unwrap_degrees(m.ph);
   // Unwrapped phases are shifted by a whole number of turns so the first point lies in
   // (−180°, 180°] — the conventional principal value at the lowest frequency.
-  if (!ph.empty() && std::isfinite(ph[0])) {
-    const double shift = -360.0 * std::round(ph[0] / 360.0);
-    for (auto& v : ph) v += shift;
+  if (!m.ph.empty() && std::isfinite(m.ph[0])) {
+    const double shift = -360.0 * std::round(m.ph[0] / 360.0);
+    for (auto& v : m.ph) v += shift;
   }
-  bool phase_bars = !data.phase_u95_deg.empty();
-  if (phase_bars) {
+  m.phase_bars = !data.phase_u95_deg.empty();
+  if (m.phase_bars) {
     std::size_t k = 0;
     for (std::size_t i : order_by(data.freq_hz)) {
       if (i >= data.mag.size() || i >= data.phase_deg.size()) continue;
       if (!(data.freq_hz[i] > 0) || !std::isfinite(data.freq_hz[i])) continue;
       const double u = i < data.phase_u95_deg.size() ? data.phase_u95_deg[i] : kNaN;
-      ph_lo.push_back(ph[k] - u);
-      ph_hi.push_back(ph[k] + u);
+      m.ph_lo.push_back(m.ph[k] - u);
+      m.ph_hi.push_back(m.ph[k] + u);
       ++k;
     }
   }
+  return m;
+}
 
-  Axis freq = make_axis("frequency", "Hz", AxisScale::log, TickLabels::si_prefix);
-  double flo = kInf, fhi = -kInf;
-  for (double v : f) extend(flo, fhi, v, true);
-  const auto [axis_lo, axis_hi] = axis_range(freq, flo, fhi);
-  freq.min = axis_lo;
-  freq.max = axis_hi;
+/// The model's curve over the frequency axis [axis_lo, axis_hi] on a log grid, its phase
+/// unwrapped and turned to match the measured phase at the first measured frequency.
+struct ModelCurve {
+  std::vector<double> f, mag_db, ph;
+};
 
-  // The model curve over the whole axis, on a log grid.
-  std::vector<double> mf, mdb, mph;
-  if (data.model) {
-    constexpr int kModelPoints = 240;
-    const double a = std::log10(axis_lo), b = std::log10(axis_hi);
-    for (int k = 0; k < kModelPoints; ++k) {
-      const double fk = std::pow(10.0, a + (b - a) * k / (kModelPoints - 1));
-      const std::complex<double> h = data.model(fk);
-      mf.push_back(fk);
-      mdb.push_back(std::isfinite(std::abs(h)) ? db(std::abs(h)) : kNaN);
-      mph.push_back(std::isfinite(std::abs(h)) ? std::arg(h) * 180.0 / std::numbers::pi : kNaN);
-    }
-    unwrap_degrees(mph);
-    // Align the model's turn count with the measured phase at the first measured frequency.
-    if (!ph.empty() && std::isfinite(ph[0])) {
-      std::size_t nearest = 0;
-      for (std::size_t k = 1; k < mf.size(); ++k)
-        if (std::abs(std::log(mf[k] / f[0])) < std::abs(std::log(mf[nearest] / f[0]))) nearest = k;
-      if (std::isfinite(mph[nearest])) {
-        const double shift = 360.0 * std::round((ph[0] - mph[nearest]) / 360.0);
-        for (auto& v : mph) v += shift;
-      }
-    } else if (!mph.empty() && std::isfinite(mph[0])) {
-      const double shift = -360.0 * std::round(mph[0] / 360.0);
-      for (auto& v : mph) v += shift;
-    }
+ModelCurve model_curve(const BodePlotData& data, double axis_lo, double axis_hi, const MeasuredBode& m) {
+  ModelCurve c;
+  if (!data.model) return c;
+  constexpr int kModelPoints = 240;
+  const double a = std::log10(axis_lo), b = std::log10(axis_hi);
+  for (int k = 0; k < kModelPoints; ++k) {
+    const double fk = std::pow(10.0, a + (b - a) * k / (kModelPoints - 1));
+    const std::complex<double> h = data.model(fk);
+    c.f.push_back(fk);
+    c.mag_db.push_back(std::isfinite(std::abs(h)) ? db(std::abs(h)) : kNaN);
+    c.ph.push_back(std::isfinite(std::abs(h)) ? std::arg(h) * 180.0 / std::numbers::pi : kNaN);
   }
+  unwrap_degrees(c.ph);
+  // Align the model's turn count with the measured phase at the first measured frequency.
+  if (!m.ph.empty() && std::isfinite(m.ph[0])) {
+    std::size_t nearest = 0;
+    for (std::size_t k = 1; k < c.f.size(); ++k)
+      if (std::abs(std::log(c.f[k] / m.f[0])) < std::abs(std::log(c.f[nearest] / m.f[0]))) nearest = k;
+    if (std::isfinite(c.ph[nearest])) {
+      const double shift = 360.0 * std::round((m.ph[0] - c.ph[nearest]) / 360.0);
+      for (auto& v : c.ph) v += shift;
+    }
+  } else if (!c.ph.empty() && std::isfinite(c.ph[0])) {
+    const double shift = -360.0 * std::round(c.ph[0] / 360.0);
+    for (auto& v : c.ph) v += shift;
+  }
+  return c;
+}
 
-  // Magnitude range: the measured points and the model; error bars extend it by at most 20 dB
-  // so one nearly-zero lower bound does not squash the plot (its bar is clipped instead).
+/// The magnitude axis: the measured points and the model within [flo, fhi]; error bars extend
+/// it by at most 20 dB so one nearly-zero lower bound does not squash the plot (its bar is
+/// clipped instead).
+Axis magnitude_axis(const MeasuredBode& m, const ModelCurve& c, double flo, double fhi) {
   constexpr double kErrorBarExtension_db = 20;
   double ylo = kInf, yhi = -kInf;
-  for (double v : mag_db) extend(ylo, yhi, v, false);
-  for (std::size_t k = 0; k < mf.size(); ++k)
-    if (mf[k] >= flo && mf[k] <= fhi) extend(ylo, yhi, mdb[k], false);
+  for (double v : m.mag_db) extend(ylo, yhi, v, false);
+  for (std::size_t k = 0; k < c.f.size(); ++k)
+    if (c.f[k] >= flo && c.f[k] <= fhi) extend(ylo, yhi, c.mag_db[k], false);
   if (std::isfinite(ylo)) {
     const double lo0 = ylo, hi0 = yhi;
-    for (double v : lo_db)
+    for (double v : m.lo_db)
       if (std::isfinite(v)) ylo = std::min(ylo, std::max(v, lo0 - kErrorBarExtension_db));
-    for (double v : hi_db)
+    for (double v : m.hi_db)
       if (std::isfinite(v)) yhi = std::max(yhi, std::min(v, hi0 + kErrorBarExtension_db));
   }
   Axis mag_axis = make_axis("magnitude", "dB");
   const auto [mlo, mhi] = axis_range(mag_axis, ylo, yhi);
   mag_axis.min = mlo;
   mag_axis.max = mhi;
+  return mag_axis;
+}
+
+}  // namespace
+
+Figure bode_figure(const BodePlotData& data) {
+  MeasuredBode m = measured_bode(data);
+  Axis freq = make_axis("frequency", "Hz", AxisScale::log, TickLabels::si_prefix);
+  double flo = kInf, fhi = -kInf;
+  for (double v : m.f) extend(flo, fhi, v, true);
+  const auto [axis_lo, axis_hi] = axis_range(freq, flo, fhi);
+  freq.min = axis_lo;
+  freq.max = axis_hi;
+  ModelCurve model = model_curve(data, axis_lo, axis_hi, m);
 
   Figure fig;
   fig.id = data.id;
@@ -158,7 +185,7 @@ Figure bode_figure(const BodePlotData& data) {
   mag_panel.title = "Bode magnitude";
   mag_panel.x = freq;
   mag_panel.x.show_label = false;
-  mag_panel.y = mag_axis;
+  mag_panel.y = magnitude_axis(m, model, flo, fhi);
   mag_panel.height_px = 230;
   Panel phase_panel;
   phase_panel.title = "Bode phase";
@@ -167,20 +194,20 @@ Figure bode_figure(const BodePlotData& data) {
   phase_panel.y.angle_steps = true;
   phase_panel.height_px = 200;
   phase_panel.legend = false;
-  if (!mf.empty()) {
-    mag_panel.lines.push_back(make_line(data.model_label, mf, mdb, "#1f5fa8"));
-    phase_panel.lines.push_back(make_line(data.model_label, mf, mph, "#1f5fa8"));
+  if (!model.f.empty()) {
+    mag_panel.lines.push_back(make_line(data.model_label, model.f, model.mag_db, "#1f5fa8"));
+    phase_panel.lines.push_back(make_line(data.model_label, std::move(model.f), std::move(model.ph), "#1f5fa8"));
   }
-  PointSeries mp = make_points(data.measured_label, f, mag_db);
-  if (mag_bars) {
-    mp.y_low = lo_db;
-    mp.y_high = hi_db;
+  PointSeries mp = make_points(data.measured_label, m.f, m.mag_db);
+  if (m.mag_bars) {
+    mp.y_low = std::move(m.lo_db);
+    mp.y_high = std::move(m.hi_db);
   }
   mag_panel.points.push_back(std::move(mp));
-  PointSeries pp = make_points(data.measured_label, f, ph);
-  if (phase_bars) {
-    pp.y_low = ph_lo;
-    pp.y_high = ph_hi;
+  PointSeries pp = make_points(data.measured_label, std::move(m.f), std::move(m.ph));
+  if (m.phase_bars) {
+    pp.y_low = std::move(m.ph_lo);
+    pp.y_high = std::move(m.ph_hi);
   }
   phase_panel.points.push_back(std::move(pp));
   fig.panels = {std::move(mag_panel), std::move(phase_panel)};

@@ -6,10 +6,8 @@
 /// is XML-escaped, and invalid UTF-8 or control characters are replaced, so the text is always
 /// well-formed XML and can be inlined into HTML.
 ///
-/// Ticks follow common practice for engineering plots: linear axes step by 1, 2 or 5 × 10^k
-/// (or 15/30/45/90/180 for angles), log axes put a major tick at every decade and label
-/// 1-2-5 within a decade when the axis spans few decades. Labels use SI prefixes ("2k",
-/// "500m") or move a common prefix into the unit ("time (ms)").
+/// The parts: report/svg_canvas (element writing, escaping, clip paths), report/svg_axes
+/// (ranges, ticks, labels, grid) and this file's renderer (layout, series, legend).
 ///
 /// Usage:
 ///   report::BodePlotData bode{.title = "board 07", .freq_hz = f, .mag = m, .mag_u95 = mu,
@@ -23,55 +21,10 @@
 #include <string_view>
 #include <vector>
 
+#include "report/svg_axes.hpp"
+#include "report/svg_canvas.hpp"
+
 namespace periodfit::report {
-
-/// `text` made safe for XML/HTML text and attribute values: & < > " ' become entities; control
-/// characters other than tab/newline and invalid UTF-8 bytes become U+FFFD.
-std::string xml_escape(std::string_view text);
-
-enum class AxisScale { linear, log };
-
-/// How tick values are written.
-enum class TickLabels {
-  plain,        ///< decimals as the step needs: "−20", "0.5"
-  si_prefix,    ///< each label with its own SI prefix: "20", "1k", "2.5M", "500m"
-  scaled_unit,  ///< a common SI prefix moved into the unit: ticks "0 0.5 1" with "time (ms)"
-};
-
-struct Axis {
-  std::string quantity;  ///< what is plotted, e.g. "frequency"
-  std::string unit;      ///< unit symbol, e.g. "Hz"; the label reads "frequency (Hz)"
-  AxisScale scale = AxisScale::linear;
-  TickLabels labels = TickLabels::plain;
-  double min = std::numeric_limits<double>::quiet_NaN();  ///< NaN = from the data
-  double max = std::numeric_limits<double>::quiet_NaN();  ///< NaN = from the data
-  bool angle_steps = false;    ///< linear steps of 15/30/45/90/180 when ≥ 10 (phase in degrees)
-  bool integer_steps = false;  ///< linear steps of at least 1 (harmonic numbers)
-  double step = 0;             ///< linear tick step; 0 = automatic
-  bool show_label = true;      ///< draw the axis title (off for an x axis shared by a panel below)
-};
-
-struct Tick {
-  double value = 0;
-  std::string label;  ///< empty for a minor tick
-  bool major = true;
-};
-
-/// Ticks of an axis over [lo, hi] (already "nice"): see the header comment. `unit_prefix`
-/// receives the prefix moved into the unit for TickLabels::scaled_unit ("m", "k", … or "").
-std::vector<Tick> axis_ticks(const Axis& axis, double lo, double hi, std::string* unit_prefix = nullptr);
-
-/// The range an axis shows for data spanning [data_lo, data_hi]: explicit min/max win; else the
-/// data range widened to tick steps (linear) or 1-2-5 values (log).
-std::pair<double, double> axis_range(const Axis& axis, double data_lo, double data_hi);
-
-/// Widens [lo, hi] to hold `v` when it can be shown: finite, and > 0 on a log axis.
-void extend(double& lo, double& hi, double v, bool log);
-
-/// A number with an SI prefix and at most `significant` digits: 1500 → "1.5k", 0.002 → "2m".
-std::string format_si(double value, int significant = 3);
-
-enum class Marker { circle, square };
 
 struct LineSeries {
   std::string name;          ///< legend entry; empty = not in the legend

@@ -54,21 +54,18 @@ Filter capture_filter(const ProductionQuery& q) {
   return f;
 }
 
-}  // namespace
-
-ProductionReport production_report(Connection& db, const ProductionQuery& q) {
-  q.validate();
+/// Refuses a database without periodfit's schema or with another version of it.
+void check_schema(Connection& db) {
   const int version = schema_version(db);
   if (version == 0) throw DatabaseError(db.target(), "holds no periodfit results (no schema)");
   if (version != kSchemaVersion)
     throw DatabaseError(db.target(), "schema version " + std::to_string(version) + ", this periodfit reads " +
                                          std::to_string(kSchemaVersion) +
                                          (version < kSchemaVersion ? "; record or import a run with it to migrate" : ""));
-  ProductionReport r;
-  r.query = q;
-  r.database = db.target();
-  const Filter f = capture_filter(q);
+}
 
+/// Capture counts by status, the time span and the yield.
+void count_captures(Connection& db, const Filter& f, ProductionReport& r) {
   for (const auto& row : db.query("SELECT c.status, COUNT(*), MIN(c.tested_at), MAX(c.tested_at) FROM capture c WHERE " +
                                        f.where + " GROUP BY c.status",
                                    f.params)) {
@@ -80,7 +77,11 @@ ProductionReport production_report(Connection& db, const ProductionQuery& q) {
     if (text(row[3]) > r.last_test) r.last_test = text(row[3]);
   }
   if (r.captures > 0) r.yield = static_cast<double>(r.passed) / static_cast<double>(r.captures);
+}
 
+/// Per limit key (or the one asked for): verdict counts, the latest limits, and the capability
+/// and control chart of the evaluated values in time order.
+std::vector<LimitStats> limit_stats(Connection& db, const Filter& f, const ProductionQuery& q) {
   std::vector<Value> params = f.params;
   std::string limit_clause;
   if (!q.limit.empty()) {
@@ -109,37 +110,57 @@ ProductionReport production_report(Connection& db, const ProductionQuery& q) {
       s.serials.push_back(text(row[8]));
     }
   }
+  std::vector<LimitStats> out;
   for (auto& [key, s] : by_key) {
     s.capability = capability(values[key], s.lsl, s.usl, q.capability);
     s.chart = individuals_chart(values[key]);
-    r.limits.push_back(std::move(s));
+    out.push_back(std::move(s));
   }
-  if (!q.board.empty()) {
-    std::map<std::int64_t, std::size_t> index;
-    for (const auto& row : db.query("SELECT c.id, c.tested_at, c.path, c.status, c.lot, c.station, c.fixture, c.operator,"
-                                    " c.run_id FROM capture c WHERE c.serial = ? ORDER BY c.tested_at, c.id",
-                                    {q.board})) {
-      BoardTest t;
-      t.tested_at = text(row[1]);
-      t.path = text(row[2]);
-      t.status = text(row[3]);
-      t.lot = text(row[4]);
-      t.station = text(row[5]);
-      t.fixture = text(row[6]);
-      t.operator_name = text(row[7]);
-      t.run_id = std::stoll(text(row[8]));
-      index[std::stoll(text(row[0]))] = r.history.size();
-      r.history.push_back(std::move(t));
-    }
-    for (const auto& row : db.query("SELECT v.capture_id, v.limit_key, v.value, v.margin, v.passed, v.verdict FROM verdict v"
-                                    " JOIN capture c ON c.id = v.capture_id WHERE c.serial = ? ORDER BY v.capture_id, v.position",
-                                    {q.board})) {
-      const auto it = index.find(std::stoll(text(row[0])));
-      if (it == index.end()) continue;
-      r.history[it->second].verdicts.push_back(
-          {text(row[1]), text(row[5]), number(row[2]), number(row[3]), text(row[4]) == "1"});
-    }
+  return out;
+}
+
+/// Every test of one board, oldest first, with its verdicts in limit order.
+std::vector<BoardTest> board_history(Connection& db, const std::string& board) {
+  std::vector<BoardTest> history;
+  std::map<std::int64_t, std::size_t> index;
+  for (const auto& row : db.query("SELECT c.id, c.tested_at, c.path, c.status, c.lot, c.station, c.fixture, c.operator,"
+                                  " c.run_id FROM capture c WHERE c.serial = ? ORDER BY c.tested_at, c.id",
+                                  {board})) {
+    BoardTest t;
+    t.tested_at = text(row[1]);
+    t.path = text(row[2]);
+    t.status = text(row[3]);
+    t.lot = text(row[4]);
+    t.station = text(row[5]);
+    t.fixture = text(row[6]);
+    t.operator_name = text(row[7]);
+    t.run_id = std::stoll(text(row[8]));
+    index[std::stoll(text(row[0]))] = history.size();
+    history.push_back(std::move(t));
   }
+  for (const auto& row : db.query("SELECT v.capture_id, v.limit_key, v.value, v.margin, v.passed, v.verdict FROM verdict v"
+                                  " JOIN capture c ON c.id = v.capture_id WHERE c.serial = ? ORDER BY v.capture_id, v.position",
+                                  {board})) {
+    const auto it = index.find(std::stoll(text(row[0])));
+    if (it == index.end()) continue;
+    history[it->second].verdicts.push_back(
+        {text(row[1]), text(row[5]), number(row[2]), number(row[3]), text(row[4]) == "1"});
+  }
+  return history;
+}
+
+}  // namespace
+
+ProductionReport production_report(Connection& db, const ProductionQuery& q) {
+  q.validate();
+  check_schema(db);
+  ProductionReport r;
+  r.query = q;
+  r.database = db.target();
+  const Filter f = capture_filter(q);
+  count_captures(db, f, r);
+  r.limits = limit_stats(db, f, q);
+  if (!q.board.empty()) r.history = board_history(db, q.board);
   return r;
 }
 
