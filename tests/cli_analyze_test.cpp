@@ -18,6 +18,7 @@
 #include "core/number_format.hpp"
 #include "core/table.hpp"
 #include "support/cli_runner.hpp"
+#include "support/signals.hpp"
 
 using periodfit::test::run_cli;
 using periodfit::test::TempDir;
@@ -26,18 +27,18 @@ using std::numbers::pi;
 
 namespace {
 
-/// CSV with a time column and two channels: v_in = cos at f0, v_out = distorted and delayed.
+/// CSV with a time column and two channels: v_in = cos at f0, v_out = distorted and delayed
+/// (0.5·cos(ωt − 0.7) + 0.05·cos 3ωt), white noise of std `noise` on each (support/signals.hpp).
 std::string two_channel_csv(std::size_t n, double fs, double f0, double noise = 1e-4) {
   std::mt19937_64 rng(4);
-  std::normal_distribution<double> d(0.0, noise);
+  const auto w = periodfit::test::interleaved_draws(rng, 2, n);
+  const auto v_in = periodfit::test::harmonic_samples({0.0, 1.0}, f0, fs, n, {noise, nullptr, &w[0]});
+  const auto v_out =
+      periodfit::test::harmonic_samples({0.0, std::polar(0.5, -0.7), 0.0, 0.05}, f0, fs, n, {noise, nullptr, &w[1]});
   std::ostringstream s;
   s.precision(12);
   s << "time,v_in,v_out\n";
-  for (std::size_t k = 0; k < n; ++k) {
-    const double t = static_cast<double>(k) / fs, w = 2 * pi * f0 * t;
-    s << t << "," << std::cos(w) + d(rng) << "," << 0.5 * std::cos(w - 0.7) + 0.05 * std::cos(3 * w) + d(rng)
-      << "\n";
-  }
+  for (std::size_t k = 0; k < n; ++k) s << static_cast<double>(k) / fs << "," << v_in[k] << "," << v_out[k] << "\n";
   return s.str();
 }
 

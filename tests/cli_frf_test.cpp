@@ -16,6 +16,7 @@
 #include "core/number_format.hpp"
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
+#include "support/signals.hpp"
 
 using periodfit::test::run_cli;
 using periodfit::test::TempDir;
@@ -39,25 +40,20 @@ struct Signals {
 
 /// Square wave ±1 (handbook series (4/π)Σ_{n odd} sin(nω0t)/n, to n = 31) through the RC
 /// low-pass H = 1/(1 + jωτ) (standard circuit theory) by exact superposition; white noise
-/// `sigma` on each channel; `periods` periods at 400 samples per period.
+/// `sigma` on each channel; `periods` periods at 400 samples per period (support/signals.hpp).
 Signals rc_square(int periods, double sigma, unsigned seed, double gain_y = 1) {
-  std::mt19937_64 rng(seed);
-  std::normal_distribution<double> noise(0.0, sigma);
-  const auto count = std::size_t(kFs / kF0) * std::size_t(periods);
-  Signals s{std::vector<double>(count), std::vector<double>(count)};
-  for (std::size_t k = 0; k < count; ++k) {
-    const double th = 2 * kPi * kF0 * double(k) / kFs;
-    double u = 0, y = 0;
-    for (int n = 1; n <= 31; n += 2) {
-      const double a = 4 / (kPi * n);
-      const cd h = 1.0 / cd(1, n * 2 * kPi * kF0 * kTau);
-      u += a * std::cos(n * th - kPi / 2);
-      y += a * std::abs(h) * std::cos(n * th - kPi / 2 + std::arg(h));
-    }
-    s.u[k] = u + noise(rng);
-    s.y[k] = gain_y * y + noise(rng);
+  periodfit::test::Phasors u(32, 0.0), y(32, 0.0);
+  for (int n = 1; n <= 31; n += 2) {
+    const double a = 4 / (kPi * n);
+    const cd h = 1.0 / cd(1, n * 2 * kPi * kF0 * kTau);
+    u[std::size_t(n)] = cd(0, -a);  // a·sin(nω0t) = a·cos(nω0t − π/2)
+    y[std::size_t(n)] = std::polar(a * std::abs(h), std::arg(h) - kPi / 2);
   }
-  return s;
+  const auto count = std::size_t(kFs / kF0) * std::size_t(periods);
+  std::mt19937_64 rng(seed);
+  const auto w = periodfit::test::interleaved_draws(rng, 2, count);  // u and y drawn in turn
+  return {periodfit::test::harmonic_samples(u, kF0, kFs, count, {sigma, nullptr, &w[0]}),
+          periodfit::test::harmonic_samples(y, kF0, kFs, count, {sigma, nullptr, &w[1]}, [gain_y](double v) { return gain_y * v; })};
 }
 
 std::string csv(const std::vector<std::vector<double>*>& columns, const std::vector<std::string>& names,

@@ -11,6 +11,7 @@
 
 #include "output/model_file.hpp"
 #include "support/cli_runner.hpp"
+#include "support/signals.hpp"
 
 using namespace periodfit;
 using test::run_cli;
@@ -145,17 +146,12 @@ namespace {
 /// An invented capture: dc + 2 V at 50 Hz + 0.5 V at 150 Hz (phase +30°), 20 periods at
 /// 10 kHz, plus seeded white noise of `noise_v` rms.
 void write_supply_capture(const std::string& path, double dc_v, double noise_v) {
+  std::mt19937_64 rng(1234);
+  const auto v = test::tone_samples(dc_v, {{1, 2, 0}, {3, 0.5, 30}}, 50, {10000, 4000}, {noise_v, &rng});
   std::ofstream out(path);
   out << "t,v\n";
   out.precision(17);
-  std::mt19937_64 rng(1234);
-  std::normal_distribution<double> noise(0, 1);
-  for (int k = 0; k < 4000; ++k) {
-    const double t = k / 10000.0;
-    const double draw = noise(rng);
-    out << t << "," << dc_v + 2 * std::cos(2 * kPi * 50 * t) + 0.5 * std::cos(2 * kPi * 150 * t + kPi / 6) + noise_v * draw
-        << "\n";
-  }
+  for (std::size_t k = 0; k < v.size(); ++k) out << static_cast<double>(k) / 10000.0 << "," << v[k] << "\n";
 }
 
 }  // namespace

@@ -13,6 +13,7 @@
 
 #include "core/error.hpp"
 #include "ident/frf.hpp"
+#include "support/signals.hpp"
 
 using namespace periodfit;
 using cd = std::complex<double>;
@@ -72,22 +73,6 @@ dsp::PeriodSpectra spectra_of(const std::vector<double>& x, int m, int periods, 
   return s;
 }
 
-/// A periodic signal given by its phasors X_n (n = 0…H): x(t) = X_0 + Σ |X_n| cos(nω0t + ∠X_n),
-/// sampled on M points per period over P periods, plus white Gaussian noise of std `sigma`.
-std::vector<double> synthesise(const std::vector<cd>& phasors, int m, int periods, double sigma,
-                               std::mt19937_64& rng) {
-  std::normal_distribution<double> noise(0.0, 1.0);
-  std::vector<double> x(std::size_t(m * periods));
-  for (int i = 0; i < m * periods; ++i) {
-    const double phase = 2 * kPi * double(i % m) / m;  // ω0·t within the period
-    double v = phasors[0].real();
-    for (std::size_t n = 1; n < phasors.size(); ++n)
-      v += std::abs(phasors[n]) * std::cos(double(n) * phase + std::arg(phasors[n]));
-    x[std::size_t(i)] = v + sigma * noise(rng);
-  }
-  return x;
-}
-
 /// Output phasors Y_n = H(jnω0)·U_n: exact Fourier-series superposition through an LTI DUT.
 std::vector<cd> through(const std::vector<cd>& u, double f0, const std::function<cd(double)>& h) {
   std::vector<cd> y(u.size());
@@ -123,8 +108,8 @@ TEST_CASE("frf: RC low-pass under a square wave gives 0.7071 and -45 deg at w = 
   constexpr int kM = 64, kP = 8, kH = 25;
   std::mt19937_64 rng(1);
   const auto u = square_wave(1.0, kH);
-  const auto x = synthesise(u, kM, kP, 0, rng);
-  const auto y = synthesise(through(u, kF0, rc_lowpass), kM, kP, 0, rng);
+  const auto x = test::harmonic_samples(u, {kM, kP}, {0, &rng});
+  const auto y = test::harmonic_samples(through(u, kF0, rc_lowpass), {kM, kP}, {0, &rng});
   const auto frf = ident::compute_frf(spectra_of(x, kM, kP, kH, kF0), spectra_of(y, kM, kP, kH, kF0));
   // Square wave: only odd harmonics carry power (handbook Fourier-series table).
   REQUIRE(frf.points.size() == 13);
@@ -150,8 +135,8 @@ TEST_CASE("frf: RC low-pass under a half-wave rectified sine, noise on both chan
   constexpr double kSigma = 1e-4;  // per-sample noise std on each channel
   std::mt19937_64 rng(2);
   const auto u = half_wave_rectified(1.0, kH);
-  const auto x = synthesise(u, kM, kP, kSigma, rng);
-  const auto y = synthesise(through(u, kF0, rc_lowpass), kM, kP, kSigma, rng);
+  const auto x = test::harmonic_samples(u, {kM, kP}, {kSigma, &rng});
+  const auto y = test::harmonic_samples(through(u, kF0, rc_lowpass), {kM, kP}, {kSigma, &rng});
   const auto frf = ident::compute_frf(spectra_of(x, kM, kP, kH, kF0), spectra_of(y, kM, kP, kH, kF0));
   // Half-wave rectified sine: fundamental and even harmonics only (handbook table).
   std::vector<int> expected_n{1};
@@ -226,7 +211,7 @@ TEST_CASE("frf: generator noise that passes through the DUT cancels in Y/U (corr
   std::vector<cd> u(kH + 1, 0.0);
   u[1] = 1.0;
   u[3] = cd(0, 0.5);
-  const auto x = synthesise(u, kM, kP, 0.05, rng);
+  const auto x = test::harmonic_samples(u, {kM, kP}, {0.05, &rng});
   std::vector<double> y(x.size());
   for (std::size_t i = 0; i < x.size(); ++i) y[i] = -2 * x[i];  // H0 = −2 at every frequency
   const auto frf = ident::compute_frf(spectra_of(x, kM, kP, kH, kF0), spectra_of(y, kM, kP, kH, kF0));
@@ -261,8 +246,8 @@ TEST_CASE("frf: 95 % intervals of |H| and phase cover with Student-t at P = 5") 
   const auto y0 = through(u, kF0, rc_lowpass);
   int trials = 0, mag_in = 0, phase_in = 0;
   for (int run = 0; run < kRuns; ++run) {
-    const auto x = synthesise(u, kM, kP, kSigma, rng);
-    const auto y = synthesise(y0, kM, kP, kSigma, rng);
+    const auto x = test::harmonic_samples(u, {kM, kP}, {kSigma, &rng});
+    const auto y = test::harmonic_samples(y0, {kM, kP}, {kSigma, &rng});
     const auto frf = ident::compute_frf(spectra_of(x, kM, kP, kH, kF0, 0), spectra_of(y, kM, kP, kH, kF0, 0));
     for (const auto& p : frf.points) {
       const cd h0 = rc_lowpass(2 * kPi * p.freq_hz);
@@ -284,8 +269,8 @@ TEST_CASE("frf: few periods use the neighbouring noise bins and their dof") {
   constexpr double kSigma = 1e-3;
   std::mt19937_64 rng(5);
   const auto u = square_wave(1.0, kH);
-  const auto x = synthesise(u, kM, kP, kSigma, rng);
-  const auto y = synthesise(through(u, kF0, rc_lowpass), kM, kP, kSigma, rng);
+  const auto x = test::harmonic_samples(u, {kM, kP}, {kSigma, &rng});
+  const auto y = test::harmonic_samples(through(u, kF0, rc_lowpass), {kM, kP}, {kSigma, &rng});
   const auto su = spectra_of(x, kM, kP, kH, kF0), sy = spectra_of(y, kM, kP, kH, kF0);
   const auto frf = ident::compute_frf(su, sy);
   CHECK(frf.method == "noise-bins");
@@ -334,8 +319,8 @@ TEST_CASE("frf: deskew rotates the output phasors by e^{+j n w0 skew}") {
   const auto u = square_wave(1.0, kH);
   const auto y_true = through(u, kF0, rc_lowpass);
   const auto y_rec = through(y_true, kF0, [](double w) { return std::polar(1.0, -w * kSkew); });
-  const auto su = spectra_of(synthesise(u, kM, kP, 0, rng), kM, kP, kH, kF0);
-  const auto sy = spectra_of(synthesise(y_rec, kM, kP, 0, rng), kM, kP, kH, kF0);
+  const auto su = spectra_of(test::harmonic_samples(u, {kM, kP}, {0, &rng}), kM, kP, kH, kF0);
+  const auto sy = spectra_of(test::harmonic_samples(y_rec, {kM, kP}, {0, &rng}), kM, kP, kH, kF0);
   ident::FrfOptions o;
   o.skew_s = kSkew;
   const auto frf = ident::compute_frf(su, sy, o);
@@ -356,8 +341,8 @@ TEST_CASE("frf: options are validated and bad spectra are errors with whole mess
 
   std::mt19937_64 rng(7);
   const auto u = square_wave(1.0, 5);
-  const auto su = spectra_of(synthesise(u, 16, 4, 0, rng), 16, 4, 5, kF0);
-  auto other = spectra_of(synthesise(u, 16, 5, 0, rng), 16, 5, 5, kF0);
+  const auto su = spectra_of(test::harmonic_samples(u, {16, 4}, {0, &rng}), 16, 4, 5, kF0);
+  auto other = spectra_of(test::harmonic_samples(u, {16, 5}, {0, &rng}), 16, 5, 5, kF0);
   CHECK_THROWS_WITH_AS(ident::compute_frf(su, other),
                        "FRF: input and output are not on the same period grid (f0 50 vs 50 Hz, 4 vs "
                        "5 periods, 5 vs 5 harmonics)",
@@ -367,7 +352,7 @@ TEST_CASE("frf: options are validated and bad spectra are errors with whole mess
                        "FRF: no excited harmonic: no input harmonic 1…5 exceeds the input noise "
                        "floor by 20 dB",
                        AnalysisError);
-  const auto one = spectra_of(synthesise(u, 16, 1, 0, rng), 16, 1, 5, kF0);
+  const auto one = spectra_of(test::harmonic_samples(u, {16, 1}, {0, &rng}), 16, 1, 5, kF0);
   CHECK_THROWS_WITH_AS(ident::compute_frf(one, one),
                        "FRF: no noise estimate: 1 period(s) and no noise bins between the "
                        "harmonics; at least 4 whole periods are needed",

@@ -14,6 +14,7 @@
 
 #include "core/capture.hpp"
 #include "dsp/harmonics.hpp"
+#include "support/signals.hpp"
 #include "dsp/period_lock.hpp"
 #include "ident/identify.hpp"
 
@@ -195,23 +196,18 @@ TEST_CASE("harmonic count: a 200-line multisine through a second-order low-pass 
     const double w = 2 * pi * f0 * k;
     h[static_cast<std::size_t>(k)] = wn * wn / cd(wn * wn - w * w, 2 * zeta * wn * w);
   }
-  std::vector<double> u(n, 0.0), y(n, 0.0);
+  // 50 mV per line on the input, the output through H exactly.
+  test::Phasors pu(kLines + 1, 0.0), py(kLines + 1, 0.0);
   for (int k = 1; k <= kLines; ++k) {
     const double ph = -k * (k - 1) * pi / kLines;
     const cd hk = h[static_cast<std::size_t>(k)];
-    const double w = 2 * pi * f0 * k / fs;
-    for (std::size_t i = 0; i < n; ++i) {
-      const double th = w * static_cast<double>(i) + ph;
-      u[i] += 0.05 * std::cos(th);
-      y[i] += 0.05 * std::abs(hk) * std::cos(th + std::arg(hk));
-    }
+    pu[static_cast<std::size_t>(k)] = std::polar(0.05, ph);
+    py[static_cast<std::size_t>(k)] = std::polar(0.05 * std::abs(hk), ph + std::arg(hk));
   }
   std::mt19937_64 rng(3);
-  std::normal_distribution<double> g(0.0, 1e-3);
-  for (std::size_t i = 0; i < n; ++i) {
-    u[i] += g(rng);
-    y[i] += g(rng);
-  }
+  const auto w = test::interleaved_draws(rng, 2, n);  // 1 mV white noise, u and y drawn in turn
+  std::vector<double> u = test::harmonic_samples(pu, f0, fs, n, {1e-3, nullptr, &w[0]});
+  std::vector<double> y = test::harmonic_samples(py, f0, fs, n, {1e-3, nullptr, &w[1]});
   Capture cap;
   cap.source = "multisine";
   cap.format = "test";

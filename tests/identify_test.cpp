@@ -19,6 +19,7 @@
 #include "ident/identify.hpp"
 #include "output/identify_output.hpp"
 #include "support/python_ref.hpp"
+#include "support/signals.hpp"
 
 using namespace periodfit;
 using cd = std::complex<double>;
@@ -43,21 +44,9 @@ constexpr double kRelativeAt60dB = 0.01;
 using Phasors = std::vector<cd>;
 
 /// x(t) = Σ |X_n| cos(nω0t + ∠X_n) sampled at kFs for kPeriods periods, t = k/kFs, plus white
-/// noise of std `sigma`.
-std::vector<double> synthesise(const Phasors& x, double sigma, std::mt19937_64& rng,
-                               const std::function<double(double)>& shape = nullptr) {
-  const auto count = std::size_t(kFs / kF0 * kPeriods);
-  std::normal_distribution<double> noise(0.0, 1.0);
-  std::vector<double> out(count);
-  for (std::size_t k = 0; k < count; ++k) {
-    const double th = 2 * kPi * kF0 * double(k) / kFs;
-    double v = x[0].real();
-    for (std::size_t n = 1; n < x.size(); ++n)
-      if (x[n] != 0.0) v += std::abs(x[n]) * std::cos(double(n) * th + std::arg(x[n]));
-    if (shape) v = shape(v);
-    out[k] = v + sigma * noise(rng);
-  }
-  return out;
+/// noise of std `sigma` (support/signals.hpp; one draw per sample, also at sigma = 0).
+std::vector<double> synthesise(const Phasors& x, double sigma, std::mt19937_64& rng, const test::Shape& shape = {}) {
+  return test::harmonic_samples(x, kF0, kFs, std::size_t(kFs / kF0 * kPeriods), {sigma, &rng}, shape);
 }
 
 double rms(const std::vector<double>& x) {

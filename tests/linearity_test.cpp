@@ -13,6 +13,7 @@
 #include "core/error.hpp"
 #include "ident/frf.hpp"
 #include "ident/linearity.hpp"
+#include "support/signals.hpp"
 
 using namespace periodfit;
 using cd = std::complex<double>;
@@ -62,18 +63,12 @@ cd lowpass(double w) {
   return wn * wn / (s * s + 2 * zeta * wn * s + wn * wn);
 }
 
+/// The phasors on kP periods of kM samples through the static nonlinearity v + a2·v² + a3·v³,
+/// plus white noise of std `sigma` (support/signals.hpp).
 std::vector<double> waveform(const std::vector<cd>& phasors, std::mt19937_64& rng, double sigma,
                              double a2 = 0, double a3 = 0) {
-  std::normal_distribution<double> noise(0.0, sigma);
-  std::vector<double> x(std::size_t(kM * kP));
-  for (std::size_t i = 0; i < x.size(); ++i) {
-    const double th = 2 * kPi * double(i % kM) / kM;
-    double v = 0;
-    for (std::size_t n = 1; n < phasors.size(); ++n)
-      v += std::abs(phasors[n]) * std::cos(double(n) * th + std::arg(phasors[n]));
-    x[i] = v + a2 * v * v + a3 * v * v * v + noise(rng);
-  }
-  return x;
+  return test::harmonic_samples(phasors, {kM, kP}, {sigma, &rng},
+                                [a2, a3](double v) { return v + a2 * v * v + a3 * v * v * v; });
 }
 
 /// Peak phasor of v² at harmonic k for v = Σ Re(V_n e^{jnθ}): two-sided c_{±n} = V_n/2, V_n*/2,

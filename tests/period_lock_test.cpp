@@ -12,34 +12,24 @@
 #include "core/error.hpp"
 #include "dsp/internal/kernel_override.hpp"
 #include "dsp/period_lock.hpp"
+#include "support/signals.hpp"
 
 using namespace periodfit;
 using std::numbers::pi;
 
 namespace {
 
-struct Tone {
-  int n;
-  double amplitude;
-  double phase_deg;
-};
+using test::Tone;
 
 /// x(t) = dc + Σ A_n cos(2π n f0 t + φ_n), t = t0 + k/fs: a band-limited periodic signal
-/// evaluated exactly (the reference every lock test compares with).
+/// evaluated exactly (the reference every lock test compares with; support/signals.hpp), with
+/// white noise of std noise_sigma from an rng seeded with `seed`.
 std::vector<double> synth(std::size_t count, double fs, double t0, double f0, double dc,
                           const std::vector<Tone>& tones, double noise_sigma = 0,
                           unsigned seed = 1) {
   std::mt19937_64 rng(seed);
-  std::normal_distribution<double> noise(0.0, 1.0);
-  std::vector<double> x(count);
-  for (std::size_t k = 0; k < count; ++k) {
-    const double t = t0 + static_cast<double>(k) / fs;
-    double v = dc;
-    for (const auto& tone : tones)
-      v += tone.amplitude * std::cos(2 * pi * tone.n * f0 * t + tone.phase_deg * pi / 180);
-    x[k] = v + (noise_sigma > 0 ? noise_sigma * noise(rng) : 0.0);
-  }
-  return x;
+  return test::tone_samples(dc, tones, f0, {fs, count, t0},
+                            noise_sigma > 0 ? test::WhiteNoise{noise_sigma, &rng} : test::WhiteNoise{});
 }
 
 double wrap_deg(double d) {

@@ -178,6 +178,30 @@ std::vector<std::string> setting_words(const CLI::App& app) {
   return words;
 }
 
+/// What the run reads and writes and how it is spread: the folders, the report, the config
+/// file, the jobs and the shard of a scaled-out run.
+void add_batch_run_options(CLI::App& app, BatchArgs& a) {
+  app.add_option("DIR", a.run.inputs, "folders of captures (or single capture files)")
+      ->required()
+      ->type_name("DIR");
+  app.add_option("--report", a.run.report_dir, "folder for summary.csv, summary.json, files/*.json, report.html")
+      ->required()
+      ->type_name("OUTDIR");
+  app.add_option("--config", a.config_path, "TOML file with the settings and the limits (docs/batch-config.md)")
+      ->type_name("FILE");
+  app.add_option("--jobs,-j", a.run.jobs, "files analysed in parallel (0 = hardware threads)")
+      ->capture_default_str()
+      ->type_name("N");
+  app.add_option("--shard", a.shard,
+                 "take only shard K of N of the captures and record it for `periodfit gather` "
+                 "(docs/scale-out.md)")
+      ->type_name("K/N");
+  app.add_option("--run-id", a.run.run_id,
+                 "with --shard: the id the shards of one run share (default: derived from the version, "
+                 "settings, inputs and N)")
+      ->type_name("ID");
+}
+
 }  // namespace
 
 batch::BatchConfig rebuild_batch_config(const batch::SettingsRecord& record) {
@@ -198,25 +222,7 @@ batch::BatchConfig rebuild_batch_config(const batch::SettingsRecord& record) {
 Runner add_batch(CLI::App& app) {
   auto args = std::make_shared<BatchArgs>();
   BatchArgs& a = *args;
-  app.add_option("DIR", a.run.inputs, "folders of captures (or single capture files)")
-      ->required()
-      ->type_name("DIR");
-  app.add_option("--report", a.run.report_dir, "folder for summary.csv, summary.json, files/*.json, report.html")
-      ->required()
-      ->type_name("OUTDIR");
-  app.add_option("--config", a.config_path, "TOML file with the settings and the limits (docs/batch-config.md)")
-      ->type_name("FILE");
-  app.add_option("--jobs,-j", a.run.jobs, "files analysed in parallel (0 = hardware threads)")
-      ->capture_default_str()
-      ->type_name("N");
-  app.add_option("--shard", a.shard,
-                 "take only shard K of N of the captures and record it for `periodfit gather` "
-                 "(docs/scale-out.md)")
-      ->type_name("K/N");
-  app.add_option("--run-id", a.run.run_id,
-                 "with --shard: the id the shards of one run share (default: derived from the version, "
-                 "settings, inputs and N)")
-      ->type_name("ID");
+  add_batch_run_options(app, a);
   add_setting_options(app, a);
   app.add_flag("--quiet,-q", a.quiet, "no progress and no per-file table; only the closing line");
   app.add_flag("--timing", a.timing, "print throughput and per-file overhead on stderr");

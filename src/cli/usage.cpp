@@ -5,6 +5,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdlib>
+#include <optional>
 #include <set>
 #include <string_view>
 
@@ -266,6 +267,77 @@ std::string extras_message(CLI::App& app, CLI::App* command, const std::vector<s
   return "unexpected argument \"" + word + "\" (periodfit " + command->get_name() + " takes no more arguments)";
 }
 
+/// A required option or command missing: a word where the command belongs is a misspelt
+/// command, not a missing one; a missing option is named with what it is for.
+std::optional<std::string> required_message(const std::string& message, CLI::App& app, const CLI::App* command,
+                                            const CLI::App& scope, const std::vector<std::string>& args) {
+  if (starts_with(message, "A subcommand")) {
+    for (const auto& a : args)
+      if (!a.empty() && (a[0] != '-' || !find_option(app, a.substr(0, a.find('=')))))
+        return extras_message(app, nullptr, {a});
+    return "no command given; commands: " + command_list(app);
+  }
+  if (!ends_with(message, " is required")) return std::nullopt;
+  const std::string name = message.substr(0, message.size() - std::string_view(" is required").size());
+  const CLI::Option* o = find_option(scope, name);
+  const std::string who = command ? "periodfit " + command->get_name() : std::string("periodfit");
+  if (o) return who + " needs " + option_label(o) + ": " + o->get_description();
+  return who + " needs " + name;
+}
+
+/// A value that does not convert: not a number, not a whole number, or a value given to a switch.
+std::optional<std::string> conversion_message(const std::string& message, const CLI::App& scope) {
+  if (starts_with(message, "Could not convert: ")) {
+    const std::string rest = message.substr(std::string_view("Could not convert: ").size());
+    const auto eq = rest.find(" = ");
+    if (eq != std::string::npos) {
+      const std::string name = known_as(scope, rest.substr(0, eq)), value = rest.substr(eq + 3);
+      // A value that is a number but was refused wanted a whole number (a count).
+      return name + ": \"" + value + "\" is not " + (is_number(value) ? "a whole number" : "a number");
+    }
+  }
+  const auto colon = message.find(": ");
+  if (colon != std::string::npos && message.find("too many inputs for a flag") != std::string::npos)
+    return known_as(scope, message.substr(0, colon)) + " is a switch and takes no value";
+  return std::nullopt;
+}
+
+/// A refused value: CLI11's IsMember says `VALUE not in {a,b}`, said here with the choices and
+/// the nearest one; the project's own checks already speak our way.
+std::string validation_message(const std::string& message, const CLI::App& scope) {
+  const auto colon = message.find(": ");
+  const auto not_in = message.find(" not in {");
+  if (colon == std::string::npos || not_in == std::string::npos || not_in <= colon || message.back() != '}')
+    return message;
+  const std::string name = known_as(scope, message.substr(0, colon));
+  const std::string value = message.substr(colon + 2, not_in - colon - 2);
+  const std::string set = message.substr(not_in + 9, message.size() - not_in - 10);
+  std::vector<std::string> choices;
+  std::string listed;
+  for (std::size_t i = 0; i <= set.size();) {
+    const auto comma = std::min(set.find(',', i), set.size());
+    choices.push_back(set.substr(i, comma - i));
+    listed += (listed.empty() ? "" : ", ") + choices.back();
+    i = comma + 1;
+  }
+  std::string out = name + ": \"" + value + "\" is not one of " + listed;
+  if (const std::string near = nearest_name(value, choices); !near.empty()) out += "; did you mean " + near + "?";
+  return out;
+}
+
+/// An option without its value. Messages name the option first (`--rate: 1 required HZ
+/// missing`) or after "to ".
+std::optional<std::string> mismatch_message(const std::string& message, const CLI::App& scope) {
+  const auto dash = message.find("--");
+  if (dash == std::string::npos) return std::nullopt;
+  const auto end = message.find_first_of(": ,", dash);
+  const std::string name = message.substr(dash, end == std::string::npos ? std::string::npos : end - dash);
+  if (name.empty()) return std::nullopt;
+  const CLI::Option* o = find_option(scope, name);
+  const std::string v = o ? value_name(o) : std::string();
+  return (o ? display_name(o) : name) + " needs a value" + (v.empty() ? std::string() : " (" + v + ")");
+}
+
 }  // namespace
 
 std::shared_ptr<CLI::FormatterBase> make_help_formatter() { return std::make_shared<HelpFormatter>(); }
@@ -276,80 +348,20 @@ std::string usage_error_message(const CLI::ParseError& error, CLI::App& app, con
   CLI::App* command = chosen_command(app, args);
   const CLI::App& scope = command ? *command : app;
 
-  if (dynamic_cast<const CLI::RequiredError*>(&error)) {
-    if (starts_with(message, "A subcommand")) {
-      // A word where the command belongs is a misspelt command, not a missing one.
-      for (const auto& a : args)
-        if (!a.empty() && (a[0] != '-' || !find_option(app, a.substr(0, a.find('=')))))
-          return extras_message(app, nullptr, {a});
-      return "no command given; commands: " + command_list(app);
-    }
-    if (ends_with(message, " is required")) {
-      const std::string name = message.substr(0, message.size() - std::string_view(" is required").size());
-      const CLI::Option* o = find_option(scope, name);
-      const std::string who = command ? "periodfit " + command->get_name() : std::string("periodfit");
-      if (o) return who + " needs " + option_label(o) + ": " + o->get_description();
-      return who + " needs " + name;
-    }
-  }
+  std::optional<std::string> said;
+  if (dynamic_cast<const CLI::RequiredError*>(&error)) said = required_message(message, app, command, scope, args);
   if (dynamic_cast<const CLI::ExcludesError*>(&error)) return relation(message, " excludes ", " cannot be combined with ", scope);
   if (dynamic_cast<const CLI::RequiresError*>(&error))
     return relation(message, " requires ", " only applies together with ", scope);
-  if (dynamic_cast<const CLI::ConversionError*>(&error)) {
-    if (starts_with(message, "Could not convert: ")) {
-      const std::string rest = message.substr(std::string_view("Could not convert: ").size());
-      const auto eq = rest.find(" = ");
-      if (eq != std::string::npos) {
-        const std::string name = known_as(scope, rest.substr(0, eq)), value = rest.substr(eq + 3);
-        // A value that is a number but was refused wanted a whole number (a count).
-        return name + ": \"" + value + "\" is not " + (is_number(value) ? "a whole number" : "a number");
-      }
-    }
-    const auto colon = message.find(": ");
-    if (colon != std::string::npos && message.find("too many inputs for a flag") != std::string::npos)
-      return known_as(scope, message.substr(0, colon)) + " is a switch and takes no value";
-  }
-  if (dynamic_cast<const CLI::ValidationError*>(&error)) {
-    // CLI11's IsMember says `VALUE not in {a,b}`; the project's own checks already speak our way.
-    const auto colon = message.find(": ");
-    const auto not_in = message.find(" not in {");
-    if (colon != std::string::npos && not_in != std::string::npos && not_in > colon && message.back() == '}') {
-      const std::string name = known_as(scope, message.substr(0, colon));
-      const std::string value = message.substr(colon + 2, not_in - colon - 2);
-      const std::string set = message.substr(not_in + 9, message.size() - not_in - 10);
-      std::vector<std::string> choices;
-      std::string listed;
-      for (std::size_t i = 0; i <= set.size();) {
-        const auto comma = std::min(set.find(',', i), set.size());
-        choices.push_back(set.substr(i, comma - i));
-        listed += (listed.empty() ? "" : ", ") + choices.back();
-        i = comma + 1;
-      }
-      std::string out = name + ": \"" + value + "\" is not one of " + listed;
-      if (const std::string near = nearest_name(value, choices); !near.empty()) out += "; did you mean " + near + "?";
-      return out;
-    }
-    return message;
-  }
+  if (dynamic_cast<const CLI::ConversionError*>(&error)) said = conversion_message(message, scope);
+  if (dynamic_cast<const CLI::ValidationError*>(&error)) return validation_message(message, scope);
   if (dynamic_cast<const CLI::ExtrasError*>(&error)) {
     std::vector<std::string> extras = command ? command->remaining() : app.remaining();
     if (extras.empty()) extras = app.remaining(true);
     return extras_message(app, command, extras);
   }
-  if (dynamic_cast<const CLI::ArgumentMismatch*>(&error)) {
-    // Messages name the option first (`--rate: 1 required HZ missing`) or after "to ".
-    std::string name;
-    const auto dash = message.find("--");
-    if (dash != std::string::npos) {
-      auto end = message.find_first_of(": ,", dash);
-      name = message.substr(dash, end == std::string::npos ? std::string::npos : end - dash);
-    }
-    if (!name.empty()) {
-      const CLI::Option* o = find_option(scope, name);
-      const std::string v = o ? value_name(o) : std::string();
-      return (o ? display_name(o) : name) + " needs a value" + (v.empty() ? std::string() : " (" + v + ")");
-    }
-  }
+  if (dynamic_cast<const CLI::ArgumentMismatch*>(&error)) said = mismatch_message(message, scope);
+  if (said) return *said;
   // Anything else: the parser's words, lower-cased at the start, on one line.
   for (auto& c : message)
     if (c == '\n') c = ' ';

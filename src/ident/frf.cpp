@@ -116,7 +116,11 @@ double coverage_factor(double confidence, int dof) {
   return boost::math::quantile(boost::math::students_t_distribution<double>(double(dof)), tail);
 }
 
-FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra& output,
+namespace {
+
+/// Refuses spectra the FRF cannot use: no noise estimate at all, or a deskew longer than the
+/// record. Returns whether the per-period covariance serves (else the noise bins do).
+bool check_frf_inputs(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra& output,
                       const FrfOptions& options) {
   options.validate();
   check_same_grid(input, output);
@@ -141,6 +145,116 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
                       "must not exceed the record's length of " + format_significant(record_s, 6) +
                           " s (" + std::to_string(input.periods) + " periods of " +
                           format_significant(input.f0_hz, 9) + " Hz)");
+  return per_period;
+}
+
+/// The output's phasors after the deskew: the recorded output lags by skew_s, so
+/// Y_true = Y_rec·e^{+jnω0·skew}. Rotating the per-period phasors too keeps their spread about
+/// the rotated mean unchanged.
+struct DeskewedOutput {
+  std::vector<std::complex<double>> mean;
+  std::vector<std::vector<std::complex<double>>> per_period;
+};
+
+DeskewedOutput deskewed(const dsp::PeriodSpectra& output, double f0_hz, double skew_s) {
+  DeskewedOutput y{output.mean, output.per_period};
+  if (skew_s == 0) return y;
+  const double w0 = 2 * std::numbers::pi * f0_hz;
+  for (std::size_t n = 0; n <= static_cast<std::size_t>(output.max_harmonic); ++n) {
+    const std::complex<double> rot = std::polar(1.0, double(n) * w0 * skew_s);
+    y.mean[n] *= rot;
+    for (auto& p : y.per_period) p[n] *= rot;
+  }
+  return y;
+}
+
+/// The point at harmonic n: H = Y/U (h) and its covariance of (Re H, Im H), from the per-period
+/// moments or, with noise bins only (m holds their variances of Ū and Ȳ), for uncorrelated
+/// circular noise.
+FrfHarmonic frf_point(int n, double f0_hz, std::complex<double> u, std::complex<double> y, std::complex<double> h,
+                      double snr, const PeriodMoments& m, bool per_period) {
+  FrfHarmonic pt;
+  pt.n = n;
+  pt.freq_hz = double(n) * f0_hz;
+  pt.u = u;
+  pt.y = y;
+  pt.h = h;
+  pt.re = h.real();
+  pt.im = h.imag();
+  pt.mag = std::abs(h);
+  pt.mag_db = 20 * std::log10(pt.mag);
+  pt.phase_deg = std::arg(h) * kDegPerRad;
+  pt.input_snr_db = 10 * std::log10(snr);
+  if (per_period) {
+    pt.var_re = m.var_re;
+    pt.var_im = m.var_im;
+    pt.cov_re_im = m.cov_re_im;
+  } else {
+    // Uncorrelated circular noise on Ū and Ȳ: σ²_H = |H|²(σ²_Y/|Y|² + σ²_U/|U|²)
+    // = (σ²_Y + |H|²σ²_U)/|U|², split equally between Re and Im.
+    const double var_h = (m.var_y + std::norm(h) * m.var_u) / std::norm(u);
+    pt.var_re = pt.var_im = 0.5 * var_h;
+    pt.cov_re_im = 0;
+  }
+  return pt;
+}
+
+/// Standard uncertainties and the coverage intervals of |H| and phase from the point's 2×2
+/// covariance of (Re H, Im H), with coverage factor k.
+void set_intervals(FrfHarmonic& pt, double k) {
+  pt.var_h = pt.var_re + pt.var_im;
+  // Radial and tangential projections of the 2×2 covariance give |H| and phase variances.
+  const double c = pt.mag > 0 ? pt.re / pt.mag : 1.0;
+  const double s = pt.mag > 0 ? pt.im / pt.mag : 0.0;
+  const double var_mag = c * c * pt.var_re + s * s * pt.var_im + 2 * c * s * pt.cov_re_im;
+  const double var_tan = s * s * pt.var_re + c * c * pt.var_im - 2 * c * s * pt.cov_re_im;
+  pt.mag_u = std::sqrt(std::max(var_mag, 0.0));
+  pt.phase_u_deg = pt.mag > 0 ? std::sqrt(std::max(var_tan, 0.0)) / pt.mag * kDegPerRad : 0.0;
+  pt.mag_db_u = pt.mag > 0 ? 20 / std::numbers::ln10 * pt.mag_u / pt.mag : 0.0;
+  // |H| interval inside [0, ∞): Rice inversion at low SNR (issue 12: a weak harmonic gave
+  // [-0.000433, 0.0020006]); σ² per component is the mean of the two.
+  const dsp::MagnitudeInterval iv = dsp::magnitude_interval(pt.mag, std::sqrt(0.5 * pt.var_h), k);
+  if (iv.method == "rice") {
+    pt.mag_lo = iv.lo;
+    pt.mag_hi = iv.hi;
+  } else {
+    pt.mag_lo = std::max(0.0, pt.mag - k * pt.mag_u);
+    pt.mag_hi = pt.mag + k * pt.mag_u;
+  }
+  pt.phase_defined = !iv.consistent_with_zero && pt.mag_lo > 0;
+  if (pt.phase_defined) {
+    pt.phase_lo_deg = pt.phase_deg - k * pt.phase_u_deg;
+    pt.phase_hi_deg = pt.phase_deg + k * pt.phase_u_deg;
+  } else {
+    pt.phase_lo_deg = pt.phase_hi_deg = std::numeric_limits<double>::quiet_NaN();
+  }
+}
+
+/// An output with nothing at the excited lines (a constant, zero or noise-only channel) gives
+/// |H| of rounding or noise; a ratio of those is not a response, and a model fitted to it
+/// would be invented (issue 11, class 8). The output must stand out of its own noise (or
+/// rounding) floor at one line at least, by kOutputResponseSigmas standard deviations.
+void check_output_responds(const FrfResult& r) {
+  bool responds = false;
+  for (const auto& pt : r.points)
+    responds = responds || std::norm(pt.y) > kOutputResponseSigmas * kOutputResponseSigmas *
+                                                 r.output_noise_floor[static_cast<std::size_t>(pt.n)];
+  if (responds) return;
+  std::string ns;
+  for (const auto& pt : r.points) ns += (ns.empty() ? "" : ", ") + std::to_string(pt.n);
+  throw AnalysisError("the output carries no response at the excited harmonics (n = " + ns +
+                      "): at none of them does it rise above its own noise or rounding level by " +
+                      format_shortest(kOutputResponseSigmas) +
+                      " standard deviations (the output is constant, zero or noise); check that "
+                      "the output channel is the DUT's output");
+}
+
+}  // namespace
+
+FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra& output,
+                      const FrfOptions& options) {
+  const bool per_period = check_frf_inputs(input, output, options);
+  const auto harmonics = static_cast<std::size_t>(input.max_harmonic);
 
   FrfResult r;
   r.method = per_period ? "per-period-covariance" : "noise-bins";
@@ -154,18 +268,8 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
   r.quantile = r.dof > kNormalQuantileDof ? "normal" : "student-t";
   if (!per_period) r.flags.push_back(Flag::few_periods);
 
-  // Deskew: the recorded output lags by skew_s, so Y_true = Y_rec·e^{+jnω0·skew}. Rotating the
-  // per-period phasors too keeps their spread about the rotated mean unchanged.
-  const double w0 = 2 * std::numbers::pi * input.f0_hz;
-  std::vector<std::complex<double>> y_mean = output.mean;
-  std::vector<std::vector<std::complex<double>>> y_periods = output.per_period;
-  if (options.skew_s != 0) {
-    for (std::size_t n = 0; n <= harmonics; ++n) {
-      const std::complex<double> rot = std::polar(1.0, double(n) * w0 * options.skew_s);
-      y_mean[n] *= rot;
-      for (auto& p : y_periods) p[n] *= rot;
-    }
-  }
+  const DeskewedOutput yd = deskewed(output, input.f0_hz, options.skew_s);
+  const std::vector<std::complex<double>>& y_mean = yd.mean;
 
   // The numerical floor scales with the largest phasor, dc included: a constant record's
   // harmonics are rounding relative to its dc value.
@@ -185,46 +289,17 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     const std::complex<double> u = input.mean[n];
     const std::complex<double> y = y_mean[n];
     const std::complex<double> h = u != 0.0 ? y / u : std::complex<double>(0);
-    double var_u = 0, var_y = 0;
-    PeriodMoments m;
-    if (per_period) {
-      m = period_moments(input, y_mean, y_periods, n, h);
-      var_u = m.var_u;
-      var_y = m.var_y;
-    } else {
-      var_u = input.noise_bin_variance[n];
-      var_y = output.noise_bin_variance[n];
-    }
-    r.input_noise_floor[n] = std::max(var_u, input_numerical_floor);
-    r.output_noise_floor[n] = std::max(var_y, output_numerical_floor);
+    // Per period: the sample moments; otherwise the noise bins' variances of Ū and Ȳ.
+    const PeriodMoments m = per_period ? period_moments(input, y_mean, yd.per_period, n, h)
+                                       : PeriodMoments{input.noise_bin_variance[n], output.noise_bin_variance[n]};
+    r.input_noise_floor[n] = std::max(m.var_u, input_numerical_floor);
+    r.output_noise_floor[n] = std::max(m.var_y, output_numerical_floor);
     const double snr = std::norm(u) / r.input_noise_floor[n];
     if (!(snr > min_ratio)) {
       r.unexcited.push_back(int(n));
       continue;
     }
-    FrfHarmonic pt;
-    pt.n = int(n);
-    pt.freq_hz = double(n) * input.f0_hz;
-    pt.u = u;
-    pt.y = y;
-    pt.h = h;
-    pt.re = h.real();
-    pt.im = h.imag();
-    pt.mag = std::abs(h);
-    pt.mag_db = 20 * std::log10(pt.mag);
-    pt.phase_deg = std::arg(h) * kDegPerRad;
-    pt.input_snr_db = 10 * std::log10(snr);
-    if (per_period) {
-      pt.var_re = m.var_re;
-      pt.var_im = m.var_im;
-      pt.cov_re_im = m.cov_re_im;
-    } else {
-      // Uncorrelated circular noise on Ū and Ȳ: σ²_H = |H|²(σ²_Y/|Y|² + σ²_U/|U|²)
-      // = (σ²_Y + |H|²σ²_U)/|U|², split equally between Re and Im.
-      const double var_h = (var_y + std::norm(h) * var_u) / std::norm(u);
-      pt.var_re = pt.var_im = 0.5 * var_h;
-      pt.cov_re_im = 0;
-    }
+    FrfHarmonic pt = frf_point(int(n), input.f0_hz, u, y, h, snr, m, per_period);
     // No estimate is more precise than the computation: noise-free (synthetic) records get
     // the numerical floor instead of a zero variance, which no weighted fit could use.
     // The rounding of both records carries into H = Y/U as well: an output at its rounding
@@ -239,32 +314,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
       pt.at_numerical_floor = true;
       at_floor = true;
     }
-    pt.var_h = pt.var_re + pt.var_im;
-    // Radial and tangential projections of the 2×2 covariance give |H| and phase variances.
-    const double c = pt.mag > 0 ? pt.re / pt.mag : 1.0;
-    const double s = pt.mag > 0 ? pt.im / pt.mag : 0.0;
-    const double var_mag = c * c * pt.var_re + s * s * pt.var_im + 2 * c * s * pt.cov_re_im;
-    const double var_tan = s * s * pt.var_re + c * c * pt.var_im - 2 * c * s * pt.cov_re_im;
-    pt.mag_u = std::sqrt(std::max(var_mag, 0.0));
-    pt.phase_u_deg = pt.mag > 0 ? std::sqrt(std::max(var_tan, 0.0)) / pt.mag * kDegPerRad : 0.0;
-    pt.mag_db_u = pt.mag > 0 ? 20 / std::numbers::ln10 * pt.mag_u / pt.mag : 0.0;
-    // |H| interval inside [0, ∞): Rice inversion at low SNR (issue 12: a weak harmonic gave
-    // [-0.000433, 0.0020006]); σ² per component is the mean of the two.
-    const dsp::MagnitudeInterval iv = dsp::magnitude_interval(pt.mag, std::sqrt(0.5 * pt.var_h), r.coverage_factor);
-    if (iv.method == "rice") {
-      pt.mag_lo = iv.lo;
-      pt.mag_hi = iv.hi;
-    } else {
-      pt.mag_lo = std::max(0.0, pt.mag - r.coverage_factor * pt.mag_u);
-      pt.mag_hi = pt.mag + r.coverage_factor * pt.mag_u;
-    }
-    pt.phase_defined = !iv.consistent_with_zero && pt.mag_lo > 0;
-    if (pt.phase_defined) {
-      pt.phase_lo_deg = pt.phase_deg - r.coverage_factor * pt.phase_u_deg;
-      pt.phase_hi_deg = pt.phase_deg + r.coverage_factor * pt.phase_u_deg;
-    } else {
-      pt.phase_lo_deg = pt.phase_hi_deg = std::numeric_limits<double>::quiet_NaN();
-    }
+    set_intervals(pt, r.coverage_factor);
     r.points.push_back(pt);
   }
   if (at_floor) r.flags.push_back(Flag::numerical_floor);
@@ -272,23 +322,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
     throw AnalysisError("FRF: no excited harmonic: no input harmonic 1…" +
                         std::to_string(input.max_harmonic) + " exceeds the input noise floor by " +
                         format_shortest(options.min_snr_db) + " dB");
-  // An output with nothing at the excited lines (a constant, zero or noise-only channel) gives
-  // |H| of rounding or noise; a ratio of those is not a response, and a model fitted to it
-  // would be invented (issue 11, class 8). The output must stand out of its own noise (or
-  // rounding) floor at one line at least, by kOutputResponseSigmas standard deviations.
-  bool responds = false;
-  for (const auto& pt : r.points)
-    responds = responds || std::norm(pt.y) > kOutputResponseSigmas * kOutputResponseSigmas *
-                                                 r.output_noise_floor[static_cast<std::size_t>(pt.n)];
-  if (!responds) {
-    std::string ns;
-    for (const auto& pt : r.points) ns += (ns.empty() ? "" : ", ") + std::to_string(pt.n);
-    throw AnalysisError("the output carries no response at the excited harmonics (n = " + ns +
-                        "): at none of them does it rise above its own noise or rounding level by " +
-                        format_shortest(kOutputResponseSigmas) +
-                        " standard deviations (the output is constant, zero or noise); check that "
-                        "the output channel is the DUT's output");
-  }
+  check_output_responds(r);
   return r;
 }
 

@@ -84,36 +84,24 @@ bool frf_finite(const FrfResult& frf) {
   return ok;
 }
 
-IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
-  options.validate();
-  const Capture& ci = *in.capture;
-  if (!(ci.sample_rate_hz > 0))
-    throw AnalysisError(ci.source + ": sample rate unknown (give --rate)");
-  IdentifyResult r;
-  r.input_source = ci.source;
-  r.output_source = out.capture->source;
-  r.input_channel = in.channel->name;
-  r.output_channel = out.channel->name;
-  r.input_unit = in.channel->unit;
-  r.output_unit = out.channel->unit;
-  r.sample_rate_hz = ci.sample_rate_hz;
-  r.skew_s = options.frf.skew_s;
-  const double fs = ci.sample_rate_hz;
+/// The spectra of both channels on one grid, truncated to the same harmonic count.
+struct LockedPair {
+  dsp::PeriodSpectra input, output;
+};
 
-  // Lock (dsp/period_lock.hpp): f0 and the H-harmonic least-squares fit on the input; the same
-  // fit with f0 forced on the output. Each grid is the fitted model evaluated exactly at the
-  // grid times plus the band-limited interpolation of the residual (noise, harmonics above H).
-  // dsp::resample_to_periods would refit every harmonic below 0.45·fs instead: exact for them
-  // too, but N·fs/(2f0) work per channel, hundreds of harmonics for an oversampled capture,
-  // where the interpolator is far more accurate than its 1e-3 band-edge bound anyway.
-  const dsp::LockOptions& lock = options.lock;
-  // Each channel is analysed in a unit where its peak is in [0.5, 1): a power of two, so the
-  // scaling is exact, and sums of squares neither overflow (peaks beyond ~1e154) nor sink into
-  // sub-normals (below ~1e-154), which had made f0_u 0 and shifted f0 (issue 11, class 7).
-  const int eu = unit_exponent(in.channel->samples);
-  const int ey = unit_exponent(out.channel->samples);
-  const std::vector<double> u_samples = scaled_by(in.channel->samples, -eu);
-  const std::vector<double> y_scaled = scaled_by(out.channel->samples, -ey);
+/// Locks the input (dsp/period_lock.hpp): f0 and the H-harmonic least-squares fit; the same fit
+/// with f0 forced on the output. Each grid is the fitted model evaluated exactly at the grid
+/// times plus the band-limited interpolation of the residual (noise, harmonics above H).
+/// dsp::resample_to_periods would refit every harmonic below 0.45·fs instead: exact for them
+/// too, but N·fs/(2f0) work per channel, hundreds of harmonics for an oversampled capture,
+/// where the interpolator is far more accurate than its 1e-3 band-edge bound anyway.
+/// Fills the result's fundamental (residual back in the input's unit, 2^eu), selection and
+/// samples per period.
+LockedPair lock_pair(Selected in, Selected out, const std::vector<double>& u_samples,
+                     const std::vector<double>& y_samples, int eu, const IdentifyOptions& options,
+                     IdentifyResult& r) {
+  const Capture& ci = *in.capture;
+  const double fs = ci.sample_rate_hz;
   // The one lock call (dsp::lock_channel): f0, the automatic harmonic count (every harmonic up
   // to the band limit significant against its local noise) and the spectra, on the input; the
   // output is locked with f0 and H forced to the input's, on the same grid.
@@ -121,7 +109,6 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   // The output is locked on a second thread with f0 and H of the input's first fit, as soon as
   // they are known (the lock stage is thread-safe: cached FFTW plans behind a lock); it is
   // redone only when the input's final lock moved its grid (dsp::lock_channel).
-  const std::vector<double>& y_samples = y_scaled;
   const double y_t0 = out.capture->t0_s;
   dsp::SelectionOptions grid_only;
   grid_only.examine_band = false;
@@ -140,7 +127,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     speculative = std::async(std::launch::async, lock_output, grid.f0_hz, fit.harmonics(), grid.samples_per_period);
   };
   try {
-    lu = dsp::lock_channel(u_samples, fs, ci.t0_s, lock, options.samples_per_period, {}, first_grid);
+    lu = dsp::lock_channel(u_samples, fs, ci.t0_s, options.lock, options.samples_per_period, {}, first_grid);
   } catch (const AnalysisError& e) {
     if (speculative.valid()) speculative.wait();
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\": " + e.what());
@@ -178,18 +165,82 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     drain();
     speculative = std::async(std::launch::async, lock_output, lu.grid.f0_hz, lu.fit.harmonics(), m);
   }
-  auto& output_spectra = speculative;
-  dsp::PeriodSpectra su = std::move(lu.spectra);
-  dsp::truncate_spectra(su, harmonics);
-  dsp::PeriodSpectra sy;
+  LockedPair pair;
+  pair.input = std::move(lu.spectra);
+  dsp::truncate_spectra(pair.input, harmonics);
   try {
-    sy = output_spectra.get();
-    dsp::truncate_spectra(sy, harmonics);
+    pair.output = speculative.get();
+    dsp::truncate_spectra(pair.output, harmonics);
   } catch (const AnalysisError& e) {
     throw AnalysisError(out.capture->source + ": output channel \"" + out.channel->name + "\": " + e.what());
   }
+  return pair;
+}
+
+/// The rational model of the order asked (or auto) fitted to the FRF, with its flags and status.
+void fit_model(IdentifyResult& r, const IdentifyOptions& options) {
+  const std::string& source = r.input_source;
+  RationalFitOptions fit = options.fit;
+  fit.auto_order = options.order == "auto";
+  if (!fit.auto_order) fit.order = parse_model_order(options.order, "order");
+  fit.estimate_delay = options.estimate_delay;
+  const ModelOrder smallest = fit.auto_order ? ModelOrder{0, 1} : fit.order;
+  const int needed = required_points(smallest, fit.estimate_delay);
+  const auto have = int(r.frf.points.size());
+  if (have < needed) {
+    std::vector<int> ns;
+    for (const auto& p : r.frf.points) ns.push_back(p.n);
+    throw AnalysisError(source + ": model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
+                        (fit.estimate_delay ? " with delay" : "") + " needs at least " +
+                        std::to_string(needed) + " excited harmonics; the input excites " +
+                        std::to_string(have) + " (n = " + list_harmonics(ns) + ")");
+  }
   try {
-    r.frf = compute_frf(su, sy, options.frf);
+    r.model = fit_rational(fit_points(r.frf), fit);
+  } catch (const AnalysisError& e) {
+    throw AnalysisError(source + ": model fit: " + e.what());
+  }
+  // A model the data cannot determine leaves identify nothing to report for the order asked.
+  if (!r.model->fitted_model()) throw AnalysisError(source + ": model fit: " + r.model->message);
+  r.model_confidence = fit.confidence;
+  if (!r.model->adequate) {
+    r.flags.push_back(Flag::model_inadequate);
+    r.status = Status::model_inadequate;
+  }
+  if (r.model->unstable) r.flags.push_back(Flag::unstable_pole);
+  if (!(r.model->condition_number <= kIllConditionedJacobian)) r.flags.push_back(Flag::ill_conditioned);
+  if (!r.model->covariance_defined) r.flags.push_back(Flag::parameter_u_undefined);
+  if (r.model->status == LeastSquaresStatus::max_iterations ||
+      r.model->status == LeastSquaresStatus::failed) {
+    r.flags.push_back(Flag::model_not_converged);
+    r.status = Status::model_not_converged;
+  }
+}
+
+IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
+  options.validate();
+  const Capture& ci = *in.capture;
+  if (!(ci.sample_rate_hz > 0))
+    throw AnalysisError(ci.source + ": sample rate unknown (give --rate)");
+  IdentifyResult r;
+  r.input_source = ci.source;
+  r.output_source = out.capture->source;
+  r.input_channel = in.channel->name;
+  r.output_channel = out.channel->name;
+  r.input_unit = in.channel->unit;
+  r.output_unit = out.channel->unit;
+  r.sample_rate_hz = ci.sample_rate_hz;
+  r.skew_s = options.frf.skew_s;
+
+  // Each channel is analysed in a unit where its peak is in [0.5, 1): a power of two, so the
+  // scaling is exact, and sums of squares neither overflow (peaks beyond ~1e154) nor sink into
+  // sub-normals (below ~1e-154), which had made f0_u 0 and shifted f0 (issue 11, class 7).
+  const int eu = unit_exponent(in.channel->samples);
+  const int ey = unit_exponent(out.channel->samples);
+  const LockedPair spectra = lock_pair(in, out, scaled_by(in.channel->samples, -eu),
+                                       scaled_by(out.channel->samples, -ey), eu, options, r);
+  try {
+    r.frf = compute_frf(spectra.input, spectra.output, options.frf);
   } catch (const AnalysisError& e) {
     const std::string output_name = out.capture->source == ci.source
                                         ? "\"" + out.channel->name + "\""
@@ -197,7 +248,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
     throw AnalysisError(ci.source + ": input channel \"" + in.channel->name + "\", output channel " +
                         output_name + ": " + e.what());
   }
-  r.linearity = check_linearity(r.frf, sy, options.linearity);
+  r.linearity = check_linearity(r.frf, spectra.output, options.linearity);
   scale_back(r.frf, r.linearity, eu, ey);
   if (!frf_finite(r.frf))
     throw AnalysisError(ci.source + ": the frequency response between input channel \"" + in.channel->name +
@@ -207,44 +258,7 @@ IdentifyResult run(Selected in, Selected out, const IdentifyOptions& options) {
   for (const auto& f : r.frf.flags) r.flags.push_back(f);
   if (r.linearity.nonlinear) r.flags.push_back(Flag::nonlinear);
   if (r.selection.truncated_lines > 0) r.flags.push_back(Flag::harmonics_truncated);
-
-  if (!options.order.empty()) {
-    RationalFitOptions fit = options.fit;
-    fit.auto_order = options.order == "auto";
-    if (!fit.auto_order) fit.order = parse_model_order(options.order, "order");
-    fit.estimate_delay = options.estimate_delay;
-    const ModelOrder smallest = fit.auto_order ? ModelOrder{0, 1} : fit.order;
-    const int needed = required_points(smallest, fit.estimate_delay);
-    const auto have = int(r.frf.points.size());
-    if (have < needed) {
-      std::vector<int> ns;
-      for (const auto& p : r.frf.points) ns.push_back(p.n);
-      throw AnalysisError(ci.source + ": model order " + (fit.auto_order ? "auto (smallest 0/1)" : order_text(fit.order)) +
-                          (fit.estimate_delay ? " with delay" : "") + " needs at least " +
-                          std::to_string(needed) + " excited harmonics; the input excites " +
-                          std::to_string(have) + " (n = " + list_harmonics(ns) + ")");
-    }
-    try {
-      r.model = fit_rational(fit_points(r.frf), fit);
-    } catch (const AnalysisError& e) {
-      throw AnalysisError(ci.source + ": model fit: " + e.what());
-    }
-    // A model the data cannot determine leaves identify nothing to report for the order asked.
-    if (!r.model->fitted_model()) throw AnalysisError(ci.source + ": model fit: " + r.model->message);
-    r.model_confidence = fit.confidence;
-    if (!r.model->adequate) {
-      r.flags.push_back(Flag::model_inadequate);
-      r.status = Status::model_inadequate;
-    }
-    if (r.model->unstable) r.flags.push_back(Flag::unstable_pole);
-    if (!(r.model->condition_number <= kIllConditionedJacobian)) r.flags.push_back(Flag::ill_conditioned);
-    if (!r.model->covariance_defined) r.flags.push_back(Flag::parameter_u_undefined);
-    if (r.model->status == LeastSquaresStatus::max_iterations ||
-        r.model->status == LeastSquaresStatus::failed) {
-      r.flags.push_back(Flag::model_not_converged);
-      r.status = Status::model_not_converged;
-    }
-  }
+  if (!options.order.empty()) fit_model(r, options);
   return r;
 }
 

@@ -194,6 +194,95 @@ void fill_covariance(const MatrixXd& jac, double rank_tolerance, LeastSquaresRes
   }
 }
 
+/// The point of the Levenberg–Marquardt iteration (Moré 1978; MINPACK lmder): parameters,
+/// residuals and Jacobian there, ‖r‖, the scaling D, ‖D x‖ and the trust-region radius Δ.
+struct LmState {
+  VectorXd x;
+  VectorXd r;
+  MatrixXd jac;
+  double fnorm = 0;
+  VectorXd diag;
+  double xnorm = 0;
+  double delta = 0;
+  bool first = true;  ///< no step accepted yet (the first step also bounds Δ)
+};
+
+/// The stopping tolerances, none below machine epsilon.
+struct Tolerances {
+  double ftol, xtol, gtol;
+};
+
+/// Largest cosine between r and a Jacobian column (MINPACK's gnorm) for the gradient test.
+double gradient_cosine(const LmState& s, const VectorXd& norms) {
+  const VectorXd g = s.jac.transpose() * s.r;
+  double gnorm = 0;
+  for (Index j = 0; j < s.jac.cols(); ++j)
+    if (norms(j) > 0) gnorm = std::max(gnorm, std::abs(g(j)) / (norms(j) * s.fnorm));
+  return gnorm;
+}
+
+/// What one trial step did: accepted or not, and the convergence test it met, if any.
+struct TrialOutcome {
+  bool accepted = false;
+  bool stop = false;
+  LeastSquaresStatus status = LeastSquaresStatus::max_iterations;
+  std::string message;
+};
+
+/// One trial step of lmder's inner loop at radius Δ: updates Δ from the ratio of actual to
+/// predicted reduction, moves to the trial point when that ratio is at least 1e-4 and the
+/// Jacobian there is finite, and applies the cost and step convergence tests.
+TrialOutcome trial_step(LmState& s, const TrustRegionSolver& solver, Evaluator& eval, const Tolerances& tol) {
+  TrialOutcome outcome;
+  const ScaledStep step = solver.step(s.delta);
+  if (s.first) s.delta = std::min(s.delta, step.norm);
+  const VectorXd p = step.z.cwiseQuotient(s.diag);
+  const VectorXd x_new = s.x + p;
+  VectorXd r_new;
+  double fnorm_new = std::numeric_limits<double>::infinity();
+  if (eval.residuals(x_new, r_new)) fnorm_new = r_new.norm();
+
+  // Actual and predicted relative reductions (Moré 1978, eqs. 4.3–4.4; MINPACK lmder).
+  const double fnorm = s.fnorm;
+  const double actred = 0.1 * fnorm_new < fnorm ? 1 - (fnorm_new / fnorm) * (fnorm_new / fnorm) : -1;
+  const double t1 = step.jz_norm / fnorm;
+  const double t2 = std::sqrt(step.lambda) * step.norm / fnorm;
+  const double prered = t1 * t1 + 2 * t2 * t2;
+  const double dirder = -(t1 * t1 + t2 * t2);
+  const double ratio = prered != 0 ? actred / prered : 0;
+
+  if (ratio <= 0.25) {
+    double t = actred >= 0 ? 0.5 : 0.5 * dirder / (dirder + 0.5 * actred);
+    if (0.1 * fnorm_new >= fnorm || t < 0.1) t = 0.1;
+    s.delta = t * std::min(s.delta, step.norm / 0.1);
+  } else if (step.lambda == 0 || ratio >= 0.75) {
+    s.delta = step.norm / 0.5;
+  }
+
+  if (ratio >= 1e-4) {
+    MatrixXd jac_new;
+    if (eval.jacobian(x_new, jac_new)) {
+      s.x = x_new;
+      s.r = r_new;
+      s.fnorm = fnorm_new;
+      s.jac = std::move(jac_new);
+      s.xnorm = s.diag.cwiseProduct(s.x).norm();
+      outcome.accepted = true;
+      s.first = false;
+    } else {
+      s.delta *= 0.1;  // treat a non-finite Jacobian like a failed step
+    }
+  }
+  if (std::abs(actred) <= tol.ftol && prered <= tol.ftol && 0.5 * ratio <= 1) {
+    outcome = {outcome.accepted, true, LeastSquaresStatus::converged_cost,
+               "relative cost change below " + format_shortest(tol.ftol)};
+  } else if (s.delta <= tol.xtol * s.xnorm) {
+    outcome = {outcome.accepted, true, LeastSquaresStatus::converged_step,
+               "relative step below " + format_shortest(tol.xtol)};
+  }
+  return outcome;
+}
+
 }  // namespace
 
 void LeastSquaresOptions::validate() const {
@@ -235,115 +324,66 @@ LeastSquaresResult solve_least_squares(const LeastSquaresProblem& problem, std::
   out.dof = static_cast<int>(problem.residual_count - problem.parameter_count);
   out.parameters = x0;
 
-  VectorXd x = Eigen::Map<const VectorXd>(x0.data(), n);
-  VectorXd r;
-  MatrixXd jac;
+  LmState s;
+  s.x = Eigen::Map<const VectorXd>(x0.data(), n);
   auto finish = [&](LeastSquaresStatus status, std::string message) {
     out.status = status;
     out.message = std::move(message);
-    out.parameters.assign(x.data(), x.data() + n);
+    out.parameters.assign(s.x.data(), s.x.data() + n);
     out.evaluations = eval.evaluations;
     return out;
   };
-  if (!eval.residuals(x, r)) return finish(LeastSquaresStatus::failed, "the model is not finite at the start point");
-  if (!eval.jacobian(x, jac))
+  if (!eval.residuals(s.x, s.r))
+    return finish(LeastSquaresStatus::failed, "the model is not finite at the start point");
+  if (!eval.jacobian(s.x, s.jac))
     return finish(LeastSquaresStatus::failed, "the Jacobian is not finite at the start point");
-  double fnorm = r.norm();
-  out.initial_cost = fnorm * fnorm;
+  s.fnorm = s.r.norm();
+  out.initial_cost = s.fnorm * s.fnorm;
 
-  const double ftol = std::max(options.function_tolerance, kEps);
-  const double xtol = std::max(options.parameter_tolerance, kEps);
-  const double gtol = std::max(options.gradient_tolerance, kEps);
+  const Tolerances tol{std::max(options.function_tolerance, kEps), std::max(options.parameter_tolerance, kEps),
+                       std::max(options.gradient_tolerance, kEps)};
 
-  VectorXd diag = column_norms(jac);
+  s.diag = column_norms(s.jac);
   for (Index j = 0; j < n; ++j)
-    if (diag(j) == 0) diag(j) = 1;
-  double xnorm = (diag.cwiseProduct(x)).norm();
-  double delta = options.initial_trust_factor * xnorm;
-  if (delta == 0) delta = options.initial_trust_factor;
+    if (s.diag(j) == 0) s.diag(j) = 1;
+  s.xnorm = (s.diag.cwiseProduct(s.x)).norm();
+  s.delta = options.initial_trust_factor * s.xnorm;
+  if (s.delta == 0) s.delta = options.initial_trust_factor;
 
   LeastSquaresStatus status = LeastSquaresStatus::max_iterations;
   std::string message = "stopped after " + std::to_string(options.max_iterations) + " iterations";
-  bool first = true;
   bool done = false;
   while (!done && out.iterations < options.max_iterations) {
-    if (fnorm == 0) {
+    if (s.fnorm == 0) {
       status = LeastSquaresStatus::converged_cost;
       message = "zero residual";
       break;
     }
-    // Gradient test: the cosine between r and each Jacobian column (MINPACK's gnorm).
-    const VectorXd norms = column_norms(jac);
-    const VectorXd g = jac.transpose() * r;
-    double gnorm = 0;
-    for (Index j = 0; j < n; ++j)
-      if (norms(j) > 0) gnorm = std::max(gnorm, std::abs(g(j)) / (norms(j) * fnorm));
-    if (gnorm <= gtol) {
+    // Gradient test: the cosine between r and each Jacobian column.
+    const VectorXd norms = column_norms(s.jac);
+    if (gradient_cosine(s, norms) <= tol.gtol) {
       status = LeastSquaresStatus::converged_gradient;
       message = "gradient orthogonal to the residual";
       break;
     }
     // Moré's scaling: D_j = max over the iterations of the column norms.
-    diag = diag.cwiseMax(norms);
-    const TrustRegionSolver solver(jac * diag.cwiseInverse().asDiagonal(), r, options.rank_tolerance);
-
+    s.diag = s.diag.cwiseMax(norms);
+    const TrustRegionSolver solver(s.jac * s.diag.cwiseInverse().asDiagonal(), s.r, options.rank_tolerance);
     while (out.iterations < options.max_iterations) {
       ++out.iterations;
-      const ScaledStep step = solver.step(delta);
-      if (first) delta = std::min(delta, step.norm);
-      const VectorXd p = step.z.cwiseQuotient(diag);
-      const VectorXd x_new = x + p;
-      VectorXd r_new;
-      double fnorm_new = std::numeric_limits<double>::infinity();
-      if (eval.residuals(x_new, r_new)) fnorm_new = r_new.norm();
-
-      // Actual and predicted relative reductions (Moré 1978, eqs. 4.3–4.4; MINPACK lmder).
-      const double actred = 0.1 * fnorm_new < fnorm ? 1 - (fnorm_new / fnorm) * (fnorm_new / fnorm) : -1;
-      const double t1 = step.jz_norm / fnorm;
-      const double t2 = std::sqrt(step.lambda) * step.norm / fnorm;
-      const double prered = t1 * t1 + 2 * t2 * t2;
-      const double dirder = -(t1 * t1 + t2 * t2);
-      const double ratio = prered != 0 ? actred / prered : 0;
-
-      if (ratio <= 0.25) {
-        double t = actred >= 0 ? 0.5 : 0.5 * dirder / (dirder + 0.5 * actred);
-        if (0.1 * fnorm_new >= fnorm || t < 0.1) t = 0.1;
-        delta = t * std::min(delta, step.norm / 0.1);
-      } else if (step.lambda == 0 || ratio >= 0.75) {
-        delta = step.norm / 0.5;
-      }
-
-      bool accepted = false;
-      if (ratio >= 1e-4) {
-        MatrixXd jac_new;
-        if (eval.jacobian(x_new, jac_new)) {
-          x = x_new;
-          r = r_new;
-          fnorm = fnorm_new;
-          jac = std::move(jac_new);
-          xnorm = diag.cwiseProduct(x).norm();
-          accepted = true;
-          first = false;
-        } else {
-          delta *= 0.1;  // treat a non-finite Jacobian like a failed step
-        }
-      }
-      if (std::abs(actred) <= ftol && prered <= ftol && 0.5 * ratio <= 1) {
-        status = LeastSquaresStatus::converged_cost;
-        message = "relative cost change below " + format_shortest(ftol);
-        done = true;
-      } else if (delta <= xtol * xnorm) {
-        status = LeastSquaresStatus::converged_step;
-        message = "relative step below " + format_shortest(xtol);
+      TrialOutcome trial = trial_step(s, solver, eval, tol);
+      if (trial.stop) {
+        status = trial.status;
+        message = std::move(trial.message);
         done = true;
       }
-      if (done || accepted) break;
+      if (done || trial.accepted) break;
     }
   }
 
-  out.cost = fnorm * fnorm;
-  out.residuals.assign(r.data(), r.data() + r.size());
-  fill_covariance(jac, options.rank_tolerance, out);
+  out.cost = s.fnorm * s.fnorm;
+  out.residuals.assign(s.r.data(), s.r.data() + s.r.size());
+  fill_covariance(s.jac, options.rank_tolerance, out);
   if (out.rank < static_cast<int>(n) && status != LeastSquaresStatus::max_iterations) {
     status = LeastSquaresStatus::singular;
     message = "the Jacobian at the optimum has rank " + std::to_string(out.rank) + " < " + std::to_string(n) +

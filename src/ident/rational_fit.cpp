@@ -7,6 +7,7 @@
 #include <cmath>
 #include <limits>
 #include <numbers>
+#include <utility>
 
 #include "core/error.hpp"
 #include "ident/cost_band.hpp"
@@ -239,8 +240,6 @@ Root describe_root(cplx p, const std::vector<double>& c, std::size_t first, std:
 /// the full SK count), cheap enough for grids of thousands of points.
 constexpr int kGridSkIterations = 2;
 
-/// The full fit at one order: linear start (with the delay grid when T is free), then the
-/// weighted nonlinear least squares. Throws AnalysisError when singular.
 /// The result of a fit the data cannot determine: no model, the status and why.
 RationalFitResult singular_fit(ModelOrder order, LeastSquaresStatus status, std::string message) {
   RationalFitResult r;
@@ -250,50 +249,53 @@ RationalFitResult singular_fit(ModelOrder order, LeastSquaresStatus status, std:
   return r;
 }
 
-RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const RationalFitOptions& o) {
-  const int M = order.num, N = order.den;
-  const bool with_delay = o.estimate_delay;
-  const auto n = static_cast<std::size_t>(parameter_count(order, with_delay));
-  const std::string what = "the rational fit of order " + order_text(order) + (with_delay ? " with delay" : "");
-  const double fixed_delay = o.delay_s * d.omega_ref;
-
+/// The linear start of one order and the delay-grid size it searched (0 for a fixed delay).
+struct DelayedStart {
   LinearStart start;
   int grid_points = 0;
-  if (with_delay) {
-    // The delay is ambiguous modulo 2π/ω_base where ω_base is the largest frequency all ω_k are
-    // multiples of; min(ω_min, smallest gap between distinct ω_k) bounds it from above, so one
-    // turn of it covers every distinguishable delay (harmonics 1…n: ω_base = ω_1).
-    std::vector<double> xs = d.x;
-    std::sort(xs.begin(), xs.end());
-    double base = xs.front();
-    for (std::size_t k = 1; k < xs.size(); ++k)
-      if (xs[k] - xs[k - 1] > 1e-9 * xs[k]) base = std::min(base, xs[k] - xs[k - 1]);
-    const double span = 2 * std::numbers::pi / base;
-    grid_points = o.delay_grid_points > 0
-                      ? o.delay_grid_points
-                      : static_cast<int>(std::clamp(std::ceil(8 * xs.back() / base), 16.0, 4000.0));
-    LinearStart last;
-    for (int i = 0; i < grid_points; ++i) {
-      const double t = span * i / grid_points;
-      last = linear_start(d, order, t, std::min(o.max_sk_iterations, kGridSkIterations), o.sk_tolerance);
-      if (!last.singular && last.cost < start.cost) start = last;
-    }
-    if (!std::isfinite(start.cost)) {
-      start = last;  // every grid point singular: report the last one's rank
-      start.singular = true;
-    } else {
-      start = linear_start(d, order, start.model.delay, o.max_sk_iterations, o.sk_tolerance);
-    }
-  } else {
-    start = linear_start(d, order, fixed_delay, o.max_sk_iterations, o.sk_tolerance);
-  }
-  if (start.singular || !std::isfinite(start.cost))
-    return singular_fit(order, LeastSquaresStatus::singular,
-                        what + " is singular: the linearised start has rank " + std::to_string(start.rank) + " < " +
-                            std::to_string(start.columns) + " (the data cannot determine this many coefficients; " +
-                            "lower the order)");
+};
 
-  // Weighted nonlinear least squares of the whitened residuals, analytic Jacobian.
+/// The linear start at the fixed delay, or, when the delay is estimated, at the best point of a
+/// grid over one turn of its ambiguity, refitted there with the full SK count.
+DelayedStart delayed_start(const ScaledData& d, ModelOrder order, const RationalFitOptions& o) {
+  DelayedStart out;
+  LinearStart& start = out.start;
+  if (!o.estimate_delay) {
+    start = linear_start(d, order, o.delay_s * d.omega_ref, o.max_sk_iterations, o.sk_tolerance);
+    return out;
+  }
+  // The delay is ambiguous modulo 2π/ω_base where ω_base is the largest frequency all ω_k are
+  // multiples of; min(ω_min, smallest gap between distinct ω_k) bounds it from above, so one
+  // turn of it covers every distinguishable delay (harmonics 1…n: ω_base = ω_1).
+  std::vector<double> xs = d.x;
+  std::sort(xs.begin(), xs.end());
+  double base = xs.front();
+  for (std::size_t k = 1; k < xs.size(); ++k)
+    if (xs[k] - xs[k - 1] > 1e-9 * xs[k]) base = std::min(base, xs[k] - xs[k - 1]);
+  const double span = 2 * std::numbers::pi / base;
+  out.grid_points = o.delay_grid_points > 0
+                        ? o.delay_grid_points
+                        : static_cast<int>(std::clamp(std::ceil(8 * xs.back() / base), 16.0, 4000.0));
+  LinearStart last;
+  for (int i = 0; i < out.grid_points; ++i) {
+    const double t = span * i / out.grid_points;
+    last = linear_start(d, order, t, std::min(o.max_sk_iterations, kGridSkIterations), o.sk_tolerance);
+    if (!last.singular && last.cost < start.cost) start = last;
+  }
+  if (!std::isfinite(start.cost)) {
+    start = last;  // every grid point singular: report the last one's rank
+    start.singular = true;
+  } else {
+    start = linear_start(d, order, start.model.delay, o.max_sk_iterations, o.sk_tolerance);
+  }
+  return out;
+}
+
+/// Weighted nonlinear least squares of the whitened residuals L_k⁻¹(H_k − Ĥ(jx_k)) in the
+/// scaled parameters θ', with the analytic Jacobian.
+LeastSquaresProblem ml_problem(const ScaledData& d, ModelOrder order, bool with_delay, double fixed_delay) {
+  const int M = order.num, N = order.den;
+  const auto n = static_cast<std::size_t>(parameter_count(order, with_delay));
   LeastSquaresProblem problem;
   problem.residual_count = 2 * d.size();
   problem.parameter_count = n;
@@ -326,6 +328,84 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
     }
     return true;
   };
+  return problem;
+}
+
+/// The model in SI units with its parameters' covariance and standard uncertainties, from the
+/// scaled parameters θ' and their covariance: b_i = b'_i ω_ref^{N−i}, a_i = a'_i ω_ref^{N−i}
+/// (dividing B'(s/ω_ref), A'(s/ω_ref) by the leading ω_ref^{−N} keeps A monic), T = T'/ω_ref.
+void set_si_model(RationalFitResult& out, const std::vector<double>& th, const MatrixXd& cov, double omega_ref,
+                  bool with_delay, double fixed_delay_s) {
+  const int M = out.order.num, N = out.order.den;
+  const std::size_t n = th.size();
+  std::vector<double> factor(n);
+  for (int i = 0; i <= M; ++i) factor[static_cast<std::size_t>(i)] = std::pow(omega_ref, N - i);
+  for (int i = 0; i < N; ++i) factor[static_cast<std::size_t>(M + 1 + i)] = std::pow(omega_ref, N - i);
+  if (with_delay) factor[n - 1] = 1 / omega_ref;
+  RationalModel& model = out.model;
+  for (int i = 0; i <= M; ++i) {
+    model.num.push_back(th[static_cast<std::size_t>(i)] * factor[static_cast<std::size_t>(i)]);
+    out.parameter_names.push_back("b" + std::to_string(i));
+  }
+  for (int i = 0; i < N; ++i) {
+    model.den.push_back(th[static_cast<std::size_t>(M + 1 + i)] * factor[static_cast<std::size_t>(M + 1 + i)]);
+    out.parameter_names.push_back("a" + std::to_string(i));
+  }
+  model.den.push_back(1);
+  model.delay_estimated = with_delay;
+  model.delay_s = with_delay ? th[n - 1] / omega_ref : fixed_delay_s;
+  if (with_delay) out.parameter_names.push_back("T");
+  model.covariance.assign(n, std::vector<double>(n));
+  for (std::size_t i = 0; i < n; ++i) {
+    for (std::size_t j = 0; j < n; ++j)
+      model.covariance[i][j] = cov(static_cast<Index>(i), static_cast<Index>(j)) * factor[i] * factor[j];
+    out.parameter_u.push_back(std::sqrt(std::max(0.0, model.covariance[i][i])));
+  }
+  out.delay_s = model.delay_s;
+  out.delay_u_s = with_delay ? out.parameter_u[n - 1] : 0;
+}
+
+/// Poles, zeros and the dc gain with their uncertainties, from the scaled parameters θ'.
+void set_roots_and_dc_gain(RationalFitResult& out, const std::vector<double>& th, const MatrixXd& cov,
+                           double omega_ref) {
+  const int M = out.order.num, N = out.order.den;
+  // Roots in scaled frequency (coefficients O(1)), reported ×ω_ref.
+  std::vector<double> a_s(th.begin() + M + 1, th.begin() + M + 1 + N);
+  a_s.push_back(1);
+  const std::vector<double> b_s(th.begin(), th.begin() + M + 1);
+  for (cplx p : polynomial_roots(a_s)) out.poles.push_back(describe_root(p, a_s, static_cast<std::size_t>(M + 1), static_cast<std::size_t>(N), cov, omega_ref));
+  if (M >= 1 && b_s.back() != 0)
+    for (cplx z : polynomial_roots(b_s)) out.zeros.push_back(describe_root(z, b_s, 0, static_cast<std::size_t>(M + 1), cov, omega_ref));
+  for (const Root& p : out.poles) out.unstable = out.unstable || p.value.real() >= 0;
+
+  // dc gain b_0/a_0 (the ω_ref factors cancel), gradient (1/a'_0, −b'_0/a'_0²).
+  const double b0 = th[0], a0 = th[static_cast<std::size_t>(M + 1)];
+  out.dc_gain_defined = a0 != 0;
+  if (out.dc_gain_defined) {
+    out.dc_gain = b0 / a0;
+    const double g0 = 1 / a0, g1 = -b0 / (a0 * a0);
+    const auto ia = static_cast<Index>(M + 1);
+    const double var = g0 * g0 * cov(0, 0) + 2 * g0 * g1 * cov(0, ia) + g1 * g1 * cov(ia, ia);
+    out.dc_gain_u = std::sqrt(std::max(0.0, var));
+  }
+}
+
+/// The full fit at one order: linear start (with the delay grid when T is free), then the
+/// weighted nonlinear least squares. A fit the data cannot determine is a singular result.
+RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const RationalFitOptions& o) {
+  const bool with_delay = o.estimate_delay;
+  const auto n = static_cast<std::size_t>(parameter_count(order, with_delay));
+  const std::string what = "the rational fit of order " + order_text(order) + (with_delay ? " with delay" : "");
+
+  const DelayedStart delayed = delayed_start(d, order, o);
+  const LinearStart& start = delayed.start;
+  if (start.singular || !std::isfinite(start.cost))
+    return singular_fit(order, LeastSquaresStatus::singular,
+                        what + " is singular: the linearised start has rank " + std::to_string(start.rank) + " < " +
+                            std::to_string(start.columns) + " (the data cannot determine this many coefficients; " +
+                            "lower the order)");
+
+  const LeastSquaresProblem problem = ml_problem(d, order, with_delay, o.delay_s * d.omega_ref);
   std::vector<double> theta0 = start.model.b;
   theta0.insert(theta0.end(), start.model.a.begin(), start.model.a.end() - 1);
   if (with_delay) theta0.push_back(start.model.delay);
@@ -345,8 +425,8 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   out.dof = ls.dof;
   out.rank = ls.rank;
   out.condition_number = ls.condition_number;
-  out.method = std::string(with_delay ? "delay-grid(" + std::to_string(grid_points) + ")+" : "") + "levy+sk(" +
-               std::to_string(start.iterations) + ")+ml-lm(" + std::to_string(ls.iterations) + ")";
+  out.method = std::string(with_delay ? "delay-grid(" + std::to_string(delayed.grid_points) + ")+" : "") +
+               "levy+sk(" + std::to_string(start.iterations) + ")+ml-lm(" + std::to_string(ls.iterations) + ")";
 
   // Estimated weights widen the parameters' spread beyond (JᵀŴJ)⁻¹ (ident/cost_band.hpp).
   const CovarianceInflation inflation = covariance_inflation(d.points);
@@ -355,54 +435,8 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
   const MatrixXd cov = inflation.factor *
       Eigen::Map<const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(
           ls.covariance_unscaled.data(), static_cast<Index>(n), static_cast<Index>(n));
-  // Back to SI: b_i = b'_i ω_ref^{N−i}, a_i = a'_i ω_ref^{N−i} (dividing B'(s/ω_ref), A'(s/ω_ref)
-  // by the leading ω_ref^{−N} keeps A monic), T = T'/ω_ref.
-  std::vector<double> factor(n);
-  const std::vector<double>& th = ls.parameters;
-  for (int i = 0; i <= M; ++i) factor[static_cast<std::size_t>(i)] = std::pow(d.omega_ref, N - i);
-  for (int i = 0; i < N; ++i) factor[static_cast<std::size_t>(M + 1 + i)] = std::pow(d.omega_ref, N - i);
-  if (with_delay) factor[n - 1] = 1 / d.omega_ref;
-  RationalModel& model = out.model;
-  for (int i = 0; i <= M; ++i) {
-    model.num.push_back(th[static_cast<std::size_t>(i)] * factor[static_cast<std::size_t>(i)]);
-    out.parameter_names.push_back("b" + std::to_string(i));
-  }
-  for (int i = 0; i < N; ++i) {
-    model.den.push_back(th[static_cast<std::size_t>(M + 1 + i)] * factor[static_cast<std::size_t>(M + 1 + i)]);
-    out.parameter_names.push_back("a" + std::to_string(i));
-  }
-  model.den.push_back(1);
-  model.delay_estimated = with_delay;
-  model.delay_s = with_delay ? th[n - 1] / d.omega_ref : o.delay_s;
-  if (with_delay) out.parameter_names.push_back("T");
-  model.covariance.assign(n, std::vector<double>(n));
-  for (std::size_t i = 0; i < n; ++i) {
-    for (std::size_t j = 0; j < n; ++j)
-      model.covariance[i][j] = cov(static_cast<Index>(i), static_cast<Index>(j)) * factor[i] * factor[j];
-    out.parameter_u.push_back(std::sqrt(std::max(0.0, model.covariance[i][i])));
-  }
-  out.delay_s = model.delay_s;
-  out.delay_u_s = with_delay ? out.parameter_u[n - 1] : 0;
-
-  // Roots in scaled frequency (coefficients O(1)), reported ×ω_ref.
-  std::vector<double> a_s(th.begin() + M + 1, th.begin() + M + 1 + N);
-  a_s.push_back(1);
-  const std::vector<double> b_s(th.begin(), th.begin() + M + 1);
-  for (cplx p : polynomial_roots(a_s)) out.poles.push_back(describe_root(p, a_s, static_cast<std::size_t>(M + 1), static_cast<std::size_t>(N), cov, d.omega_ref));
-  if (M >= 1 && b_s.back() != 0)
-    for (cplx z : polynomial_roots(b_s)) out.zeros.push_back(describe_root(z, b_s, 0, static_cast<std::size_t>(M + 1), cov, d.omega_ref));
-  for (const Root& p : out.poles) out.unstable = out.unstable || p.value.real() >= 0;
-
-  // dc gain b_0/a_0 (the ω_ref factors cancel), gradient (1/a'_0, −b'_0/a'_0²).
-  const double b0 = th[0], a0 = th[static_cast<std::size_t>(M + 1)];
-  out.dc_gain_defined = a0 != 0;
-  if (out.dc_gain_defined) {
-    out.dc_gain = b0 / a0;
-    const double g0 = 1 / a0, g1 = -b0 / (a0 * a0);
-    const auto ia = static_cast<Index>(M + 1);
-    const double var = g0 * g0 * cov(0, 0) + 2 * g0 * g1 * cov(0, ia) + g1 * g1 * cov(ia, ia);
-    out.dc_gain_u = std::sqrt(std::max(0.0, var));
-  }
+  set_si_model(out, ls.parameters, cov, d.omega_ref, with_delay, o.delay_s);
+  set_roots_and_dc_gain(out, ls.parameters, cov, d.omega_ref);
 
   if (out.dof > 0) {
     const CostBand band = cost_band(d.points, out.dof, o.confidence);
@@ -412,7 +446,7 @@ RationalFitResult fit_order(const ScaledData& d, ModelOrder order, const Rationa
     out.band_method = band.method;
     out.adequate = out.cost >= out.chi2_lower && out.cost <= out.chi2_upper;
   }
-  for (double x : d.x) out.fitted.push_back(model.response(x * d.omega_ref));
+  for (double x : d.x) out.fitted.push_back(out.model.response(x * d.omega_ref));
   return out;
 }
 
@@ -462,6 +496,63 @@ void RationalFitOptions::validate() const {
   least_squares.validate();
 }
 
+namespace {
+
+/// Auto's candidates: proper models only (M ≤ N), by increasing parameter count, then lower N.
+std::vector<ModelOrder> auto_orders(int max_den) {
+  std::vector<ModelOrder> orders;
+  for (int den = 1; den <= max_den; ++den)
+    for (int num = 0; num <= den; ++num) orders.push_back({num, den});
+  std::stable_sort(orders.begin(), orders.end(), [](ModelOrder p, ModelOrder q) {
+    return p.num + p.den != q.num + q.den ? p.num + p.den < q.num + q.den : p.den < q.den;
+  });
+  return orders;
+}
+
+/// One row of the auto-order table from the fit at that order, with K FRF points.
+OrderTrial order_trial(const RationalFitResult& r, ModelOrder order, bool estimate_delay, int K) {
+  OrderTrial t;
+  t.order = order;
+  t.parameters = parameter_count(order, estimate_delay);
+  if (!r.fitted_model()) {
+    t.failed = true;
+    t.note = r.message;
+    return t;
+  }
+  t.cost = r.cost;
+  t.dof = r.dof;
+  t.chi2_upper = r.chi2_upper;
+  // On the χ² scale: estimated weights inflate the cost by cost_expected/dof, which would
+  // otherwise weigh against the parameter penalty.
+  const double chi2_scale = r.cost_expected > 0 ? r.dof / r.cost_expected : 1.0;
+  t.aic = r.cost * chi2_scale + 2 * t.parameters;
+  t.mdl = r.cost * chi2_scale + t.parameters * std::log(2.0 * K);
+  t.passed = r.cost <= r.chi2_upper;
+  return t;
+}
+
+/// The order auto picks: the first trial that passes the χ² test, else the lowest score of the
+/// fallback criterion among those fitted; trials.size() when every fit was singular.
+std::pair<std::size_t, std::string> chosen_order(const std::vector<OrderTrial>& trials,
+                                                 InformationCriterion fallback) {
+  for (std::size_t i = 0; i < trials.size(); ++i)
+    if (trials[i].passed) return {i, "chi2"};
+  const bool aic = fallback == InformationCriterion::aic;
+  std::size_t best = trials.size();
+  double best_score = std::numeric_limits<double>::infinity();
+  for (std::size_t i = 0; i < trials.size(); ++i) {
+    if (trials[i].failed) continue;
+    const double score = aic ? trials[i].aic : trials[i].mdl;
+    if (score < best_score) {
+      best_score = score;
+      best = i;
+    }
+  }
+  return {best, aic ? "aic" : "mdl"};
+}
+
+}  // namespace
+
 RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const RationalFitOptions& options) {
   options.validate();
   const auto K = static_cast<int>(points.size());
@@ -482,62 +573,18 @@ RationalFitResult fit_rational(const std::vector<FrfPoint>& points, const Ration
     return r;
   }
 
-  // Auto: orders by increasing parameter count (then lower N), proper models only (M ≤ N).
-  std::vector<ModelOrder> orders;
-  for (int den = 1; den <= options.auto_max_den_order; ++den)
-    for (int num = 0; num <= den; ++num) orders.push_back({num, den});
-  std::stable_sort(orders.begin(), orders.end(), [](ModelOrder p, ModelOrder q) {
-    return p.num + p.den != q.num + q.den ? p.num + p.den < q.num + q.den : p.den < q.den;
-  });
+  const std::vector<ModelOrder> orders = auto_orders(options.auto_max_den_order);
   if (K < required_points(orders.front(), options.estimate_delay)) throw too_few(orders.front());
   const ScaledData d = scale(points);
   std::vector<OrderTrial> trials;
   std::vector<RationalFitResult> fits;
   for (ModelOrder order : orders) {
     if (K < required_points(order, options.estimate_delay)) continue;
-    OrderTrial t;
-    t.order = order;
-    t.parameters = parameter_count(order, options.estimate_delay);
-    RationalFitResult r = fit_order(d, order, options);
-    if (!r.fitted_model()) {
-      t.failed = true;
-      t.note = r.message;
-    } else {
-      t.cost = r.cost;
-      t.dof = r.dof;
-      t.chi2_upper = r.chi2_upper;
-      // On the χ² scale: estimated weights inflate the cost by cost_expected/dof, which would
-      // otherwise weigh against the parameter penalty.
-      const double chi2_scale = r.cost_expected > 0 ? r.dof / r.cost_expected : 1.0;
-      t.aic = r.cost * chi2_scale + 2 * t.parameters;
-      t.mdl = r.cost * chi2_scale + t.parameters * std::log(2.0 * K);
-      t.passed = r.cost <= r.chi2_upper;
-    }
-    fits.push_back(std::move(r));
-    trials.push_back(t);
-    if (t.passed) break;
+    fits.push_back(fit_order(d, order, options));
+    trials.push_back(order_trial(fits.back(), order, options.estimate_delay, K));
+    if (trials.back().passed) break;
   }
-  std::size_t best = trials.size();
-  std::string decided;
-  for (std::size_t i = 0; i < trials.size(); ++i)
-    if (trials[i].passed) {
-      best = i;
-      decided = "chi2";
-      break;
-    }
-  if (best == trials.size()) {
-    const bool aic = options.fallback_criterion == InformationCriterion::aic;
-    decided = aic ? "aic" : "mdl";
-    double best_score = std::numeric_limits<double>::infinity();
-    for (std::size_t i = 0; i < trials.size(); ++i) {
-      if (trials[i].failed) continue;
-      const double score = aic ? trials[i].aic : trials[i].mdl;
-      if (score < best_score) {
-        best_score = score;
-        best = i;
-      }
-    }
-  }
+  const auto [best, decided] = chosen_order(trials, options.fallback_criterion);
   if (best == trials.size()) {
     RationalFitResult none = singular_fit(trials.front().order, LeastSquaresStatus::singular,
                                           "no model order up to " + std::to_string(options.auto_max_den_order) +

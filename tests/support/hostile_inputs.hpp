@@ -17,6 +17,7 @@
 #include <vector>
 
 #include "support/cli_runner.hpp"
+#include "support/signals.hpp"
 
 namespace periodfit::test {
 
@@ -30,21 +31,14 @@ struct Signal {
   unsigned seed = 1;
 };
 
+/// The signal's n_samples at fs_hz from t0_s (support/signals.hpp).
 inline std::vector<double> synthesize(const Signal& s, double fs_hz, std::size_t n_samples, double t0_s = 0) {
+  std::vector<Tone> tones;
+  for (std::size_t h = 0; h < s.amplitudes.size(); ++h)
+    tones.push_back({static_cast<int>(h + 1), s.amplitudes[h], h < s.phases_deg.size() ? s.phases_deg[h] : 0.0});
   std::mt19937_64 rng(s.seed);
-  std::normal_distribution<double> noise(0.0, 1.0);
-  std::vector<double> x(n_samples);
-  for (std::size_t k = 0; k < n_samples; ++k) {
-    const double t = t0_s + static_cast<double>(k) / fs_hz;
-    double v = s.dc;
-    for (std::size_t h = 0; h < s.amplitudes.size(); ++h) {
-      const double ph = h < s.phases_deg.size() ? s.phases_deg[h] * std::numbers::pi / 180 : 0.0;
-      v += s.amplitudes[h] * std::cos(2 * std::numbers::pi * static_cast<double>(h + 1) * s.f0_hz * t + ph);
-    }
-    if (s.noise_rms > 0) v += s.noise_rms * noise(rng);
-    x[k] = v;
-  }
-  return x;
+  return tone_samples(s.dc, tones, s.f0_hz, {fs_hz, n_samples, t0_s},
+                      s.noise_rms > 0 ? WhiteNoise{s.noise_rms, &rng} : WhiteNoise{});
 }
 
 /// CSV text `t (s),name (V)…` with a time column t_k = k/fs and one column per channel, every
