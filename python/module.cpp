@@ -208,7 +208,7 @@ struct Analysis {
 };
 using AnalysisPtr = std::shared_ptr<const Analysis>;
 
-void bind_analyze(py::module_& m) {
+void bind_analyze_result(py::module_& m) {
   py::class_<Analysis, std::shared_ptr<Analysis>>(m, "Analysis", R"doc(One channel's analysis (periodfit analyze).
 
 f0, f0_u: fundamental and its standard uncertainty u (1 sigma), Hz. n, freq, amplitude,
@@ -265,6 +265,9 @@ to_dict() is the channel object of the analyze JSON (docs/analyze-json.md).)doc"
                " Hz, " + std::to_string(a.result.harmonics.size()) + " harmonics>";
       });
 
+}
+
+void bind_analyze_function(py::module_& m) {
   m.def("analyze",
         [](const py::object& samples, double rate, double t0, std::string name, std::string unit, double f0,
            double f0_hint, int harmonics, int samples_per_period, double full_scale) {
@@ -302,7 +305,7 @@ struct Excitation {
   std::vector<double> samples;  ///< every period, as the file holds it (one channel)
 };
 
-void bind_excite(py::module_& m) {
+void bind_excite_result(py::module_& m) {
   py::class_<Excitation, std::shared_ptr<Excitation>>(m, "Excitation", R"doc(An excitation signal (periodfit excite).
 
 samples: the whole signal (periods x M values) as the file would hold it, read-only float64;
@@ -336,6 +339,9 @@ to_dict() is the excite JSON summary (docs/excite.md); write(path) writes the WA
         output::write_excitation(path, e.result);
       }, py::arg("path"), "writes the WAV (.wav) or CSV file atomically, as `periodfit excite OUT` does");
 
+}
+
+void bind_excite_function(py::module_& m) {
   m.def("excite",
         [](std::string signal, std::string harmonics, double f0, double rate, double amplitude, int periods,
            bool odd, int skip_every, const std::string& phases, std::uint64_t seed, double duty, bool band_limited,
@@ -394,7 +400,7 @@ py::array_t<double> frf_column(const Response& r, F f) {
   return column<double>(r.result.frf.points, f);
 }
 
-void bind_frf(py::module_& m) {
+void bind_frf_result(py::module_& m) {
   py::class_<Response, std::shared_ptr<Response>>(m, "Response", R"doc(A DUT's frequency response (periodfit frf).
 
 n, freq (Hz), h (complex H(jn*w0)), mag, mag_u, mag_lo, mag_hi (|H| with its standard
@@ -431,6 +437,9 @@ adequate (bool or None); flags (codes). to_dict() is the frf JSON document (docs
       .def("text", [](const Response& r) { return output::format_identify_report(r.result); },
            "the report `periodfit frf` prints");
 
+}
+
+void bind_frf_function(py::module_& m) {
   m.def("frf",
         [](const py::object& x, const py::object& y, double rate, double t0, std::string order, bool delay,
            double f0, double f0_hint, int harmonics, double skew, double confidence, double min_snr,
@@ -512,7 +521,7 @@ predict::PredictSystem system_from(const std::optional<std::string>& expression,
   return sys;
 }
 
-void bind_steady_state(py::module_& m) {
+void bind_steady_state_result(py::module_& m) {
   py::class_<SteadyState, std::shared_ptr<SteadyState>>(m, "SteadyState", R"doc(A DUT's steady-state output (periodfit steady-state).
 
 n, freq, amplitude, amplitude_u, phase, phase_u: output harmonics (peak; degrees, cos
@@ -557,6 +566,9 @@ rms_u, ripple_pp, ripple_pp_u, thd (ratio or None); time, value, value_u: sample
       .def("to_dict", [](const SteadyState& s) { return parse_json(output::predict_json(s.result).dump()); },
            "the steady-state JSON document (docs/steady-state-json.md)");
 
+}
+
+void bind_steady_state_function(py::module_& m) {
   m.def("steady_state",
         [](std::optional<std::string> system, double delay, std::optional<std::string> model,
            std::shared_ptr<Response> response, const std::string& response_from, std::optional<std::string> wave,
@@ -627,9 +639,13 @@ PYBIND11_MODULE(_periodfit, m) {
   m.doc() = "The compiled half of the periodfit package; import periodfit, not this.";
   periodfit::python::bind_errors(m);
   periodfit::python::bind_capture(m);
-  periodfit::python::bind_analyze(m);
-  periodfit::python::bind_frf(m);
-  periodfit::python::bind_steady_state(m);
-  periodfit::python::bind_excite(m);
+  periodfit::python::bind_analyze_result(m);
+  periodfit::python::bind_analyze_function(m);
+  periodfit::python::bind_frf_result(m);
+  periodfit::python::bind_frf_function(m);
+  periodfit::python::bind_steady_state_result(m);
+  periodfit::python::bind_steady_state_function(m);
+  periodfit::python::bind_excite_result(m);
+  periodfit::python::bind_excite_function(m);
   m.attr("__version__") = PERIODFIT_VERSION;
 }
