@@ -127,3 +127,27 @@ TEST_CASE("layering: installed headers hold no test hook and include no internal
   }
   CHECK(headers > 50);  // the stages hold well over fifty headers; fewer means the walk found nothing
 }
+
+TEST_CASE("layering: files are opened, stated, mapped, renamed and synced only through io::FileHandle") {
+  // Issue 15, item 7: one RAII wrapper makes these OS calls, so every failure names its path
+  // and no descriptor leaks on a throw. The two exceptions run inside signal handlers, where
+  // only async-signal-safe calls may be made (no allocation for an error's path):
+  // io/interrupt_cleanup.cpp (removing registered files) and io/mapped_file.cpp (the SIGBUS
+  // guard, and the mapping itself, made on a FileHandle's descriptor).
+  constexpr std::array<std::string_view, 8> kCalls = {"::open(",  "::openat(", "::fstat(", "::mmap(",
+                                                      "::rename(", "renameat2(", "::fsync(", "::fdatasync("};
+  constexpr std::array<std::string_view, 3> kAllowed = {"io/file_handle.cpp", "io/interrupt_cleanup.cpp",
+                                                        "io/mapped_file.cpp"};
+  const std::filesystem::path src = std::filesystem::path(PERIODFIT_SOURCE_DIR) / "src";
+  int files = 0;
+  for (const auto& entry : std::filesystem::recursive_directory_iterator(src)) {
+    if (!entry.is_regular_file() || entry.path().extension() != ".cpp") continue;  // headers only mention them
+    const std::string name = std::filesystem::relative(entry.path(), src).generic_string();
+    if (std::find(kAllowed.begin(), kAllowed.end(), name) != kAllowed.end()) continue;
+    ++files;
+    const std::string text = read_text(entry.path());
+    for (const auto call : kCalls)
+      CHECK_MESSAGE(text.find(call) == std::string::npos, "src/", name, " calls ", call, " itself");
+  }
+  CHECK(files > 80);  // src/ holds well over eighty .cpp files; fewer means the walk found nothing
+}

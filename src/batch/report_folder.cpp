@@ -40,14 +40,21 @@ std::string foreign_entry(const fs::path& folder) {
   return "";
 }
 
-void sync_folder(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
-  if (fd < 0) return;
-  ::fsync(fd);
-  ::close(fd);
+}  // namespace
+
+std::string report_lock_path(const std::string& destination) {
+  fs::path target = fs::absolute(fs::path(destination)).lexically_normal();
+  if (!target.has_filename()) target = target.parent_path();  // "out/" → "out"
+  return (target.parent_path() / ("." + target.filename().string() + ".lock")).string();
 }
 
-}  // namespace
+std::string lock_holder(const io::FileHandle& lock_file) {
+  char holder[32] = {};
+  const ssize_t n = ::pread(lock_file.fd(), holder, sizeof holder - 1, 0);
+  std::string pid = n > 0 ? std::string(holder, static_cast<std::size_t>(n)) : "";
+  while (!pid.empty() && (pid.back() == '\n' || pid.back() == ' ')) pid.pop_back();
+  return pid;
+}
 
 bool is_report_entry(const std::string& name, bool is_folder, bool in_files) {
   if (is_temporary_name(name)) return !is_folder;
@@ -72,17 +79,12 @@ ReportFolder::ReportFolder(const std::string& destination) : destination_(destin
   if (ec) throw IoError(parent_, "cannot create", ec.value());
 
   // The lock first: a second run must not even look at the folder while this one owns it.
-  const std::string lock_path = (fs::path(parent_) / ("." + name_ + ".lock")).string();
-  lock_fd_ = ::open(lock_path.c_str(), O_RDWR | O_CREAT | O_CLOEXEC, 0666);
-  if (lock_fd_ < 0) throw IoError(lock_path, "cannot create", errno);
-  if (::flock(lock_fd_, LOCK_EX | LOCK_NB) != 0) {
+  const std::string lock_path = report_lock_path(destination);
+  lock_.emplace(io::FileHandle::open_lock_file(lock_path));
+  if (::flock(lock_->fd(), LOCK_EX | LOCK_NB) != 0) {
     const int lock_errno = errno;
-    char holder[32] = {};
-    const ssize_t n = ::pread(lock_fd_, holder, sizeof holder - 1, 0);
-    std::string pid = n > 0 ? std::string(holder, static_cast<std::size_t>(n)) : "";
-    while (!pid.empty() && (pid.back() == '\n' || pid.back() == ' ')) pid.pop_back();
-    ::close(lock_fd_);
-    lock_fd_ = -1;
+    const std::string pid = lock_holder(*lock_);
+    lock_.reset();
     if (lock_errno == EWOULDBLOCK)
       throw IoError(destination, "in use by another batch run" + (pid.empty() ? "" : " (pid " + pid + ")") +
                                      ", which holds " + lock_path,
@@ -90,8 +92,8 @@ ReportFolder::ReportFolder(const std::string& destination) : destination_(destin
     throw IoError(lock_path, "cannot lock", lock_errno);
   }
   const std::string pid = std::to_string(::getpid()) + "\n";
-  if (::ftruncate(lock_fd_, 0) == 0) {
-    [[maybe_unused]] const ssize_t written = ::pwrite(lock_fd_, pid.data(), pid.size(), 0);
+  if (::ftruncate(lock_->fd(), 0) == 0) {
+    [[maybe_unused]] const ssize_t written = ::pwrite(lock_->fd(), pid.data(), pid.size(), 0);
   }
 
   try {
@@ -122,7 +124,7 @@ ReportFolder::ReportFolder(const std::string& destination) : destination_(destin
   } catch (...) {
     if (!staging_.empty()) fs::remove_all(staging_, ec);
     cleanup_.release();
-    ::close(lock_fd_);
+    lock_.reset();
     throw;
   }
 }
@@ -133,7 +135,6 @@ ReportFolder::~ReportFolder() {
     fs::remove_all(staging_, ec);
   }
   cleanup_.release();
-  if (lock_fd_ >= 0) ::close(lock_fd_);
 }
 
 void ReportFolder::publish() {
@@ -144,23 +145,26 @@ void ReportFolder::publish() {
     std::error_code ec;
     const bool exists = fs::exists(fs::symlink_status(target, ec));
     if (!exists) {
-      if (::rename(staging_.c_str(), target.c_str()) != 0) throw IoError(target, "cannot create", errno);
-    } else if (::renameat2(AT_FDCWD, staging_.c_str(), AT_FDCWD, target.c_str(), RENAME_EXCHANGE) == 0) {
+      io::rename_path(staging_, target);
+    } else if (io::exchange_paths(staging_, target)) {
       earlier = staging_;  // the two names swapped: the staging name now holds the old run
-    } else if (errno == EINVAL || errno == ENOSYS || errno == EOPNOTSUPP) {
+    } else {
       // No atomic exchange on this file system: move the old folder aside, then the new one in;
       // with the signals blocked nothing runs in between.
       std::string aside = staging_;
       aside.replace(aside.rfind(".run-"), 5, ".old-");
-      if (::rename(target.c_str(), aside.c_str()) != 0) throw IoError(target, "cannot replace", errno);
-      if (::rename(staging_.c_str(), target.c_str()) != 0) {
-        const int rename_errno = errno;
-        ::rename(aside.c_str(), target.c_str());
-        throw IoError(target, "cannot replace", rename_errno);
+      io::rename_path(target, aside);
+      try {
+        io::rename_path(staging_, target);
+      } catch (const IoError&) {
+        // Put the earlier run back; the error to report is the one that stopped the publish.
+        try {
+          io::rename_path(aside, target);
+        } catch (const IoError&) {
+        }
+        throw;
       }
       earlier = aside;
-    } else {
-      throw IoError(target, "cannot replace", errno);
     }
     published_ = true;
     if (earlier.empty())
@@ -168,7 +172,7 @@ void ReportFolder::publish() {
     else
       cleanup_.retarget(earlier);
   }
-  sync_folder(parent_);
+  io::sync_folder(parent_);
   if (!earlier.empty()) {
     std::error_code ec;
     fs::remove_all(earlier, ec);

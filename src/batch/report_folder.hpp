@@ -26,11 +26,19 @@
 ///   ReportFolder folder("out");               // locks, checks out/, makes .out.run-XXXXXX/files
 ///   io::write_file_atomic(folder.staging() + "/summary.csv", text);
 ///   folder.publish();                         // out/ is now this run; the old one is gone
+#include <optional>
 #include <string>
 
+#include "io/file_handle.hpp"
 #include "io/interrupt_cleanup.hpp"
 
 namespace periodfit::batch {
+
+/// The lock file beside report folder `destination`: `<parent>/.<name>.lock`.
+std::string report_lock_path(const std::string& destination);
+
+/// The pid a run wrote into its lock file (lock_file's first line), or "" when it holds none.
+std::string lock_holder(const io::FileHandle& lock_file);
 
 class ReportFolder {
  public:
@@ -54,7 +62,7 @@ class ReportFolder {
   std::string parent_;
   std::string name_;
   std::string staging_;
-  int lock_fd_ = -1;
+  std::optional<io::FileHandle> lock_;  ///< `.<name>.lock`, flocked until destruction
   io::InterruptCleanup cleanup_;  ///< the staging folder, then the earlier run's, until removed
   bool published_ = false;
 };

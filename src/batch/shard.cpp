@@ -12,12 +12,14 @@
 #include <fstream>
 #include <limits>
 #include <map>
+#include <optional>
 #include <nlohmann/json.hpp>
 #include <set>
 
 #include "batch/report_folder.hpp"
 #include "core/error.hpp"
 #include "output/json_writer.hpp"
+#include "io/file_handle.hpp"
 #include "io/output_file.hpp"
 
 namespace periodfit::batch {
@@ -231,18 +233,13 @@ Manifest read_manifest(const std::string& folder, std::map<std::string, int>& li
 std::string unfinished_reason(const std::string& folder) {
   fs::path target = fs::absolute(fs::path(folder)).lexically_normal();
   if (!target.has_filename()) target = target.parent_path();
-  const std::string lock = (target.parent_path() / ("." + target.filename().string() + ".lock")).string();
-  const int fd = ::open(lock.c_str(), O_RDONLY | O_CLOEXEC);
+  const std::optional<io::FileHandle> lock = io::FileHandle::open_readable_if_present(report_lock_path(folder));
   std::error_code ec;
   const bool exists = fs::exists(target, ec);
   const std::string what = exists ? "holds no " + std::string(kManifest) : "does not exist";
-  if (fd < 0) return what + ": its shard never ran";
-  char holder[32] = {};
-  const ssize_t n = ::pread(fd, holder, sizeof holder - 1, 0);
-  std::string pid = n > 0 ? std::string(holder, static_cast<std::size_t>(n)) : "";
-  while (!pid.empty() && (pid.back() == '\n' || pid.back() == ' ')) pid.pop_back();
-  const bool running = ::flock(fd, LOCK_SH | LOCK_NB) != 0 && errno == EWOULDBLOCK;
-  ::close(fd);
+  if (!lock) return what + ": its shard never ran";
+  const std::string pid = lock_holder(*lock);
+  const bool running = ::flock(lock->fd(), LOCK_SH | LOCK_NB) != 0 && errno == EWOULDBLOCK;
   const std::string by = pid.empty() ? "" : " (pid " + pid + ")";
   if (running) return what + ": its shard is still running" + by;
   return what + ": its shard started" + by + " but did not finish (killed, stopped by an error, or its folder was removed)";

@@ -41,6 +41,38 @@ FileHandle FileHandle::create_temporary(std::string& pattern, const std::string&
   return file;
 }
 
+FileHandle FileHandle::open_lock_file(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDWR | O_CREAT | O_CLOEXEC, 0666);
+  if (fd < 0) throw IoError(path, "cannot create", errno);
+  FileHandle file(path, fd);
+  file.regular_ = true;
+  return file;
+}
+
+std::optional<FileHandle> FileHandle::open_readable_if_present(const std::string& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0 && errno == ENOENT) return std::nullopt;
+  if (fd < 0) throw IoError(path, "cannot open", errno);
+  FileHandle file(path, fd);
+  struct stat info {};
+  if (::fstat(fd, &info) == 0) {
+    file.regular_ = S_ISREG(info.st_mode);
+    file.size_ = info.st_size > 0 ? static_cast<std::uint64_t>(info.st_size) : 0;
+  }
+  return file;
+}
+
+std::optional<FileHandle> FileHandle::create_unnamed(const std::string& folder, int& os_error) {
+  const int fd = ::open(folder.c_str(), O_TMPFILE | O_RDWR | O_CLOEXEC, 0600);
+  if (fd < 0) {
+    os_error = errno;
+    return std::nullopt;
+  }
+  FileHandle file(folder, fd);
+  file.regular_ = true;
+  return file;
+}
+
 FileHandle::FileHandle(FileHandle&& other) noexcept
     : path_(std::move(other.path_)), fd_(std::exchange(other.fd_, -1)), regular_(other.regular_),
       size_(other.size_) {}
@@ -72,6 +104,19 @@ void FileHandle::close_after_sync(bool sync) {
 
 void rename_path(const std::string& from, const std::string& to) {
   if (::rename(from.c_str(), to.c_str()) != 0) throw IoError(to, "cannot replace with " + from, errno);
+}
+
+bool exchange_paths(const std::string& from, const std::string& to) {
+  if (::renameat2(AT_FDCWD, from.c_str(), AT_FDCWD, to.c_str(), RENAME_EXCHANGE) == 0) return true;
+  if (errno == EINVAL || errno == ENOSYS || errno == EOPNOTSUPP) return false;
+  throw IoError(to, "cannot replace with " + from, errno);
+}
+
+void sync_folder(const std::string& path) noexcept {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+  if (fd < 0) return;
+  ::fsync(fd);
+  ::close(fd);
 }
 
 void FileHandle::close() {

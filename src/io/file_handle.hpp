@@ -3,7 +3,9 @@
 /// by path: open, fstat, the folder check, mkostemp, write, fsync and rename are done here, and
 /// each failure throws IoError naming the path and the OS reason (core/error.hpp) — "cannot
 /// open" for open, "cannot read" for a failed fstat or a folder (EISDIR), "cannot create" for a
-/// temporary, "cannot write" for write, fsync and a writer's close.
+/// temporary, "cannot write" for write, fsync and a writer's close. tests/layering_test.cpp
+/// refuses these calls anywhere else in src/ but the two signal handlers (io/interrupt_cleanup,
+/// io/mapped_file), which may only make async-signal-safe calls.
 ///
 /// Usage:
 ///   const io::FileHandle file = io::FileHandle::open_readable(path);
@@ -15,6 +17,7 @@
 ///   out.close_after_sync(true);
 ///   io::rename_path(tmp, "out/x.csv");
 #include <cstdint>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <utility>
@@ -32,6 +35,16 @@ class FileHandle {
   /// 0600, O_CLOEXEC). Errors, this one ("cannot create") and the writes' after it, name
   /// `name`: the file the temporary stands for.
   static FileHandle create_temporary(std::string& pattern, const std::string& name);
+  /// Opens `path` read-write, creating it (mode 0666 less the umask) when missing: a lock file
+  /// that outlives its runs. IoError(path, "cannot create").
+  static FileHandle open_lock_file(const std::string& path);
+  /// Opens `path` read-only when it exists; nullopt when it does not (ENOENT), IoError(path,
+  /// "cannot open") for any other failure.
+  static std::optional<FileHandle> open_readable_if_present(const std::string& path);
+  /// An unnamed read-write file in `folder` (Linux O_TMPFILE, mode 0600): nothing is left on
+  /// disk whatever happens. nullopt, with the OS reason in `os_error`, where the file system or
+  /// kernel has none, so the caller can fall back.
+  static std::optional<FileHandle> create_unnamed(const std::string& folder, int& os_error);
 
   FileHandle(FileHandle&& other) noexcept;
   FileHandle& operator=(FileHandle&&) = delete;
@@ -68,5 +81,14 @@ class FileHandle {
 /// Renames `from` over `to` (atomic on POSIX file systems); IoError naming both paths:
 /// "<to>: cannot replace with <from>: <reason>".
 void rename_path(const std::string& from, const std::string& to);
+
+/// Swaps the two names atomically (Linux renameat2 RENAME_EXCHANGE); false when the file
+/// system or kernel cannot (EINVAL, ENOSYS, EOPNOTSUPP), IoError naming both paths otherwise.
+bool exchange_paths(const std::string& from, const std::string& to);
+
+/// fsyncs the folder `path`, so that renames and creations inside it survive a crash. Best
+/// effort: it runs after the rename it protects, which a failure here cannot undo, and some
+/// file systems refuse to sync a folder.
+void sync_folder(const std::string& path) noexcept;
 
 }  // namespace periodfit::io

@@ -1,6 +1,5 @@
 #include "io/scratch_file.hpp"
 
-#include <fcntl.h>
 #include <sys/types.h>
 #include <unistd.h>
 
@@ -16,10 +15,12 @@ constexpr std::size_t kCopyBytes = 1 << 16;
 }  // namespace
 
 ScratchFile::ScratchFile(const std::string& folder) : location_(folder.empty() ? "." : folder) {
-  fd_ = ::open(location_.c_str(), O_TMPFILE | O_RDWR | O_CLOEXEC, 0600);
-  if (fd_ >= 0) return;
+  int tmpfile_errno = 0;
+  if (std::optional<FileHandle> unnamed = FileHandle::create_unnamed(location_, tmpfile_errno)) {
+    fd_ = file_.emplace(std::move(*unnamed)).fd();
+    return;
+  }
   // EOPNOTSUPP/EISDIR/EINVAL: the file system (or an old kernel) has no unnamed files.
-  const int tmpfile_errno = errno;
   stream_ = std::tmpfile();
   if (stream_ == nullptr) throw IoError(location_, "cannot create a scratch file", tmpfile_errno);
   fd_ = ::fileno(stream_);
@@ -27,10 +28,7 @@ ScratchFile::ScratchFile(const std::string& folder) : location_(folder.empty() ?
 }
 
 ScratchFile::~ScratchFile() {
-  if (stream_ != nullptr)
-    std::fclose(stream_);
-  else if (fd_ >= 0)
-    ::close(fd_);
+  if (stream_ != nullptr) std::fclose(stream_);  // file_ closes itself
 }
 
 ScratchFile::Span ScratchFile::append(std::string_view bytes) {

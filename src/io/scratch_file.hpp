@@ -13,8 +13,11 @@
 #include <cstdio>
 #include <functional>
 #include <mutex>
+#include <optional>
 #include <string>
 #include <string_view>
+
+#include "io/file_handle.hpp"
 
 namespace periodfit::io {
 
@@ -45,7 +48,8 @@ class ScratchFile {
 
  private:
   std::string location_;
-  int fd_ = -1;
+  std::optional<FileHandle> file_;  ///< the unnamed file (O_TMPFILE)
+  int fd_ = -1;                     ///< file_'s, or stream_'s
   std::FILE* stream_ = nullptr;  ///< set when the std::tmpfile() fallback was taken
   mutable std::mutex mutex_;
   std::uint64_t size_ = 0;

@@ -1,12 +1,12 @@
 #include "store/content_hash.hpp"
 
-#include <fcntl.h>
 #include <unistd.h>
 
 #include <cerrno>
 #include <cstring>
 
 #include "core/error.hpp"
+#include "io/file_handle.hpp"
 
 namespace periodfit::store {
 
@@ -102,24 +102,20 @@ std::string sha256_hex(std::string_view bytes) {
 }
 
 FileDigest sha256_file(const std::string& path) {
-  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
-  if (fd < 0) throw IoError(path, "cannot open", errno);
+  const io::FileHandle file = io::FileHandle::open_readable(path);
   Sha256 h;
   FileDigest d;
   char buffer[1 << 16];
   for (;;) {
-    const ssize_t n = ::read(fd, buffer, sizeof buffer);
+    const ssize_t n = ::read(file.fd(), buffer, sizeof buffer);
     if (n < 0) {
       if (errno == EINTR) continue;
-      const int e = errno;
-      ::close(fd);
-      throw IoError(path, "cannot read", e);
+      throw IoError(path, "cannot read", errno);
     }
     if (n == 0) break;
     h.update(std::string_view(buffer, static_cast<std::size_t>(n)));
     d.size += static_cast<std::uint64_t>(n);
   }
-  ::close(fd);
   d.sha256 = h.hex();
   return d;
 }
