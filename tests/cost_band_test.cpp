@@ -17,6 +17,7 @@
 #include "ident/rational_fit.hpp"
 #include "support/gaussian.hpp"
 #include "support/python_ref.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using namespace periodfit::ident;
@@ -72,7 +73,7 @@ TEST_CASE("cost band: known weights give the chi-square table band") {
   // χ²(10) quantiles 3.247 (2.5 %) and 20.483 (97.5 %): standard statistical tables (from memory).
   std::vector<FrfPoint> pts(5, FrfPoint::circular(1, 1, 1));
   const CostBand b = cost_band(pts, 10, 0.95);
-  CHECK(b.method == "chi2");
+  CHECK(b.method == ident::CostBandMethod::chi2);
   CHECK(b.lower == doctest::Approx(3.247).epsilon(2e-4));
   CHECK(b.upper == doctest::Approx(20.483).epsilon(2e-4));
   CHECK(b.expected == 10);
@@ -90,7 +91,7 @@ TEST_CASE("cost band: one estimated-weight term follows Hotelling's T-squared (s
   p.covariance_dof = m;
   p.covariance_sampled_2x2 = true;
   const CostBand b = cost_band({p}, 2, 0.95);
-  CHECK(b.method == "monte-carlo");
+  CHECK(b.method == ident::CostBandMethod::monte_carlo);
   CHECK(b.expected == doctest::Approx(2.0 * m / (m - 3)));  // Hotelling's T² mean, 2m/(m − p − 1)
   if (!test::python_has("scipy.stats")) {
     MESSAGE("SKIPPED: /usr/bin/python3 with scipy is not available");
@@ -114,7 +115,7 @@ TEST_CASE("cost band: simulated per-period covariances fall in the band 95 % of 
     CAPTURE(periods);
     Gaussian g(1000 + static_cast<std::uint64_t>(periods));
     int inside = 0, inside_plain_chi2 = 0;
-    std::string method;
+    ident::CostBandMethod method = ident::CostBandMethod::chi2;
     for (int d = 0; d < draws; ++d) {
       std::vector<FrfPoint> pts;
       double cost = 0;
@@ -131,9 +132,9 @@ TEST_CASE("cost band: simulated per-period covariances fall in the band 95 % of 
       inside_plain_chi2 += cost >= 24.433 && cost <= 59.342;
     }
     const double rate = double(inside) / draws, plain = double(inside_plain_chi2) / draws;
-    MESSAGE("P = " << periods << " (" << method << "): inside band " << 100 * rate << " %, inside plain chi2 "
+    MESSAGE("P = " << periods << " (" << code(method) << "): inside band " << 100 * rate << " %, inside plain chi2 "
                    << 100 * plain << " %");
-    CHECK(method == (periods <= 32 ? "monte-carlo" : "scaled-chi2"));
+    CHECK(method == (periods <= 32 ? ident::CostBandMethod::monte_carlo : ident::CostBandMethod::scaled_chi2));
     CHECK(std::abs(rate - 0.95) <= 0.015);
     // The control: ignoring the estimated weights rejects a right model far too often.
     if (periods <= 16) CHECK(plain < 0.80);
@@ -159,7 +160,7 @@ TEST_CASE("cost band: a right model fitted to estimated-weight points is called 
     adequate += r.adequate;
     cost_sum += r.cost;
     expected = r.cost_expected;
-    REQUIRE(r.band_method == "monte-carlo");
+    REQUIRE(r.band_method == ident::CostBandMethod::monte_carlo);
   }
   const double rate = double(adequate) / draws, mean_cost = cost_sum / draws;
   MESSAGE("fit at P = 10: adequate " << 100 * rate << " %, mean cost " << mean_cost << " vs expected " << expected
@@ -219,4 +220,16 @@ TEST_CASE("cost band: weights from 6 or fewer periods leave the parameter covari
   q.covariance_dof = 64;  // noise bins
   CHECK(covariance_inflation({q}).factor == doctest::Approx(64.0 / 60.0));
   CHECK(covariance_inflation({FrfPoint::circular(1, 1, 1)}).factor == 1);
+}
+
+TEST_CASE("cost band: each method has its own code, the one docs/frf-json.md lists, and its own words") {
+  // code() and description() read one table indexed by the enum: row order must be enum order.
+  const auto c = periodfit::test::codes_of(CostBandMethod::monte_carlo, [](CostBandMethod m) { return code(m); });
+  CHECK(c == std::vector<std::string>{"chi2", "scaled-chi2", "monte-carlo"});
+  CHECK(periodfit::test::distinct(c));
+  periodfit::test::check_documented(c, "frf-json.md", "| `band_method` |", "\"", "\"");
+  const auto words =
+      periodfit::test::codes_of(CostBandMethod::monte_carlo, [](CostBandMethod m) { return description(m); });
+  CHECK(periodfit::test::distinct(words));
+  CHECK(words[1] == "chi-square scaled for estimated weights");
 }

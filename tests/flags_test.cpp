@@ -13,6 +13,7 @@
 
 #include "core/flags.hpp"
 #include "support/test_paths.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 namespace fs = std::filesystem;
@@ -92,4 +93,16 @@ TEST_CASE("flags: the severity table in docs/batch-config.md is the library's ta
   std::vector<std::pair<std::string, std::string>> library;
   for (const auto& f : flag_catalogue()) library.emplace_back(std::string(f.code), severity_name(f.severity));
   CHECK(documented == library);
+}
+
+TEST_CASE("flags: every Status has its own code, a flag's, and not-converged is analyze's documented status") {
+  const auto c = test::codes_of(Status::truncation_visible, [](Status s) { return code(s); });
+  CHECK(test::distinct(c));
+  for (std::size_t i = 1; i < c.size(); ++i) {
+    CAPTURE(c[i]);
+    CHECK(find_flag(c[i]) != nullptr);
+  }
+  CHECK(code(Status::not_converged) == code(Flag::not_converged));
+  test::check_documented({"ok", "not-converged"}, "analyze-json.md", "| `status` |", "\"", "\"");
+  test::check_documented({"ok"}, "excite.md", "| `status` |", "\"", "\"");
 }

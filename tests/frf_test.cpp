@@ -14,6 +14,7 @@
 #include "core/error.hpp"
 #include "ident/frf.hpp"
 #include "support/signals.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using cd = std::complex<double>;
@@ -114,7 +115,7 @@ TEST_CASE("frf: RC low-pass under a square wave gives 0.7071 and -45 deg at w = 
   // Square wave: only odd harmonics carry power (handbook Fourier-series table).
   REQUIRE(frf.points.size() == 13);
   CHECK(frf.unexcited == std::vector<int>{2, 4, 6, 8, 10, 12, 14, 16, 18, 20, 22, 24});
-  CHECK(frf.method == "per-period-covariance");
+  CHECK(frf.method == ident::FrfNoiseMethod::per_period_covariance);
   CHECK(frf.dof == kP - 1);
   const auto& first = frf.points[0];
   CHECK(first.n == 1);
@@ -273,7 +274,7 @@ TEST_CASE("frf: few periods use the neighbouring noise bins and their dof") {
   const auto y = test::harmonic_samples(through(u, kF0, rc_lowpass), {kM, kP}, {kSigma, &rng});
   const auto su = spectra_of(x, kM, kP, kH, kF0), sy = spectra_of(y, kM, kP, kH, kF0);
   const auto frf = ident::compute_frf(su, sy);
-  CHECK(frf.method == "noise-bins");
+  CHECK(frf.method == ident::FrfNoiseMethod::noise_bins);
   CHECK(frf.dof == su.noise_bin_dof);
   CHECK(frf.flags == std::vector<Flag>{Flag::few_periods});
   REQUIRE(frf.points.size() == 5);
@@ -365,4 +366,10 @@ TEST_CASE("frf: coverage factor is Student-t for few dof and normal for many") {
   CHECK(ident::coverage_factor(0.95, 10) == doctest::Approx(2.228).epsilon(2e-4));
   // Normal table: z_{0.975} = 1.959964.
   CHECK(ident::coverage_factor(0.95, 100000) == doctest::Approx(1.959964).epsilon(1e-6));
+}
+
+TEST_CASE("frf: the noise methods have distinct codes, those docs/frf-json.md lists") {
+  const auto c = test::codes_of(ident::FrfNoiseMethod::noise_bins, [](ident::FrfNoiseMethod m) { return code(m); });
+  CHECK(test::distinct(c));
+  test::check_documented(c, "frf-json.md", "| `frf_method` |", "\"", "\"");
 }

@@ -87,7 +87,7 @@ TEST_CASE("harmonic count: lines 6 sigma above their scatter are all found, nois
   for (int k = 1; k <= 79; k += 2) mean[static_cast<std::size_t>(k)] = std::polar(amplitude, 0.1 * k);
   std::mt19937_64 rng(11);
   const auto sel = dsp::select_harmonics(synthetic_spectra(mean, kPeriods, rng));
-  CHECK(sel.rule == "holm-f-test");
+  CHECK(sel.rule == dsp::HarmonicRule::holm_f_test);
   CHECK(sel.noise_basis == "per-period");
   CHECK(sel.highest_examined == 200);
   CHECK(sel.significant >= 40);
@@ -140,7 +140,7 @@ TEST_CASE("harmonic count: a square wave through an RC keeps f0 within 2 u, u as
   given.lock.max_harmonic = 200;
   const auto b = dsp::analyze_channel(c, fs, 0, given);
   CHECK(a.selection.automatic);
-  CHECK(a.selection.rule == "holm-f-test");
+  CHECK(a.selection.rule == dsp::HarmonicRule::holm_f_test);
   INFO("f0 " << a.fundamental.f0_hz << " u " << a.fundamental.f0_u_hz << ", H = " << a.selection.count
              << "; with 200: u " << b.fundamental.f0_u_hz);
   constexpr double kCoverage = 2;  // the issue's criterion: within 2 u

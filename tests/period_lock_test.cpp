@@ -13,6 +13,7 @@
 #include "dsp/internal/kernel_override.hpp"
 #include "dsp/period_lock.hpp"
 #include "support/signals.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using std::numbers::pi;
@@ -58,7 +59,7 @@ TEST_CASE("lock: noise-free band-limited signal over 3.37 periods is fitted to t
   dsp::LockOptions opt;
   opt.max_harmonic = 8;
   const dsp::HarmonicFit fit = dsp::fit_harmonics(x, fs, t0, opt);
-  CHECK(fit.fundamental.method == "sine-fit");
+  CHECK(fit.fundamental.method == dsp::F0Method::sine_fit);
   CHECK(fit.fundamental.converged);
   CHECK(std::abs(fit.fundamental.f0_hz / f0 - 1) < kF0RelTol);
   CHECK(std::abs(fit.a[0] - 0.25) < kAmplitudeRelTol * 0.25);
@@ -112,7 +113,7 @@ TEST_CASE("lock: forced f0 is used as given") {
   const dsp::Fundamental f = dsp::estimate_fundamental(x, fs, opt);
   CHECK(f.f0_hz == 10.001);
   CHECK(f.f0_u_hz == 0);
-  CHECK(f.method == "forced");
+  CHECK(f.method == dsp::F0Method::forced);
 }
 
 TEST_CASE("lock: a channel with no periodic component is an AnalysisError") {
@@ -312,4 +313,14 @@ TEST_CASE("lock: every instruction-set kernel gives the same fit") {
   }
   dsp::internal::force_kernel_for_testing("");
   CHECK(tried >= 1);
+}
+
+TEST_CASE("period lock: the f0 methods and harmonic rules have distinct codes, those docs/analyze-json.md lists") {
+  const auto f0 = test::codes_of(dsp::F0Method::forced, [](dsp::F0Method m) { return code(m); });
+  CHECK(f0 == std::vector<std::string>{"sine-fit", "forced"});
+  CHECK(test::distinct(f0));
+  test::check_documented(f0, "analyze-json.md", "| `f0_method` |", "\"", "\"");
+  const auto rules = test::codes_of(dsp::HarmonicRule::fallback, [](dsp::HarmonicRule r) { return code(r); });
+  CHECK(test::distinct(rules));
+  test::check_documented(rules, "analyze-json.md", "| `harmonic_selection` |", "\"", "\"");
 }

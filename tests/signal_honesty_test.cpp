@@ -28,6 +28,7 @@
 #include "support/cli_runner.hpp"
 #include "support/python_ref.hpp"
 #include "support/test_paths.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using namespace periodfit::test;
@@ -208,7 +209,7 @@ TEST_CASE("signal honesty: the Rice magnitude interval matches scipy.stats.rice 
     REQUIRE(in);
     const auto iv = dsp::magnitude_interval(r, sigma, k);
     INFO("r = " << r);
-    CHECK(iv.method == "rice");
+    CHECK(iv.method == dsp::MagnitudeIntervalMethod::rice);
     CHECK(std::abs(iv.lo - lo) < kIntervalTol);
     CHECK(std::abs(iv.hi - hi) < kIntervalTol);
     CHECK(iv.lo >= 0);
@@ -440,4 +441,12 @@ TEST_CASE("signal honesty: two incommensurate tones and an amplitude-modulated t
     REQUIRE_FALSE(a.residual_lines.lines.empty());
   }
   CHECK(dsp::analyze_channel(two, kFs, 0).has_flag(Flag::not_periodic));
+}
+
+TEST_CASE("magnitude interval: its two methods have distinct codes") {
+  // An internal decision (frf picks the Rice bounds or the Gaussian ones); no output writes it.
+  const auto c = codes_of(dsp::MagnitudeIntervalMethod::normal,
+                          [](dsp::MagnitudeIntervalMethod m) { return dsp::code(m); });
+  CHECK(c == std::vector<std::string>{"rice", "normal"});
+  CHECK(distinct(c));
 }

@@ -23,6 +23,7 @@
 #include "support/cli_runner.hpp"
 #include "support/hostile_inputs.hpp"
 #include "support/python_ref.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using periodfit::test::TempDir;
@@ -99,7 +100,7 @@ TEST_CASE("production stats: Cp and Cpk with their confidence intervals match th
     store::CapabilityOptions o;
     o.confidence = confidence;
     const store::Capability c = store::capability(x, lsl, usl, o);
-    REQUIRE(c.status == "ok");
+    REQUIRE(c.status == store::StatisticStatus::ok);
     std::ostringstream args;
     args.precision(17);
     args << lsl << ' ' << usl << ' ' << confidence;
@@ -127,9 +128,9 @@ TEST_CASE("production stats: a one-sided limit has Cpk from its side only and no
   CHECK(std::isnan(c.cp));
   // NIST §6.1.6: Cpu = (USL − x̄)/(3s).
   CHECK(c.cpk == doctest::Approx((10.0 - 2.5) / (3 * std::sqrt(5.0 / 3.0))).epsilon(1e-14));
-  CHECK(store::capability({1.0}, 0, 2).status == "too few values");
+  CHECK(store::capability({1.0}, 0, 2).status == store::StatisticStatus::too_few_values);
   CHECK(std::isnan(store::capability({1.0}, 0, 2).cpk));
-  CHECK(store::capability({1.0, 1.0, 1.0}, 0, 2).status == "no spread");
+  CHECK(store::capability({1.0, 1.0, 1.0}, 0, 2).status == store::StatisticStatus::no_spread);
   CHECK(std::isnan(store::capability({1.0, 1.0, 1.0}, 0, 2).cpk));
 }
 
@@ -145,7 +146,7 @@ TEST_CASE("control chart: limits are x-bar +- 2.66 MR-bar and MR UCL 3.267 MR-ba
   // E2 = 3/d2 (Montgomery §6.4): the published 2.66 is 3/1.128 rounded to 3 digits.
   CHECK(store::kE2 == doctest::Approx(3 / store::kD2).epsilon(0.005));
   CHECK(c.signals.empty());
-  CHECK(store::individuals_chart({5.0}).status == "too few values");
+  CHECK(store::individuals_chart({5.0}).status == store::StatisticStatus::too_few_values);
 }
 
 TEST_CASE("control chart: Nelson rules 1-4 each signal at the point that completes the pattern") {
@@ -374,4 +375,12 @@ TEST_CASE("identity: command line over sidecar over preamble over file name over
   bad = s;
   bad.config_values = {{"seriall", "x"}};
   CHECK_THROWS_WITH_AS(bad.validate(), doctest::Contains("serial"), UnknownNameError);
+}
+
+TEST_CASE("production statistics: each status has its own code, the ones docs/results-db.md lists") {
+  const auto c = test::codes_of(store::StatisticStatus::no_limits, [](store::StatisticStatus s) { return code(s); });
+  CHECK(c.front() == "ok");
+  CHECK(test::distinct(c));
+  // The page lists the statuses that leave the indices undefined, in backquotes.
+  test::check_documented(std::vector<std::string>(c.begin() + 1, c.end()), "results-db.md", "  - status `", "`", "`");
 }

@@ -14,6 +14,7 @@
 #include "predict/input_series.hpp"
 #include "predict/superposition.hpp"
 #include "support/python_ref.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using dsp::WaveKind;
@@ -164,7 +165,7 @@ TEST_CASE("superposition: a system that passes high frequencies shows Gibbs on a
   o.truncation.harmonics = 2001;
   const auto r = predict::predict_steady_state(wave(WaveKind::square, 1, 50), sys, o);
   CHECK(r.status == Status::truncation_visible);
-  CHECK(r.output_tail_method == "summed (diverges)");
+  CHECK(r.output_tail_method == predict::TailMethod::summed_diverges);
   CHECK(std::find(r.flags.begin(), r.flags.end(), Flag::gibbs) != r.flags.end());
   REQUIRE(r.warnings.size() == 1);
   CHECK(r.warnings[0].find("does not converge") != std::string::npos);
@@ -541,4 +542,10 @@ TEST_CASE("superposition: a measured input's covariance is propagated, and adds 
   CHECK(combined.uncertainty_sources == std::vector<std::string>{"model covariance", "input harmonics"});
   CHECK(combined.rms_u == doctest::Approx(std::hypot(model_only.rms_u, r.rms_u)).epsilon(1e-12));
   CHECK(combined.value_u[3] == doctest::Approx(std::hypot(model_only.value_u[3], r.value_u[3])).epsilon(1e-12));
+}
+
+TEST_CASE("superposition: the output-tail methods have distinct codes, those docs/steady-state-json.md lists") {
+  const auto c = test::codes_of(predict::TailMethod::summed_diverges, [](predict::TailMethod m) { return code(m); });
+  CHECK(test::distinct(c));
+  test::check_documented(c, "steady-state-json.md", "| `output_tail_method` |", "\"", "\"");
 }

@@ -11,6 +11,7 @@
 #include "core/error.hpp"
 #include "dsp/waveforms.hpp"
 #include "support/python_ref.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using dsp::WaveKind;
@@ -261,7 +262,7 @@ TEST_CASE("waveforms: partial sums approach the exact values within the closed-f
     w.offset_v = 0.1;
     w.terms = {{1, 1.0, 30}, {3, 0.2, -45}, {7, 0.05, 170}};
     const auto s = dsp::truncate_series(w);
-    CHECK(s.method == "complete");
+    CHECK(s.method == dsp::SeriesCount::complete);
     CHECK(s.harmonics == 7);
     CHECK(s.left_out_fraction == 0);
     for (int k = 0; k < 50; ++k) {
@@ -276,7 +277,7 @@ TEST_CASE("waveforms: automatic truncation leaves out less than 1e-6 of the ac e
   // K = (N+1)/2 (first omitted harmonic 2K+1 = N+2); trigamma from Boost.Math.
   const auto square = wave(WaveKind::square);
   const auto s = dsp::truncate_series(square);
-  CHECK(s.method == "automatic");
+  CHECK(s.method == dsp::SeriesCount::automatic);
   CHECK(s.left_out_fraction < 1e-6);
   const int n = s.harmonics;
   const double k_first = (n % 2 ? (n + 1) / 2.0 : n / 2.0);
@@ -299,11 +300,11 @@ TEST_CASE("waveforms: automatic truncation leaves out less than 1e-6 of the ac e
   CHECK(full.harmonics < 200);  // terms ∝ 1/n²: energy tail ∝ 1/N³
   const auto sine = dsp::truncate_series(wave(WaveKind::sine));
   CHECK(sine.harmonics == 1);
-  CHECK(sine.method == "complete");
+  CHECK(sine.method == dsp::SeriesCount::complete);
 
   // A given count is honoured and its bound reported.
   const auto given = dsp::truncate_series(square, {.harmonics = 99});
-  CHECK(given.method == "given");
+  CHECK(given.method == dsp::SeriesCount::given);
   CHECK(given.harmonics == 99);
   CHECK(given.left_out_fraction == doctest::Approx(2 / (kPi * kPi) * boost::math::trigamma(50.5)).epsilon(1e-9));
 
@@ -335,4 +336,10 @@ TEST_CASE("waveforms: names parse with a did-you-mean, options are validated") {
   CHECK_THROWS_AS(w.validate(), OptionError);
   CHECK_NOTHROW(WaveSpec{}.validate());          // defaults are valid
   CHECK_NOTHROW(dsp::TruncationOptions{}.validate());
+}
+
+TEST_CASE("waveforms: the harmonic-count rules have distinct codes, those docs/steady-state-json.md lists") {
+  const auto c = test::codes_of(dsp::SeriesCount::measured, [](dsp::SeriesCount s) { return code(s); });
+  CHECK(test::distinct(c));
+  test::check_documented(c, "steady-state-json.md", "| `harmonic_count_method` |", "\"", "\"");
 }

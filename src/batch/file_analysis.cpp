@@ -239,7 +239,7 @@ FileAnalysis analyse_channels(const Capture& capture, const BatchConfig& config)
     if (i == 0) measure_channel(c, "", a.measurements);  // limits without a channel: the first
     a.result_rows.emplace_back(c.name + ": fundamental",
                                pm(c.fundamental.f0_hz, c.fundamental.f0_u_hz, "Hz") + " (" +
-                                   c.fundamental.method + "), " + sig(c.periods) + " periods");
+                                   std::string(code(c.fundamental.method)) + "), " + sig(c.periods) + " periods");
     a.result_rows.emplace_back(c.name + ": dc, rms", pm(c.dc, c.dc_u, c.unit) + ", " + with_unit(sig(c.rms), c.unit));
     a.result_rows.emplace_back(c.name + ": distortion",
                                "THD " + sig(c.distortion.thd) + ", THD+N " + sig(c.distortion.thd_n) +

@@ -102,6 +102,7 @@ std::vector<std::string> codes(const std::vector<Flag>& flags) {
 std::string_view code(Status status) {
   switch (status) {
     case Status::ok: return "ok";
+    case Status::not_converged: return code(Flag::not_converged);
     case Status::model_inadequate: return code(Flag::model_inadequate);
     case Status::model_not_converged: return code(Flag::model_not_converged);
     case Status::truncation_visible: return code(Flag::truncation_visible);

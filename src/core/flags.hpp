@@ -60,10 +60,12 @@ std::string_view code(Flag flag);
 /// The codes of `flags`, in order (for JSON arrays and batch rows).
 std::vector<std::string> codes(const std::vector<Flag>& flags);
 
-/// The outcome of a result: ok, or the flag that decided it otherwise (an frf model that is not
-/// adequate or did not converge, a steady-state series cut where it still shows). The code of a
-/// status that is not ok is its flag's code, so severity and sentence are the flag's.
-enum class Status { ok, model_inadequate, model_not_converged, truncation_visible };
+/// The outcome of a result: ok, or the flag that decided it otherwise (an analyze channel whose
+/// f0 fit hit its iteration cap, an frf model that is not adequate or did not converge, a
+/// steady-state series cut where it still shows). The code of a status that is not ok is its
+/// flag's code, so severity and sentence are the flag's. Results that cannot come out otherwise
+/// (the FRF estimate, an excitation) carry Status::ok so their JSON "status" reads the same table.
+enum class Status { ok, not_converged, model_inadequate, model_not_converged, truncation_visible };
 
 /// "ok", or the deciding flag's code.
 std::string_view code(Status status);

@@ -73,11 +73,11 @@ HarmonicSelection select_harmonics(const PeriodSpectra& s, const SelectionOption
       log_p[i] = log_tail_f2(f, s.noise_bin_dof);
     }
   } else {
-    sel.rule = "fallback";
+    sel.rule = HarmonicRule::fallback;
     sel.noise_basis = "none";
     return sel;
   }
-  sel.rule = "holm-f-test";
+  sel.rule = HarmonicRule::holm_f_test;
   sel.family_alpha = options.family_alpha;
   // Holm's step-down over the K candidates (period_lock.hpp).
   std::vector<int> order(static_cast<std::size_t>(k_max));
@@ -106,7 +106,7 @@ double f0_noise_factor(const LockedChannel& c) {
   const PeriodSpectra& s = c.spectra;
   const int p = s.periods;
   const double sigma2 = c.fit.sigma2;
-  if (p < 4 || !(sigma2 > 0) || c.fit.fundamental.method == "forced") return 1;
+  if (p < 4 || !(sigma2 > 0) || c.fit.fundamental.method == F0Method::forced) return 1;
   const double white = 4 * sigma2 * s.f0_hz / c.fit.fs_hz;  // E|ΔX|² of one period, white noise
   double sum_w = 0, sum_w_over_r = 0;
   for (int k = 1; k <= s.max_harmonic; ++k) {
@@ -207,13 +207,13 @@ LockedChannel lock_channel(std::span<const double> x, double fs, double t0, cons
   int h = h_fit;
   if (automatic) {
     sel.automatic = true;
-    if (sel.rule != "fallback") {
+    if (sel.rule != HarmonicRule::fallback) {
       // 2H + 2 ≤ N/2: half the samples stay residual degrees of freedom (default_harmonic_count).
       const int by_samples = static_cast<int>((x.size() / 2 - 2) / 2);
       h = std::clamp(sel.highest_significant, 1, std::max(1, std::min(by_samples, kAutoMaxHarmonic)));
     }
   } else {
-    sel.rule = "given";
+    sel.rule = HarmonicRule::given;
   }
   count_truncated(sel, out.spectra, automatic ? h : h_fit);
   sel.count = h;

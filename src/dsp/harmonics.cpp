@@ -312,7 +312,7 @@ void describe_record(ChannelAnalysis& out, const LockedChannel& locked, double f
   const HarmonicFit& fit = locked.fit;
   out.f0_u_noise_factor = locked.f0_u_noise_factor;
   out.fundamental = fit.fundamental;
-  if (!fit.fundamental.converged) out.status = "not-converged";
+  if (!fit.fundamental.converged) out.status = Status::not_converged;
   out.periods = static_cast<double>(n) * fit.fundamental.f0_hz / fs;
   out.whole_periods = locked.grid.periods;
   out.samples_per_period = locked.grid.samples_per_period;
@@ -441,7 +441,7 @@ HarmonicNoise estimate_noise(const LockedChannel& locked, std::span<const double
     return noise;
   }
   if (p >= 4) {
-    if (fit.fundamental.method != "forced") restore_phase_dof(noise, fit, p);
+    if (fit.fundamental.method != F0Method::forced) restore_phase_dof(noise, fit, p);
     noise.nu_ratio = phase_noise_ratio(noise, fit, fs);
   }
   return noise;

@@ -90,7 +90,7 @@ struct AnalysisFlag {
 struct ChannelAnalysis {
   std::string name;
   std::string unit;
-  std::string status = "ok";    ///< "ok", or "not-converged" (the fit hit its iteration cap)
+  Status status = Status::ok;   ///< ok, or not_converged (the f0 fit hit its iteration cap)
   Fundamental fundamental;      ///< f0, f0_u, method, dof, iterations, condition
   HarmonicSelection selection;  ///< how the harmonic count was chosen (period_lock.hpp)
   double f0_u_noise_factor = 1; ///< u(f0) over its white-noise value (local noise per harmonic)

@@ -39,17 +39,17 @@ MagnitudeInterval magnitude_interval(double r, double sigma, double k) {
   r = std::max(r, 0.0);
   if (!(sigma > 0) || !std::isfinite(sigma) || !std::isfinite(r)) {
     out.lo = out.hi = r;
-    out.method = "normal";
+    out.method = MagnitudeIntervalMethod::normal;
     return out;
   }
   if (r / sigma >= kRiceSnrLimit) {
     out.lo = std::max(0.0, r - k * sigma);
     out.hi = r + k * sigma;
-    out.method = "normal";
+    out.method = MagnitudeIntervalMethod::normal;
     out.consistent_with_zero = out.lo == 0;
     return out;
   }
-  out.method = "rice";
+  out.method = MagnitudeIntervalMethod::rice;
   const double alpha = 0.5 * std::erfc(k / std::sqrt(2.0));  // one-sided tail of k
   // F(r; ν) ≤ α for ν = r + (k + 10)·σ: the Rice distribution is within a few σ of ν there.
   out.hi = invert(r, sigma, alpha, 0.0, r + (k + 10) * sigma);

@@ -23,18 +23,30 @@
 ///
 ///   const MagnitudeInterval iv = magnitude_interval(std::abs(h), sigma, 1.96);
 ///   if (iv.consistent_with_zero) { /* report the phase as undefined */ }
-#include <string>
+#include <string_view>
 
 namespace periodfit::dsp {
 
 /// r/σ from which the interval is the Gaussian r ± k·σ.
 inline constexpr double kRiceSnrLimit = 30;
 
+/// How the interval was found: the Rice inversion (bounded at 0), or the Gaussian r ± k·σ once
+/// r/σ ≥ kRiceSnrLimit. Its code ("rice", "normal") through code() only.
+enum class MagnitudeIntervalMethod { rice, normal };
+
+inline std::string_view code(MagnitudeIntervalMethod method) {
+  switch (method) {
+    case MagnitudeIntervalMethod::rice: return "rice";
+    case MagnitudeIntervalMethod::normal: return "normal";
+  }
+  return "normal";
+}
+
 struct MagnitudeInterval {
   double lo = 0;                      ///< ≥ 0
   double hi = 0;
   bool consistent_with_zero = false;  ///< lo = 0: the Rayleigh CDF at r is below 1 − α
-  std::string method;                 ///< "rice" or "normal" (r/σ ≥ kRiceSnrLimit)
+  MagnitudeIntervalMethod method = MagnitudeIntervalMethod::normal;
 };
 
 /// `r` observed magnitude, `sigma` noise standard deviation per component (Re or Im), `k` the

@@ -668,7 +668,7 @@ HarmonicFit forced_fit(const SineFitter& fitter, std::span<const double> x, doub
   if (!e.ok) throw AnalysisError("the harmonic fit at f0 = " + str(opt.f0_hz) + " Hz is singular");
   HarmonicFit fit = make_fit(e, x, fs, t0, h, true);
   fit.fundamental.f0_hz = opt.f0_hz;
-  fit.fundamental.method = "forced";
+  fit.fundamental.method = F0Method::forced;
   fit.fundamental.converged = true;
   fit.fundamental.harmonics_fitted = h;
   fit.fundamental.condition = e.condition;
@@ -762,7 +762,7 @@ HarmonicFit estimated_fit(const Stages& s, std::span<const double> x, double fs,
   HarmonicFit fit = make_fit(e, x, fs, t0, static_cast<int>(e.a.size()) - 1, false);
   const int hf = fit.harmonics();
   fit.fundamental.f0_hz = e.nu * fs / kTwoPi;
-  fit.fundamental.method = "sine-fit";
+  fit.fundamental.method = F0Method::sine_fit;
   fit.fundamental.iterations = s.iterations;
   fit.fundamental.converged = s.g.converged;
   fit.fundamental.harmonics_fitted = hf;

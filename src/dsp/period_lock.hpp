@@ -62,6 +62,7 @@
 #include <functional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace periodfit::dsp {
@@ -99,6 +100,18 @@ struct LockOptions {
 /// Throws OptionError naming the first invalid field.
 void validate(const LockOptions& options);
 
+/// How f0 was found; written as its code ("sine-fit", "forced": the JSON's f0_method, the text
+/// reports) through code() only. A forced f0 has no estimation dof and no u of its own.
+enum class F0Method { sine_fit, forced };
+
+inline std::string_view code(F0Method method) {
+  switch (method) {
+    case F0Method::sine_fit: return "sine-fit";
+    case F0Method::forced: return "forced";
+  }
+  return "sine-fit";
+}
+
 /// The fundamental and how it was found.
 struct Fundamental {
   double f0_hz = 0;
@@ -108,7 +121,7 @@ struct Fundamental {
   double residual_rms = 0;  ///< RMS of the fit residual, in the channel's unit
   int iterations = 0;
   bool converged = false;
-  std::string method;       ///< "forced", "sine-fit" (estimated), …
+  F0Method method = F0Method::sine_fit;  ///< estimated, or forced (the caller's f0)
   double condition = 0;     ///< condition number of the fit's Gram matrix (columns scaled)
 };
 
@@ -201,6 +214,20 @@ PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& 
 
 // ---- the one lock call: f0, the harmonic count, the grid and the period spectra ------------
 
+/// Which rule set the harmonic count: the automatic test, the count given, or the fit's own count
+/// when P = 1 leaves no local noise estimate. Written as its code ("holm-f-test", "given",
+/// "fallback": the analyze JSON's harmonic_selection.rule) through code() only.
+enum class HarmonicRule { holm_f_test, given, fallback };
+
+inline std::string_view code(HarmonicRule rule) {
+  switch (rule) {
+    case HarmonicRule::holm_f_test: return "holm-f-test";
+    case HarmonicRule::given: return "given";
+    case HarmonicRule::fallback: return "fallback";
+  }
+  return "given";
+}
+
 /// How the harmonic count H of a locked channel was chosen.
 ///
 /// ## The automatic rule (max_harmonic = 0)
@@ -228,7 +255,7 @@ PeriodGrid resample_fitted(std::span<const double> residual, const HarmonicFit& 
 /// the linear model (it is contiguous) and are reported with their uncertainties.
 struct HarmonicSelection {
   bool automatic = false;     ///< true: H chosen by the rule; false: max_harmonic given
-  std::string rule;           ///< "holm-f-test", "given", or "fallback" (P = 1)
+  HarmonicRule rule = HarmonicRule::given;  ///< see HarmonicRule
   std::string noise_basis;    ///< "per-period", "noise-bins" or "none"
   double family_alpha = 0;    ///< α of the rule (0 when no test ran)
   int count = 0;              ///< H: harmonics in the fit and the reported tables

@@ -289,7 +289,7 @@ SeriesTruncation truncate_series(const WaveSpec& wave, const TruncationOptions& 
       kept += std::norm(x.back()) / 2;
     }
     out.harmonics = options.harmonics;
-    out.method = "given";
+    out.method = SeriesCount::given;
   } else {
     const double allowed = options.max_left_out_fraction * total;
     int n = 0;
@@ -307,8 +307,8 @@ SeriesTruncation truncate_series(const WaveSpec& wave, const TruncationOptions& 
     if (n == 0) n = 1, x.push_back(wave_harmonic(wave, 1));
     out.harmonics = n;
     out.method = (wave.kind == WaveKind::harmonics && n >= highest_term) || wave.kind == WaveKind::sine
-                     ? "complete"
-                     : "automatic";
+                     ? SeriesCount::complete
+                     : SeriesCount::automatic;
   }
   out.left_out_fraction = total > 0 ? left_out(kept, out.harmonics) / total : 0;
   return out;

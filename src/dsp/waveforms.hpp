@@ -117,12 +117,28 @@ struct TruncationOptions {
   void validate() const;
 };
 
+/// How a series' harmonic count was set: by the energy bound (automatic), as given, or all of a
+/// finite series (complete); measured is a capture's harmonics taken as found (predict). Its
+/// code ("automatic", "given", "complete", "measured": steady-state's harmonic_count_method)
+/// through code() only. A complete series has no tail.
+enum class SeriesCount { automatic, given, complete, measured };
+
+inline std::string_view code(SeriesCount count) {
+  switch (count) {
+    case SeriesCount::automatic: return "automatic";
+    case SeriesCount::given: return "given";
+    case SeriesCount::complete: return "complete";
+    case SeriesCount::measured: return "measured";
+  }
+  return "automatic";
+}
+
 /// A series cut at N harmonics, with the energy bound that decided it.
 struct SeriesTruncation {
   FourierSeries series;           ///< phasors 0…N
   int harmonics = 0;              ///< N
   double left_out_fraction = 0;   ///< ac energy left out / total ac energy (0 when no ac)
-  std::string method;             ///< "automatic", "given", "complete" (finite list, all kept)
+  SeriesCount method = SeriesCount::automatic;  ///< automatic, given or complete (finite list, all kept)
 };
 
 /// The series of `wave` cut at options.harmonics, or automatically (see the header comment).

@@ -79,7 +79,28 @@ double sorted_quantile(const std::vector<double>& v, double q) {
   return i + 1 < v.size() ? v[i] + f * (v[i + 1] - v[i]) : v.back();
 }
 
+// The one table of the band methods: the code the JSON writes, the words the text report prints.
+struct BandMethodText {
+  CostBandMethod method;
+  std::string_view code;
+  std::string_view description;
+};
+constexpr BandMethodText kBandMethods[] = {
+    {CostBandMethod::chi2, "chi2", "chi-square"},
+    {CostBandMethod::scaled_chi2, "scaled-chi2", "chi-square scaled for estimated weights"},
+    {CostBandMethod::monte_carlo, "monte-carlo", "Monte Carlo, estimated weights"},
+};
+
+const BandMethodText& band_method_text(CostBandMethod method) {
+  // kBandMethods lists the methods in the enum's order (tests/cost_band_test.cpp checks it).
+  return kBandMethods[static_cast<std::size_t>(method)];
+}
+
 }  // namespace
+
+std::string_view code(CostBandMethod method) { return band_method_text(method).code; }
+
+std::string_view description(CostBandMethod method) { return band_method_text(method).description; }
 
 CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confidence) {
   if (!(confidence > 0 && confidence < 1))
@@ -116,7 +137,7 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
     band.lower = boost::math::quantile(chi2, lo_q);
     band.upper = boost::math::quantile(chi2, hi_q);
     band.expected = dof;
-    band.method = "chi2";
+    band.method = CostBandMethod::chi2;
   } else if (!heavy_tails) {
     // Satterthwaite: c·χ²_ν with c·ν = mean, 2c²ν = variance (of the scaled sum).
     const double m = absorbed * mean, v = absorbed * absorbed * variance;
@@ -125,14 +146,14 @@ CostBand cost_band(const std::vector<FrfPoint>& points, int dof, double confiden
     band.lower = c * boost::math::quantile(chi2, lo_q);
     band.upper = c * boost::math::quantile(chi2, hi_q);
     band.expected = m;
-    band.method = "scaled-chi2";
+    band.method = CostBandMethod::scaled_chi2;
   } else {
     const std::vector<double>& sums = monte_carlo_sums(laws);
     band.lower = absorbed * sorted_quantile(sums, lo_q);
     band.upper = absorbed * sorted_quantile(sums, hi_q);
     // With some d2 ≤ 2 the mean is infinite; the median is the honest "typical" value then.
     band.expected = absorbed * (mean_exists ? mean : sorted_quantile(sums, 0.5));
-    band.method = "monte-carlo";
+    band.method = CostBandMethod::monte_carlo;
   }
   return band;
 }

@@ -38,7 +38,7 @@ struct CostBand {
   double lower = 0;     ///< central `confidence` band of V for a right model
   double upper = 0;
   double expected = 0;  ///< E[V] for a right model (infinite mean: the Monte Carlo median)
-  std::string method;   ///< "chi2", "scaled-chi2" or "monte-carlo"
+  CostBandMethod method = CostBandMethod::chi2;
 };
 
 /// Band of the cost of a fit to `points` with `dof` = 2K − n_θ > 0 residual degrees of freedom.

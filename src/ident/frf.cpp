@@ -105,7 +105,7 @@ std::vector<FrfPoint> fit_points(const FrfResult& frf) {
   points.reserve(frf.points.size());
   for (const auto& p : frf.points)
     points.push_back({2 * std::numbers::pi * p.freq_hz, p.h, p.var_re, p.var_im, p.cov_re_im,
-                      p.at_numerical_floor ? 0 : frf.dof, frf.method == "per-period-covariance"});
+                      p.at_numerical_floor ? 0 : frf.dof, frf.method == FrfNoiseMethod::per_period_covariance});
   return points;
 }
 
@@ -214,7 +214,7 @@ void set_intervals(FrfHarmonic& pt, double k) {
   // |H| interval inside [0, ∞): Rice inversion at low SNR (issue 12: a weak harmonic gave
   // [-0.000433, 0.0020006]); σ² per component is the mean of the two.
   const dsp::MagnitudeInterval iv = dsp::magnitude_interval(pt.mag, std::sqrt(0.5 * pt.var_h), k);
-  if (iv.method == "rice") {
+  if (iv.method == dsp::MagnitudeIntervalMethod::rice) {
     pt.mag_lo = iv.lo;
     pt.mag_hi = iv.hi;
   } else {
@@ -257,7 +257,7 @@ FrfResult compute_frf(const dsp::PeriodSpectra& input, const dsp::PeriodSpectra&
   const auto harmonics = static_cast<std::size_t>(input.max_harmonic);
 
   FrfResult r;
-  r.method = per_period ? "per-period-covariance" : "noise-bins";
+  r.method = per_period ? FrfNoiseMethod::per_period_covariance : FrfNoiseMethod::noise_bins;
   r.f0_hz = input.f0_hz;
   r.periods = input.periods;
   r.max_harmonic = input.max_harmonic;

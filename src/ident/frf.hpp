@@ -53,6 +53,7 @@
 ///   const FrfResult frf = compute_frf(u, y);   // frf.points: excited harmonics only
 #include <complex>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "dsp/period_lock.hpp"
@@ -108,9 +109,22 @@ struct FrfHarmonic {
   bool at_numerical_floor = false;  ///< the variances were raised to the numerical floor
 };
 
+/// Where the FRF's variances come from: the per-period covariance (P ≥ 4), or the noise bins
+/// between the harmonics (fewer periods; flag few-periods). Its code ("per-period-covariance",
+/// "noise-bins": the JSON's frf_method) through code() only.
+enum class FrfNoiseMethod { per_period_covariance, noise_bins };
+
+inline std::string_view code(FrfNoiseMethod method) {
+  switch (method) {
+    case FrfNoiseMethod::per_period_covariance: return "per-period-covariance";
+    case FrfNoiseMethod::noise_bins: return "noise-bins";
+  }
+  return "noise-bins";
+}
+
 struct FrfResult {
-  std::string status = "ok";   ///< "ok" (what the data cannot answer throws AnalysisError)
-  std::string method;          ///< "per-period-covariance" or "noise-bins"
+  Status status = Status::ok;  ///< always ok (what the data cannot answer throws AnalysisError)
+  FrfNoiseMethod method = FrfNoiseMethod::noise_bins;
   double f0_hz = 0;
   int periods = 0;             ///< P
   int max_harmonic = 0;        ///< highest harmonic examined

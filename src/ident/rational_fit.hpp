@@ -139,6 +139,18 @@ struct OrderTrial {
   std::string note;         ///< why it failed, when it did
 };
 
+/// How a cost band was found (ident/cost_band.hpp gives the rules): χ² with known weights, a
+/// scaled χ² for estimated weights, or Monte Carlo when their law has heavy tails. Declared here
+/// because RationalFit carries it; the table (ident/cost_band.cpp) gives each its code, as the
+/// JSON's band_method writes it ("chi2", "scaled-chi2", "monte-carlo"), and the words of the text report.
+enum class CostBandMethod { chi2, scaled_chi2, monte_carlo };
+
+/// "chi2", "scaled-chi2", "monte-carlo".
+std::string_view code(CostBandMethod method);
+
+/// For people: "chi-square", "chi-square scaled for estimated weights", "Monte Carlo, estimated weights".
+std::string_view description(CostBandMethod method);
+
 struct RationalFitResult {
   RationalModel model;                 ///< SI, ascending powers of s, den monic, covariance filled
   std::vector<std::string> parameter_names;  ///< "b0"…"bM", "a0"…"a{N-1}", "T": covariance order
@@ -157,7 +169,7 @@ struct RationalFitResult {
   double chi2_lower = 0;
   double chi2_upper = 0;
   double cost_expected = 0;            ///< E[cost] for a right model (dof with known covariances)
-  std::string band_method;             ///< "chi2", "scaled-chi2" or "monte-carlo"
+  CostBandMethod band_method = CostBandMethod::chi2;  ///< how the band was found
   bool adequate = false;               ///< chi2_lower ≤ cost ≤ chi2_upper
   bool unstable = false;               ///< some pole has Re p ≥ 0
   /// Factor applied to (JᵀŴJ)⁻¹ for estimated weights (1 = weights known).
@@ -175,7 +187,7 @@ struct RationalFitResult {
   /// singular / failed: why (rank of the linear start or of the Jacobian, "lower the order");
   /// the numbers above are then meaningless. Empty otherwise.
   std::string message;
-  std::string method;                  ///< e.g. "levy+sk(12)+ml-lm(7)"
+  std::string method;                  ///< e.g. "levy+sk(12)+ml-lm(7)": a description, not a decision
   int sk_iterations = 0;
   int iterations = 0;                  ///< LM iterations of the final fit
   std::vector<std::complex<double>> fitted;  ///< Ĥ(jω_k) at the input points

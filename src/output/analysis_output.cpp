@@ -34,7 +34,7 @@ nlohmann::ordered_json harmonic_selection_json(const dsp::HarmonicSelection& s) 
   nlohmann::ordered_json j;
   j["count"] = s.count;
   j["automatic"] = s.automatic;
-  j["rule"] = s.rule;
+  j["rule"] = code(s.rule);
   j["family_alpha"] = s.family_alpha > 0 ? json_number(s.family_alpha) : nlohmann::ordered_json(nullptr);
   j["noise_basis"] = s.noise_basis;
   j["highest_examined"] = s.highest_examined;
@@ -154,10 +154,10 @@ nlohmann::ordered_json channel_json(const ChannelAnalysis& c) {
   nlohmann::ordered_json j;
   j["name"] = c.name;
   j["unit"] = c.unit;
-  j["status"] = c.status;
+  j["status"] = code(c.status);
   j["f0_hz"] = json_number(c.fundamental.f0_hz);
   j["f0_u_hz"] = json_number(c.fundamental.f0_u_hz);
-  j["f0_method"] = c.fundamental.method;
+  j["f0_method"] = code(c.fundamental.method);
   j["periods"] = json_number(c.periods);
   j["whole_periods"] = c.whole_periods;
   j["samples_per_period"] = c.samples_per_period;
@@ -241,7 +241,7 @@ std::string analyze_text(const AnalyzeReport& r) {
     // Standard uncertainties are labelled u and set the digits printed (GUM 7.2.6).
     std::string f0 = c.fundamental.f0_u_hz > 0 ? format_with_u(c.fundamental.f0_hz, c.fundamental.f0_u_hz, "Hz")
                                                : people(c.fundamental.f0_hz, 10) + " Hz";
-    f0 += " (" + c.fundamental.method + ", " + std::to_string(c.fundamental.harmonics_fitted) + " harmonics)";
+    f0 += " (" + std::string(code(c.fundamental.method)) + ", " + std::to_string(c.fundamental.harmonics_fitted) + " harmonics)";
     kv.emplace_back("f0", f0);
     kv.emplace_back("periods", people(c.periods, 6) + " (" + std::to_string(c.whole_periods) +
                                    " locked, " + std::to_string(c.samples_per_period) +

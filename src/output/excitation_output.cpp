@@ -80,7 +80,7 @@ std::string excitation_text(const ExciteResult& r) {
 
 nlohmann::ordered_json excitation_json(const ExciteResult& r) {
   nlohmann::ordered_json j;
-  j["status"] = r.status;
+  j["status"] = code(r.status);
   j["signal"] = r.signal;
   j["method"] = r.method;
   j["seed"] = r.phases == PhaseRule::random ? nlohmann::ordered_json(r.seed) : nlohmann::ordered_json(nullptr);

@@ -30,14 +30,6 @@ std::string list_harmonics(const std::vector<int>& n) {
 
 std::string sig(double v, int digits = 6) { return std::isfinite(v) ? format_significant(v, digits) : "-"; }
 
-/// How the cost band was found, for the text report (ident/cost_band.hpp).
-std::string band_text(const std::string& method) {
-  if (method == "chi2") return "chi-square";
-  if (method == "scaled-chi2") return "chi-square scaled for estimated weights";
-  if (method == "monte-carlo") return "Monte Carlo, estimated weights";
-  return method;
-}
-
 json root_json(const Root& p) {
   json j;
   j["re"] = output::json_number(p.value.real());
@@ -235,7 +227,7 @@ json model_json(const RationalFitResult& f, double model_confidence) {
   m["chi2_lower"] = output::json_number(f.chi2_lower);
   m["chi2_upper"] = output::json_number(f.chi2_upper);
   m["cost_expected"] = output::json_number(f.cost_expected);
-  m["band_method"] = f.band_method;
+  m["band_method"] = code(f.band_method);
   m["adequate"] = f.adequate;
   m["unstable"] = f.unstable;
   // The parameter covariance carries the estimated-weights inflation, so the normal quantile
@@ -268,7 +260,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   json j;
   j["f0_hz"] = output::json_number(r.fundamental.f0_hz);
   j["f0_u_hz"] = output::json_number(r.fundamental.f0_u_hz);
-  j["f0_method"] = r.fundamental.method;
+  j["f0_method"] = code(r.fundamental.method);
   j["status"] = code(r.status);
   j["input"] = json{{"source", r.input_source}, {"channel", r.input_channel}, {"unit", r.input_unit}};
   j["output"] = json{{"source", r.output_source}, {"channel", r.output_channel}, {"unit", r.output_unit}};
@@ -279,7 +271,7 @@ nlohmann::ordered_json identify_json(const IdentifyResult& r) {
   j["harmonic_selection"] = harmonic_selection_json(r.selection);
   j["max_harmonic"] = r.frf.max_harmonic;
   j["skew_s"] = output::json_number(r.skew_s);
-  j["frf_method"] = r.frf.method;
+  j["frf_method"] = code(r.frf.method);
   j["frf_dof"] = r.frf.dof;
   j["confidence"] = output::json_number(r.frf.confidence);
   j["coverage_factor"] = output::json_number(r.frf.coverage_factor);
@@ -302,11 +294,11 @@ std::string report_head(const IdentifyResult& r) {
       {"output", r.output_source + " \"" + r.output_channel + "\"" + (r.output_unit.empty() ? "" : " [" + r.output_unit + "]")},
       {"f0", (r.fundamental.f0_u_hz > 0 ? with_u(r.fundamental.f0_hz, r.fundamental.f0_u_hz, "Hz")
                                          : sig(r.fundamental.f0_hz, 9) + " Hz") +
-                 " (" + r.fundamental.method + ")"},
+                 " (" + std::string(code(r.fundamental.method)) + ")"},
       {"grid", std::to_string(r.frf.periods) + " periods × " + std::to_string(r.samples_per_period) +
                    " samples, harmonics 1…" + std::to_string(r.frf.max_harmonic) + " (" +
                    harmonic_selection_text(r.selection) + ")"},
-      {"frf", r.frf.method + ", dof " + std::to_string(r.frf.dof) + ", " +
+      {"frf", std::string(code(r.frf.method)) + ", dof " + std::to_string(r.frf.dof) + ", " +
                   format_fixed(100 * r.frf.confidence, 0) + " % intervals with k = " +
                   format_fixed(r.frf.coverage_factor, 3) + " (" + r.frf.quantile + ")"}};
   if (r.skew_s != 0) head.push_back({"skew", format_shortest(r.skew_s) + " s (output lag removed)"});
@@ -381,7 +373,7 @@ std::string model_text(const RationalFitResult& f, double model_confidence, cons
   roots("poles", f.poles);
   roots("zeros", f.zeros);
   out += "\ncost " + sig(f.cost) + ", dof " + std::to_string(f.dof) + ", " + format_fixed(100 * model_confidence, 0) +
-         " % band [" + sig(f.chi2_lower) + ", " + sig(f.chi2_upper) + "] (" + band_text(f.band_method) +
+         " % band [" + sig(f.chi2_lower) + ", " + sig(f.chi2_upper) + "] (" + std::string(description(f.band_method)) +
          ", expected " + sig(f.cost_expected) + "): " + (f.adequate ? "adequate" : "NOT adequate") + "\n";
   return out;
 }
@@ -429,9 +421,9 @@ std::vector<std::pair<std::string, std::string>> identify_summary_rows(const Ide
   rows.emplace_back("capture", capture.format + ", " + row_number(capture.sample_rate_hz) + " Hz, " +
                                    std::to_string(capture.sample_count()) + " samples");
   rows.emplace_back("fundamental",
-                    row_with_u(r.fundamental.f0_hz, r.fundamental.f0_u_hz, "Hz") + " (" + r.fundamental.method + ")");
+                    row_with_u(r.fundamental.f0_hz, r.fundamental.f0_u_hz, "Hz") + " (" + std::string(code(r.fundamental.method)) + ")");
   rows.emplace_back("FRF", std::to_string(r.frf.points.size()) + " excited harmonics, " +
-                               std::to_string(r.frf.periods) + " periods, " + r.frf.method +
+                               std::to_string(r.frf.periods) + " periods, " + std::string(code(r.frf.method)) +
                                ", dof " + std::to_string(r.frf.dof));
   if (r.model) {
     const auto& fit = *r.model;
@@ -466,7 +458,7 @@ std::vector<std::string> identify_warnings(const IdentifyResult& r) {
       out.push_back("model " + order_text(r.model->order) + " is not adequate: cost " +
                     format_significant(r.model->cost, 4) + " outside the band [" +
                     format_significant(r.model->chi2_lower, 4) + ", " + format_significant(r.model->chi2_upper, 4) +
-                    "] for dof " + std::to_string(r.model->dof) + " (" + r.model->band_method + ")");
+                    "] for dof " + std::to_string(r.model->dof) + " (" + std::string(code(r.model->band_method)) + ")");
     else if (flag == Flag::unstable_pole)
       out.push_back("the fitted model has a pole with Re p >= 0 (unstable)");
     else if (flag == Flag::few_periods)

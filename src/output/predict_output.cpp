@@ -23,16 +23,16 @@ std::string predict_text(const PredictResult& r, std::size_t list_harmonics) {
   kv.emplace_back("method", r.method);
   kv.emplace_back("status", std::string(code(r.status)));
   kv.emplace_back("f0", g(r.f0_hz) + " Hz");
-  std::string count = std::to_string(r.harmonics) + " (" + r.harmonic_count_method;
+  std::string count = std::to_string(r.harmonics) + " (" + std::string(code(r.harmonic_count_method));
   if (std::isfinite(r.input_left_out_fraction))
     count += "; input energy left out " + format_significant(r.input_left_out_fraction, 3) + " of the total";
   kv.emplace_back("harmonics used", count + ")");
   if (std::isfinite(r.output_tail_estimate))
     kv.emplace_back("output tail",
-                    r.output_tail_method == "none"
+                    r.output_tail_method == TailMethod::none
                         ? std::string("0 (the input's series ends at N)")
                         : format_significant(r.output_tail_estimate, 3) + " (sum of |Y_n| over n > N: " +
-                              r.output_tail_method + ", explicit to n = " + std::to_string(r.tail_checked_to) + ")");
+                              std::string(code(r.output_tail_method)) + ", explicit to n = " + std::to_string(r.tail_checked_to) + ")");
   else
     kv.emplace_back("output tail", "unknown (no model or closed form beyond the harmonics used)");
   kv.emplace_back("dc", with_u(r.dc, r.dc_u));
@@ -109,11 +109,11 @@ nlohmann::ordered_json predict_json(const PredictResult& r) {
   j["method"] = r.method;
   j["f0_hz"] = r.f0_hz;
   j["harmonics_used"] = r.harmonics;
-  j["harmonic_count_method"] = r.harmonic_count_method;
+  j["harmonic_count_method"] = code(r.harmonic_count_method);
   j["input_left_out_fraction"] = output::json_number(r.input_left_out_fraction);
   j["output_tail_estimate"] = output::json_number(r.output_tail_estimate);
   j["tail_checked_to"] = r.tail_checked_to;
-  j["output_tail_method"] = r.output_tail_method;
+  j["output_tail_method"] = code(r.output_tail_method);
   j["has_uncertainty"] = r.has_uncertainty;
   j["uncertainty_sources"] = r.uncertainty_sources;
   j["dc"] = r.dc;

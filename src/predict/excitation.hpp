@@ -47,6 +47,7 @@
 #include <utility>
 #include <vector>
 
+#include "core/flags.hpp"
 #include "dsp/waveforms.hpp"
 
 namespace periodfit::predict {
@@ -107,7 +108,7 @@ struct ExcitedHarmonic {
 };
 
 struct ExciteResult {
-  std::string status = "ok";
+  Status status = Status::ok;     ///< always ok (impossible options throw OptionError)
   std::string method;             ///< "multisine, schroeder phases", "square wave, exact samples", …
   std::string signal;
   double f0_requested_hz = 0, f0_hz = 0;

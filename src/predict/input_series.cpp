@@ -41,7 +41,7 @@ dsp::SeriesTruncation series_from_measurement(double f0_hz, double dc,
   s.series.phasors.insert(s.series.phasors.end(), phasors.begin(), phasors.end());
   s.harmonics = static_cast<int>(phasors.size());
   s.left_out_fraction = std::numeric_limits<double>::quiet_NaN();
-  s.method = "measured";
+  s.method = dsp::SeriesCount::measured;
   return s;
 }
 

@@ -124,12 +124,32 @@ struct PredictedHarmonic {
   std::string source;            ///< "model" or "measured"
 };
 
+/// How output_tail_estimate was found: none (the input series ends at N: no tail), summed
+/// (capped look-ahead), summed_extrapolated, summed_diverges (|Y_n| falls as 1/n or slower: only
+/// the explicit part), or unknown (no model or closed form beyond N). Its code ("none",
+/// "summed", "summed+extrapolated", "summed (diverges)", "unknown": steady-state's
+/// output_tail_method) through code() only.
+enum class TailMethod { unknown, none, summed, summed_extrapolated, summed_diverges };
+
+inline std::string_view code(TailMethod method) {
+  switch (method) {
+    case TailMethod::unknown: return "unknown";
+    case TailMethod::none: return "none";
+    case TailMethod::summed: return "summed";
+    case TailMethod::summed_extrapolated: return "summed+extrapolated";
+    case TailMethod::summed_diverges: return "summed (diverges)";
+  }
+  return "unknown";
+}
+
 struct PredictResult {
   Status status = Status::ok;    ///< ok or truncation_visible (see the header comment)
-  std::string method;            ///< "superposition (model)", "… (measured FRF)", "… (measured FRF + model)"
+  /// "superposition (model)", "… (measured FRF)", "… (measured FRF + model)": a description,
+  /// not a decision (nothing compares it)
+  std::string method;
   double f0_hz = 0;
   int harmonics = 0;             ///< N, input harmonics used
-  std::string harmonic_count_method;  ///< "given", "automatic", "complete", "measured"
+  dsp::SeriesCount harmonic_count_method = dsp::SeriesCount::given;  ///< the input series' count rule
   /// Input ac energy left out by the truncation / total (NaN when unknown, e.g. a capture).
   double input_left_out_fraction = 0;
   /// Σ|H(jnω0)·X_n| over n > N: summed explicitly up to tail_checked_to (4N), the rest
@@ -137,9 +157,7 @@ struct PredictResult {
   /// closed form beyond N).
   double output_tail_estimate = 0;
   int tail_checked_to = 0;
-  /// "none" (the series ends at N), "summed+extrapolated", "summed (diverges)" (|Y_n| falls as
-  /// 1/n or slower: only the explicit part), "summed" (capped look-ahead), or "unknown".
-  std::string output_tail_method = "unknown";
+  TailMethod output_tail_method = TailMethod::unknown;
   bool has_uncertainty = false;  ///< a covariance (model, measured or input) was propagated
   /// What the u's include: "model covariance", "measured FRF covariance", "input harmonics"
   /// (empty when has_uncertainty is false)

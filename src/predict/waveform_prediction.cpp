@@ -38,12 +38,12 @@ bool estimate_tail(const dsp::WaveSpec& wave, int n0, const ident::RationalModel
   }
   double tail = s1 + s2;
   const double q = s1 > 0 ? s2 / s1 : 0;
-  r.output_tail_method = "summed";
+  r.output_tail_method = TailMethod::summed;
   if (q >= kTailDivergentRatio) {
-    r.output_tail_method = "summed (diverges)";
+    r.output_tail_method = TailMethod::summed_diverges;
   } else if (n_end == n0 + (kTailFactor - 1) * n0) {
     tail += s2 * q / (1 - q);
-    r.output_tail_method = "summed+extrapolated";
+    r.output_tail_method = TailMethod::summed_extrapolated;
   }
   r.output_tail_estimate = tail;
   r.tail_checked_to = n_end;
@@ -87,9 +87,9 @@ PredictResult predict_steady_state(const dsp::WaveSpec& wave, const PredictSyste
   const ident::RationalModel* model =
       system.model && !system.model->den.empty() ? &*system.model : nullptr;
   bool tail_diverges = false;
-  if (input.method == "complete") {
+  if (input.method == dsp::SeriesCount::complete) {
     r.output_tail_estimate = 0;
-    r.output_tail_method = "none";
+    r.output_tail_method = TailMethod::none;
     r.tail_checked_to = input.harmonics;
   } else if (model) {
     tail_diverges = estimate_tail(wave, input.harmonics, *model, r);

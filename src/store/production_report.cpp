@@ -29,6 +29,11 @@ std::string ci_text(double value, double lo, double hi, double level) {
   return num(value, 3) + " (" + format_shortest(level * 100) + " %: " + num(lo, 3) + " … " + num(hi, 3) + ")";
 }
 
+// An index with its interval where the capability is defined, else the status's code saying why not.
+std::string index_text(const Capability& c, double value, double lo, double hi) {
+  return c.status == StatisticStatus::ok ? ci_text(value, lo, hi, c.confidence) : std::string(code(c.status));
+}
+
 std::string selection_text(const ProductionQuery& q) {
   std::string s;
   const auto add = [&](const char* name, const std::string& v) {
@@ -87,12 +92,12 @@ std::string production_text(const ProductionReport& r) {
       }
       t.add_row({terminal_text(s.key, false), terminal_text(s.allowed, false), std::to_string(c.n),
                  std::to_string(s.failed), num(c.mean), num(c.sd, 3),
-                 c.status == "ok" ? ci_text(c.cp, c.cp_lo, c.cp_hi, c.confidence) : c.status,
-                 c.status == "ok" ? ci_text(c.cpk, c.cpk_lo, c.cpk_hi, c.confidence) : c.status, signals});
+                 index_text(c, c.cp, c.cp_lo, c.cp_hi),
+                 index_text(c, c.cpk, c.cpk_lo, c.cpk_hi), signals});
     }
     out += "\n" + t.render();
     for (const auto& s : r.limits) {
-      if (s.chart.status != "ok") continue;
+      if (s.chart.status != StatisticStatus::ok) continue;
       out += "\n" + terminal_text(s.key, false) + ": individuals chart centre " + num(s.chart.centre) +
              ", limits " + num(s.chart.lcl) + " … " + num(s.chart.ucl) + ", MR̄ " + num(s.chart.mr_bar) +
              " (MR UCL " + num(s.chart.mr_ucl) + ")\n";
@@ -143,7 +148,7 @@ std::string production_csv(const ProductionReport& r) {
            "," + std::to_string(s.tests) + "," + std::to_string(s.failed) + "," + std::to_string(c.n) + "," +
            csv_num(c.mean) + "," + csv_num(c.sd) + "," + csv_num(c.min) + "," + csv_num(c.max) + "," + csv_num(c.cp) +
            "," + csv_num(c.cp_lo) + "," + csv_num(c.cp_hi) + "," + csv_num(c.cpk) + "," + csv_num(c.cpk_lo) + "," +
-           csv_num(c.cpk_hi) + "," + csv_num(c.confidence) + "," + c.status + "," + csv_num(s.chart.centre) + "," +
+           csv_num(c.cpk_hi) + "," + csv_num(c.confidence) + "," + std::string(code(c.status)) + "," + csv_num(s.chart.centre) + "," +
            csv_num(s.chart.ucl) + "," + csv_num(s.chart.lcl) + "," + csv_num(s.chart.mr_bar) + "," +
            csv_num(s.chart.mr_ucl) + "," + std::to_string(s.chart.signals.size()) + "\n";
   }
@@ -170,7 +175,7 @@ std::string production_json(const ProductionReport& r) {
     l["usl"] = json_num(s.usl);
     l["tests"] = s.tests;
     l["failed"] = s.failed;
-    l["capability"] = {{"status", c.status}, {"n", c.n}, {"mean", json_num(c.mean)}, {"sd", json_num(c.sd)},
+    l["capability"] = {{"status", code(c.status)}, {"n", c.n}, {"mean", json_num(c.mean)}, {"sd", json_num(c.sd)},
                        {"min", json_num(c.min)}, {"max", json_num(c.max)}, {"cp", json_num(c.cp)},
                        {"cp_lo", json_num(c.cp_lo)}, {"cp_hi", json_num(c.cp_hi)}, {"cpk", json_num(c.cpk)},
                        {"cpk_lo", json_num(c.cpk_lo)}, {"cpk_hi", json_num(c.cpk_hi)},
@@ -181,7 +186,7 @@ std::string production_json(const ProductionReport& r) {
                         {"mr", json_num(s.chart.mr[i])}});
     json signals = json::array();
     for (const auto& g : s.chart.signals) signals.push_back({{"rule", g.rule}, {"point", g.index + 1}, {"text", g.text}});
-    l["chart"] = {{"status", s.chart.status}, {"centre", json_num(s.chart.centre)}, {"ucl", json_num(s.chart.ucl)},
+    l["chart"] = {{"status", code(s.chart.status)}, {"centre", json_num(s.chart.centre)}, {"ucl", json_num(s.chart.ucl)},
                   {"lcl", json_num(s.chart.lcl)}, {"mr_bar", json_num(s.chart.mr_bar)},
                   {"mr_ucl", json_num(s.chart.mr_ucl)}, {"sigma", json_num(s.chart.sigma)},
                   {"points", std::move(points)}, {"signals", std::move(signals)}};
@@ -329,8 +334,8 @@ std::string production_html(const ProductionReport& r) {
            std::to_string(c.n) + "</td><td class=\"num" + std::string(s.failed ? " fail" : "") + "\">" +
            std::to_string(s.failed) + "</td><td class=\"num\">" + num(c.mean) + "</td><td class=\"num\">" +
            num(c.sd, 3) + "</td><td>" +
-           xml_escape(c.status == "ok" ? ci_text(c.cp, c.cp_lo, c.cp_hi, c.confidence) : c.status) + "</td><td>" +
-           xml_escape(c.status == "ok" ? ci_text(c.cpk, c.cpk_lo, c.cpk_hi, c.confidence) : c.status) + "</td><td>" +
+           xml_escape(index_text(c, c.cp, c.cp_lo, c.cp_hi)) + "</td><td>" +
+           xml_escape(index_text(c, c.cpk, c.cpk_lo, c.cpk_hi)) + "</td><td>" +
            std::to_string(s.chart.signals.size()) + "</td></tr>\n";
     }
     h += "</table>\n<p>Cp and Cpk per NIST/SEMATECH e-Handbook §6.1.6; Cp interval from the χ² distribution, Cpk "
@@ -346,7 +351,7 @@ std::string production_html(const ProductionReport& r) {
       continue;
     }
     h += report::render_svg(histogram(s, "h" + std::to_string(k)));
-    if (s.chart.status == "ok") {
+    if (s.chart.status == StatisticStatus::ok) {
       h += report::render_svg(control_chart(s, "c" + std::to_string(k)));
       h += report::render_svg(trend(s, "t" + std::to_string(k)));
       if (!s.chart.signals.empty()) {

@@ -16,6 +16,16 @@ void CapabilityOptions::validate() const {
     throw OptionError("confidence", format_shortest(confidence), "must be in (0, 1)");
 }
 
+std::string_view code(StatisticStatus status) {
+  switch (status) {
+    case StatisticStatus::ok: return "ok";
+    case StatisticStatus::too_few_values: return "too few values";
+    case StatisticStatus::no_spread: return "no spread";
+    case StatisticStatus::no_limits: return "no limits";
+  }
+  return "ok";
+}
+
 Capability capability(const std::vector<double>& values, double lsl, double usl, const CapabilityOptions& options) {
   options.validate();
   Capability c;
@@ -24,14 +34,14 @@ Capability capability(const std::vector<double>& values, double lsl, double usl,
   c.usl = usl;
   c.confidence = options.confidence;
   if (c.n == 0) {
-    c.status = "too few values";
+    c.status = StatisticStatus::too_few_values;
     return c;
   }
   c.mean = std::accumulate(values.begin(), values.end(), 0.0) / static_cast<double>(c.n);
   c.min = *std::min_element(values.begin(), values.end());
   c.max = *std::max_element(values.begin(), values.end());
   if (c.n < 2) {
-    c.status = "too few values";
+    c.status = StatisticStatus::too_few_values;
     return c;
   }
   double ss = 0;
@@ -39,11 +49,11 @@ Capability capability(const std::vector<double>& values, double lsl, double usl,
   const double nu = static_cast<double>(c.n - 1);
   c.sd = std::sqrt(ss / nu);
   if (!std::isfinite(lsl) && !std::isfinite(usl)) {
-    c.status = "no limits";
+    c.status = StatisticStatus::no_limits;
     return c;
   }
   if (!(c.sd > 0)) {
-    c.status = "no spread";
+    c.status = StatisticStatus::no_spread;
     return c;
   }
   const double alpha = 1 - options.confidence;
@@ -69,7 +79,7 @@ ControlChart individuals_chart(const std::vector<double>& values) {
   ch.x = values;
   ch.mr.assign(values.size(), ControlChart::nan);
   if (values.size() < 2) {
-    ch.status = "too few values";
+    ch.status = StatisticStatus::too_few_values;
     return ch;
   }
   ch.centre = std::accumulate(values.begin(), values.end(), 0.0) / static_cast<double>(values.size());

@@ -31,6 +31,7 @@
 #include <cstddef>
 #include <limits>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace periodfit::store {
@@ -39,6 +40,14 @@ inline constexpr double kD2 = 1.128;   ///< d2 for subgroups of 2 (moving range 
 inline constexpr double kD4 = 3.267;   ///< D4 for subgroups of 2
 inline constexpr double kE2 = 2.66;    ///< E2 = 3/d2 as published for individuals charts
 
+/// Whether a capability or a control chart is defined for the values given (a chart is ok or
+/// too_few_values). Written as its code ("too few values") through code() only; the report
+/// prints the code in place of an index that is not defined (docs/results-db.md).
+enum class StatisticStatus { ok, too_few_values, no_spread, no_limits };
+
+/// "ok", "too few values", "no spread", "no limits".
+std::string_view code(StatisticStatus status);
+
 struct CapabilityOptions {
   double confidence = 0.95;  ///< two-sided confidence level of the intervals, in (0, 1)
   void validate() const;     ///< throws OptionError
@@ -46,13 +55,14 @@ struct CapabilityOptions {
 
 struct Capability {
   static constexpr double nan = std::numeric_limits<double>::quiet_NaN();
-  std::string status = "ok";  ///< "ok", "too few values", "no spread", "no limits"
+  StatisticStatus status = StatisticStatus::ok;  ///< any of the four
   std::size_t n = 0;
   double mean = nan, sd = nan, min = nan, max = nan;
   double lsl = -std::numeric_limits<double>::infinity(), usl = std::numeric_limits<double>::infinity();
   double cp = nan, cp_lo = nan, cp_hi = nan;     ///< NaN unless both limits are finite
   double cpk = nan, cpk_lo = nan, cpk_hi = nan;
   double confidence = 0.95;
+  /// A description (the sources), not a decision: nothing compares it.
   std::string method = "NIST/SEMATECH 6.1.6; Cp CI chi-square; Cpk CI Bissell (1990)";
 };
 
@@ -68,7 +78,7 @@ struct RuleSignal {
 
 struct ControlChart {
   static constexpr double nan = std::numeric_limits<double>::quiet_NaN();
-  std::string status = "ok";  ///< "ok", "too few values" (< 2)
+  StatisticStatus status = StatisticStatus::ok;  ///< ok, or too_few_values (< 2)
   double centre = nan, mr_bar = nan, sigma = nan;
   double ucl = nan, lcl = nan, mr_ucl = nan;
   std::vector<double> x;          ///< the values, in time order
