@@ -93,9 +93,7 @@ json file_record(const FileResult& r, const report::ReportRow& row, const std::s
 }
 
 report::FileStatus status_from(const std::string& text) {
-  if (text == "PASS") return report::FileStatus::pass;
-  if (text == "FAIL") return report::FileStatus::fail;
-  if (text == "ERROR") return report::FileStatus::error;
+  if (const auto status = report::file_status_from(text)) return *status;
   throw std::invalid_argument("unknown status " + text);
 }
 

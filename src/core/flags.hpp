@@ -16,6 +16,15 @@
 /// code is spelled. analyze-mode batch rows prefix the channel ("v_out: clipped"), which
 /// flag_code() strips.
 ///
+/// The other things code decides on are enums too, each written as its text through one code()
+/// in the header of the stage that owns it: how f0 was found and which rule set the harmonic
+/// count (dsp/period_lock.hpp), the magnitude interval's method (dsp/magnitude_interval.hpp),
+/// a series' count rule (dsp/waveforms.hpp), the FRF's noise method (ident/frf.hpp), the cost
+/// band's method (ident/rational_fit.hpp), the output-tail method (predict/superposition.hpp),
+/// the production statistics' status (store/production_stats.hpp) and a batch file's PASS /
+/// FAIL / ERROR (report/html_report.hpp). Strings that stay strings are descriptions nothing
+/// compares (a fit's "levy+sk(12)+ml-lm(7)", an excitation's "multisine, schroeder phases").
+///
 /// Usage:
 ///   if (const FlagInfo* f = find_flag(flag_code(text)); f && f->severity == FlagSeverity::invalidates) …
 #include <string>

@@ -80,6 +80,12 @@ const char* status_text(FileStatus status) {
   return "ERROR";
 }
 
+std::optional<FileStatus> file_status_from(std::string_view text) {
+  for (FileStatus s : {FileStatus::pass, FileStatus::fail, FileStatus::error})
+    if (text == status_text(s)) return s;
+  return std::nullopt;
+}
+
 ReportRow report_row(const ReportFile& file) {
   ReportRow row;
   row.path = file.path;

@@ -20,6 +20,7 @@
 ///                     [&](std::string_view bytes) { out.write(bytes); });
 #include <cstddef>
 #include <functional>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <utility>
@@ -33,6 +34,10 @@ enum class FileStatus { pass, fail, error };
 
 /// "PASS", "FAIL", "ERROR".
 const char* status_text(FileStatus status);
+
+/// The status whose status_text is `text`, or nullopt: the reverse of status_text, for statuses
+/// read back from a shard file or the results database (a foreign row may hold other text).
+std::optional<FileStatus> file_status_from(std::string_view text);
 
 /// One limit as shown in a file's section.
 struct ReportLimit {

@@ -4,6 +4,7 @@
 #include <map>
 
 #include "core/error.hpp"
+#include "report/html_report.hpp"
 #include "store/schema.hpp"
 
 namespace periodfit::store {
@@ -71,8 +72,9 @@ void count_captures(Connection& db, const Filter& f, ProductionReport& r) {
                                    f.params)) {
     const auto n = static_cast<std::size_t>(std::stoll(text(row[1])));
     r.captures += n;
-    const std::string status = text(row[0]);
-    (status == "PASS" ? r.passed : status == "FAIL" ? r.failed : r.errors) += n;
+    // A status other than PASS and FAIL (ERROR, or text a foreign row holds) counts as an error.
+    const auto status = report::file_status_from(text(row[0]));
+    (status == report::FileStatus::pass ? r.passed : status == report::FileStatus::fail ? r.failed : r.errors) += n;
     if (r.first_test.empty() || text(row[2]) < r.first_test) r.first_test = text(row[2]);
     if (text(row[3]) > r.last_test) r.last_test = text(row[3]);
   }

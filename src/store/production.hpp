@@ -46,6 +46,7 @@ struct LimitStats {
 };
 
 struct BoardTest {
+  /// status: as the database holds it ("PASS", "FAIL", "ERROR"; report::file_status_from reads it)
   std::string tested_at, path, status, lot, station, fixture, operator_name;
   std::int64_t run_id = 0;
   struct Verdict {

@@ -9,6 +9,7 @@
 #include "output/json_writer.hpp"
 #include "core/number_format.hpp"
 #include "report/cross_board.hpp"
+#include "report/html_report.hpp"
 #include "core/safe_text.hpp"
 #include "report/svg_plot.hpp"
 #include "core/table.hpp"
@@ -373,7 +374,7 @@ std::string production_html(const ProductionReport& r) {
       for (const auto& v : t.verdicts)
         limits += "<span" + std::string(v.passed ? "" : " class=\"fail\"") + ">" + xml_escape(v.key) + " = " +
                   num(v.value) + "</span><br>";
-      h += "<tr><td>" + xml_escape(t.tested_at) + "</td><td" + (t.status == "PASS" ? "" : " class=\"fail\"") + ">" +
+      h += "<tr><td>" + xml_escape(t.tested_at) + "</td><td" + (report::file_status_from(t.status) == report::FileStatus::pass ? "" : " class=\"fail\"") + ">" +
            xml_escape(t.status) + "</td><td>" + xml_escape(t.lot) + "</td><td>" + xml_escape(t.station) + "</td><td>" +
            limits + "</td><td>" + xml_escape(t.path) + "</td></tr>\n";
     }
