@@ -21,6 +21,7 @@
 #include "report/svg_plot.hpp"
 #include "support/cli_runner.hpp"
 #include "support/lowpass_bode.hpp"
+#include "support/code_table.hpp"
 
 using namespace periodfit;
 using namespace periodfit::report;
@@ -187,4 +188,16 @@ TEST_CASE("html report: the cross-board view has a column per limit coloured by 
   CHECK(count("<svg") == 2);
   CHECK(html.find("every board") != std::string::npos);
   CHECK(report::render_cross_board({}, {}).empty());
+}
+
+TEST_CASE("html report: each file status has its own text, docs/batch-output.md lists them, and it reads back") {
+  const auto c = test::codes_of(FileStatus::error, [](FileStatus s) { return std::string(status_text(s)); });
+  CHECK(test::distinct(c));
+  test::check_documented(c, "batch-output.md", "| `status` |", "`", "`");
+  for (FileStatus s : {FileStatus::pass, FileStatus::fail, FileStatus::error}) {
+    CAPTURE(status_text(s));
+    CHECK(file_status_from(status_text(s)) == s);
+  }
+  CHECK(!file_status_from("pass").has_value());  // the database's text is compared exactly
+  CHECK(!file_status_from("").has_value());
 }

@@ -107,7 +107,9 @@ struct ChannelAnalysis {
   double noise_rms = 0;         ///< √(noise power): residual, unbiased (dof-corrected)
   double noise_floor = 0;       ///< 2·noise_rms/√N: a noise-only line's RMS amplitude (peak scale)
   double noise_floor_dbc = 0;   ///< noise_floor relative to the fundamental, dB
-  std::string noise_method;     ///< "per-period", "noise-bins" or "fit-residual" [+ " + one-period floor"]
+  /// "per-period", "noise-bins" or "fit-residual" [+ " + one-period floor"]: a description for
+  /// the outputs, not a decision (nothing compares it)
+  std::string noise_method;
   int noise_dof = 0;            ///< degrees of freedom of the noise estimate behind the u's (0 = normal)
   /// Pooled period-to-period scatter variance over the residual variance (≈ 0.9 for white
   /// noise; ≈ 0 when the periods repeat exactly: flag "identical-periods"); 1 when not measured

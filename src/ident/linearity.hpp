@@ -57,7 +57,7 @@ struct LinearityResult {
   LinearityStatus status = LinearityStatus::untested;  ///< untested: no harmonic left free
   std::string reason;        ///< why "untested", in words; "" otherwise
   bool nonlinear = false;
-  std::string method = "F-test at unexcited harmonics (Bonferroni)";
+  std::string method = "F-test at unexcited harmonics (Bonferroni)";  ///< a description, not a decision
   int tested = 0;            ///< unexcited harmonics examined (m)
   int dof = 0;               ///< ν of the noise floor
   double threshold_db = 0;   ///< detection threshold above the floor, 10·log10 F quantile

@@ -55,7 +55,7 @@ struct SystemExpressionResult {
   RationalModel model;  ///< num, den (monic, a_N = 1); delay 0, no covariance
   /// The named constants in definition order with their values (pi not included).
   std::vector<std::pair<std::string, double>> constants;
-  std::string method = "recursive descent into exact polynomial-ratio arithmetic";
+  std::string method = "recursive descent into exact polynomial-ratio arithmetic";  ///< a description
 };
 
 /// A malformed expression: what() reads `<source>: <what was expected> at column N`.

@@ -109,7 +109,8 @@ struct ExcitedHarmonic {
 
 struct ExciteResult {
   Status status = Status::ok;     ///< always ok (impossible options throw OptionError)
-  std::string method;             ///< "multisine, schroeder phases", "square wave, exact samples", …
+  /// "multisine, schroeder phases", "square wave, exact samples", …: a description, not a decision
+  std::string method;
   std::string signal;
   double f0_requested_hz = 0, f0_hz = 0;
   double rate_requested_hz = 0, rate_hz = 0;
